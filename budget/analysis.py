@@ -1,0 +1,47 @@
+"""One evaluation of a model: the GUM budget and its Monte Carlo cross-check together.
+
+This is the pipeline of ``budget run``: ``propagate`` (JCGM 100) then, unless the number
+of trials is 0, ``simulate`` (JCGM 101) validating the GUM result (JCGM 101 8.2).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+from .gum import Budget, propagate
+from .model import Model
+from .montecarlo import Simulation, simulate
+
+__all__ = ["Result", "evaluate"]
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Result:
+    model: Model
+    budget: Budget
+    simulation: Simulation | None
+    digits: int
+
+    @property
+    def warnings(self) -> tuple[str, ...]:
+        extra = self.simulation.warnings if self.simulation else ()
+        return tuple(dict.fromkeys(self.budget.warnings + extra))
+
+
+def evaluate(model: Model, *, coverage: float | None = None, trials: int | None = None,
+             adaptive: bool = False, seed: int | None = None, digits: int | None = None,
+             second_order: bool = False, workers: int | None = None,
+             progress: Callable[[int, int], None] | None = None) -> Result:
+    """GUM budget and (unless ``trials == 0``) the Monte Carlo cross-check of ``model``."""
+    coverage = model.settings.coverage if coverage is None else coverage
+    digits = model.settings.digits if digits is None else digits
+    budget = propagate(model, coverage, second_order=second_order)
+    if trials is None and not adaptive and model.settings.trials == 0:
+        trials = 0
+    simulation = None
+    if adaptive or trials != 0:
+        simulation = simulate(model, budget, trials=None if adaptive else trials,
+                              adaptive=adaptive, seed=seed, coverage=coverage,
+                              digits=digits, workers=workers, progress=progress)
+    return Result(model=model, budget=budget, simulation=simulation, digits=digits)

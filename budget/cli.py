@@ -1,0 +1,151 @@
+"""The ``budget`` command: a thin shell over the Python API.
+
+Exit status: 0 success; 1 a model or input error (one ``error:`` line naming the file and
+where in it, no traceback); 2 a bad command line (click's usage errors). Warnings go to
+standard error as ``warning:`` lines. The engine is imported inside the commands, so
+``budget --help`` starts without loading sympy, scipy, pint or pandas.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import time
+from typing import Any, Callable
+
+import click
+
+__all__ = ["main"]
+
+_COVERAGE = click.FloatRange(0.0, 1.0, min_open=True, max_open=True)
+
+
+def _fail(error: Exception) -> None:
+    click.echo(f"error: {error}", err=True)
+    sys.exit(1)
+
+
+def _warn(warnings: Any) -> None:
+    for line in warnings:
+        click.echo(f"warning: {line}", err=True)
+
+
+class _Progress:
+    """A one-line progress indication on a terminal, shown only after about a second."""
+
+    def __init__(self, enabled: bool) -> None:
+        self.enabled = enabled and sys.stderr.isatty()
+        self.start = time.monotonic()
+        self.done = 0
+        self.shown = False
+
+    def __call__(self, done: int, total: int) -> None:
+        self.done = max(self.done, 0) + done if done < total else done
+        if not self.enabled or time.monotonic() - self.start < 1.0:
+            return
+        share = min(1.0, self.done / max(total, 1))
+        sys.stderr.write(f"\rMonte Carlo {100 * share:5.1f} % of {total:,} trials ")
+        sys.stderr.flush()
+        self.shown = True
+
+    def close(self) -> None:
+        if self.shown:
+            sys.stderr.write("\r" + " " * 60 + "\r")
+            sys.stderr.flush()
+
+
+def _common(function: Callable[..., Any]) -> Callable[..., Any]:
+    options = [
+        click.option("--trials", type=click.IntRange(min=0), default=None,
+                     help="Monte Carlo trials (0 = none)."),
+        click.option("--adaptive", is_flag=True,
+                     help="JCGM 101 7.9 adaptive procedure instead of a fixed number."),
+        click.option("--seed", type=click.IntRange(min=0), default=None, help="Random seed."),
+        click.option("--coverage", type=_COVERAGE, default=None,
+                     help="Coverage probability, e.g. 0.95 or 0.99."),
+        click.option("--digits", type=click.IntRange(1, 6), default=None,
+                     help="Significant digits of the reported uncertainty."),
+        click.option("--json", "as_json", is_flag=True,
+                     help="Print the JSON result document instead of the table."),
+    ]
+    for option in reversed(options):
+        function = option(function)
+    return function
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(package_name="budget", prog_name="budget")
+def main() -> None:
+    """Measurement-uncertainty budgets to the GUM, cross-checked by Monte Carlo."""
+
+
+@main.command()
+@click.argument("model_file", metavar="MODEL.toml")
+@_common
+@click.option("--html", "html_file", metavar="FILE", default=None,
+              help="Also write the self-contained HTML report to FILE.")
+@click.option("--second-order", is_flag=True,
+              help="Add the GUM 5.1.2 higher-order terms (uncorrelated inputs).")
+def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
+        coverage: float | None, digits: int | None, as_json: bool, html_file: str | None,
+        second_order: bool) -> None:
+    """Evaluate MODEL.toml: GUM budget and Monte Carlo cross-check."""
+    from .errors import BudgetError
+
+    progress = _Progress(not as_json)
+    try:
+        result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
+                           second_order, progress)
+        progress.close()
+        if html_file:
+            from .report import write_report
+
+            write_report(result, html_file)
+    except BudgetError as error:
+        progress.close()
+        _fail(error)
+    _print_result(result, as_json)
+
+
+def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
+              coverage: float | None, digits: int | None, second_order: bool,
+              progress: _Progress) -> Any:
+    from .analysis import evaluate
+    from .model import load_model
+
+    model = load_model(model_file)
+    return evaluate(model, coverage=coverage, trials=trials, adaptive=adaptive, seed=seed,
+                    digits=digits, second_order=second_order, progress=progress)
+
+
+def _print_result(result: Any, as_json: bool) -> None:
+    if as_json:
+        from .document import result_document
+
+        click.echo(json.dumps(result_document(result), indent=2, allow_nan=False))
+    else:
+        from .table import render
+
+        click.echo(render(result))
+    _warn(result.warnings)
+
+
+@main.command()
+@click.argument("model_file", metavar="MODEL.toml")
+def check(model_file: str) -> None:
+    """Validate MODEL.toml (syntax, names, units, distributions, correlations)."""
+    from .errors import BudgetError
+    from .model import load_model
+
+    try:
+        model = load_model(model_file)
+    except BudgetError as error:
+        _fail(error)
+    click.echo(f"ok: {model_file}: {len(model.inputs)} inputs, {len(model.measurands)} "
+               f"measurand(s), {len(model.definitions)} definition(s), "
+               f"{len(model.correlations)} correlation(s)")
+    _warn(model.warnings)
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

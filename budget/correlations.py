@@ -1,0 +1,97 @@
+"""Correlation coefficients r(x_i, x_j) between input estimates (GUM 5.2).
+
+Method: the pairs of ``[[correlations]]`` fill a symmetric matrix with unit diagonal.
+A correlation matrix must be positive semi-definite (every variance of a linear
+combination of the inputs is ≥ 0); one that is not is refused with the pairs that make
+it so. Nothing is repaired: clipping eigenvalues would change the user's statement.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Callable, Sequence
+
+import numpy as np
+
+from .errors import InputError, Location, did_you_mean
+
+__all__ = ["read", "matrix"]
+
+_KEYS = ("between", "r")
+
+
+def read(entries: Any, names: Sequence[str],
+         where: Callable[..., Location]) -> tuple[tuple[str, str, float], ...]:
+    """Checked ``(a, b, r)`` triples from the ``[[correlations]]`` tables."""
+    if not isinstance(entries, list):
+        raise InputError("expected [[correlations]] tables, found a single value",
+                         where(None, "correlations"))
+    pairs: list[tuple[str, str, float]] = []
+    seen: set[frozenset[str]] = set()
+    for index, entry in enumerate(entries):
+        here = lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
+        pair = _one(entry, names, here, index)
+        key = frozenset(pair[:2])
+        if key in seen:
+            raise InputError(f"expected each pair once, found {pair[0]} and {pair[1]} again "
+                             f"in correlation {index + 1}", here("between"))
+        seen.add(key)
+        pairs.append(pair)
+    _check_definite(names, pairs, where(None, "correlations"))
+    return tuple(pairs)
+
+
+def _one(entry: Any, names: Sequence[str], here: Callable[..., Location],
+         index: int) -> tuple[str, str, float]:
+    if not isinstance(entry, dict):
+        raise InputError(f"expected a table in correlation {index + 1}, found {entry!r}",
+                         here())
+    for key in entry:
+        if key not in _KEYS:
+            raise InputError(f"unknown key '{key}'{did_you_mean(key, _KEYS)} in correlation "
+                             f"{index + 1}; expected between and r", here(key))
+    between = entry.get("between")
+    if (not isinstance(between, list) or len(between) != 2
+            or not all(isinstance(n, str) for n in between)):
+        raise InputError(f"expected between = [\"name\", \"name\"] in correlation "
+                         f"{index + 1}, found {between!r}", here("between"))
+    for name in between:
+        if name not in names:
+            raise InputError(f"unknown input '{name}' in correlation {index + 1}"
+                             f"{did_you_mean(name, names)}", here("between"))
+    if between[0] == between[1]:
+        raise InputError(f"expected two different inputs in correlation {index + 1}, found "
+                         f"'{between[0]}' twice", here("between"))
+    r = entry.get("r")
+    if isinstance(r, bool) or not isinstance(r, (int, float)) or not math.isfinite(r):
+        raise InputError(f"expected a number r in [-1, 1] in correlation {index + 1}, found "
+                         f"{r!r}", here("r" if "r" in entry else None))
+    if not -1.0 <= r <= 1.0:
+        raise InputError(f"expected r in [-1, 1] in correlation {index + 1}, found {r:g}",
+                         here("r"))
+    return between[0], between[1], float(r)
+
+
+def matrix(names: Sequence[str], pairs: Sequence[tuple[str, str, float]]) -> np.ndarray:
+    index = {name: i for i, name in enumerate(names)}
+    result = np.eye(len(names))
+    for a, b, r in pairs:
+        result[index[a], index[b]] = result[index[b], index[a]] = r
+    return result
+
+
+def _check_definite(names: Sequence[str], pairs: Sequence[tuple[str, str, float]],
+                    where: Location) -> None:
+    if not pairs:
+        return
+    involved = sorted({n for a, b, _ in pairs for n in (a, b)}, key=list(names).index)
+    sub = matrix(involved, pairs)
+    values, vectors = np.linalg.eigh(sub)
+    if values[0] >= -1e-10:
+        return
+    weight = np.abs(vectors[:, 0])
+    culprits = {involved[i] for i in np.flatnonzero(weight > 0.1 * weight.max())}
+    named = [f"{a}-{b} ({r:g})" for a, b, r in pairs if a in culprits and b in culprits]
+    raise InputError(f"expected a positive semi-definite correlation matrix, found the "
+                     f"smallest eigenvalue {values[0]:.3g}; the pairs {', '.join(named)} "
+                     f"cannot hold together", where)

@@ -1,0 +1,289 @@
+"""Probability distributions of input quantities: standard uncertainty and sampling.
+
+Method: each class states one distribution of JCGM 101 clause 6.4 by its location (the
+estimate x_i) and its shape, gives the standard uncertainty that the GUM law of
+propagation uses (GUM 4.3.7-4.3.9), and draws M values as one float64 array (JCGM 101
+6.4 sampling rules; never one value at a time). ``ppf`` is the inverse distribution
+function, used to impose correlation on non-Gaussian inputs through a Gaussian copula;
+a distribution without a closed form returns ``None`` from ``has_ppf``.
+
+For the scaled-and-shifted t distribution (JCGM 101 6.4.9) the GUM standard uncertainty
+is the *scale* (s/√n for n observations, U/k for a certificate with ν degrees of
+freedom), whereas its standard deviation is scale·√(ν/(ν−2)): the two methods are meant
+to differ there.
+
+To add a distribution: write a frozen dataclass with ``name``, ``estimate``,
+``standard_uncertainty``, ``gaussian``, ``sample`` and ``ppf`` (or ``has_ppf = False``),
+then map a spec keyword to it in ``statements.py``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Protocol
+
+import numpy as np
+
+__all__ = [
+    "Distribution", "Normal", "Rectangular", "Triangular", "Arcsine", "Trapezoidal",
+    "CurvilinearTrapezoid", "StudentT", "Exact", "AtomicWeightSum",
+]
+
+_SQRT3, _SQRT6, _SQRT2 = math.sqrt(3.0), math.sqrt(6.0), math.sqrt(2.0)
+
+
+class Distribution(Protocol):
+    name: str
+    estimate: float
+    gaussian: bool
+    has_ppf: bool
+
+    @property
+    def standard_uncertainty(self) -> float: ...
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray: ...
+
+    def ppf(self, p: np.ndarray) -> np.ndarray: ...
+
+
+@dataclass(frozen=True, slots=True)
+class Normal:
+    estimate: float
+    sd: float
+    name = "normal"
+    gaussian = True
+    has_ppf = True
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return self.sd
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        values = rng.standard_normal(size)
+        values *= self.sd
+        values += self.estimate
+        return values
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        from scipy.special import ndtri
+
+        return self.estimate + self.sd * ndtri(p)
+
+
+@dataclass(frozen=True, slots=True)
+class Rectangular:
+    estimate: float
+    half_width: float
+    name = "rectangular"
+    gaussian = False
+    has_ppf = True
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return self.half_width / _SQRT3
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        values = rng.random(size)
+        values *= 2.0 * self.half_width
+        values += self.estimate - self.half_width
+        return values
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        return self.estimate + self.half_width * (2.0 * p - 1.0)
+
+
+@dataclass(frozen=True, slots=True)
+class Triangular:
+    estimate: float
+    half_width: float
+    name = "triangular"
+    gaussian = False
+    has_ppf = True
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return self.half_width / _SQRT6
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        values = rng.random(size)
+        values += rng.random(size)
+        values -= 1.0
+        values *= self.half_width
+        values += self.estimate
+        return values
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        p = np.asarray(p, dtype=float)
+        low = np.sqrt(2.0 * np.minimum(p, 0.5)) - 1.0
+        high = 1.0 - np.sqrt(2.0 * (1.0 - np.maximum(p, 0.5)))
+        return self.estimate + self.half_width * np.where(p < 0.5, low, high)
+
+
+@dataclass(frozen=True, slots=True)
+class Arcsine:
+    estimate: float
+    half_width: float
+    name = "arcsine"
+    gaussian = False
+    has_ppf = True
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return self.half_width / _SQRT2
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        values = rng.random(size)
+        values *= 2.0 * math.pi
+        np.sin(values, out=values)
+        values *= self.half_width
+        values += self.estimate
+        return values
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        return self.estimate - self.half_width * np.cos(math.pi * np.asarray(p, dtype=float))
+
+
+@dataclass(frozen=True, slots=True)
+class Trapezoidal:
+    """Symmetric trapezoid with half-width a and top-to-base ratio β (JCGM 101 6.4.4)."""
+
+    estimate: float
+    half_width: float
+    beta: float
+    name = "trapezoidal"
+    gaussian = False
+    has_ppf = True
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return self.half_width * math.sqrt((1.0 + self.beta ** 2) / 6.0)
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        values = rng.random(size)
+        values *= 1.0 + self.beta
+        values += (1.0 - self.beta) * rng.random(size)
+        values -= 1.0
+        values *= self.half_width
+        values += self.estimate
+        return values
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        """Inverse of the trapezoid's distribution function on [-1, 1], then scaled."""
+        p = np.asarray(p, dtype=float)
+        beta = self.beta
+        q = np.minimum(p, 1.0 - p)  # work in the lower half by symmetry
+        ramp = (1.0 - beta) / (1.0 + beta)  # probability of each sloping flank
+        ramp_p = ramp / 2.0
+        with np.errstate(invalid="ignore", divide="ignore"):
+            in_ramp = -1.0 + np.sqrt(2.0 * q * (1.0 - beta ** 2))
+            in_top = -beta + (q - ramp_p) * (1.0 + beta)
+        x = np.where(q < ramp_p, in_ramp, in_top)
+        x = np.where(p > 0.5, -x, x)
+        return self.estimate + self.half_width * x
+
+
+@dataclass(frozen=True, slots=True)
+class CurvilinearTrapezoid:
+    """Rectangular whose half-width is itself inexact by ±d (JCGM 101 6.4.3)."""
+
+    estimate: float
+    half_width: float
+    inexactness: float
+    name = "curvilinear_trapezoid"
+    gaussian = False
+    has_ppf = False
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return math.sqrt(self.half_width ** 2 / 3.0 + self.inexactness ** 2 / 9.0)
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        lower = self.estimate - self.half_width
+        upper = self.estimate + self.half_width
+        a_s = (lower - self.inexactness) + 2.0 * self.inexactness * rng.random(size)
+        b_s = lower + upper - a_s
+        return a_s + (b_s - a_s) * rng.random(size)
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        raise NotImplementedError("the curvilinear trapezoid has no closed-form inverse")
+
+
+@dataclass(frozen=True, slots=True)
+class StudentT:
+    """Scaled and shifted t distribution t_ν(estimate, scale²) (JCGM 101 6.4.9)."""
+
+    estimate: float
+    scale: float
+    dof: float
+    name = "student_t"
+    gaussian = False
+    has_ppf = True
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return self.scale
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        values = rng.standard_t(self.dof, size)
+        values *= self.scale
+        values += self.estimate
+        return values
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        from scipy.special import stdtrit
+
+        return self.estimate + self.scale * stdtrit(self.dof, p)
+
+
+@dataclass(frozen=True, slots=True)
+class Exact:
+    estimate: float
+    name = "exact"
+    gaussian = True
+    has_ppf = True
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return 0.0
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        return np.full(size, self.estimate)
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        return np.full(np.shape(p), self.estimate)
+
+
+@dataclass(frozen=True, slots=True)
+class AtomicWeightSum:
+    """A molar mass Σ n_E·A_E with each atomic weight A_E rectangular (centre ± half)."""
+
+    counts: tuple[float, ...]
+    centres: tuple[float, ...]
+    half_widths: tuple[float, ...]
+    scale: float = 1.0  # g/mol → the input's unit
+    name = "rectangular (atomic weights)"
+    gaussian = False
+    has_ppf = False
+
+    @property
+    def estimate(self) -> float:
+        return self.scale * math.fsum(n * c for n, c in zip(self.counts, self.centres))
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return self.scale * math.sqrt(math.fsum(
+            (n * a / _SQRT3) ** 2 for n, a in zip(self.counts, self.half_widths)))
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        total = np.full(size, self.estimate)
+        for n, half in zip(self.counts, self.half_widths):
+            if half > 0.0:
+                draw = rng.random(size)
+                draw *= 2.0 * half * n * self.scale
+                draw -= half * n * self.scale
+                total += draw
+        return total
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        raise NotImplementedError("a sum of rectangular atomic weights has no closed form")

@@ -1,0 +1,103 @@
+"""The JSON result document of ``budget run --json`` (shared/spec/cli.md), unrounded.
+
+Keys of the contract come first and keep their meaning; the extensions (``dof_rule``,
+``correlation_terms``, ``shortest`` details, ``atomic_weights``, ``provenance`` and the
+``caution``) add to it. An infinite number of degrees of freedom is ``null``.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from .analysis import Result
+from .gum import MeasurandBudget
+from .montecarlo import MeasurandSimulation
+
+__all__ = ["result_document", "CAUTION", "dof_or_null"]
+
+CAUTION = ("These results were computed by software from the model and data supplied. "
+           "They must be reviewed and approved within the laboratory's quality system "
+           "(ISO/IEC 17025, ISO 17034) before they are used on a certificate.")
+
+
+def dof_or_null(dof: float) -> float | None:
+    return None if math.isinf(dof) else float(dof)
+
+
+def result_document(result: Result) -> dict[str, Any]:
+    from . import provenance
+
+    model = result.model
+    simulation = result.simulation
+    seed = simulation.seed if simulation else model.settings.seed
+    names = [m.name for m in result.budget.measurands]
+    matrix = simulation.output_correlation if simulation and simulation.trials else \
+        result.budget.output_correlation
+    return {
+        "title": model.title,
+        "model_sha256": model.sha256,
+        "coverage": result.budget.measurands[0].coverage_probability,
+        "seed": seed,
+        "measurands": [
+            _measurand(b, simulation.measurands[k] if simulation else None)
+            for k, b in enumerate(result.budget.measurands)],
+        "output_correlation": {a: {b: matrix[i][j] for j, b in enumerate(names)}
+                               for i, a in enumerate(names)},
+        "output_correlation_gum": {a: {b: result.budget.output_correlation[i][j]
+                                       for j, b in enumerate(names)}
+                                   for i, a in enumerate(names)},
+        "warnings": list(result.warnings),
+        "digits": result.digits,
+        "atomic_weights": _convention(result),
+        "provenance": provenance.describe(model, simulation),
+        "caution": CAUTION,
+    }
+
+
+def _convention(result: Result) -> str | None:
+    used = [i for i in result.model.inputs if i.molar_mass is not None]
+    return result.model.settings.atomic_weights if used else None
+
+
+def _measurand(budget: MeasurandBudget, simulation: MeasurandSimulation | None
+               ) -> dict[str, Any]:
+    document: dict[str, Any] = {
+        "name": budget.name,
+        "unit": budget.unit,
+        "value": budget.estimate,
+        "u": budget.combined_uncertainty,
+        "dof": dof_or_null(budget.dof),
+        "k": budget.coverage_factor,
+        "U": budget.expanded_uncertainty,
+        "interval": list(budget.interval),
+        "contributions": [_contribution(c) for c in budget.contributions],
+        "correlation_terms": [{"inputs": list(t.inputs), "r": t.r, "variance": t.variance,
+                               "index": t.index} for t in budget.correlation_terms],
+        "dof_rule": budget.dof_rule,
+        "u_first_order": budget.first_order_uncertainty,
+        "second_order_variance": budget.second_order_variance,
+        "type_a_share": budget.type_a_share,
+    }
+    if simulation is not None:
+        document["monte_carlo"] = _simulation(simulation)
+    return document
+
+
+def _contribution(c: Any) -> dict[str, Any]:
+    return {"input": c.input, "estimate": c.estimate, "unit": c.unit,
+            "u": c.standard_uncertainty, "distribution": c.distribution, "type": c.type,
+            "dof": dof_or_null(c.dof), "sensitivity": c.sensitivity,
+            "contribution": c.contribution, "index": c.index}
+
+
+def _simulation(s: MeasurandSimulation) -> dict[str, Any]:
+    document: dict[str, Any] = {
+        "trials": s.trials, "mean": s.mean, "u": s.standard_uncertainty,
+        "interval": list(s.interval), "shortest_interval": list(s.shortest_interval),
+    }
+    if s.validation is not None:
+        v = s.validation
+        document["validation"] = {"tolerance": v.tolerance, "d_low": v.d_low,
+                                  "d_high": v.d_high, "validated": v.validated}
+    return document

@@ -1,0 +1,254 @@
+"""The expression language of model files: a whitelist over Python's ``ast``.
+
+Method: the text is parsed by ``ast.parse(mode="eval")`` (which never runs it), every node
+is checked against a short whitelist, and the accepted tree is rebuilt node by node into a
+sympy expression from an explicit symbol table. Model text is never handed to ``eval``,
+``sympify`` or ``parse_expr``; every name is an ordinary symbol (``E``, ``I``, ``S``,
+``pi`` and ``gamma`` included). While building, the unit of each sub-expression is carried
+along so that sums of unlike dimensions, dimensioned function arguments and misused Celsius
+temperatures are refused before any number is computed.
+"""
+
+from __future__ import annotations
+
+import ast
+from dataclasses import dataclass
+from fractions import Fraction
+from typing import Any, Callable, Mapping
+
+import sympy
+
+from .errors import Location, ModelSyntaxError, UnitError, UnknownNameError, did_you_mean
+from .units import dimension_text, registry
+
+__all__ = ["Term", "parse_expression", "names_in", "build", "FUNCTIONS"]
+
+_PLAIN = {
+    "sqrt": sympy.sqrt, "exp": sympy.exp, "log": sympy.log,
+    "log10": lambda x: sympy.log(x, 10), "sin": sympy.sin, "cos": sympy.cos,
+    "tan": sympy.tan, "asin": sympy.asin, "acos": sympy.acos, "atan": sympy.atan,
+    "abs": sympy.Abs,
+}
+FUNCTIONS = tuple(sorted([*_PLAIN, "air_density"]))
+
+_BINARY = {ast.Add: "+", ast.Sub: "-", ast.Mult: "*", ast.Div: "/", ast.Pow: "**"}
+_FORBIDDEN = {
+    ast.Attribute: "attribute access", ast.Subscript: "subscripts",
+    ast.Lambda: "lambdas", ast.ListComp: "comprehensions", ast.SetComp: "comprehensions",
+    ast.DictComp: "comprehensions", ast.GeneratorExp: "comprehensions",
+    ast.Compare: "comparisons", ast.BoolOp: "boolean operators",
+    ast.IfExp: "conditional expressions", ast.List: "lists", ast.Tuple: "tuples",
+    ast.Dict: "dictionaries", ast.Set: "sets", ast.NamedExpr: "assignments",
+    ast.Starred: "starred arguments", ast.JoinedStr: "strings", ast.Await: "await",
+    ast.Yield: "yield", ast.YieldFrom: "yield", ast.Slice: "slices",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Term:
+    """A built sub-expression: value in coherent SI, as written, and its unit."""
+
+    expr: Any
+    shown: Any
+    unit: Any
+    offset: bool = False
+
+
+def parse_expression(text: Any, where: Location) -> ast.Expression:
+    """Parse and check an expression's grammar; the text is never executed."""
+    if not isinstance(text, str):
+        raise ModelSyntaxError(f"expected an expression string, found {text!r}", where)
+    if not text.strip():
+        raise ModelSyntaxError("expected an expression, found an empty string", where)
+    try:
+        tree = ast.parse(text.strip(), mode="eval")
+    except SyntaxError as exc:
+        raise ModelSyntaxError(f"expected an arithmetic expression, found '{text.strip()}' "
+                               f"(syntax error at column {exc.offset or 0})", where) from exc
+    for node in ast.walk(tree):
+        _check_node(node, text, where)
+    return tree
+
+
+def _check_node(node: ast.AST, text: str, where: Location) -> None:
+    if isinstance(node, ast.BinOp) and isinstance(node.op, ast.BitXor):
+        raise ModelSyntaxError(f"'^' is not a power in '{text.strip()}': write '**'", where)
+    if isinstance(node, ast.BinOp) and type(node.op) not in _BINARY:
+        raise ModelSyntaxError(f"expected one of + - * / ** in '{text.strip()}', found "
+                               f"'{_op_text(node.op)}'", where)
+    if isinstance(node, ast.UnaryOp) and not isinstance(node.op, (ast.USub, ast.UAdd)):
+        raise ModelSyntaxError(f"expected unary + or -, found '{_op_text(node.op)}' in "
+                               f"'{text.strip()}'", where)
+    if type(node) in _FORBIDDEN:
+        raise ModelSyntaxError(f"{_FORBIDDEN[type(node)]} are not allowed in expressions: "
+                               f"'{text.strip()}'", where)
+    if isinstance(node, ast.Constant) and (isinstance(node.value, bool)
+                                           or not isinstance(node.value, (int, float))):
+        raise ModelSyntaxError(f"expected a number, found {node.value!r} in "
+                               f"'{text.strip()}'", where)
+    if isinstance(node, ast.Name) and node.id.startswith("__"):
+        raise ModelSyntaxError(f"names starting with '__' are not allowed: '{node.id}'", where)
+    if isinstance(node, ast.Call):
+        _check_call(node, text, where)
+
+
+def _check_call(node: ast.Call, text: str, where: Location) -> None:
+    if not isinstance(node.func, ast.Name) or node.func.id not in FUNCTIONS:
+        called = ast.unparse(node.func)
+        raise ModelSyntaxError(f"expected a call of one of {', '.join(FUNCTIONS)}, found "
+                               f"'{called}(...)'{did_you_mean(called, FUNCTIONS)}", where)
+    if node.keywords:
+        raise ModelSyntaxError(f"keyword arguments are not allowed: '{ast.unparse(node)}'",
+                               where)
+    wanted = (3, 4) if node.func.id == "air_density" else (1,)
+    if len(node.args) not in wanted:
+        count = " or ".join(str(w) for w in wanted)
+        raise ModelSyntaxError(f"{node.func.id}() expects {count} argument(s), found "
+                               f"{len(node.args)} in '{ast.unparse(node)}'", where)
+
+
+def _op_text(op: ast.AST) -> str:
+    return {ast.Mod: "%", ast.FloorDiv: "//", ast.MatMult: "@", ast.LShift: "<<",
+            ast.RShift: ">>", ast.BitOr: "|", ast.BitAnd: "&", ast.Invert: "~",
+            ast.Not: "not"}.get(type(op), type(op).__name__)
+
+
+def names_in(tree: ast.AST) -> list[str]:
+    """Names used as quantities (not function names), in order of first appearance."""
+    called = {id(n.func) for n in ast.walk(tree) if isinstance(n, ast.Call)}
+    seen: dict[str, None] = {}
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Name) and id(node) not in called:
+            seen.setdefault(node.id, None)
+    return list(seen)
+
+
+def build(tree: ast.Expression, table: Mapping[str, Term], text: str,
+          where: Location) -> Term:
+    """Rebuild a checked tree as a sympy :class:`Term`, checking units on the way."""
+    return _Builder(table, text.strip(), where).visit(tree.body)
+
+
+class _Builder:
+    def __init__(self, table: Mapping[str, Term], text: str, where: Location) -> None:
+        self.table, self.text, self.where = table, text, where
+        self.dimensionless = registry().dimensionless
+
+    def segment(self, node: ast.AST) -> str:
+        return ast.get_source_segment(self.text, node) or ast.unparse(node)
+
+    def visit(self, node: ast.AST) -> Term:
+        if isinstance(node, ast.Constant):
+            number = sympy.Integer(node.value) if isinstance(node.value, int) \
+                else sympy.Float(repr(node.value))
+            return Term(number, number, self.dimensionless)
+        if isinstance(node, ast.Name):
+            return self.name(node)
+        if isinstance(node, ast.UnaryOp):
+            return self.unary(node)
+        if isinstance(node, ast.BinOp):
+            return self.binary(node)
+        return self.call(node)  # the grammar check leaves nothing else
+
+    def name(self, node: ast.Name) -> Term:
+        if node.id not in self.table:
+            raise UnknownNameError(f"unknown quantity '{node.id}' in '{self.text}'"
+                                   f"{did_you_mean(node.id, self.table)}", self.where)
+        return self.table[node.id]
+
+    def unary(self, node: ast.UnaryOp) -> Term:
+        inner = self.visit(node.operand)
+        if isinstance(node.op, ast.UAdd):
+            return inner
+        self.refuse_offset(inner, node)
+        return Term(-inner.expr, -inner.shown, inner.unit)
+
+    def binary(self, node: ast.BinOp) -> Term:
+        left, right = self.visit(node.left), self.visit(node.right)
+        if isinstance(node.op, (ast.Add, ast.Sub)):
+            return self.sum(node, left, right)
+        for side in (left, right):
+            self.refuse_offset(side, node)
+        if isinstance(node.op, ast.Mult):
+            return Term(left.expr * right.expr, left.shown * right.shown,
+                        left.unit * right.unit)
+        if isinstance(node.op, ast.Div):
+            return Term(left.expr / right.expr, left.shown / right.shown,
+                        left.unit / right.unit)
+        return self.power(node, left, right)
+
+    def sum(self, node: ast.BinOp, left: Term, right: Term) -> Term:
+        plus = isinstance(node.op, ast.Add)
+        if left.unit.dimensionality != right.unit.dimensionality:
+            raise UnitError(
+                f"expected terms of like dimension in '{self.segment(node)}', found "
+                f"'{self.segment(node.left)}' in {dimension_text(left.unit)} and "
+                f"'{self.segment(node.right)}' in {dimension_text(right.unit)}", self.where)
+        offset = left.offset or right.offset
+        if left.offset and right.offset:
+            if plus:
+                raise UnitError(f"two Celsius temperatures cannot be added in "
+                                f"'{self.segment(node)}'", self.where)
+            offset = False
+        elif right.offset and not plus:
+            raise UnitError(f"a Celsius temperature cannot be subtracted from a temperature "
+                            f"difference in '{self.segment(node)}'", self.where)
+        combine = (lambda a, b: a + b) if plus else (lambda a, b: a - b)
+        return Term(combine(left.expr, right.expr), combine(left.shown, right.shown),
+                    left.unit, offset)
+
+    def power(self, node: ast.BinOp, base: Term, exponent: Term) -> Term:
+        if not exponent.unit.dimensionless:
+            raise UnitError(f"expected a dimensionless exponent in '{self.segment(node)}', "
+                            f"found {dimension_text(exponent.unit)}", self.where)
+        unit = base.unit
+        if not base.unit.dimensionless:
+            if not exponent.expr.is_number:
+                raise UnitError(f"expected a numeric exponent for a quantity in "
+                                f"{dimension_text(base.unit)} in '{self.segment(node)}', "
+                                f"found '{self.segment(node.right)}'", self.where)
+            power = Fraction(str(sympy.nsimplify(exponent.expr)))
+            unit = base.unit ** (power.numerator if power.denominator == 1 else float(power))
+        return Term(base.expr ** exponent.expr, base.shown ** exponent.shown, unit)
+
+    def refuse_offset(self, term: Term, node: ast.AST) -> None:
+        if term.offset:
+            raise UnitError(f"a Celsius temperature may enter only as a difference of two "
+                            f"temperatures or as the argument of air_density, found "
+                            f"'{self.segment(node)}'", self.where)
+
+    def call(self, node: ast.Call) -> Term:
+        name = node.func.id  # type: ignore[attr-defined]
+        args = [self.visit(arg) for arg in node.args]
+        if name == "air_density":
+            return self.air_density(node, args)
+        (arg,) = args
+        self.refuse_offset(arg, node)
+        if name in ("sqrt", "abs"):
+            unit = arg.unit ** 0.5 if name == "sqrt" else arg.unit
+        elif not arg.unit.dimensionless:
+            raise UnitError(f"expected a dimensionless argument of {name}() in "
+                            f"'{self.segment(node)}', found {dimension_text(arg.unit)}",
+                            self.where)
+        else:
+            unit = self.dimensionless
+        function: Callable[[Any], Any] = _PLAIN[name]
+        return Term(function(arg.expr), function(arg.shown), unit)
+
+    def air_density(self, node: ast.Call, args: list[Term]) -> Term:
+        from .chemistry import air_density_expression
+
+        reg = registry()
+        wanted = [("temperature", reg.kelvin), ("pressure", reg.pascal),
+                  ("relative humidity", self.dimensionless),
+                  ("CO2 mole fraction", self.dimensionless)]
+        for (label, unit), arg, arg_node in zip(wanted, args, node.args):
+            if arg.unit.dimensionality != unit.dimensionality:
+                raise UnitError(f"air_density() expects its {label} in {dimension_text(unit)}"
+                                f", found '{self.segment(arg_node)}' in "
+                                f"{dimension_text(arg.unit)}", self.where)
+        celsius = args[0].expr if args[0].offset else args[0].expr - sympy.Rational(27315, 100)
+        values = [celsius, *(a.expr for a in args[1:])]
+        shown = sympy.Function("air_density")(*(a.shown for a in args))
+        density = air_density_expression(*values)
+        return Term(density, shown, reg.kilogram / reg.meter ** 3)

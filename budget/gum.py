@@ -1,0 +1,236 @@
+"""The GUM uncertainty framework: law of propagation of uncertainty (JCGM 100).
+
+Method:
+
+* sensitivity coefficients c_i = ∂f/∂x_i at the estimates, signed (GUM 5.1.3);
+* u_c²(y) = Σ (c_i u_i)² + 2 Σ_{i<j} c_i c_j u_i u_j r_ij (GUM 5.1.2 and 5.2.2);
+* GUM 5.1.2 note: with ``second_order`` the higher-order terms of eq. (14) for
+  uncorrelated inputs, Σ_ij [½(∂²f/∂x_i∂x_j)² + ∂f/∂x_i ∂³f/∂x_i∂x_j²] u_i² u_j²;
+* ν_eff by Welch–Satterthwaite, eq. (G.2b); the GUM's rule has no term for correlations,
+  so with correlated inputs the correlation terms count with infinite degrees of freedom
+  (stated in ``dof_rule``);
+* k = t_p(ν) with ν_eff truncated to the next lower integer (GUM G.4.1 note 1), or the
+  normal quantile when ν_eff is infinite; U = k·u_c (GUM 6.2, G.6.4);
+* several measurands: the output covariance U_y = J U_x Jᵀ (JCGM 102 6.2.1.3).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from .errors import PropagationError
+from .model import Model
+
+__all__ = ["Contribution", "CorrelationTerm", "MeasurandBudget", "Budget", "propagate",
+           "coverage_factor", "welch_satterthwaite"]
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Contribution:
+    input: str
+    estimate: float
+    unit: str
+    standard_uncertainty: float
+    distribution: str
+    type: str
+    dof: float
+    sensitivity: float
+    contribution: float
+    index: float
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class CorrelationTerm:
+    inputs: tuple[str, str]
+    r: float
+    variance: float  # 2 c_i c_j u_i u_j r_ij, signed
+    index: float
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MeasurandBudget:
+    name: str
+    unit: str
+    estimate: float
+    contributions: tuple[Contribution, ...]
+    correlation_terms: tuple[CorrelationTerm, ...]
+    combined_uncertainty: float
+    first_order_uncertainty: float
+    second_order_variance: float | None
+    dof: float
+    dof_rule: str
+    coverage_probability: float
+    coverage_factor: float
+    expanded_uncertainty: float
+
+    @property
+    def interval(self) -> tuple[float, float]:
+        return (self.estimate - self.expanded_uncertainty,
+                self.estimate + self.expanded_uncertainty)
+
+    @property
+    def type_a_share(self) -> float:
+        """Percentage of the uncorrelated variance that comes from Type A inputs."""
+        return math.fsum(c.index for c in self.contributions if c.type == "A")
+
+    def to_frame(self) -> Any:
+        """The budget table as a pandas DataFrame, one row per input."""
+        import pandas as pd
+
+        rows = [{"input": c.input, "estimate": c.estimate, "unit": c.unit,
+                 "standard_uncertainty": c.standard_uncertainty,
+                 "distribution": c.distribution, "type": c.type, "dof": c.dof,
+                 "sensitivity": c.sensitivity, "contribution": c.contribution,
+                 "index": c.index} for c in self.contributions]
+        return pd.DataFrame(rows).set_index("input")
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Budget:
+    """The GUM result for every measurand of a model."""
+
+    model: Model
+    measurands: tuple[MeasurandBudget, ...]
+    output_covariance: tuple[tuple[float, ...], ...]
+    output_correlation: tuple[tuple[float, ...], ...]
+    jacobian: tuple[tuple[float, ...], ...]
+    warnings: tuple[str, ...] = field(default=())
+
+    def measurand(self, name: str) -> MeasurandBudget:
+        for item in self.measurands:
+            if item.name == name:
+                return item
+        raise KeyError(name)
+
+
+def coverage_factor(coverage: float, dof: float) -> float:
+    """k_p = t_p(ν) at the integer below ν (GUM G.4.1 note 1); normal when ν = ∞."""
+    from scipy.special import ndtri, stdtrit
+
+    tail = 0.5 + coverage / 2.0
+    if math.isinf(dof):
+        return float(ndtri(tail))
+    return float(stdtrit(max(1.0, math.floor(dof + 1e-9)), tail))
+
+
+def welch_satterthwaite(combined: float, components: np.ndarray, dofs: np.ndarray) -> float:
+    """ν_eff = u_c⁴ / Σ u_i⁴/ν_i (GUM eq. G.2b); ∞ when every ν_i is ∞ or u_c = 0."""
+    finite = np.isfinite(dofs) & (components > 0)
+    if combined <= 0.0 or not finite.any():
+        return math.inf
+    denominator = float(np.sum(components[finite] ** 4 / dofs[finite]))
+    return combined ** 4 / denominator if denominator > 0 else math.inf
+
+
+def propagate(model: Model, coverage: float | None = None, *,
+              second_order: bool = False) -> Budget:
+    """The GUM budget of every measurand of ``model``."""
+    from .evaluation import jacobian_at_estimates
+
+    coverage = model.settings.coverage if coverage is None else coverage
+    if not 0.0 < coverage < 1.0:
+        raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}")
+    values, jac = jacobian_at_estimates(model)
+    u = np.array([i.standard_uncertainty for i in model.inputs])
+    dofs = np.array([i.dof for i in model.inputs])
+    r = model.correlation_matrix()
+    warnings: list[str] = list(model.warnings)
+    extra = _second_order(model, second_order, warnings)
+    budgets = tuple(
+        _one(model, k, float(values[k]), jac[k], u, dofs, r, coverage,
+             None if extra is None else float(extra[k]), warnings)
+        for k in range(len(model.measurands)))
+    covariance = jac @ (np.outer(u, u) * r) @ jac.T
+    if extra is not None:
+        covariance = covariance + np.diag(extra)
+    return Budget(model=model, measurands=budgets, output_covariance=_rows(covariance),
+                  output_correlation=_rows(_correlation(covariance)), jacobian=_rows(jac),
+                  warnings=tuple(warnings))
+
+
+def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
+         dofs: np.ndarray, r: np.ndarray, coverage: float, extra: float | None,
+         warnings: list[str]) -> MeasurandBudget:
+    measurand = model.measurands[k]
+    parts = c * u
+    terms = _correlation_terms(model, parts, r)
+    first = float(np.sum(parts ** 2)) + math.fsum(t[3] for t in terms)
+    if first < 0.0:
+        raise PropagationError(f"the variance of '{measurand.name}' came out negative "
+                               f"({first:.3g}); check the correlations")
+    variance = first + (extra or 0.0)
+    combined = math.sqrt(variance)
+    index = (100.0 * parts ** 2 / variance) if variance > 0 else np.zeros_like(parts)
+    nu = welch_satterthwaite(combined, np.abs(parts), dofs)
+    rule = "Welch-Satterthwaite, GUM eq. (G.2b)"
+    if terms:
+        rule += "; the correlation terms are taken with infinite degrees of freedom"
+    if extra:
+        rule += "; the second-order terms are taken with infinite degrees of freedom"
+    _warn(measurand.name, combined, nu, warnings)
+    k_p = coverage_factor(coverage, nu)
+    contributions = tuple(
+        Contribution(input=i.name, estimate=i.estimate, unit=i.unit,
+                     standard_uncertainty=i.standard_uncertainty,
+                     distribution=i.distribution.name, type=i.type, dof=i.dof,
+                     sensitivity=float(c[j]), contribution=float(abs(parts[j])),
+                     index=float(index[j]))
+        for j, i in enumerate(model.inputs))
+    correlation_terms = tuple(
+        CorrelationTerm(inputs=(a, b), r=rho, variance=v,
+                        index=100.0 * v / variance if variance > 0 else 0.0)
+        for a, b, rho, v in terms)
+    return MeasurandBudget(
+        name=measurand.name, unit=measurand.unit, estimate=estimate,
+        contributions=contributions, correlation_terms=correlation_terms,
+        combined_uncertainty=combined, first_order_uncertainty=math.sqrt(first),
+        second_order_variance=extra, dof=nu, dof_rule=rule, coverage_probability=coverage,
+        coverage_factor=k_p, expanded_uncertainty=k_p * combined)
+
+
+def _warn(name: str, combined: float, nu: float, warnings: list[str]) -> None:
+    if combined == 0.0:
+        warnings.append(f"'{name}': the combined standard uncertainty is zero to first "
+                        "order (try --second-order or Monte Carlo)")
+    elif nu < 3.0:
+        warnings.append(f"'{name}': effective degrees of freedom {nu:.2g} < 3; the coverage "
+                        "factor from the t-distribution is very uncertain")
+
+
+def _correlation_terms(model: Model, parts: np.ndarray,
+                       r: np.ndarray) -> list[tuple[str, str, float, float]]:
+    names = [i.name for i in model.inputs]
+    terms = []
+    for a, b, rho in model.correlations:
+        i, j = names.index(a), names.index(b)
+        terms.append((a, b, rho, float(2.0 * parts[i] * parts[j] * r[i, j])))
+    return terms
+
+
+def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray | None:
+    if not wanted:
+        return None
+    if model.correlations:
+        warnings.append("--second-order ignored: the GUM 5.1.2 higher-order terms hold "
+                        "for uncorrelated inputs only")
+        return None
+    from .evaluation import second_order_variances
+
+    return second_order_variances(model)
+
+
+def _correlation(covariance: np.ndarray) -> np.ndarray:
+    sd = np.sqrt(np.clip(np.diag(covariance), 0.0, None))
+    with np.errstate(all="ignore"):
+        result = covariance / np.outer(sd, sd)
+    result[~np.isfinite(result)] = 0.0
+    np.fill_diagonal(result, 1.0)
+    return result
+
+
+def _rows(array: np.ndarray) -> tuple[tuple[float, ...], ...]:
+    return tuple(tuple(float(x) for x in row) for row in np.atleast_2d(array))

@@ -1,0 +1,444 @@
+"""Model files (TOML) → a frozen :class:`Model`: inputs, definitions, measurands, units.
+
+Method: GUM 4.1 — the measurand Y is a function f(X_1, …, X_N) of input quantities; each
+input carries an estimate x_i, a standard uncertainty u(x_i), degrees of freedom ν_i and a
+probability distribution (JCGM 101 6.4). Definitions are substituted into the equations
+before differentiation, so they carry no uncertainty of their own. Every symbol stands
+for its input's value *in the input's own unit*; each measurand expression returns the
+value in the measurand's unit (see ``units.py``).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import re
+import tomllib
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import sympy
+
+from .chemistry import CONVENTIONS, DEFAULT_CONVENTION
+from .errors import (BudgetError, InputError, Location, ModelSyntaxError, UnitError,
+                     did_you_mean)
+from .expressions import Term, build, names_in, parse_expression
+from .statements import read_statement
+from .units import parse_unit, registry
+from . import correlations as corr
+
+__all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model",
+           "parse_model", "DEFAULT_SEED"]
+
+DEFAULT_SEED = 20260601
+_TOP_KEYS = ("title", "description", "measurands", "definitions", "inputs", "correlations",
+             "settings")
+_SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights")
+_MEASURAND_KEYS = ("equation", "unit", "description")
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Input:
+    """An input quantity X_i: estimate, standard uncertainty and distribution."""
+
+    name: str
+    estimate: float
+    unit: str
+    standard_uncertainty: float
+    distribution: Any
+    dof: float
+    type: str
+    basis: str
+    description: str = ""
+    source: str = ""
+    molar_mass: Any = None
+
+    @property
+    def symbol(self) -> sympy.Symbol:
+        return sympy.Symbol(self.name)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Definition:
+    name: str
+    text: str
+    shown: Any
+    unit: str
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Measurand:
+    """An output quantity: its expression in the inputs, in its own unit."""
+
+    name: str
+    equation: str
+    unit: str
+    expression: Any
+    shown: Any
+    description: str = ""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Settings:
+    coverage: float = 0.95
+    trials: int | str = 1_000_000
+    seed: int = DEFAULT_SEED
+    digits: int = 2
+    atomic_weights: str = DEFAULT_CONVENTION
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Model:
+    title: str
+    description: str
+    inputs: tuple[Input, ...]
+    definitions: tuple[Definition, ...]
+    measurands: tuple[Measurand, ...]
+    correlations: tuple[tuple[str, str, float], ...]
+    settings: Settings
+    source: str = "<string>"
+    sha256: str = ""
+    warnings: tuple[str, ...] = field(default=())
+
+    def input(self, name: str) -> Input:
+        for item in self.inputs:
+            if item.name == name:
+                return item
+        raise KeyError(name)
+
+    def correlation_matrix(self) -> np.ndarray:
+        return corr.matrix([i.name for i in self.inputs], self.correlations)
+
+    def with_uncertainty(self, name: str, factor: float) -> "Model":
+        """A what-if copy in which one input's uncertainty is scaled by ``factor``."""
+        from .whatif import scaled_input
+
+        inputs = tuple(scaled_input(i, factor) if i.name == name else i for i in self.inputs)
+        return replace(self, inputs=inputs)
+
+
+def load_model(path: str | Path, **overrides: Any) -> Model:
+    """Read a model file; every problem is a :class:`BudgetError` naming the file."""
+    path = Path(path)
+    shown = str(path)
+    try:
+        data = path.read_bytes()
+    except FileNotFoundError as exc:
+        raise InputError("expected a model file, found no such file", Location(file=shown)
+                         ) from exc
+    except OSError as exc:
+        raise InputError(f"expected a readable model file, found {exc.strerror}",
+                         Location(file=shown)) from exc
+    return parse_model(data, name=shown, **overrides)
+
+
+def decode(data: bytes | str, name: str, what: str = "model") -> str:
+    """The text of a TOML file, refusing binary and empty files with a clear message."""
+    if isinstance(data, str):
+        text = data
+    else:
+        if b"\x00" in data:
+            raise ModelSyntaxError(f"expected a UTF-8 text file, found binary data",
+                                   Location(file=name))
+        try:
+            text = data.decode("utf-8-sig")
+        except UnicodeDecodeError as exc:
+            raise ModelSyntaxError(f"expected UTF-8 text, found an undecodable byte at "
+                                   f"offset {exc.start}", Location(file=name)) from exc
+    if not text.strip():
+        raise ModelSyntaxError(f"expected a TOML {what}, found an empty file",
+                               Location(file=name))
+    return text
+
+
+def read_toml(text: str, name: str) -> dict:
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        found = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
+        line = int(found.group(1)) if found else None
+        reason = re.sub(r"\s*\(at line.*\)$", "", str(exc))
+        raise ModelSyntaxError(f"expected valid TOML, found a syntax error: {reason}",
+                               Location(file=name, line=line)) from exc
+
+
+def parse_model(data: bytes | str, name: str = "<string>", **overrides: Any) -> Model:
+    """Parse model text (or bytes); ``overrides`` replace ``[settings]`` values."""
+    text = decode(data, name)
+    raw = data if isinstance(data, bytes) else data.encode("utf-8")
+    document = read_toml(text, name)
+    return _Reader(text, name, document).model(hashlib.sha256(raw).hexdigest(), overrides)
+
+
+class _Reader:
+    """Walks one parsed TOML document; knows how to point at a key's line."""
+
+    def __init__(self, text: str, name: str, document: dict) -> None:
+        self.lines, self.name, self.doc = text.splitlines(), name, document
+
+    def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
+        return Location(file=self.name, table=table, key=key,
+                        line=find_line(self.lines, table, key, nth))
+
+    def model(self, sha256: str, overrides: dict) -> Model:
+        for key in self.doc:
+            if key not in _TOP_KEYS:
+                raise InputError(f"unknown top-level key '{key}'{did_you_mean(key, _TOP_KEYS)}"
+                                 f"; expected one of {', '.join(_TOP_KEYS)}",
+                                 self.where(None, key))
+        title = self.doc.get("title")
+        if not isinstance(title, str) or not title.strip():
+            raise InputError(f"expected a 'title' string, found "
+                             f"{'none' if title is None else repr(title)}",
+                             self.where(None, "title"))
+        settings = replace(self.settings(), **{k: v for k, v in overrides.items()
+                                               if v is not None})
+        inputs = self.inputs(settings.atomic_weights)
+        table = {i.name: _input_term(i, self.where("inputs." + i.name, "unit"))
+                 for i in inputs}
+        definitions, terms = self.definitions(table)
+        measurands = self.measurands(terms)
+        pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
+                          self.where)
+        warnings = _unused_inputs(inputs, measurands)
+        return Model(title=title.strip(), description=str(self.doc.get("description", "")),
+                     inputs=inputs, definitions=definitions, measurands=measurands,
+                     correlations=pairs, settings=settings, source=self.name, sha256=sha256,
+                     warnings=warnings)
+
+    def table(self, key: str) -> dict:
+        value = self.doc.get(key, {})
+        if not isinstance(value, dict):
+            raise InputError(f"expected a table [{key}], found {type(value).__name__}",
+                             self.where(None, key))
+        return value
+
+    def settings(self) -> Settings:
+        data = self.table("settings")
+        for key in data:
+            if key not in _SETTING_KEYS:
+                raise InputError(f"unknown key '{key}'{did_you_mean(key, _SETTING_KEYS)}; "
+                                 f"expected one of {', '.join(_SETTING_KEYS)}",
+                                 self.where("settings", key))
+        return check_settings(data, lambda key: self.where("settings", key))
+
+    def inputs(self, convention: str) -> tuple[Input, ...]:
+        tables = self.table("inputs")
+        if not tables:
+            raise InputError("expected at least one [inputs.NAME] table, found none",
+                             self.where(None))
+        made = []
+        for name, data in tables.items():
+            made.append(self.one_input(name, data, convention))
+        return tuple(made)
+
+    def one_input(self, name: str, data: Any, convention: str) -> Input:
+        where = self.where("inputs." + name)
+        _check_name(name, where)
+        if not isinstance(data, dict):
+            raise InputError(f"expected a table [inputs.{name}], found {data!r}", where)
+        statement = read_statement(data, lambda key: self.where("inputs." + name, key),
+                                   convention)
+        unit_where = self.where("inputs." + name, "unit")
+        unit = parse_unit(statement.unit if statement.unit is not None else "1", unit_where)
+        distribution = _in_unit(statement, unit, unit_where)
+        return Input(name=name, estimate=float(distribution.estimate), unit=unit.text,
+                     standard_uncertainty=float(distribution.standard_uncertainty),
+                     distribution=distribution, dof=statement.dof, type=statement.type,
+                     basis=statement.basis, description=str(data.get("description", "")),
+                     source=str(data.get("source", "")), molar_mass=statement.molar_mass)
+
+    def definitions(self, table: dict[str, Term]) -> tuple[tuple[Definition, ...], dict]:
+        texts = self.table("definitions")
+        trees = {}
+        for name, text in texts.items():
+            where = self.where("definitions", name)
+            _check_name(name, where)
+            if name in table:
+                raise InputError(f"expected a new name, found '{name}' which is also an "
+                                 "input", where)
+            trees[name] = parse_expression(text, where)
+        order = _definition_order(trees, self.where("definitions"))
+        terms = dict(table)
+        made = []
+        for name in order:
+            where = self.where("definitions", name)
+            term = build(trees[name], terms, texts[name], where)
+            terms[name] = Term(term.expr, sympy.Symbol(name), term.unit, term.offset)
+            made.append(Definition(name=name, text=texts[name].strip(), shown=term.shown,
+                                   unit=f"{term.unit:~}"))
+        return tuple(made), terms
+
+    def measurands(self, terms: dict[str, Term]) -> tuple[Measurand, ...]:
+        tables = self.table("measurands")
+        if not tables:
+            raise InputError("expected at least one [measurands.NAME] table, found none",
+                             self.where(None))
+        return tuple(self.one_measurand(name, data, terms) for name, data in tables.items())
+
+    def one_measurand(self, name: str, data: Any, terms: dict[str, Term]) -> Measurand:
+        where = self.where("measurands." + name)
+        _check_name(name, where)
+        if name in terms:
+            raise InputError(f"expected a new name, found '{name}' which is also an input "
+                             "or a definition", where)
+        if not isinstance(data, dict):
+            raise InputError(f"expected a table [measurands.{name}], found {data!r}", where)
+        for key in data:
+            if key not in _MEASURAND_KEYS:
+                raise InputError(f"unknown key '{key}'{did_you_mean(key, _MEASURAND_KEYS)}; "
+                                 f"expected one of {', '.join(_MEASURAND_KEYS)}",
+                                 self.where("measurands." + name, key))
+        if "equation" not in data:
+            raise InputError("expected an 'equation', found none", where)
+        eq_where = self.where("measurands." + name, "equation")
+        term = build(parse_expression(data["equation"], eq_where), terms, data["equation"],
+                     eq_where)
+        unit_where = self.where("measurands." + name, "unit")
+        unit = _measurand_unit(data.get("unit"), term, unit_where)
+        expression = term.expr if unit.factor == 1 else term.expr / sympy.Rational(
+            unit.factor.numerator, unit.factor.denominator)
+        return Measurand(name=name, equation=data["equation"].strip(), unit=unit.text,
+                         expression=expression, shown=term.shown,
+                         description=str(data.get("description", "")))
+
+
+def check_settings(data: dict, where: Any) -> Settings:
+    made: dict[str, Any] = {}
+    if "coverage" in data:
+        p = data["coverage"]
+        if isinstance(p, bool) or not isinstance(p, (int, float)) or not 0 < p < 1:
+            raise InputError(f"expected a coverage probability in (0, 1), found {p!r}",
+                             where("coverage"))
+        made["coverage"] = float(p)
+    if "trials" in data:
+        trials = data["trials"]
+        if trials != "adaptive" and (isinstance(trials, bool) or not isinstance(trials, int)
+                                     or trials < 0):
+            raise InputError(f"expected a whole number ≥ 0 or \"adaptive\", found {trials!r}",
+                             where("trials"))
+        made["trials"] = trials
+    for key, low in (("seed", 0), ("digits", 1)):
+        if key in data:
+            value = data[key]
+            if isinstance(value, bool) or not isinstance(value, int) or value < low:
+                raise InputError(f"expected a whole number ≥ {low}, found {value!r}",
+                                 where(key))
+            made[key] = value
+    if "atomic_weights" in data:
+        value = data["atomic_weights"]
+        if value not in CONVENTIONS:
+            raise InputError(f"expected one of {', '.join(CONVENTIONS)}, found {value!r}"
+                             f"{did_you_mean(str(value), CONVENTIONS)}",
+                             where("atomic_weights"))
+        made["atomic_weights"] = value
+    return Settings(**made)
+
+
+def _check_name(name: str, where: Location) -> None:
+    if not _NAME.match(name) or name.startswith("__"):
+        raise InputError(f"expected a name of letters, digits and '_' not starting with a "
+                         f"digit or '__', found '{name}'", where)
+
+
+def _in_unit(statement: Any, unit: Any, where: Location) -> Any:
+    """Express a constant's or a molar mass's distribution in the unit the user chose."""
+    from .distributions import Exact
+
+    if statement.molar_mass is not None:
+        wanted = parse_unit("g/mol", where)
+    elif statement.si_value is not None:
+        wanted = parse_unit(statement.si_unit, where)
+    else:
+        return statement.distribution
+    if unit.dimensionality != wanted.dimensionality or unit.offset:
+        raise UnitError(f"expected a unit of {wanted.describe()}, found '{unit.text}' "
+                        f"({unit.describe()})", where)
+    scale = float(wanted.factor / unit.factor)
+    if statement.molar_mass is not None:
+        return replace(statement.distribution, scale=scale)
+    return Exact(statement.si_value * scale)
+
+
+def _input_term(item: Input, where: Location) -> Term:
+    unit = parse_unit(item.unit, where)
+    symbol = item.symbol
+    factor = sympy.Rational(unit.factor.numerator, unit.factor.denominator)
+    return Term(symbol if factor == 1 else factor * symbol, symbol, unit.unit, unit.offset)
+
+
+def _measurand_unit(declared: Any, term: Term, where: Location) -> Any:
+    if declared is None:
+        text = "1" if term.unit.dimensionless else f"{term.unit:~}"
+        return parse_unit(text, where) if not term.offset else parse_unit("degC", where)
+    unit = parse_unit(declared, where)
+    if unit.offset != term.offset or unit.dimensionality != term.unit.dimensionality:
+        found = "temperature on the Celsius scale" if term.offset else (
+            "dimensionless" if term.unit.dimensionless else str(term.unit.dimensionality))
+        raise UnitError(f"expected the equation to give {unit.describe()} ('{unit.text}'), "
+                        f"found {found}", where)
+    return unit
+
+
+def _definition_order(trees: dict[str, Any], where: Location) -> list[str]:
+    """Definitions in dependency order; a cycle is an error naming its members."""
+    order: list[str] = []
+    state: dict[str, int] = {}
+
+    def visit(name: str, path: list[str]) -> None:
+        if state.get(name) == 2:
+            return
+        if state.get(name) == 1:
+            cycle = path[path.index(name):] + [name]
+            raise InputError(f"expected definitions without cycles, found the cycle "
+                             f"{' -> '.join(cycle)}", where)
+        state[name] = 1
+        for used in names_in(trees[name]):
+            if used in trees:
+                visit(used, path + [name])
+        state[name] = 2
+        order.append(name)
+
+    for name in trees:
+        visit(name, [])
+    return order
+
+
+def _unused_inputs(inputs: tuple[Input, ...], measurands: tuple[Measurand, ...]) -> tuple:
+    used = set().union(*(m.expression.free_symbols for m in measurands))
+    return tuple(f"input '{i.name}' appears in no measurand equation" for i in inputs
+                 if i.symbol not in used and i.standard_uncertainty > 0)
+
+
+def find_line(lines: list[str], table: str | None, key: str | None, nth: int = 0) -> int | None:
+    """1-based line of ``key`` in ``[table]`` (or of the table header), when it can be found."""
+    start = 0
+    if table:
+        header = _header_pattern(table)
+        hits = [i for i, line in enumerate(lines) if header.match(line)]
+        if len(hits) <= nth:
+            return None
+        start = hits[nth]
+        if key is None:
+            return start + 1
+        start += 1
+    elif key is None:
+        return None
+    key_pattern = re.compile(r"\s*(?:\"?)" + re.escape(key) + r"(?:\"?)\s*=")
+    for index in range(start, len(lines)):
+        line = lines[index]
+        if index > start and re.match(r"\s*\[", line) and table is not None:
+            return None
+        if table is None and re.match(r"\s*\[", line):
+            return None
+        if key_pattern.match(line):
+            return index + 1
+    return None
+
+
+def _header_pattern(table: str) -> re.Pattern[str]:
+    parts = [r"\s*\"?" + re.escape(part) + r"\"?\s*" for part in table.split(".")]
+    return re.compile(r"\s*\[\[?" + r"\.".join(parts) + r"\]\]?\s*(#.*)?$")

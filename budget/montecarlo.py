@@ -1,0 +1,367 @@
+"""Propagation of distributions by the Monte Carlo method (JCGM 101:2008).
+
+Method:
+
+* 6.4: every input is drawn from its own distribution; correlated Gaussian inputs as one
+  multivariate Gaussian (6.4.8); correlated non-Gaussian inputs through a Gaussian copula
+  (a documented approximation, announced by a warning); inputs without an inverse
+  distribution function are refused when correlated.
+* 7.2-7.6: M trials in blocks of ``BLOCK`` values; block b draws from its own stream
+  ``SeedSequence(seed, spawn_key=(b,))``, so the numbers depend on the seed only, never on
+  the chunk size or the number of threads; blocks are evaluated on both cores at once,
+  by the model compiled once into a numeric program.
+* 7.7: the probabilistically symmetric interval (quantile indices by selection, not a
+  full sort) and the shortest interval (searched in the sorted tails only).
+* 7.9: the adaptive procedure, batches of ``BLOCK`` trials (≥ max(J, 10⁴)) until twice
+  the standard deviation of the batch means, standard deviations and interval ends is
+  within the numerical tolerance δ.
+* 8.2: validation of the GUM result: d_low = |y − U_p − y_low|, d_high = |y + U_p −
+  y_high|, validated when both are ≤ δ.
+
+Trials whose model value is not finite are dropped and counted; more than
+``NONFINITE_LIMIT`` of them is an error.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass, field
+from typing import Any, Callable
+
+import numpy as np
+
+from .errors import SimulationError
+from .evaluation import compile_model
+from .formatting import decimal_exponent
+from .gum import Budget
+from .model import Model
+
+__all__ = ["BLOCK", "NONFINITE_LIMIT", "Validation", "MeasurandSimulation", "Simulation",
+           "simulate", "tolerance", "coverage_interval", "shortest_interval"]
+
+BLOCK = 1 << 16
+NONFINITE_LIMIT = 0.01
+ADAPTIVE_LIMIT = 20_000_000
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Validation:
+    tolerance: float
+    d_low: float
+    d_high: float
+    validated: bool
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MeasurandSimulation:
+    name: str
+    unit: str
+    trials: int
+    mean: float
+    standard_uncertainty: float
+    interval: tuple[float, float]
+    shortest_interval: tuple[float, float]
+    validation: Validation | None
+    samples: np.ndarray = field(repr=False, compare=False)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Simulation:
+    trials: int
+    seed: int
+    coverage_probability: float
+    adaptive: bool
+    nonfinite: int
+    measurands: tuple[MeasurandSimulation, ...]
+    output_correlation: tuple[tuple[float, ...], ...]
+    warnings: tuple[str, ...] = ()
+
+    def measurand(self, name: str) -> MeasurandSimulation:
+        return next(m for m in self.measurands if m.name == name)
+
+
+def tolerance(u: float, digits: int) -> float:
+    """δ = ½·10^ℓ where u = c·10^ℓ and c has ``digits`` digits (JCGM 101 7.9.2)."""
+    if not math.isfinite(u) or u <= 0.0:
+        return 0.0
+    return 0.5 * 10.0 ** decimal_exponent(u, digits)
+
+
+def coverage_interval(values: np.ndarray, p: float) -> tuple[float, float]:
+    """Probabilistically symmetric interval (JCGM 101 7.7.2); ``values`` is reordered."""
+    lo, hi = _indices(values.size, p)
+    values.partition([lo, hi])
+    return float(values[lo]), float(values[hi])
+
+
+def _indices(m: int, p: float) -> tuple[int, int]:
+    q = _q(m, p)
+    r = (m - q) // 2 if (m - q) % 2 == 0 else (m - q + 1) // 2
+    r = max(r, 1)
+    return r - 1, min(r + q - 1, m - 1)
+
+
+def _q(m: int, p: float) -> int:
+    exact = p * m
+    q = int(round(exact)) if abs(exact - round(exact)) < 1e-9 else int(math.floor(exact + 0.5))
+    return min(max(q, 1), m - 1)
+
+
+def shortest_interval(values: np.ndarray, p: float) -> tuple[float, float]:
+    """Shortest 100p % interval (JCGM 101 7.7.3) from the sorted tails; reorders values."""
+    m = values.size
+    q = _q(m, p)
+    tail = m - q
+    if tail - 1 < q:
+        values.partition([tail - 1, q])
+        low = np.sort(values[:tail])
+        high = np.sort(values[q:])
+    else:
+        values.sort()
+        low, high = values[:tail], values[q:]
+    best = int(np.argmin(high - low))
+    return float(low[best]), float(high[best])
+
+
+class _Sampler:
+    """Draws the inputs of one block and evaluates the model on them."""
+
+    def __init__(self, model: Model, seed: int) -> None:
+        self.model, self.seed = model, seed
+        self.program = compile_model(model)
+        self.groups = _groups(model)
+        self.warnings = _copula_warnings(model, self.groups)
+
+    def block(self, index: int, size: int) -> np.ndarray:
+        rng = np.random.Generator(np.random.PCG64(
+            np.random.SeedSequence(self.seed, spawn_key=(index,))))
+        values: list[Any] = [None] * len(self.model.inputs)
+        for group in self.groups:
+            if len(group) == 1:
+                item = self.model.inputs[group[0]]
+                values[group[0]] = item.estimate if item.standard_uncertainty == 0 \
+                    else item.distribution.sample(rng, size)
+            else:
+                for slot, column in zip(group, _correlated(self.model, group, rng, size)):
+                    values[slot] = column
+        outputs = self.program.evaluate(values)
+        result = np.empty((len(outputs), size))
+        for k, y in enumerate(outputs):
+            result[k] = y
+        return result
+
+
+def _groups(model: Model) -> list[list[int]]:
+    """Inputs joined by correlations (connected components), in model order."""
+    names = [i.name for i in model.inputs]
+    parent = list(range(len(names)))
+
+    def root(i: int) -> int:
+        while parent[i] != i:
+            i = parent[i]
+        return i
+
+    for a, b, _ in model.correlations:
+        parent[root(names.index(a))] = root(names.index(b))
+    groups: dict[int, list[int]] = {}
+    for i in range(len(names)):
+        groups.setdefault(root(i), []).append(i)
+    return sorted(groups.values(), key=lambda g: g[0])
+
+
+def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
+    warnings = []
+    for group in (g for g in groups if len(g) > 1):
+        members = [model.inputs[i] for i in group]
+        odd = [i for i in members if not i.distribution.gaussian]
+        refused = [i.name for i in odd if not i.distribution.has_ppf]
+        if refused:
+            raise SimulationError(
+                f"{model.source}: [[correlations]]: cannot draw correlated "
+                f"{', '.join(refused)} ({', '.join(i.distribution.name for i in odd if i.name in refused)}); "
+                "correlate only inputs with a normal, rectangular, triangular, arcsine, "
+                "trapezoidal or student_t distribution")
+        if odd:
+            warnings.append(
+                f"correlation between non-Gaussian inputs ({', '.join(i.name for i in odd)}):"
+                " drawn through a Gaussian copula; the correlation of the draws differs "
+                "slightly from the stated r")
+    return warnings
+
+
+def _correlated(model: Model, group: list[int], rng: np.random.Generator,
+                size: int) -> list[np.ndarray]:
+    r = model.correlation_matrix()[np.ix_(group, group)]
+    eigenvalues, vectors = np.linalg.eigh(r)
+    factor = vectors * np.sqrt(np.clip(eigenvalues, 0.0, None))
+    z = rng.standard_normal((size, len(group))) @ factor.T
+    columns = []
+    for j, slot in enumerate(group):
+        item = model.inputs[slot]
+        if item.distribution.gaussian:
+            columns.append(item.estimate + item.standard_uncertainty * z[:, j])
+        else:
+            from scipy.special import ndtr
+
+            columns.append(item.distribution.ppf(ndtr(z[:, j])))
+    return columns
+
+
+def _run_blocks(sampler: _Sampler, first: int, count: int, trials: int, out: np.ndarray,
+                progress: Callable[[int], None] | None, workers: int) -> None:
+    """Fill ``out[:, :]`` with blocks first … first+count-1 of a run of ``trials``."""
+    def work(b: int) -> int:
+        start = b * BLOCK
+        size = min(BLOCK, trials - start)
+        out[:, start - first * BLOCK:start - first * BLOCK + size] = sampler.block(b, size)
+        return size
+
+    blocks = range(first, first + count)
+    if workers <= 1:
+        for b in blocks:
+            done = work(b)
+            if progress:
+                progress(done)
+        return
+    with ThreadPoolExecutor(max_workers=workers) as pool:
+        for done in pool.map(work, blocks):
+            if progress:
+                progress(done)
+
+
+def simulate(model: Model, budget: Budget | None = None, *, trials: int | None = None,
+             adaptive: bool = False, seed: int | None = None, coverage: float | None = None,
+             digits: int | None = None, workers: int | None = None,
+             progress: Callable[[int, int], None] | None = None) -> Simulation:
+    """Monte Carlo propagation of distributions; validates ``budget`` when given."""
+    settings = model.settings
+    seed = settings.seed if seed is None else seed
+    coverage = settings.coverage if coverage is None else coverage
+    digits = settings.digits if digits is None else digits
+    workers = workers or min(2, os.cpu_count() or 1)
+    if trials is None:
+        adaptive = adaptive or settings.trials == "adaptive"
+        trials = 0 if settings.trials == "adaptive" else int(settings.trials)
+    sampler = _Sampler(model, seed)
+    if adaptive:
+        samples, warnings = _adaptive(sampler, budget, coverage, digits, workers, progress)
+    else:
+        if trials < 2 or trials < 1.0 / (1.0 - coverage):
+            raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
+                                  f"trials for a {100 * coverage:g} % interval, found {trials}")
+        samples = np.empty((len(model.measurands), trials))
+        ticker = (lambda n, total=trials: progress(n, total)) if progress else None
+        _run_blocks(sampler, 0, -(-trials // BLOCK), trials, samples, ticker, workers)
+        warnings = []
+    return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
+                      sampler.warnings + warnings)
+
+
+def _adaptive(sampler: _Sampler, budget: Budget | None, coverage: float, digits: int,
+              workers: int, progress: Callable[[int, int], None] | None
+              ) -> tuple[np.ndarray, list[str]]:
+    """JCGM 101 7.9 with batches of whole blocks (≥ max(J, 10⁴) trials each)."""
+    j = math.ceil(100.0 / (1.0 - coverage))
+    per_batch = -(-max(j, 10_000) // BLOCK)
+    size = per_batch * BLOCK
+    n_out = len(sampler.model.measurands)
+    batches: list[np.ndarray] = []
+    stats: list[np.ndarray] = []  # per batch: (n_out, 4) mean, sd, low, high
+    while True:
+        h = len(batches)
+        chunk = np.empty((n_out, size))
+        ticker = (lambda n, total=size * (h + 1): progress(h * size + n, total)) \
+            if progress else None
+        _run_blocks(sampler, h * per_batch, per_batch, (h + 1) * size, chunk, ticker,
+                    workers)
+        batches.append(chunk)
+        stats.append(_batch_stats(chunk, coverage))
+        if h >= 1 and _converged(np.concatenate(batches, axis=1), np.array(stats), digits):
+            return np.concatenate(batches, axis=1), []
+        if (h + 2) * size > ADAPTIVE_LIMIT:
+            return np.concatenate(batches, axis=1), [
+                f"adaptive Monte Carlo stopped at {(h + 1) * size} trials before its "
+                f"numerical tolerance was reached (limit {ADAPTIVE_LIMIT})"]
+
+
+def _batch_stats(chunk: np.ndarray, coverage: float) -> np.ndarray:
+    rows = []
+    for y in chunk:
+        finite = y[np.isfinite(y)]
+        if finite.size < 2:
+            rows.append([np.nan] * 4)
+            continue
+        low, high = coverage_interval(finite.copy(), coverage)
+        rows.append([finite.mean(), finite.std(ddof=1), low, high])
+    return np.array(rows)
+
+
+def _converged(all_values: np.ndarray, stats: np.ndarray, digits: int) -> bool:
+    h = stats.shape[0]
+    spread = 2.0 * stats.std(axis=0, ddof=1) / math.sqrt(h)  # (n_out, 4)
+    for k, y in enumerate(all_values):
+        delta = tolerance(float(np.std(y[np.isfinite(y)], ddof=1)), digits)
+        if not np.all(spread[k] <= delta):
+            return False
+    return True
+
+
+def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: int,
+               coverage: float, digits: int, adaptive: bool, warnings: list[str]
+               ) -> Simulation:
+    total = samples.shape[1]
+    finite = np.all(np.isfinite(samples), axis=0)
+    bad = int(total - finite.sum())
+    if bad:
+        samples = samples[:, finite]
+        share = bad / total
+        if share > NONFINITE_LIMIT:
+            raise SimulationError(
+                f"{model.source}: {bad} of {total} Monte Carlo trials ({100 * share:.2g} %) "
+                f"gave a non-finite model value (limit {100 * NONFINITE_LIMIT:g} %); the "
+                "input distributions reach outside the equations' domain")
+        warnings.append(f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) gave a "
+                        "non-finite model value and were left out")
+    results = tuple(_one(model, budget, k, samples[k], coverage, digits)
+                    for k in range(samples.shape[0]))
+    for item in results:
+        if item.validation is not None and not item.validation.validated:
+            warnings.append(
+                f"'{item.name}': Monte Carlo does not validate the GUM result at "
+                f"{item.validation.tolerance:.2g} {item.unit} (d_low = "
+                f"{item.validation.d_low:.2g}, d_high = {item.validation.d_high:.2g}, "
+                "JCGM 101 8.2)")
+    correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
+    correlation = np.nan_to_num(np.atleast_2d(correlation), nan=0.0)
+    return Simulation(trials=total, seed=seed, coverage_probability=coverage,
+                      adaptive=adaptive, nonfinite=bad, measurands=results,
+                      output_correlation=tuple(tuple(float(x) for x in row)
+                                               for row in correlation),
+                      warnings=tuple(warnings))
+
+
+def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: float,
+         digits: int) -> MeasurandSimulation:
+    measurand = model.measurands[k]
+    if y.size < 2:
+        raise SimulationError(f"{model.source}: too few finite Monte Carlo values for "
+                              f"'{measurand.name}'")
+    mean = float(y.mean())
+    sd = float(y.std(ddof=1))
+    work = y.copy()
+    interval = coverage_interval(work, coverage)
+    shortest = shortest_interval(work, coverage)
+    validation = None
+    if budget is not None:
+        gum = budget.measurands[k]
+        delta = tolerance(gum.combined_uncertainty, digits)
+        d_low = abs(gum.estimate - gum.expanded_uncertainty - interval[0])
+        d_high = abs(gum.estimate + gum.expanded_uncertainty - interval[1])
+        validation = Validation(tolerance=delta, d_low=d_low, d_high=d_high,
+                                validated=bool(d_low <= delta and d_high <= delta))
+    return MeasurandSimulation(name=measurand.name, unit=measurand.unit, trials=int(y.size),
+                               mean=mean, standard_uncertainty=sd, interval=interval,
+                               shortest_interval=shortest, validation=validation,
+                               samples=y)

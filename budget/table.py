@@ -1,0 +1,133 @@
+"""The terminal budget table (fits 100 columns): numbers rounded by ``formatting`` only."""
+
+from __future__ import annotations
+
+import math
+
+from .analysis import Result
+from .formatting import format_dof, format_number, format_pair, format_percent
+from .gum import MeasurandBudget
+from .montecarlo import MeasurandSimulation
+
+__all__ = ["render", "result_statement", "SHORT_DISTRIBUTION"]
+
+WIDTH = 100
+SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
+                      "triangular": "triangular", "arcsine": "arcsine",
+                      "trapezoidal": "trapezoidal", "curvilinear_trapezoid": "curv. trap.",
+                      "student_t": "t", "exact": "exact",
+                      "rectangular (atomic weights)": "atomic wts"}
+_HEAD = ("input", "estimate", "unit", "u(x)", "distribution", "type", "ν", "c",
+         "|c|·u(x)", "index %")
+
+
+def render(result: Result) -> str:
+    """The whole terminal output of ``budget run`` (without warnings)."""
+    lines = [result.model.title, "=" * min(WIDTH, len(result.model.title))]
+    for k, measurand in enumerate(result.budget.measurands):
+        simulation = result.simulation.measurands[k] if result.simulation else None
+        lines += ["", *_measurand(result, measurand, simulation)]
+    if len(result.budget.measurands) > 1:
+        lines += ["", *_correlations(result)]
+    return "\n".join(lines)
+
+
+def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None) -> list[str]:
+    model_measurand = result.model.measurands[[m.name for m in result.model.measurands]
+                                              .index(b.name)]
+    heading = f"{b.name} = {model_measurand.equation}   [{b.unit}]"
+    lines = [heading if len(heading) <= WIDTH else heading[:WIDTH - 1] + "…"]
+    if model_measurand.description:
+        lines.append(model_measurand.description[:WIDTH])
+    lines += ["", *_rows(b, result.digits), ""]
+    lines += _summary(b, result.digits)
+    if s is not None:
+        lines += _monte_carlo(b, s, result.digits)
+    return lines
+
+
+def _rows(b: MeasurandBudget, digits: int) -> list[str]:
+    rows = [list(_HEAD)]
+    for c in b.contributions:
+        estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
+                       if c.standard_uncertainty > 0 else (format_number(c.estimate, 10), "0"))
+        rows.append([c.input, estimate, c.unit, u,
+                     SHORT_DISTRIBUTION.get(c.distribution, c.distribution), c.type,
+                     format_dof(c.dof), format_number(c.sensitivity, 4),
+                     format_number(c.contribution, digits), format_percent(c.index)])
+    for t in b.correlation_terms:
+        rows.append([f"r({t.inputs[0]},{t.inputs[1]})", format_number(t.r, 3), "", "", "", "",
+                     "", "", "", format_percent(t.index)])
+    widths = [min(max(len(r[i]) for r in rows), 14) for i in range(len(_HEAD))]
+    bar_room = WIDTH - (sum(widths) + 2 * (len(widths) - 1)) - 2
+    text = []
+    for n, row in enumerate(rows):
+        cells = [_fit(cell, widths[i], right=i not in (0, 2, 4, 5)) for i, cell in
+                 enumerate(row)]
+        line = "  ".join(cells)
+        if n and bar_room >= 4 and n <= len(b.contributions):
+            line += "  " + _bar(b.contributions[n - 1].index, min(bar_room, 20))
+        text.append(line.rstrip())
+    text.insert(1, "-" * min(WIDTH, max(len(t) for t in text)))
+    return text
+
+
+def _fit(cell: str, width: int, right: bool) -> str:
+    if len(cell) > width:
+        cell = cell[:width - 1] + "…"
+    return cell.rjust(width) if right else cell.ljust(width)
+
+
+def _bar(index: float, width: int) -> str:
+    cells = max(0.0, min(100.0, index)) / 100.0 * width
+    full = int(cells)
+    return "█" * full + ("▌" if cells - full >= 0.5 else "")
+
+
+def result_statement(b: MeasurandBudget, digits: int) -> str:
+    value, expanded = format_pair(b.estimate, b.expanded_uncertainty, digits)
+    return (f"{b.name} = ({value} ± {expanded}) {b.unit}, k = {b.coverage_factor:.2f}, "
+            f"coverage probability {100 * b.coverage_probability:g} %")
+
+
+def _summary(b: MeasurandBudget, digits: int) -> list[str]:
+    value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
+    lines = [f"GUM:  y = {value} {b.unit}   u_c = {u} {b.unit}   ν_eff = {format_dof(b.dof)}"
+             f"   k = {b.coverage_factor:.3g}",
+             f"      {result_statement(b, digits)}"]
+    if b.second_order_variance is not None:
+        lines.append(f"      includes GUM 5.1.2 higher-order terms "
+                     f"(first-order u_c = {format_number(b.first_order_uncertainty, 3)})")
+    return lines
+
+
+def _monte_carlo(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> list[str]:
+    mean, u = format_pair(s.mean, s.standard_uncertainty, digits + 1)
+    reference = b.combined_uncertainty if b.combined_uncertainty > 0 else s.standard_uncertainty
+    low, high = (format_pair(x, reference, digits + 1)[0] for x in s.interval)
+    short_low, short_high = (format_pair(x, reference, digits + 1)[0]
+                             for x in s.shortest_interval)
+    p = f"{100 * b.coverage_probability:g} %"
+    lines = [f"MC:   {s.trials:,} trials   y = {mean} {b.unit}   u = {u} {b.unit}",
+             f"      {p} interval [{low}, {high}]   shortest [{short_low}, {short_high}]"]
+    v = s.validation
+    if v is not None:
+        verdict = "validated" if v.validated else "NOT validated"
+        lines.append(f"      GUM result {verdict} (JCGM 101 8.2): d_low = "
+                     f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
+                     f"δ = {format_number(v.tolerance, 1)} {b.unit}")
+    return lines
+
+
+def _correlations(result: Result) -> list[str]:
+    names = [m.name for m in result.budget.measurands]
+    source = result.simulation.output_correlation if result.simulation else \
+        result.budget.output_correlation
+    width = max(8, *(len(n) for n in names))
+    lines = ["output correlation" + (" (Monte Carlo)" if result.simulation else " (GUM)"),
+             " " * width + "".join(n.rjust(width + 2) for n in names)]
+    for i, a in enumerate(names):
+        cells = "".join(f"{source[i][j]:.3f}".rjust(width + 2) if math.isfinite(source[i][j])
+                        else "-".rjust(width + 2) for j in range(len(names)))
+        lines.append(a.ljust(width) + cells)
+    return lines
