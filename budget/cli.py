@@ -147,5 +147,43 @@ def check(model_file: str) -> None:
     _warn(model.warnings)
 
 
+@main.command()
+@click.argument("campaign_file", metavar="CAMPAIGN.toml")
+@click.option("--json", "as_json", is_flag=True, help="Print the JSON certification document.")
+@click.option("--html", "html_file", metavar="FILE", default=None,
+              help="Also write the certification report to FILE.")
+@click.option("--trials", type=click.IntRange(min=0), default=None,
+              help="Monte Carlo trials for the characterization model (0 = none).")
+@click.option("--seed", type=click.IntRange(min=0), default=None, help="Random seed.")
+def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: int | None,
+            seed: int | None) -> None:
+    """Certify a batch: characterization, homogeneity, stability, comparison."""
+    from .campaign import load_campaign
+    from .certification import certify as run_certification
+    from .errors import BudgetError
+
+    progress = _Progress(not as_json)
+    try:
+        campaign = load_campaign(campaign_file)
+        cert = run_certification(campaign, trials=trials, seed=seed, progress=progress)
+        progress.close()
+        if html_file:
+            from .report import write_certification_report
+
+            write_certification_report(cert, html_file)
+    except BudgetError as error:
+        progress.close()
+        _fail(error)
+    if as_json:
+        from .document import certification_document
+
+        click.echo(json.dumps(certification_document(cert), indent=2, allow_nan=False))
+    else:
+        from .table import render_certification
+
+        click.echo(render_certification(cert, campaign.model.settings.digits))
+    _warn(cert.warnings)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

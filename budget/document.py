@@ -101,3 +101,45 @@ def _simulation(s: MeasurandSimulation) -> dict[str, Any]:
         document["validation"] = {"tolerance": v.tolerance, "d_low": v.d_low,
                                   "d_high": v.d_high, "validated": v.validated}
     return document
+
+
+def certification_document(cert: Any) -> dict[str, Any]:
+    """The JSON document of ``budget certify --json`` (shared/spec/certification.md)."""
+    from . import provenance
+
+    campaign, char = cert.campaign, cert.characterization
+    h, s = cert.homogeneity, cert.stability
+    return {
+        "title": campaign.title,
+        "unit": campaign.unit,
+        "certified_value": cert.certified_value,
+        "u": cert.u,
+        "k": cert.k,
+        "U": cert.U,
+        "components": dict(cert.components),
+        "characterization": {
+            "runs": list(char.runs), "mean": char.mean, "s": char.s, "n": char.n,
+            "u_B": char.u_B, "u": char.u, "labels": list(char.labels),
+            "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.dof_B),
+            "scatter_covers": list(campaign.scatter_covers),
+            "budget": result_document(char.result)},
+        "homogeneity": None if h is None else {
+            "ms_between": h.ms_between, "ms_within": h.ms_within, "n0": h.n0,
+            "s_bb": h.s_bb, "u_bb_star": h.u_bb_star, "u_bb": h.u_bb, "F": h.F,
+            "p_value": h.p_value, "units": list(h.units), "means": list(h.means),
+            "counts": list(h.counts)},
+        "stability": None if s is None else {
+            "slope": s.slope, "u_slope": s.u_slope, "p_value": s.p_value, "u_lts": s.u_lts,
+            "intercept": s.intercept, "t": s.t, "dof": s.dof, "shelf_life": s.shelf_life},
+        "comparisons": [{"label": c.label, "E_n": c.E_n, "zeta": c.zeta, "agrees": c.agrees,
+                         "value": c.value, "u": c.u, "U": c.U} for c in cert.comparisons],
+        "warnings": list(cert.warnings),
+        "material": campaign.material,
+        "coverage": cert.coverage,
+        "dof": dof_or_null(cert.dof),
+        "shares": cert.shares,
+        "certificate": dict(campaign.certificate),
+        "provenance": {**provenance.describe(campaign.model, char.result.simulation),
+                       "campaign_file": campaign.source, "campaign_sha256": campaign.sha256},
+        "caution": CAUTION,
+    }

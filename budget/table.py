@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from typing import Any
 
 from .analysis import Result
 from .formatting import format_dof, format_number, format_pair, format_percent
@@ -50,7 +51,7 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
     rows = [list(_HEAD)]
     for c in b.contributions:
         estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
-                       if c.standard_uncertainty > 0 else (format_number(c.estimate, 10), "0"))
+                       if c.standard_uncertainty > 0 else (f"{c.estimate:.10g}", "0"))
         rows.append([c.input, estimate, c.unit, u,
                      SHORT_DISTRIBUTION.get(c.distribution, c.distribution), c.type,
                      format_dof(c.dof), format_number(c.sensitivity, 4),
@@ -65,7 +66,7 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
         cells = [_fit(cell, widths[i], right=i not in (0, 2, 4, 5)) for i, cell in
                  enumerate(row)]
         line = "  ".join(cells)
-        if n and bar_room >= 4 and n <= len(b.contributions):
+        if n and bar_room >= 6 and n <= len(b.contributions):
             line += "  " + _bar(b.contributions[n - 1].index, min(bar_room, 20))
         text.append(line.rstrip())
     text.insert(1, "-" * min(WIDTH, max(len(t) for t in text)))
@@ -131,3 +132,40 @@ def _correlations(result: Result) -> list[str]:
                         else "-".rjust(width + 2) for j in range(len(names)))
         lines.append(a.ljust(width) + cells)
     return lines
+
+
+def render_certification(cert: Any, digits: int = 2) -> str:
+    """Terminal summary of ``budget certify``."""
+    campaign, char = cert.campaign, cert.characterization
+    unit = campaign.unit
+    value, expanded = format_pair(cert.certified_value, cert.U, digits)
+    lines = [campaign.title, "=" * min(WIDTH, len(campaign.title))]
+    if campaign.material:
+        lines.append(campaign.material)
+    lines += ["", f"certified value: ({value} ± {expanded}) {unit}, k = {cert.k:.3g}"
+              + (f", coverage probability {100 * cert.coverage:g} %" if cert.coverage else ""),
+              "", "component                 u / " + unit + "      share of u_CRM²"]
+    for name, u in cert.components:
+        share = cert.shares[name]
+        lines.append(f"{name.replace('_', ' '):24}  {format_number(u, digits):>10}    "
+                     f"{format_percent(share):>6} %  {_bar(share, 20)}")
+    lines.append(f"{'u_CRM':24}  {format_number(cert.u, digits):>10}")
+    lines += ["", f"characterization: {char.n} runs, mean {format_number(char.mean, 8)}, "
+              f"s = {format_number(char.s, digits)}, u_B = {format_number(char.u_B, digits)},"
+              f" u_char = {format_number(char.u, digits)} {unit}"]
+    if cert.homogeneity:
+        h = cert.homogeneity
+        lines.append(f"homogeneity: {len(h.units)} units, F = {h.F:.3g} (p = {h.p_value:.2g}),"
+                     f" s_bb = {format_number(h.s_bb, digits)}, u*_bb = "
+                     f"{format_number(h.u_bb_star, digits)} {unit}")
+    if cert.stability:
+        s = cert.stability
+        lines.append(f"stability: slope {format_number(s.slope, digits)} ± "
+                     f"{format_number(s.u_slope, digits)} per time unit (p = "
+                     f"{s.p_value:.2g}), u_lts = {format_number(s.u_lts, digits)} {unit} over "
+                     f"{s.shelf_life:g}")
+    for c in cert.comparisons:
+        verdict = "agrees" if c.agrees else "DOES NOT AGREE"
+        lines.append(f"comparison with {c.label}: E_n = {c.E_n:.2f}, ζ = {c.zeta:.2f}, "
+                     f"{verdict}")
+    return "\n".join(lines)

@@ -1,0 +1,304 @@
+"""Certification of a reference-material batch (ISO 17034, ISO Guide 35).
+
+Method:
+
+* characterization: y_i = f(x_i) for each run (row); x̄_char = mean y_i;
+  u_char² = u_B² + s²/n, where u_B is the GUM combined standard uncertainty of the model
+  at the mean of the run inputs with every stated uncertainty except those the scatter
+  of the runs already covers (``scatter_covers``), and s²/n the repeatability of the mean;
+* homogeneity: one-way analysis of variance (ISO Guide 35:2017 7.7, Linsinger et al.,
+  Accred. Qual. Assur. 6 (2001) 20); n₀ = (N − Σn_i²/N)/(p − 1);
+  s_bb = √(max(0, MS_between − MS_within)/n₀); u*_bb = √(MS_within/n₀)·(2/ν_within)^¼;
+  u_bb = max(s_bb, u*_bb) (common practice); F and its p-value;
+* stability: least-squares line of value against time, slope b₁, s(b₁), t-test of the
+  slope; u_lts = s(b₁)·shelf life (ISO Guide 35:2017 8.7);
+* certified value: u_CRM² = u_char² + u_bb² + u_lts² + u_sts², U = k·u_CRM; with a
+  coverage probability instead of k, k = t_p(ν_eff) with ν_eff by Welch–Satterthwaite;
+* comparison (ISO 13528:2015 9.7, 9.8): E_n = (x_char − x)/√(U_char² + U²) with
+  U_char = k·u_char, ζ = (x_char − x)/√(u_char² + u²); agreement when |E_n| ≤ 1 and
+  |ζ| ≤ 2.
+
+This module drives the engine (``analysis.evaluate``) once; it never reaches up to the
+report or the command line.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from typing import Callable
+
+import numpy as np
+
+from .analysis import Result, evaluate
+from .campaign import Campaign
+from .errors import CampaignError, Location
+from .evaluation import compile_model
+from .gum import coverage_factor, welch_satterthwaite
+from .model import Model
+from .units import parse_unit
+
+__all__ = ["Homogeneity", "Stability", "Characterization", "ComparisonScore",
+           "Certification", "anova", "trend", "certify"]
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Homogeneity:
+    units: tuple[str, ...]
+    means: tuple[float, ...]
+    counts: tuple[int, ...]
+    ms_between: float
+    ms_within: float
+    n0: float
+    s_bb: float
+    u_bb_star: float
+    u_bb: float
+    F: float
+    p_value: float
+    dof_between: int
+    dof_within: int
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Stability:
+    times: tuple[float, ...]
+    values: tuple[float, ...]
+    intercept: float
+    slope: float
+    u_slope: float
+    residual_sd: float
+    t: float
+    p_value: float
+    dof: int
+    shelf_life: float
+    u_lts: float
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Characterization:
+    runs: tuple[float, ...]
+    labels: tuple[str, ...]
+    mean: float
+    s: float
+    n: int
+    u_B: float
+    dof_B: float
+    u: float
+    dof: float
+    result: Result = field(repr=False, compare=False)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class ComparisonScore:
+    label: str
+    value: float
+    u: float
+    U: float
+    E_n: float
+    zeta: float
+    agrees: bool
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Certification:
+    campaign: Campaign
+    certified_value: float
+    u: float
+    k: float
+    U: float
+    coverage: float | None
+    dof: float
+    components: tuple[tuple[str, float], ...]
+    characterization: Characterization
+    homogeneity: Homogeneity | None
+    stability: Stability | None
+    comparisons: tuple[ComparisonScore, ...]
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def shares(self) -> dict[str, float]:
+        return {name: 100.0 * u * u / (self.u * self.u) if self.u > 0 else 0.0
+                for name, u in self.components}
+
+
+def anova(groups: list[np.ndarray], labels: list[str] | None = None) -> Homogeneity:
+    """One-way ANOVA between-unit homogeneity (ISO Guide 35), balanced or not."""
+    from scipy.special import fdtrc
+
+    counts = np.array([g.size for g in groups])
+    p, total = len(groups), int(counts.sum())
+    means = np.array([g.mean() for g in groups])
+    grand = np.concatenate(groups).mean()
+    dof_b, dof_w = p - 1, total - p
+    ms_b = float(np.sum(counts * (means - grand) ** 2) / dof_b)
+    ms_w = float(sum(np.sum((g - g.mean()) ** 2) for g in groups) / dof_w)
+    n0 = (total - float(np.sum(counts ** 2)) / total) / dof_b
+    s_bb = math.sqrt(max(0.0, ms_b - ms_w) / n0)
+    u_star = math.sqrt(ms_w / n0) * (2.0 / dof_w) ** 0.25
+    f = ms_b / ms_w if ms_w > 0 else math.inf
+    p_value = float(fdtrc(dof_b, dof_w, f)) if math.isfinite(f) else 0.0
+    return Homogeneity(units=tuple(labels or (str(i + 1) for i in range(p))),
+                       means=tuple(float(m) for m in means),
+                       counts=tuple(int(c) for c in counts), ms_between=ms_b, ms_within=ms_w,
+                       n0=n0, s_bb=s_bb, u_bb_star=u_star, u_bb=max(s_bb, u_star), F=f,
+                       p_value=p_value, dof_between=dof_b, dof_within=dof_w)
+
+
+def trend(times: np.ndarray, values: np.ndarray, shelf_life: float) -> Stability:
+    """Least-squares line, t-test of its slope and u_lts = s(b₁)·shelf life."""
+    from scipy.special import stdtr
+
+    n = times.size
+    t_mean = times.mean()
+    sxx = float(np.sum((times - t_mean) ** 2))
+    slope = float(np.sum((times - t_mean) * (values - values.mean())) / sxx)
+    intercept = float(values.mean() - slope * t_mean)
+    residuals = values - (intercept + slope * times)
+    s = math.sqrt(float(np.sum(residuals ** 2)) / (n - 2))
+    u_slope = s / math.sqrt(sxx)
+    t = slope / u_slope if u_slope > 0 else math.inf
+    p_value = 2.0 * float(stdtr(n - 2, -abs(t))) if math.isfinite(t) else 0.0
+    return Stability(times=tuple(float(x) for x in times),
+                     values=tuple(float(v) for v in values), intercept=intercept,
+                     slope=slope, u_slope=u_slope, residual_sd=s, t=t, p_value=p_value,
+                     dof=n - 2, shelf_life=shelf_life, u_lts=u_slope * shelf_life)
+
+
+def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None = None,
+            progress: Callable[[int, int], None] | None = None) -> Certification:
+    """The certified value, its uncertainty budget and the comparisons."""
+    warnings: list[str] = []
+    char = _characterize(campaign, trials, seed, progress, warnings)
+    homogeneity = None
+    if campaign.homogeneity is not None:
+        homogeneity = anova([v for _, v in campaign.homogeneity],
+                            [u for u, _ in campaign.homogeneity])
+        if homogeneity.p_value < 0.05:
+            warnings.append(f"homogeneity: the between-unit effect is significant (F = "
+                            f"{homogeneity.F:.3g}, p = {homogeneity.p_value:.3g} < 0.05)")
+    else:
+        warnings.append("no homogeneity study: u_bb is taken as 0")
+    stability = None
+    if campaign.stability is not None:
+        stability = trend(*campaign.stability, campaign.shelf_life)
+        if stability.p_value < 0.05:
+            warnings.append(f"stability: the trend is significant (slope "
+                            f"{stability.slope:.3g} {campaign.unit} per time unit, p = "
+                            f"{stability.p_value:.3g} < 0.05)")
+    else:
+        warnings.append("no stability study: u_lts and u_sts are taken as 0")
+    return _certified(campaign, char, homogeneity, stability, warnings)
+
+
+def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogeneity | None,
+               stability: Stability | None, warnings: list[str]) -> Certification:
+    components = (("characterization", char.u),
+                  ("homogeneity", homogeneity.u_bb if homogeneity else 0.0),
+                  ("long_term_stability", stability.u_lts if stability else 0.0),
+                  ("short_term_stability", campaign.u_short_term))
+    u = math.sqrt(math.fsum(c * c for _, c in components))
+    dofs = np.array([char.dof, homogeneity.dof_between if homogeneity else math.inf,
+                     stability.dof if stability else math.inf, math.inf], dtype=float)
+    nu = welch_satterthwaite(u, np.array([c for _, c in components]), dofs)
+    k = campaign.k if campaign.k is not None else coverage_factor(campaign.coverage, nu)
+    k_char = k
+    scores = tuple(_score(c, char, k_char) for c in campaign.comparisons)
+    for s in scores:
+        if not s.agrees:
+            warnings.append(f"comparison with '{s.label}': no agreement (E_n = {s.E_n:.2f}, "
+                            f"ζ = {s.zeta:.2f})")
+    return Certification(campaign=campaign, certified_value=char.mean, u=u, k=k, U=k * u,
+                         coverage=campaign.coverage, dof=nu, components=components,
+                         characterization=char, homogeneity=homogeneity, stability=stability,
+                         comparisons=scores,
+                         warnings=tuple(dict.fromkeys([*char.result.warnings, *warnings])))
+
+
+def _score(comparison, char: Characterization, k: float) -> ComparisonScore:
+    difference = char.mean - comparison.value
+    e_n = difference / math.hypot(k * char.u, comparison.expanded_uncertainty)
+    zeta = difference / math.hypot(char.u, comparison.standard_uncertainty)
+    return ComparisonScore(label=comparison.label, value=comparison.value,
+                           u=comparison.standard_uncertainty,
+                           U=comparison.expanded_uncertainty, E_n=e_n, zeta=zeta,
+                           agrees=bool(abs(e_n) <= 1.0 and abs(zeta) <= 2.0))
+
+
+def _characterize(campaign: Campaign, trials: int | None, seed: int | None,
+                  progress: Callable[[int, int], None] | None,
+                  warnings: list[str]) -> Characterization:
+    model = campaign.model
+    index = [m.name for m in model.measurands].index(campaign.measurand)
+    scale = _unit_scale(campaign, model.measurands[index].unit)
+    runs = _run_values(campaign, index) * scale
+    n = runs.size
+    if n < 2:
+        raise CampaignError(f"expected at least 2 runs, found {n}",
+                            Location(file=campaign.source, table="characterization",
+                                     key="runs"))
+    at_mean = _model_at_mean(campaign)
+    result = evaluate(at_mean, trials=trials, seed=seed, progress=progress)
+    gum = result.budget.measurands[index]
+    u_b = gum.combined_uncertainty * scale
+    s = float(np.std(runs, ddof=1))
+    u = math.sqrt(u_b ** 2 + s * s / n)
+    nu = welch_satterthwaite(u, np.array([u_b, s / math.sqrt(n)]),
+                             np.array([gum.dof, n - 1.0]))
+    labels = _labels(campaign)
+    return Characterization(runs=tuple(float(y) for y in runs), labels=labels,
+                            mean=float(runs.mean()), s=s, n=n, u_B=u_b, dof_B=gum.dof, u=u,
+                            dof=nu, result=result)
+
+
+def _unit_scale(campaign: Campaign, unit: str) -> float:
+    where = Location(file=campaign.source, key="unit")
+    wanted, given = parse_unit(campaign.unit, where), parse_unit(unit, where)
+    if wanted.dimensionality != given.dimensionality or wanted.offset or given.offset:
+        from .errors import UnitError
+
+        raise UnitError(f"expected a unit of the measurand's dimension ('{unit}'), found "
+                        f"'{campaign.unit}'", where)
+    return float(given.factor / wanted.factor)
+
+
+def _run_values(campaign: Campaign, index: int) -> np.ndarray:
+    model = campaign.model
+    values: list[object] = [i.estimate for i in model.inputs]
+    names = [i.name for i in model.inputs]
+    for name in campaign.run_inputs:
+        values[names.index(name)] = campaign.runs[name].to_numpy(dtype=float)
+    with np.errstate(all="ignore"):
+        y = np.broadcast_to(compile_model(model).evaluate(values)[index],
+                            (len(campaign.runs),)).astype(float)
+    bad = np.flatnonzero(~np.isfinite(y))
+    if bad.size:
+        raise CampaignError(f"expected a finite model value for every run, found none for "
+                            f"row {bad[0] + 1}", Location(file=campaign.source,
+                                                           table="characterization",
+                                                           key="runs"))
+    return y
+
+
+def _model_at_mean(campaign: Campaign) -> Model:
+    """The model at the mean run inputs, without the uncertainties the scatter covers."""
+    from .distributions import Exact
+
+    inputs = []
+    for item in campaign.model.inputs:
+        if item.name in campaign.run_inputs:
+            mean = float(campaign.runs[item.name].to_numpy(dtype=float).mean())
+            item = replace(item, estimate=mean,
+                           distribution=replace(item.distribution, estimate=mean))
+        if item.name in campaign.scatter_covers:
+            item = replace(item, standard_uncertainty=0.0, dof=math.inf,
+                           distribution=Exact(item.estimate), basis="covered by the scatter")
+        inputs.append(item)
+    return replace(campaign.model, inputs=tuple(inputs))
+
+
+def _labels(campaign: Campaign) -> tuple[str, ...]:
+    frame = campaign.runs
+    label_columns = [c for c in frame.columns if c not in campaign.run_inputs]
+    if not label_columns:
+        return tuple(str(i + 1) for i in range(len(frame)))
+    return tuple(str(v) for v in frame[label_columns[0]])
