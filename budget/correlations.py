@@ -37,7 +37,7 @@ def read(entries: Any, names: Sequence[str],
                              f"in correlation {index + 1}", here("between"))
         seen.add(key)
         pairs.append(pair)
-    _check_definite(names, pairs, where(None, "correlations"))
+    _check_definite(names, pairs, where("correlations"))
     return tuple(pairs)
 
 

@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 import sympy
 
-from .errors import PropagationError
+from .errors import Location, PropagationError
 from .model import Model
 from .program import Program
 
@@ -44,17 +44,17 @@ def jacobian_at_estimates(model: Model) -> tuple[np.ndarray, np.ndarray]:
     program = compile_model(model)
     values, jac = program.gradient(estimates(model))
     for k, measurand in enumerate(model.measurands):
+        where = Location(file=model.source, table=f"measurands.{measurand.name}",
+                         key="equation", line=measurand.line)
         if not math.isfinite(values[k]):
             raise PropagationError(
-                f"{model.source}: [measurands.{measurand.name}] equation: expected a finite "
-                f"value at the estimates, found {values[k]} (a division by zero or a "
-                f"function outside its domain in '{measurand.equation}')")
+                f"expected a finite value at the estimates, found {values[k]} (a division by "
+                f"zero or a function outside its domain in '{measurand.equation}')", where)
         bad = [i.name for j, i in enumerate(model.inputs) if not math.isfinite(jac[k, j])]
         if bad:
             raise PropagationError(
-                f"{model.source}: [measurands.{measurand.name}] equation: expected finite "
-                f"sensitivity coefficients at the estimates, found none for "
-                f"{', '.join(bad)} (the equation is not differentiable there)")
+                f"expected finite sensitivity coefficients at the estimates, found none for "
+                f"{', '.join(bad)} (the equation is not differentiable there)", where)
     return values, jac
 
 

@@ -33,14 +33,14 @@ FUNCTIONS = tuple(sorted([*_PLAIN, "air_density"]))
 
 _BINARY = {ast.Add: "+", ast.Sub: "-", ast.Mult: "*", ast.Div: "/", ast.Pow: "**"}
 _FORBIDDEN = {
-    ast.Attribute: "attribute access", ast.Subscript: "subscripts",
-    ast.Lambda: "lambdas", ast.ListComp: "comprehensions", ast.SetComp: "comprehensions",
-    ast.DictComp: "comprehensions", ast.GeneratorExp: "comprehensions",
-    ast.Compare: "comparisons", ast.BoolOp: "boolean operators",
-    ast.IfExp: "conditional expressions", ast.List: "lists", ast.Tuple: "tuples",
-    ast.Dict: "dictionaries", ast.Set: "sets", ast.NamedExpr: "assignments",
-    ast.Starred: "starred arguments", ast.JoinedStr: "strings", ast.Await: "await",
-    ast.Yield: "yield", ast.YieldFrom: "yield", ast.Slice: "slices",
+    ast.Attribute: "an attribute access", ast.Subscript: "a subscript",
+    ast.Lambda: "a lambda", ast.ListComp: "a comprehension", ast.SetComp: "a comprehension",
+    ast.DictComp: "a comprehension", ast.GeneratorExp: "a comprehension",
+    ast.Compare: "a comparison", ast.BoolOp: "a boolean operator",
+    ast.IfExp: "a conditional expression", ast.List: "a list", ast.Tuple: "a tuple",
+    ast.Dict: "a dictionary", ast.Set: "a set", ast.NamedExpr: "an assignment",
+    ast.Starred: "a starred argument", ast.JoinedStr: "a string", ast.Await: "an await",
+    ast.Yield: "a yield", ast.YieldFrom: "a yield", ast.Slice: "a slice",
 }
 
 
@@ -65,7 +65,12 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
     except SyntaxError as exc:
         raise ModelSyntaxError(f"expected an arithmetic expression, found '{text.strip()}' "
                                f"(syntax error at column {exc.offset or 0})", where) from exc
-    for node in ast.walk(tree):
+    nodes = list(ast.walk(tree))
+    for node in nodes:  # constructs first, so that '(lambda: x)()' is named a lambda
+        if type(node) in _FORBIDDEN:
+            raise ModelSyntaxError(f"expected arithmetic only, found {_FORBIDDEN[type(node)]}"
+                                   f" in '{text.strip()}'", where)
+    for node in nodes:
         _check_node(node, text, where)
     return tree
 
@@ -79,13 +84,11 @@ def _check_node(node: ast.AST, text: str, where: Location) -> None:
     if isinstance(node, ast.UnaryOp) and not isinstance(node.op, (ast.USub, ast.UAdd)):
         raise ModelSyntaxError(f"expected unary + or -, found '{_op_text(node.op)}' in "
                                f"'{text.strip()}'", where)
-    if type(node) in _FORBIDDEN:
-        raise ModelSyntaxError(f"{_FORBIDDEN[type(node)]} are not allowed in expressions: "
-                               f"'{text.strip()}'", where)
     if isinstance(node, ast.Constant) and (isinstance(node.value, bool)
                                            or not isinstance(node.value, (int, float))):
-        raise ModelSyntaxError(f"expected a number, found {node.value!r} in "
-                               f"'{text.strip()}'", where)
+        kind = "a string" if isinstance(node.value, str) else type(node.value).__name__
+        raise ModelSyntaxError(f"expected a number, found {kind} {node.value!r} in "
+                               f"\"{text.strip()}\"", where)
     if isinstance(node, ast.Name) and node.id.startswith("__"):
         raise ModelSyntaxError(f"names starting with '__' are not allowed: '{node.id}'", where)
     if isinstance(node, ast.Call):

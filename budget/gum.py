@@ -9,7 +9,8 @@ Method:
 * ν_eff by Welch–Satterthwaite, eq. (G.2b); the GUM's rule has no term for correlations,
   so with correlated inputs the correlation terms count with infinite degrees of freedom
   (stated in ``dof_rule``);
-* k = t_p(ν) with ν_eff truncated to the next lower integer (GUM G.4.1 note 1), or the
+* k = t_p(ν) with ν_eff (rounded to 0.1) truncated to the next lower integer (GUM G.4.1
+  note 1), or the
   normal quantile when ν_eff is infinite; U = k·u_c (GUM 6.2, G.6.4);
 * several measurands: the output covariance U_y = J U_x Jᵀ (JCGM 102 6.2.1.3).
 """
@@ -108,13 +109,17 @@ class Budget:
 
 
 def coverage_factor(coverage: float, dof: float) -> float:
-    """k_p = t_p(ν) at the integer below ν (GUM G.4.1 note 1); normal when ν = ∞."""
+    """k_p = t_p(ν) at the integer below ν (GUM G.4.1 note 1); normal when ν = ∞.
+
+    ν is rounded to one decimal before it is truncated, so that 18.999 counts as 19, as in
+    the GUM's own G.4.1 example (ν_eff = 19.0, t_95(19) = 2.09).
+    """
     from scipy.special import ndtri, stdtrit
 
     tail = 0.5 + coverage / 2.0
     if math.isinf(dof):
         return float(ndtri(tail))
-    return float(stdtrit(max(1.0, math.floor(dof + 1e-9)), tail))
+    return float(stdtrit(max(1.0, math.floor(round(dof, 1))), tail))
 
 
 def welch_satterthwaite(combined: float, components: np.ndarray, dofs: np.ndarray) -> float:

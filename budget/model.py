@@ -79,6 +79,7 @@ class Measurand:
     expression: Any
     shown: Any
     description: str = ""
+    line: int | None = None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -147,7 +148,7 @@ def decode(data: bytes | str, name: str, what: str = "model") -> str:
             text = data.decode("utf-8-sig")
         except UnicodeDecodeError as exc:
             raise ModelSyntaxError(f"expected UTF-8 text, found an undecodable byte at "
-                                   f"offset {exc.start}", Location(file=name)) from exc
+                                   f"byte {exc.start + 1}", Location(file=name)) from exc
     if not text.strip():
         raise ModelSyntaxError(f"expected a TOML {what}, found an empty file",
                                Location(file=name))
@@ -303,7 +304,7 @@ class _Reader:
             unit.factor.numerator, unit.factor.denominator)
         return Measurand(name=name, equation=data["equation"].strip(), unit=unit.text,
                          expression=expression, shown=term.shown,
-                         description=str(data.get("description", "")))
+                         description=str(data.get("description", "")), line=eq_where.line)
 
 
 def check_settings(data: dict, where: Any) -> Settings:

@@ -209,9 +209,11 @@ def _bounded(table: _Table, shape: str, estimate: float, *, half_width: float | 
              u: float | None) -> Any:
     """A bounded shape from its half-width, or from its standard uncertainty u."""
     if shape in ("normal", "student_t"):
+        key = "distribution" if table.has("distribution") else \
+            ("half_width" if table.has("half_width") else "lower")
         raise InputError(f"expected a bounded distribution (rectangular, triangular, "
                          f"arcsine, trapezoidal, curvilinear_trapezoid) for limits or a "
-                         f"half-width, found '{shape}'", table.where("distribution"))
+                         f"half-width, found '{shape}'", table.where(key))
     if shape != "trapezoidal":
         _no_keys(table, ("beta",), f"to a {shape} distribution")
     if shape != "curvilinear_trapezoid":

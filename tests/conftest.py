@@ -1,0 +1,32 @@
+"""Shared helpers: models from strings, the CLI run in process."""
+
+from __future__ import annotations
+
+import textwrap
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from budget.cli import main
+from budget.model import parse_model
+
+ROOT = Path(__file__).resolve().parent.parent
+MODELS = ROOT / "models"
+
+
+def model(text: str, name: str = "test.toml", **overrides):
+    """A model parsed from an indented TOML string."""
+    return parse_model(textwrap.dedent(text), name=name, **overrides)
+
+
+@pytest.fixture
+def cli():
+    """Run ``budget`` in process; returns (exit code, stdout, stderr)."""
+    runner = CliRunner()
+
+    def invoke(*args: str):
+        result = runner.invoke(main, list(args), catch_exceptions=False)
+        return result.exit_code, result.stdout, result.stderr
+
+    return invoke
