@@ -428,6 +428,11 @@ def find_line(lines: list[str], table: str | None, key: str | None, nth: int = 0
         start += 1
     elif key is None:
         return None
+    else:
+        header = _header_pattern(key)
+        for index, line in enumerate(lines):
+            if header.match(line) or line.strip().startswith(f"[{key}."):
+                return index + 1
     key_pattern = re.compile(r"\s*(?:\"?)" + re.escape(key) + r"(?:\"?)\s*=")
     for index in range(start, len(lines)):
         line = lines[index]
