@@ -132,6 +132,36 @@ def _print_result(result: Any, as_json: bool) -> None:
 
 @main.command()
 @click.argument("model_file", metavar="MODEL.toml")
+@_common
+@click.option("--target", type=click.FloatRange(min=0, min_open=True), default=None,
+              metavar="U", help="What each leading input's u must be for this U.")
+def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
+            coverage: float | None, digits: int | None, as_json: bool,
+            target: float | None) -> None:
+    """What dominates the uncertainty of MODEL.toml, why, and what would reduce it."""
+    from .errors import BudgetError
+    from .explain import explain as run_explain, explanation_document, render
+
+    progress = _Progress(not as_json)
+    try:
+        result = _evaluate(model_file, trials, adaptive, seed, coverage, digits, False,
+                           progress)
+        progress.close()
+        explanations = run_explain(result, target=target)
+    except BudgetError as error:
+        progress.close()
+        _fail(error)
+    if as_json:
+        document = {"title": result.model.title, "model_sha256": result.model.sha256,
+                    **explanation_document(explanations), "warnings": list(result.warnings)}
+        click.echo(json.dumps(document, indent=2, allow_nan=False))
+    else:
+        click.echo(render(explanations, result.digits))
+    _warn(result.warnings)
+
+
+@main.command()
+@click.argument("model_file", metavar="MODEL.toml")
 def check(model_file: str) -> None:
     """Validate MODEL.toml (syntax, names, units, distributions, correlations)."""
     from .errors import BudgetError

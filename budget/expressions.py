@@ -46,12 +46,15 @@ _FORBIDDEN = {
 
 @dataclass(frozen=True, slots=True)
 class Term:
-    """A built sub-expression: value in coherent SI, as written, and its unit."""
+    """A built sub-expression: in coherent SI (``expr``), as written (``shown``), and in
+    coherent SI with built-in functions kept as opaque calls (``opaque``, for display of
+    sensitivity formulas), with its unit."""
 
     expr: Any
     shown: Any
     unit: Any
     offset: bool = False
+    opaque: Any = None
 
 
 def parse_expression(text: Any, where: Location) -> ast.Expression:
@@ -144,7 +147,7 @@ class _Builder:
         if isinstance(node, ast.Constant):
             number = sympy.Integer(node.value) if isinstance(node.value, int) \
                 else sympy.Float(repr(node.value))
-            return Term(number, number, self.dimensionless)
+            return Term(number, number, self.dimensionless, opaque=number)
         if isinstance(node, ast.Name):
             return self.name(node)
         if isinstance(node, ast.UnaryOp):
@@ -164,7 +167,7 @@ class _Builder:
         if isinstance(node.op, ast.UAdd):
             return inner
         self.refuse_offset(inner, node)
-        return Term(-inner.expr, -inner.shown, inner.unit)
+        return Term(-inner.expr, -inner.shown, inner.unit, opaque=-inner.opaque)
 
     def binary(self, node: ast.BinOp) -> Term:
         left, right = self.visit(node.left), self.visit(node.right)
@@ -174,10 +177,10 @@ class _Builder:
             self.refuse_offset(side, node)
         if isinstance(node.op, ast.Mult):
             return Term(left.expr * right.expr, left.shown * right.shown,
-                        left.unit * right.unit)
+                        left.unit * right.unit, opaque=left.opaque * right.opaque)
         if isinstance(node.op, ast.Div):
             return Term(left.expr / right.expr, left.shown / right.shown,
-                        left.unit / right.unit)
+                        left.unit / right.unit, opaque=left.opaque / right.opaque)
         return self.power(node, left, right)
 
     def sum(self, node: ast.BinOp, left: Term, right: Term) -> Term:
@@ -198,7 +201,7 @@ class _Builder:
                             f"difference in '{self.segment(node)}'", self.where)
         combine = (lambda a, b: a + b) if plus else (lambda a, b: a - b)
         return Term(combine(left.expr, right.expr), combine(left.shown, right.shown),
-                    left.unit, offset)
+                    left.unit, offset, combine(left.opaque, right.opaque))
 
     def power(self, node: ast.BinOp, base: Term, exponent: Term) -> Term:
         if not exponent.unit.dimensionless:
@@ -212,7 +215,8 @@ class _Builder:
                                 f"found '{self.segment(node.right)}'", self.where)
             power = Fraction(str(sympy.nsimplify(exponent.expr)))
             unit = base.unit ** (power.numerator if power.denominator == 1 else float(power))
-        return Term(base.expr ** exponent.expr, base.shown ** exponent.shown, unit)
+        return Term(base.expr ** exponent.expr, base.shown ** exponent.shown, unit,
+                    opaque=base.opaque ** exponent.opaque)
 
     def refuse_offset(self, term: Term, node: ast.AST) -> None:
         if term.offset:
@@ -236,7 +240,8 @@ class _Builder:
         else:
             unit = self.dimensionless
         function: Callable[[Any], Any] = _PLAIN[name]
-        return Term(function(arg.expr), function(arg.shown), unit)
+        return Term(function(arg.expr), function(arg.shown), unit,
+                    opaque=function(arg.opaque))
 
     def air_density(self, node: ast.Call, args: list[Term]) -> Term:
         from .chemistry import air_density_expression
@@ -250,8 +255,12 @@ class _Builder:
                 raise UnitError(f"air_density() expects its {label} in {dimension_text(unit)}"
                                 f", found '{self.segment(arg_node)}' in "
                                 f"{dimension_text(arg.unit)}", self.where)
-        celsius = args[0].expr if args[0].offset else args[0].expr - sympy.Rational(27315, 100)
+        kelvin = sympy.Rational(27315, 100)
+        celsius = args[0].expr if args[0].offset else args[0].expr - kelvin
         values = [celsius, *(a.expr for a in args[1:])]
-        shown = sympy.Function("air_density")(*(a.shown for a in args))
+        function = sympy.Function("air_density")
+        shown = function(*(a.shown for a in args))
+        opaque = function(args[0].opaque if args[0].offset else args[0].opaque - kelvin,
+                          *(a.opaque for a in args[1:]))
         density = air_density_expression(*values)
-        return Term(density, shown, reg.kilogram / reg.meter ** 3)
+        return Term(density, shown, reg.kilogram / reg.meter ** 3, opaque=opaque)

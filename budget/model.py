@@ -78,6 +78,7 @@ class Measurand:
     unit: str
     expression: Any
     shown: Any
+    opaque: Any = None
     description: str = ""
     line: int | None = None
 
@@ -268,7 +269,8 @@ class _Reader:
         for name in order:
             where = self.where("definitions", name)
             term = build(trees[name], terms, texts[name], where)
-            terms[name] = Term(term.expr, sympy.Symbol(name), term.unit, term.offset)
+            terms[name] = Term(term.expr, sympy.Symbol(name), term.unit, term.offset,
+                               term.opaque)
             made.append(Definition(name=name, text=texts[name].strip(), shown=term.shown,
                                    unit=f"{term.unit:~}"))
         return tuple(made), terms
@@ -300,10 +302,10 @@ class _Reader:
                      eq_where)
         unit_where = self.where("measurands." + name, "unit")
         unit = _measurand_unit(data.get("unit"), term, unit_where)
-        expression = term.expr if unit.factor == 1 else term.expr / sympy.Rational(
-            unit.factor.numerator, unit.factor.denominator)
+        factor = sympy.Rational(unit.factor.numerator, unit.factor.denominator)
         return Measurand(name=name, equation=data["equation"].strip(), unit=unit.text,
-                         expression=expression, shown=term.shown,
+                         expression=term.expr / factor, shown=term.shown,
+                         opaque=term.opaque / factor,
                          description=str(data.get("description", "")), line=eq_where.line)
 
 
@@ -368,7 +370,8 @@ def _input_term(item: Input, where: Location) -> Term:
     unit = parse_unit(item.unit, where)
     symbol = item.symbol
     factor = sympy.Rational(unit.factor.numerator, unit.factor.denominator)
-    return Term(symbol if factor == 1 else factor * symbol, symbol, unit.unit, unit.offset)
+    scaled = symbol if factor == 1 else factor * symbol
+    return Term(scaled, symbol, unit.unit, unit.offset, scaled)
 
 
 def _measurand_unit(declared: Any, term: Term, where: Location) -> Any:

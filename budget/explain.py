@@ -1,0 +1,272 @@
+"""The auditor's answer: what dominates the uncertainty, why, and what would reduce it.
+
+Method:
+
+* ranking by the index 100·(c_i u_i)²/u_c² of the GUM budget (JCGM 100 5.1.3), Type A
+  and Type B shares, the share of the correlation terms;
+* what-if: each leading input's uncertainty halved (or set to reach a target U) and the
+  GUM budget evaluated again on the changed copy of the model — nothing is extrapolated;
+* why Monte Carlo does or does not validate the GUM result (JCGM 101 8.2): a dominant
+  non-Gaussian input, a dominant input with few degrees of freedom, nonlinearity (a
+  shifted Monte Carlo mean or standard deviation);
+* variance-based first-order sensitivity indices S_i = V[E(Y|X_i)]/V(Y), estimated by the
+  Monte Carlo estimator of A. Saltelli et al., "Variance based sensitivity analysis of
+  model output", Comput. Phys. Commun. 181 (2010) 259, Table 2 (b):
+  S_i V(Y) ≈ (1/N) Σ_j f(B)_j [f(A_B^(i))_j − f(A)_j], for independent inputs only.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from .analysis import Result
+from .evaluation import compile_model
+from .formatting import format_number, format_pair, format_percent
+from .gum import propagate
+from .model import Model
+
+__all__ = ["Driver", "SobolIndex", "Explanation", "explain", "render", "explanation_document"]
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Driver:
+    input: str
+    index: float
+    contribution: float
+    distribution: str
+    type: str
+    standard_uncertainty: float
+    unit: str
+    halved_U: float
+    needed_u: float | None = None
+    reached_U: float | None = None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class SobolIndex:
+    input: str
+    first_order: float
+    standard_error: float
+    linear: float
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Explanation:
+    name: str
+    unit: str
+    estimate: float
+    combined_uncertainty: float
+    expanded_uncertainty: float
+    coverage_factor: float
+    drivers: tuple[Driver, ...]
+    others: tuple[tuple[str, float], ...]
+    type_a_share: float
+    type_b_share: float
+    correlation_share: float
+    validated: bool | None
+    reasons: tuple[str, ...]
+    sobol: tuple[SobolIndex, ...]
+    sobol_notes: tuple[str, ...]
+    target: float | None
+
+
+def explain(result: Result, *, target: float | None = None, leading: int = 3,
+            sobol_trials: int = 1 << 15) -> tuple[Explanation, ...]:
+    """One explanation per measurand of an evaluated model."""
+    model = result.model
+    coverage = result.budget.measurands[0].coverage_probability
+    made = []
+    for k, budget in enumerate(result.budget.measurands):
+        ranked = sorted(budget.contributions, key=lambda c: -c.index)
+        lead = [c for c in ranked if c.index >= 1.0][:leading] or ranked[:1]
+        drivers = tuple(_driver(model, k, budget, c, coverage, target) for c in lead)
+        others = tuple((c.input, c.index) for c in ranked[len(lead):] if c.index > 0)
+        simulation = result.simulation.measurands[k] if result.simulation else None
+        sobol, notes = _sobol(result, k, sobol_trials) if simulation else ((), ())
+        made.append(Explanation(
+            name=budget.name, unit=budget.unit, estimate=budget.estimate,
+            combined_uncertainty=budget.combined_uncertainty,
+            expanded_uncertainty=budget.expanded_uncertainty,
+            coverage_factor=budget.coverage_factor, drivers=drivers, others=others,
+            type_a_share=budget.type_a_share,
+            type_b_share=math.fsum(c.index for c in budget.contributions if c.type == "B"),
+            correlation_share=math.fsum(t.index for t in budget.correlation_terms),
+            validated=None if simulation is None or simulation.validation is None
+            else simulation.validation.validated,
+            reasons=_reasons(model, budget, simulation, ranked), sobol=sobol,
+            sobol_notes=notes, target=target))
+    return tuple(made)
+
+
+def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
+            target: float | None) -> Driver:
+    halved = propagate(model.with_uncertainty(c.input, 0.5), coverage).measurands[k]
+    needed = reached = None
+    if target is not None and c.standard_uncertainty > 0 and c.sensitivity != 0:
+        rest = budget.combined_uncertainty ** 2 - c.contribution ** 2
+        room = (target / budget.coverage_factor) ** 2 - rest
+        if room > 0:
+            needed = math.sqrt(room) / abs(c.sensitivity)
+            factor = needed / c.standard_uncertainty
+            reached = propagate(model.with_uncertainty(c.input, factor),
+                                coverage).measurands[k].expanded_uncertainty
+    return Driver(input=c.input, index=c.index, contribution=c.contribution,
+                  distribution=c.distribution, type=c.type,
+                  standard_uncertainty=c.standard_uncertainty, unit=c.unit,
+                  halved_U=halved.expanded_uncertainty, needed_u=needed, reached_U=reached)
+
+
+def _reasons(model: Model, budget: Any, simulation: Any, ranked: list) -> tuple[str, ...]:
+    if simulation is None or simulation.validation is None:
+        return ("no Monte Carlo run (trials = 0): the linear approximation was not checked",)
+    v = simulation.validation
+    reasons = []
+    top = ranked[0]
+    item = model.input(top.input)
+    gum_width = 2 * budget.expanded_uncertainty
+    mc_width = simulation.interval[1] - simulation.interval[0]
+    if v.validated:
+        return (f"Monte Carlo validates the GUM result: both interval ends agree within "
+                f"δ = {format_number(v.tolerance, 1)} {budget.unit} (JCGM 101 8.2)",)
+    side = "wider" if gum_width > mc_width else "narrower"
+    reasons.append(f"the GUM interval is {side} than the Monte Carlo one "
+                   f"({format_number(gum_width, 3)} vs {format_number(mc_width, 3)} "
+                   f"{budget.unit}; d_low = {format_number(v.d_low, 2)}, d_high = "
+                   f"{format_number(v.d_high, 2)}, δ = {format_number(v.tolerance, 1)})")
+    if top.index >= 40 and not item.distribution.gaussian and item.distribution.name != "student_t":
+        shape = "flatter" if item.distribution.name.startswith(("rectangular", "arcsine",
+                                                                 "trapezoidal",
+                                                                 "curvilinear")) else "other"
+        reasons.append(f"a dominant non-Gaussian input: {top.input} ({top.distribution}) "
+                       f"carries {format_percent(top.index)} % of u_c², so the distribution "
+                       f"of {budget.name} is {'flatter than' if shape == 'flatter' else 'not'}"
+                       " a Gaussian and k·u_c does not give the stated coverage")
+    if top.index >= 40 and math.isfinite(item.dof) and item.dof < 10:
+        reasons.append(f"a dominant input with few degrees of freedom: {top.input} "
+                       f"(ν = {item.dof:g}) is drawn from a t distribution with heavy tails")
+    shift = abs(simulation.mean - budget.estimate)
+    spread = abs(simulation.standard_uncertainty - budget.combined_uncertainty)
+    if shift > v.tolerance or spread > 0.05 * budget.combined_uncertainty:
+        reasons.append(f"nonlinearity: the Monte Carlo mean differs from the estimate by "
+                       f"{format_number(shift, 2)} and its standard deviation from u_c by "
+                       f"{format_number(spread, 2)} {budget.unit}")
+    if len(reasons) == 1:
+        reasons.append("no single cause stands out; a longer run (--adaptive) shows whether "
+                       "the difference is Monte Carlo noise")
+    return tuple(reasons)
+
+
+def draw_inputs(model: Model, rng: np.random.Generator, size: int) -> list[Any]:
+    return [i.estimate if i.standard_uncertainty == 0 else i.distribution.sample(rng, size)
+            for i in model.inputs]
+
+
+def _sobol(result: Result, k: int, n: int) -> tuple[tuple[SobolIndex, ...], tuple[str, ...]]:
+    model = result.model
+    if model.correlations:
+        return (), ("variance-based indices are not estimated for correlated inputs "
+                    "(the estimator assumes independence)",)
+    program = compile_model(model)
+    seed = result.simulation.seed if result.simulation else model.settings.seed
+    rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(seed, spawn_key=(1 << 30,))))
+    a, b = draw_inputs(model, rng, n), draw_inputs(model, rng, n)
+    f_a = np.broadcast_to(program.evaluate(a)[k], (n,))
+    f_b = np.broadcast_to(program.evaluate(b)[k], (n,))
+    centre = float(np.mean(np.concatenate([f_a, f_b])))  # centring leaves the estimator's
+    f_a, f_b = f_a - centre, f_b - centre  # expectation unchanged and tames its variance
+    variance = float(np.var(np.concatenate([f_a, f_b])))
+    budget = result.budget.measurands[k]
+    indices, notes = [], []
+    if variance <= 0 or not math.isfinite(variance):
+        return (), ("the Monte Carlo variance is zero or not finite; no indices",)
+    for j, item in enumerate(model.inputs):
+        if item.standard_uncertainty == 0:
+            continue
+        mixed = list(a)
+        mixed[j] = b[j]
+        f_ab = np.broadcast_to(program.evaluate(mixed)[k], (n,)) - centre
+        terms = f_b * (f_ab - f_a)
+        s_i = float(np.mean(terms)) / variance
+        se = float(np.std(terms, ddof=1)) / math.sqrt(n) / variance
+        linear = budget.contributions[j].index / 100.0
+        indices.append(SobolIndex(input=item.name, first_order=s_i, standard_error=se,
+                                  linear=linear))
+        if abs(s_i - linear) > max(0.05, 3 * se):
+            notes.append(f"{item.name}: variance-based index {s_i:.2f} ± {se:.2f} differs "
+                         f"from the linear index {linear:.2f} (nonlinearity or interaction)")
+    indices.sort(key=lambda s: -s.first_order)
+    return tuple(indices), tuple(notes)
+
+
+def render(explanations: tuple[Explanation, ...], digits: int = 2) -> str:
+    """Plain-language answer, most important first."""
+    blocks = [_text(e, digits) for e in explanations]
+    return "\n\n".join(blocks)
+
+
+def _text(e: Explanation, digits: int) -> str:
+    value, expanded = format_pair(e.estimate, e.expanded_uncertainty, digits)
+    lines = [f"{e.name} = ({value} ± {expanded}) {e.unit}  (k = {e.coverage_factor:.3g})", ""]
+    first = e.drivers[0]
+    lines.append(f"1. {first.input} dominates: {format_percent(first.index)} % of u_c² "
+                 f"({first.distribution}, Type {first.type}).")
+    for n, d in enumerate(e.drivers[1:], start=2):
+        lines.append(f"{n}. then {d.input}: {format_percent(d.index)} % ({d.distribution}, "
+                     f"Type {d.type}).")
+    if e.others:
+        rest = ", ".join(f"{name} {format_percent(share)} %" for name, share in e.others[:6])
+        lines.append(f"   the others: {rest}{' …' if len(e.others) > 6 else ''}")
+    lines.append(f"Type A inputs give {format_percent(e.type_a_share)} % of u_c², Type B "
+                 f"{format_percent(e.type_b_share)} %"
+                 + (f", correlation terms {format_percent(e.correlation_share)} %."
+                    if e.correlation_share else "."))
+    lines += ["", "Linear approximation (GUM) against Monte Carlo (JCGM 101):"]
+    lines += [f"  - {r}" for r in e.reasons]
+    lines += ["", "What would reduce U:"]
+    for d in e.drivers:
+        halved = format_pair(e.estimate, d.halved_U, digits)[1]
+        lines.append(f"  - halving u({d.input}) gives U = {halved} {e.unit} (now {expanded})")
+        if e.target is not None:
+            lines.append("    " + _target_text(e, d, digits))
+    if e.sobol:
+        lines += ["", "Variance-based first-order indices (Saltelli et al. 2010), Monte Carlo:"]
+        for s in e.sobol[:6]:
+            lines.append(f"  - {s.input}: S = {s.first_order:.3f} ± {s.standard_error:.3f} "
+                         f"(linear index {s.linear:.3f})")
+    lines += [f"  note: {n}" for n in e.sobol_notes]
+    return "\n".join(lines)
+
+
+def _target_text(e: Explanation, d: Driver, digits: int) -> str:
+    target = format_pair(e.estimate, e.target, digits)[1]
+    if d.needed_u is None:
+        return f"U = {target} {e.unit} cannot be reached by improving {d.input} alone"
+    reached = format_pair(e.estimate, d.reached_U, digits)[1]
+    return (f"for U = {target} {e.unit}: u({d.input}) ≤ {format_number(d.needed_u, 2)} "
+            f"{d.unit} (now {format_number(d.standard_uncertainty, 2)}; rerun gives U = "
+            f"{reached})")
+
+
+def explanation_document(explanations: tuple[Explanation, ...]) -> dict[str, Any]:
+    def driver(d: Driver) -> dict[str, Any]:
+        return {"input": d.input, "index": d.index, "contribution": d.contribution,
+                "distribution": d.distribution, "type": d.type, "u": d.standard_uncertainty,
+                "unit": d.unit, "U_if_halved": d.halved_U, "u_needed": d.needed_u,
+                "U_reached": d.reached_U}
+
+    return {"measurands": [{
+        "name": e.name, "unit": e.unit, "value": e.estimate, "u": e.combined_uncertainty,
+        "U": e.expanded_uncertainty, "k": e.coverage_factor,
+        "drivers": [driver(d) for d in e.drivers],
+        "others": [{"input": n, "index": s} for n, s in e.others],
+        "type_a_share": e.type_a_share, "type_b_share": e.type_b_share,
+        "correlation_share": e.correlation_share, "validated": e.validated,
+        "reasons": list(e.reasons), "target": e.target,
+        "sobol": [{"input": s.input, "first_order": s.first_order,
+                   "standard_error": s.standard_error, "linear_index": s.linear}
+                  for s in e.sobol],
+        "sobol_notes": list(e.sobol_notes)} for e in explanations]}
