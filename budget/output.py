@@ -26,6 +26,9 @@ def write_atomic(path: str | Path, text: str) -> None:
     try:
         with os.fdopen(descriptor, "w", encoding="utf-8") as stream:
             stream.write(text)
+        mask = os.umask(0)
+        os.umask(mask)
+        os.chmod(temporary, 0o666 & ~mask)
         os.replace(temporary, target)
     except OSError as exc:
         _remove(temporary)

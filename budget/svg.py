@@ -39,7 +39,8 @@ def bar_chart(rows: Sequence[tuple[str, float]], unit: str = "%",
     """Horizontal bars, one per (name, value); negative values drawn leftwards."""
     rows = [r for r in rows if r[1] != 0] or list(rows[:1])
     height = 22 * len(rows) + 30
-    left, right = 150, _W - 70
+    left = min(260, 20 + 7 * max(len(name) for name, _ in rows))
+    right = _W - 70
     top = max([abs(v) for _, v in rows] + [1e-300])
     has_negative = any(v < 0 for _, v in rows)
     zero = (left + right) / 2 if has_negative else left
@@ -88,10 +89,10 @@ def histogram(samples: np.ndarray, *, estimate: float, u: float, dof: float,
             body.append(f'<line x1="{sx(x):.1f}" y1="{top:.1f}" x2="{sx(x):.1f}" '
                         f'y2="{bottom:.1f}" stroke="{colour}" stroke-width="1.3" '
                         f'stroke-dasharray="{dash}"/>')
-        body.append(f'<line x1="{right - 150:.1f}" y1="{top + 6 + 14 * row:.1f}" '
-                    f'x2="{right - 128:.1f}" y2="{top + 6 + 14 * row:.1f}" stroke="{colour}" '
+        body.append(f'<line x1="{left + 8:.1f}" y1="{top + 6 + 14 * row:.1f}" '
+                    f'x2="{left + 30:.1f}" y2="{top + 6 + 14 * row:.1f}" stroke="{colour}" '
                     f'stroke-width="1.6" stroke-dasharray="{dash}"/>')
-        body.append(_text(right - 122, top + 10 + 14 * row, name))
+        body.append(_text(left + 36, top + 10 + 14 * row, name))
     body.append(f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" '
                 f'stroke="{_AXIS}"/>')
     for x in np.linspace(low + pad, high - pad, 5):
@@ -161,7 +162,7 @@ def trend_plot(times: Sequence[float], values: Sequence[float], *, intercept: fl
              for t, v in zip(times, values)]
     body += _y_axis(low, high, left, top, bottom, sy, unit)
     for t in sorted(set(times)):
-        body.append(_text(sx(t), bottom + 14, format_number(t, 3), "middle"))
+        body.append(_text(sx(t), bottom + 14, f"{t:g}", "middle"))
     body.append(_text((left + right) / 2, bottom + 28, time_label, "middle"))
     return _svg(_W, bottom + 34, body, label)
 

@@ -1,0 +1,109 @@
+"""View-model of the certification report: rounded strings and charts, no arithmetic left
+for the template. The confidence band of the stability line is the usual 95 % band of a
+least-squares line, ŷ(t) ± t_0.975(n−2)·s·√(1/n + (t − t̄)²/S_tt) (common practice)."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from .formatting import format_dof, format_number, format_pair, format_percent
+from .svg import bar_chart, points_with_bars, trend_plot
+
+__all__ = ["certification_view"]
+
+_LABELS = {"characterization": "characterization (u_char)", "homogeneity": "between-unit "
+           "homogeneity (u_bb)", "long_term_stability": "long-term stability (u_lts)",
+           "short_term_stability": "short-term stability (u_sts)"}
+
+
+def certification_view(cert: Any) -> dict[str, Any]:
+    campaign, char = cert.campaign, cert.characterization
+    digits = campaign.model.settings.digits
+    unit = campaign.unit
+    value, expanded = format_pair(cert.certified_value, cert.U, digits)
+    rounded = lambda x: format_number(x, digits)  # noqa: E731
+    return {
+        "title": campaign.title, "material": campaign.material, "unit": unit,
+        "extra": list(campaign.extra),
+        "statement": {"value": value, "U": expanded, "k": f"{cert.k:.3g}",
+                      "coverage": None if cert.coverage is None else f"{100 * cert.coverage:g}",
+                      "u": rounded(cert.u), "dof": format_dof(cert.dof)},
+        "certificate": [(key.replace("_", " "), text) for key, text in campaign.certificate],
+        "components": [{"name": _LABELS[name], "u": rounded(u),
+                        "share": format_percent(cert.shares[name])}
+                       for name, u in cert.components],
+        "component_chart": bar_chart([(_LABELS[n].split(" (")[0], cert.shares[n])
+                                      for n, _ in cert.components], "%",
+                                     "shares of u_CRM²"),
+        "characterization": _characterization(char, campaign.scatter_covers, unit, digits),
+        "homogeneity": _homogeneity(cert.homogeneity, unit, digits),
+        "stability": _stability(cert.stability, unit, digits),
+        "comparisons": _comparisons(cert, unit, digits),
+        "warnings": list(cert.warnings),
+    }
+
+
+def _characterization(char: Any, covers: tuple[str, ...], unit: str,
+                      digits: int) -> dict[str, Any]:
+    return {"runs": [{"label": label, "value": format_number(y, 9)}
+                     for label, y in zip(char.labels, char.runs)],
+            "mean": format_pair(char.mean, char.u, digits + 1)[0], "s": format_number(char.s, digits),
+            "n": char.n, "repeatability": format_number(char.s / math.sqrt(char.n), digits),
+            "u_B": format_number(char.u_B, digits), "u": format_number(char.u, digits),
+            "dof": format_dof(char.dof), "covers": ", ".join(covers) or "none",
+            "chart": points_with_bars([(label, y, 0.0) for label, y in
+                                       zip(char.labels, char.runs)], centre=char.mean,
+                                      unit=unit, label="results of the determinations")}
+
+
+def _homogeneity(h: Any, unit: str, digits: int) -> dict[str, Any] | None:
+    if h is None:
+        return None
+    within = math.sqrt(h.ms_within)
+    rows = [(name, mean, within / math.sqrt(n)) for name, mean, n in
+            zip(h.units, h.means, h.counts)]
+    return {"units": len(h.units), "ms_between": format_number(h.ms_between, 3),
+            "ms_within": format_number(h.ms_within, 3), "n0": format_number(h.n0, 3),
+            "s_bb": format_number(h.s_bb, digits), "u_bb_star": format_number(h.u_bb_star, digits),
+            "u_bb": format_number(h.u_bb, digits), "F": f"{h.F:.3g}",
+            "p": f"{h.p_value:.2g}", "significant": h.p_value < 0.05,
+            "dof": f"{h.dof_between}, {h.dof_within}",
+            "chart": points_with_bars(rows, centre=float(np.average(h.means, weights=h.counts)),
+                                      unit=unit, label="unit means with ± s_wb/√n")}
+
+
+def _stability(s: Any, unit: str, digits: int) -> dict[str, Any] | None:
+    if s is None:
+        return None
+    from scipy.special import stdtrit
+
+    times = np.array(s.times)
+    t_mean, sxx = times.mean(), float(np.sum((times - times.mean()) ** 2))
+    t_q = float(stdtrit(s.dof, 0.975))
+    band = []
+    for t in np.linspace(times.min(), times.max(), 25):
+        half = t_q * s.residual_sd * math.sqrt(1 / times.size + (t - t_mean) ** 2 / sxx)
+        fit = s.intercept + s.slope * t
+        band.append((float(t), fit - half, fit + half))
+    return {"slope": format_number(s.slope, digits), "u_slope": format_number(s.u_slope, digits),
+            "t": f"{s.t:.3g}", "p": f"{s.p_value:.2g}", "significant": s.p_value < 0.05,
+            "dof": s.dof, "shelf_life": f"{s.shelf_life:g}", "u_lts": format_number(s.u_lts, digits),
+            "chart": trend_plot(s.times, s.values, intercept=s.intercept, slope=s.slope,
+                                band=band, unit=unit, time_label="time",
+                                label="stability: values against time")}
+
+
+def _comparisons(cert: Any, unit: str, digits: int) -> dict[str, Any] | None:
+    if not cert.comparisons:
+        return None
+    char = cert.characterization
+    rows = [("this characterization", char.mean, cert.k * char.u)]
+    rows += [(c.label, c.value, c.U) for c in cert.comparisons]
+    return {"rows": [{"label": c.label, "value": format_pair(c.value, c.U, digits)[0],
+                      "U": format_pair(c.value, c.U, digits)[1], "E_n": f"{c.E_n:.2f}",
+                      "zeta": f"{c.zeta:.2f}", "agrees": c.agrees} for c in cert.comparisons],
+            "chart": points_with_bars(rows, centre=None, unit=unit,
+                                      label="comparison with independent results (± U)")}

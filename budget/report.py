@@ -1,0 +1,207 @@
+"""Self-contained HTML reports: the only module that imports jinja2.
+
+The view-models built here hold strings that are already rounded (``formatting``), SVG
+charts (``svg``) and MathML produced by sympy's presentation printer; the templates in
+``templates/`` only lay them out (autoescaping on, undefined names are errors). The
+report loads nothing from the network: no scripts, fonts, images or style sheets.
+"""
+
+from __future__ import annotations
+
+from importlib import resources
+from typing import Any
+
+import sympy
+from markupsafe import Markup
+
+from .analysis import Result
+from .document import CAUTION
+from .formatting import format_dof, format_number, format_pair, format_percent
+from .gum import MeasurandBudget
+from .montecarlo import MeasurandSimulation
+from .output import write_atomic
+from .provenance import describe
+from .svg import bar_chart, histogram
+from .table import SHORT_DISTRIBUTION, result_statement
+
+__all__ = ["render_report", "write_report", "render_certification_report",
+           "write_certification_report", "mathml"]
+
+_FORMULA_LIMIT = 80  # operations; longer sensitivity formulas are not printed
+
+
+def _environment() -> Any:
+    import jinja2
+
+    folder = resources.files("budget.templates")
+    return jinja2.Environment(loader=jinja2.FileSystemLoader(str(folder)), autoescape=True,
+                              undefined=jinja2.StrictUndefined, trim_blocks=True,
+                              lstrip_blocks=True)
+
+
+def mathml(left: Any, right: Any) -> Markup:
+    """``left = right`` as a MathML block; symbol names are identifiers, so nothing leaks."""
+    from sympy.printing.mathml import mathml as to_mathml
+
+    lhs = left if isinstance(left, Markup) else to_mathml(left, printer="presentation")
+    rhs = to_mathml(right, printer="presentation")
+    return Markup('<math xmlns="http://www.w3.org/1998/Math/MathML" display="block">'
+                  f"<mrow>{lhs}<mo>=</mo>{rhs}</mrow></math>")
+
+
+def render_report(result: Result) -> str:
+    return _environment().get_template("budget.html.j2").render(report=_budget_view(result))
+
+
+def write_report(result: Result, path: str) -> None:
+    write_atomic(path, render_report(result))
+
+
+def _budget_view(result: Result) -> dict[str, Any]:
+    model = result.model
+    return {
+        "title": model.title, "description": model.description, "caution": CAUTION,
+        "definitions": [{"name": d.name, "math": mathml(sympy.Symbol(d.name), d.shown),
+                         "unit": d.unit, "text": d.text} for d in model.definitions],
+        "measurands": [_measurand_view(result, k, b) for k, b in
+                       enumerate(result.budget.measurands)],
+        "correlations": [{"a": a, "b": b, "r": f"{r:g}"} for a, b, r in model.correlations],
+        "output_correlation": _output_correlation(result),
+        "inputs": [_input_view(i) for i in model.inputs],
+        "provenance": _provenance(describe(model, result.simulation), result),
+        "warnings": list(result.warnings),
+    }
+
+
+def _input_view(item: Any) -> dict[str, str]:
+    return {"name": item.name, "basis": item.basis, "source": item.source,
+            "description": item.description}
+
+
+def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any]:
+    measurand = result.model.measurands[k]
+    simulation = result.simulation.measurands[k] if result.simulation else None
+    digits = result.digits
+    value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
+    chart_rows = [(c.input, c.index) for c in sorted(b.contributions, key=lambda c: -c.index)
+                  if c.index > 0]
+    chart_rows += [(f"r({t.inputs[0]}, {t.inputs[1]})", t.index) for t in b.correlation_terms]
+    return {
+        "name": b.name, "unit": b.unit, "description": measurand.description,
+        "equation": measurand.equation,
+        "math": mathml(sympy.Symbol(b.name), measurand.shown),
+        "statement": result_statement(b, digits),
+        "rows": [_row(c, digits) for c in b.contributions],
+        "correlation_terms": [{"pair": f"{t.inputs[0]}, {t.inputs[1]}", "r": f"{t.r:g}",
+                               "variance": format_number(t.variance, 3),
+                               "index": format_percent(t.index)} for t in b.correlation_terms],
+        "value": value, "u": u, "dof": format_dof(b.dof), "dof_rule": b.dof_rule,
+        "k": f"{b.coverage_factor:.3f}", "U": format_pair(b.estimate, b.expanded_uncertainty,
+                                                          digits)[1],
+        "p": f"{100 * b.coverage_probability:g}",
+        "second_order": None if b.second_order_variance is None else
+        format_number(b.first_order_uncertainty, 3),
+        "chart": bar_chart(chart_rows, "%", f"contributions to u_c² of {b.name}"),
+        "formulas": _formulas(result, k),
+        "mc": _simulation_view(b, simulation, digits) if simulation else None,
+    }
+
+
+def _row(c: Any, digits: int) -> dict[str, str]:
+    estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
+                   if c.standard_uncertainty > 0 else (f"{c.estimate:.10g}", "0"))
+    return {"input": c.input, "estimate": estimate, "unit": c.unit, "u": u,
+            "distribution": SHORT_DISTRIBUTION.get(c.distribution, c.distribution),
+            "type": c.type, "dof": format_dof(c.dof),
+            "sensitivity": format_number(c.sensitivity, 4),
+            "contribution": format_number(c.contribution, digits),
+            "index": format_percent(c.index)}
+
+
+def _formulas(result: Result, k: int) -> list[dict[str, Any]]:
+    measurand = result.model.measurands[k]
+    formulas = []
+    for item in result.model.inputs:
+        if item.standard_uncertainty == 0:
+            continue
+        derivative = sympy.diff(measurand.opaque, item.symbol)
+        left = _partial(measurand.name, item.symbol)
+        if sympy.count_ops(derivative) > _FORMULA_LIMIT:
+            formulas.append({"input": item.name, "math": None})
+        else:
+            formulas.append({"input": item.name, "math": mathml(left, derivative)})
+    return formulas
+
+
+def _partial(name: str, symbol: sympy.Symbol) -> Markup:
+    from sympy.printing.mathml import mathml as to_mathml
+
+    top = to_mathml(sympy.Symbol(name), printer="presentation")
+    bottom = to_mathml(symbol, printer="presentation")
+    return Markup(f"<mfrac><mrow><mo>∂</mo>{top}</mrow><mrow><mo>∂</mo>{bottom}</mrow></mfrac>")
+
+
+def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict:
+    reference = b.combined_uncertainty or s.standard_uncertainty
+    rounded = lambda x: format_pair(x, reference, digits + 1)[0]  # noqa: E731
+    v = s.validation
+    return {
+        "trials": f"{s.trials:,}", "mean": rounded(s.mean),
+        "u": format_pair(s.mean, s.standard_uncertainty, digits + 1)[1],
+        "interval": [rounded(x) for x in s.interval],
+        "shortest": [rounded(x) for x in s.shortest_interval],
+        "gum_interval": [rounded(x) for x in b.interval],
+        "validated": None if v is None else v.validated,
+        "d_low": format_number(v.d_low, 2) if v else "-",
+        "d_high": format_number(v.d_high, 2) if v else "-",
+        "tolerance": format_number(v.tolerance, 1) if v else "-",
+        "histogram": histogram(s.samples, estimate=b.estimate, u=b.combined_uncertainty,
+                               dof=b.dof, gum_interval=b.interval, interval=s.interval,
+                               shortest=s.shortest_interval, unit=b.unit,
+                               label=f"Monte Carlo distribution of {b.name}"),
+    }
+
+
+def _output_correlation(result: Result) -> dict[str, Any] | None:
+    names = [b.name for b in result.budget.measurands]
+    if len(names) < 2:
+        return None
+    matrix = result.simulation.output_correlation if result.simulation else \
+        result.budget.output_correlation
+    return {"names": names, "rows": [{"name": a, "values": [f"{x:.3f}" for x in row]}
+                                     for a, row in zip(names, matrix)]}
+
+
+def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tuple[str, str]]:
+    rows = [("model file", str(data["model_file"])), ("model SHA-256", data["model_sha256"]),
+            ("seed", str(data["seed"])), ("Monte Carlo trials", f"{data['trials']:,}"
+                                          + (" (adaptive)" if data["adaptive"] else "")),
+            ("date", data["date"]),
+            ("atomic weights", data["atomic_weights"] or "not used"),
+            ("machine", data["machine"])]
+    if result is not None:
+        rows.append(("significant digits", str(result.digits)))
+    rows += [(f"{name} version", version) for name, version in data["versions"].items()]
+    return rows
+
+
+def render_certification_report(cert: Any) -> str:
+    return _environment().get_template("certificate.html.j2").render(
+        report=_certification_view(cert))
+
+
+def write_certification_report(cert: Any, path: str) -> None:
+    write_atomic(path, render_certification_report(cert))
+
+
+def _certification_view(cert: Any) -> dict[str, Any]:
+    from .certification_view import certification_view
+
+    view = certification_view(cert)
+    view["budget"] = _budget_view(cert.characterization.result)
+    view["provenance"] = _provenance({**describe(cert.campaign.model,
+                                                 cert.characterization.result.simulation)},
+                                     cert.characterization.result) + [
+        ("campaign file", cert.campaign.source), ("campaign SHA-256", cert.campaign.sha256)]
+    view["caution"] = CAUTION
+    return view

@@ -1,0 +1,1 @@
+"""jinja2 templates of the HTML reports (installed as the package ``budget.templates``)."""
