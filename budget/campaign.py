@@ -15,7 +15,7 @@ from typing import Any
 import numpy as np
 
 from .errors import CampaignError, Location, did_you_mean
-from .model import Model, decode, find_line, load_model, read_toml
+from .model import LineIndex, Model, decode, load_model, read_toml
 
 __all__ = ["Campaign", "Comparison", "load_campaign", "read_table"]
 
@@ -62,12 +62,12 @@ class Campaign:
 
 class _Reader:
     def __init__(self, path: Path, text: str, document: dict) -> None:
-        self.path, self.lines, self.doc = path, text.splitlines(), document
+        self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
-                        line=find_line(self.lines, table, key, nth))
+                        line=self.index.find(table, key, nth))
 
     def fail(self, message: str, table: str | None, key: str | None = None,
              nth: int = 0) -> CampaignError:

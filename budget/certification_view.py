@@ -78,11 +78,11 @@ def _homogeneity(h: Any, unit: str, digits: int) -> dict[str, Any] | None:
 def _stability(s: Any, unit: str, digits: int) -> dict[str, Any] | None:
     if s is None:
         return None
-    from scipy.special import stdtrit
+    from .special import t_ppf
 
     times = np.array(s.times)
     t_mean, sxx = times.mean(), float(np.sum((times - times.mean()) ** 2))
-    t_q = float(stdtrit(s.dof, 0.975))
+    t_q = t_ppf(0.975, s.dof)
     band = []
     for t in np.linspace(times.min(), times.max(), 25):
         half = t_q * s.residual_sd * math.sqrt(1 / times.size + (t - t_mean) ** 2 / sxx)

@@ -19,7 +19,7 @@ from typing import Any, Callable, Mapping
 import sympy
 
 from .errors import Location, ModelSyntaxError, UnitError, UnknownNameError, did_you_mean
-from .units import dimension_text, registry
+from .units import DIMENSIONLESS, dimension_text, parse_unit
 
 __all__ = ["Term", "parse_expression", "names_in", "build", "FUNCTIONS"]
 
@@ -135,10 +135,41 @@ def build(tree: ast.Expression, table: Mapping[str, Term], text: str,
     return _Builder(table, text.strip(), where).visit(tree.body)
 
 
+_SUMS = {ast.Add: 1, ast.Sub: -1}
+_PRODUCTS = {ast.Mult: 1, ast.Div: -1}
+
+
+def _chain(node: ast.AST, ops: dict) -> list[tuple[int, ast.AST]]:
+    """Operands of a left-nested chain such as a - b + c, with their signs."""
+    parts: list[tuple[int, ast.AST]] = []
+    while isinstance(node, ast.BinOp) and type(node.op) in ops:
+        parts.append((ops[type(node.op)], node.right))
+        node = node.left
+    parts.append((1, node))
+    return parts[::-1]
+
+
+def _chain_length(node: ast.AST, ops: dict) -> int:
+    count = 1
+    while isinstance(node, ast.BinOp) and type(node.op) in ops:
+        count += 1
+        node = node.left
+    return count
+
+
+def _steps(node: ast.AST, ops: dict) -> list[ast.BinOp]:
+    """The BinOp nodes of a chain from the innermost out."""
+    steps = []
+    while isinstance(node, ast.BinOp) and type(node.op) in ops:
+        steps.append(node)
+        node = node.left
+    return steps[::-1]
+
+
 class _Builder:
     def __init__(self, table: Mapping[str, Term], text: str, where: Location) -> None:
         self.table, self.text, self.where = table, text, where
-        self.dimensionless = registry().dimensionless
+        self.dimensionless = DIMENSIONLESS
 
     def segment(self, node: ast.AST) -> str:
         return ast.get_source_segment(self.text, node) or ast.unparse(node)
@@ -170,6 +201,10 @@ class _Builder:
         return Term(-inner.expr, -inner.shown, inner.unit, opaque=-inner.opaque)
 
     def binary(self, node: ast.BinOp) -> Term:
+        if isinstance(node.op, (ast.Add, ast.Sub)) and _chain_length(node, _SUMS) > 2:
+            return self.long_sum(node)
+        if isinstance(node.op, (ast.Mult, ast.Div)) and _chain_length(node, _PRODUCTS) > 2:
+            return self.long_product(node)
         left, right = self.visit(node.left), self.visit(node.right)
         if isinstance(node.op, (ast.Add, ast.Sub)):
             return self.sum(node, left, right)
@@ -182,6 +217,38 @@ class _Builder:
             return Term(left.expr / right.expr, left.shown / right.shown,
                         left.unit / right.unit, opaque=left.opaque / right.opaque)
         return self.power(node, left, right)
+
+    def long_sum(self, node: ast.BinOp) -> Term:
+        """a ± b ± c ± … built as one sympy Add (linear, not quadratic, in the terms)."""
+        parts = _chain(node, _SUMS)
+        terms = [(sign, operand, self.visit(operand)) for sign, operand in parts]
+        if any(term.offset for _, _, term in terms):  # Celsius rules: pairwise, in order
+            total = terms[0][2]
+            for (sign, operand, term), step in zip(terms[1:], _steps(node, _SUMS)):
+                total = self.sum(step, total, term)
+            return total
+        first_node, first = terms[0][1], terms[0][2]
+        for _, operand, term in terms[1:]:
+            if term.unit.dimensionality != first.unit.dimensionality:
+                raise UnitError(
+                    f"expected terms of like dimension in '{self.segment(node)}', found "
+                    f"'{self.segment(first_node)}' in {dimension_text(first.unit)} and "
+                    f"'{self.segment(operand)}' in {dimension_text(term.unit)}", self.where)
+        pick = lambda field: sympy.Add(*(getattr(t, field) if sign > 0  # noqa: E731
+                                         else -getattr(t, field) for sign, _, t in terms))
+        return Term(pick("expr"), pick("shown"), first.unit, opaque=pick("opaque"))
+
+    def long_product(self, node: ast.BinOp) -> Term:
+        """a */ b */ c … built as one sympy Mul."""
+        factors = [(sign, operand, self.visit(operand)) for sign, operand in
+                   _chain(node, _PRODUCTS)]
+        unit = self.dimensionless
+        for sign, operand, term in factors:
+            self.refuse_offset(term, node)
+            unit = unit * term.unit if sign > 0 else unit / term.unit
+        pick = lambda field: sympy.Mul(*(getattr(t, field) if sign > 0  # noqa: E731
+                                         else 1 / getattr(t, field) for sign, _, t in factors))
+        return Term(pick("expr"), pick("shown"), unit, opaque=pick("opaque"))
 
     def sum(self, node: ast.BinOp, left: Term, right: Term) -> Term:
         plus = isinstance(node.op, ast.Add)
@@ -213,8 +280,7 @@ class _Builder:
                 raise UnitError(f"expected a numeric exponent for a quantity in "
                                 f"{dimension_text(base.unit)} in '{self.segment(node)}', "
                                 f"found '{self.segment(node.right)}'", self.where)
-            power = Fraction(str(sympy.nsimplify(exponent.expr)))
-            unit = base.unit ** (power.numerator if power.denominator == 1 else float(power))
+            unit = base.unit ** Fraction(str(sympy.nsimplify(exponent.expr)))
         return Term(base.expr ** exponent.expr, base.shown ** exponent.shown, unit,
                     opaque=base.opaque ** exponent.opaque)
 
@@ -246,8 +312,8 @@ class _Builder:
     def air_density(self, node: ast.Call, args: list[Term]) -> Term:
         from .chemistry import air_density_expression
 
-        reg = registry()
-        wanted = [("temperature", reg.kelvin), ("pressure", reg.pascal),
+        unit_of = lambda text: parse_unit(text, self.where).unit  # noqa: E731
+        wanted = [("temperature", unit_of("K")), ("pressure", unit_of("Pa")),
                   ("relative humidity", self.dimensionless),
                   ("CO2 mole fraction", self.dimensionless)]
         for (label, unit), arg, arg_node in zip(wanted, args, node.args):
@@ -263,4 +329,4 @@ class _Builder:
         opaque = function(args[0].opaque if args[0].offset else args[0].opaque - kelvin,
                           *(a.opaque for a in args[1:]))
         density = air_density_expression(*values)
-        return Term(density, shown, reg.kilogram / reg.meter ** 3, opaque=opaque)
+        return Term(density, shown, unit_of("kg/m^3"), opaque=opaque)

@@ -114,12 +114,12 @@ def coverage_factor(coverage: float, dof: float) -> float:
     ν is rounded to one decimal before it is truncated, so that 18.999 counts as 19, as in
     the GUM's own G.4.1 example (ν_eff = 19.0, t_95(19) = 2.09).
     """
-    from scipy.special import ndtri, stdtrit
+    from .special import normal_ppf, t_ppf
 
     tail = 0.5 + coverage / 2.0
     if math.isinf(dof):
-        return float(ndtri(tail))
-    return float(stdtrit(max(1.0, math.floor(round(dof, 1))), tail))
+        return normal_ppf(tail)
+    return t_ppf(tail, max(1.0, math.floor(round(dof, 1))))
 
 
 def welch_satterthwaite(combined: float, components: np.ndarray, dofs: np.ndarray) -> float:

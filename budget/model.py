@@ -26,7 +26,7 @@ from .errors import (BudgetError, InputError, Location, ModelSyntaxError, UnitEr
                      did_you_mean)
 from .expressions import Term, build, names_in, parse_expression
 from .statements import read_statement
-from .units import parse_unit, registry
+from .units import UnitInfo, dimension_text, parse_unit
 from . import correlations as corr
 
 __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model",
@@ -179,11 +179,11 @@ class _Reader:
     """Walks one parsed TOML document; knows how to point at a key's line."""
 
     def __init__(self, text: str, name: str, document: dict) -> None:
-        self.lines, self.name, self.doc = text.splitlines(), name, document
+        self.index, self.name, self.doc = LineIndex(text.splitlines()), name, document
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
-                        line=find_line(self.lines, table, key, nth))
+                        line=self.index.find(table, key, nth))
 
     def model(self, sha256: str, overrides: dict) -> Model:
         for key in self.doc:
@@ -376,12 +376,13 @@ def _input_term(item: Input, where: Location) -> Term:
 
 def _measurand_unit(declared: Any, term: Term, where: Location) -> Any:
     if declared is None:
-        text = "1" if term.unit.dimensionless else f"{term.unit:~}"
-        return parse_unit(text, where) if not term.offset else parse_unit("degC", where)
+        if term.offset:
+            return parse_unit("degC", where)
+        return UnitInfo(text=term.unit.text, unit=term.unit, factor=term.unit.factor)
     unit = parse_unit(declared, where)
     if unit.offset != term.offset or unit.dimensionality != term.unit.dimensionality:
         found = "temperature on the Celsius scale" if term.offset else (
-            "dimensionless" if term.unit.dimensionless else str(term.unit.dimensionality))
+            dimension_text(term.unit))
         raise UnitError(f"expected the equation to give {unit.describe()} ('{unit.text}'), "
                         f"found {found}", where)
     return unit
@@ -417,37 +418,52 @@ def _unused_inputs(inputs: tuple[Input, ...], measurands: tuple[Measurand, ...])
                  if i.symbol not in used and i.standard_uncertainty > 0)
 
 
-def find_line(lines: list[str], table: str | None, key: str | None, nth: int = 0) -> int | None:
-    """1-based line of ``key`` in ``[table]`` (or of the table header), when it can be found."""
-    start = 0
-    if table:
-        header = _header_pattern(table)
-        hits = [i for i, line in enumerate(lines) if header.match(line)]
+_HEADER = re.compile(r"\s*\[\[?([^\]]+)\]\]?\s*(#.*)?$")
+
+
+class LineIndex:
+    """Where each table header and key stands in a TOML text (built once per file)."""
+
+    def __init__(self, lines: list[str]) -> None:
+        self.lines = lines
+        self.headers: list[tuple[int, str]] = []
+        self.positions: dict[str, list[int]] = {}
+        for number, line in enumerate(lines):
+            found = _HEADER.match(line)
+            if found:
+                name = ".".join(part.strip().strip('"').strip("'")
+                                for part in found.group(1).split("."))
+                self.positions.setdefault(name, []).append(len(self.headers))
+                self.headers.append((number, name))
+
+    def find(self, table: str | None, key: str | None, nth: int = 0) -> int | None:
+        """1-based line of ``key`` in ``[table]`` (or of the table header), if found."""
+        if table is None:
+            return None if key is None else self._top(key)
+        hits = self.positions.get(table, [])
         if len(hits) <= nth:
             return None
-        start = hits[nth]
+        position = hits[nth]
+        start = self.headers[position][0]
         if key is None:
             return start + 1
-        start += 1
-    elif key is None:
+        end = self.headers[position + 1][0] if position + 1 < len(self.headers) \
+            else len(self.lines)
+        return self._key(key, start + 1, end)
+
+    def _top(self, key: str) -> int | None:
+        end = self.headers[0][0] if self.headers else len(self.lines)
+        found = self._key(key, 0, end)
+        if found is not None:
+            return found
+        for number, name in self.headers:
+            if name == key or name.startswith(key + "."):
+                return number + 1
         return None
-    else:
-        header = _header_pattern(key)
-        for index, line in enumerate(lines):
-            if header.match(line) or line.strip().startswith(f"[{key}."):
-                return index + 1
-    key_pattern = re.compile(r"\s*(?:\"?)" + re.escape(key) + r"(?:\"?)\s*=")
-    for index in range(start, len(lines)):
-        line = lines[index]
-        if index > start and re.match(r"\s*\[", line) and table is not None:
-            return None
-        if table is None and re.match(r"\s*\[", line):
-            return None
-        if key_pattern.match(line):
-            return index + 1
-    return None
 
-
-def _header_pattern(table: str) -> re.Pattern[str]:
-    parts = [r"\s*\"?" + re.escape(part) + r"\"?\s*" for part in table.split(".")]
-    return re.compile(r"\s*\[\[?" + r"\.".join(parts) + r"\]\]?\s*(#.*)?$")
+    def _key(self, key: str, start: int, end: int) -> int | None:
+        pattern = re.compile(r"\s*[\"']?" + re.escape(key) + r"[\"']?\s*=")
+        for number in range(start, end):
+            if pattern.match(self.lines[number]):
+                return number + 1
+        return None

@@ -6,10 +6,12 @@ Method:
   multivariate Gaussian (6.4.8); correlated non-Gaussian inputs through a Gaussian copula
   (a documented approximation, announced by a warning); inputs without an inverse
   distribution function are refused when correlated.
-* 7.2-7.6: M trials in blocks of ``BLOCK`` values; block b draws from its own stream
-  ``SeedSequence(seed, spawn_key=(b,))``, so the numbers depend on the seed only, never on
-  the chunk size or the number of threads; blocks are evaluated on both cores at once,
-  by the model compiled once into a numeric program.
+* 7.2-7.6: M trials in blocks; block b draws from its own stream
+  ``SeedSequence(seed, spawn_key=(b,))``, so the numbers depend on the seed and the model
+  only, never on the chunk size or the number of threads; blocks are evaluated on both
+  cores at once, by the model compiled once into a numeric program. A block holds
+  ``BLOCK`` trials, fewer for models with many inputs (``block_size``: at most 32 MB of
+  draws per block), so that memory stays bounded whatever the number of trials.
 * 7.7: the probabilistically symmetric interval (quantile indices by selection, not a
   full sort) and the shortest interval (searched in the sorted tails only).
 * 7.9: the adaptive procedure, batches of ``BLOCK`` trials (≥ max(J, 10⁴)) until twice
@@ -38,10 +40,11 @@ from .formatting import decimal_exponent
 from .gum import Budget
 from .model import Model
 
-__all__ = ["BLOCK", "NONFINITE_LIMIT", "Validation", "MeasurandSimulation", "Simulation",
+__all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "Validation", "MeasurandSimulation", "Simulation",
            "simulate", "tolerance", "coverage_interval", "shortest_interval"]
 
 BLOCK = 1 << 16
+_BLOCK_BYTES = 1 << 25
 NONFINITE_LIMIT = 0.01
 ADAPTIVE_LIMIT = 20_000_000
 
@@ -80,6 +83,15 @@ class Simulation:
 
     def measurand(self, name: str) -> MeasurandSimulation:
         return next(m for m in self.measurands if m.name == name)
+
+
+def block_size(model: Model) -> int:
+    """Trials per block: ``BLOCK``, halved until the draws of one block fit in 32 MB."""
+    drawn = max(1, sum(1 for i in model.inputs if i.standard_uncertainty > 0))
+    size = BLOCK
+    while size > 1024 and drawn * size * 8 > _BLOCK_BYTES:
+        size //= 2
+    return size
 
 
 def tolerance(u: float, digits: int) -> float:
@@ -130,6 +142,7 @@ class _Sampler:
 
     def __init__(self, model: Model, seed: int) -> None:
         self.model, self.seed = model, seed
+        self.size = block_size(model)
         self.program = compile_model(model)
         self.groups = _groups(model)
         self.warnings = _copula_warnings(model, self.groups)
@@ -212,10 +225,12 @@ def _correlated(model: Model, group: list[int], rng: np.random.Generator,
 def _run_blocks(sampler: _Sampler, first: int, count: int, trials: int, out: np.ndarray,
                 progress: Callable[[int], None] | None, workers: int) -> None:
     """Fill ``out[:, :]`` with blocks first … first+count-1 of a run of ``trials``."""
+    block = sampler.size
+
     def work(b: int) -> int:
-        start = b * BLOCK
-        size = min(BLOCK, trials - start)
-        out[:, start - first * BLOCK:start - first * BLOCK + size] = sampler.block(b, size)
+        start = b * block
+        size = min(block, trials - start)
+        out[:, start - first * block:start - first * block + size] = sampler.block(b, size)
         return size
 
     blocks = range(first, first + count)
@@ -253,7 +268,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
                                   f"trials for a {100 * coverage:g} % interval, found {trials}")
         samples = np.empty((len(model.measurands), trials))
         ticker = (lambda n, total=trials: progress(n, total)) if progress else None
-        _run_blocks(sampler, 0, -(-trials // BLOCK), trials, samples, ticker, workers)
+        _run_blocks(sampler, 0, -(-trials // sampler.size), trials, samples, ticker, workers)
         warnings = []
     return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
                       sampler.warnings + warnings)
@@ -264,8 +279,8 @@ def _adaptive(sampler: _Sampler, budget: Budget | None, coverage: float, digits:
               ) -> tuple[np.ndarray, list[str]]:
     """JCGM 101 7.9 with batches of whole blocks (≥ max(J, 10⁴) trials each)."""
     j = math.ceil(100.0 / (1.0 - coverage))
-    per_batch = -(-max(j, 10_000) // BLOCK)
-    size = per_batch * BLOCK
+    per_batch = -(-max(j, 10_000) // sampler.size)
+    size = per_batch * sampler.size
     n_out = len(sampler.model.measurands)
     batches: list[np.ndarray] = []
     stats: list[np.ndarray] = []  # per batch: (n_out, 4) mean, sd, low, high

@@ -50,6 +50,20 @@ class Program:
         self.ops: list[tuple[str, tuple[int, ...], Any]] = []
         self.constants: dict[int, float] = {}
         self.outputs = tuple(self._compile(expr) for expr in outputs)
+        self.release = self._last_uses()
+
+    def _last_uses(self) -> list[tuple[int, ...]]:
+        """For each operation, the slots no longer needed once it has run."""
+        last: dict[int, int] = {}
+        for index, (_, args, _) in enumerate(self.ops):
+            for a in args:
+                last[a] = index
+        keep = set(self.outputs)
+        release: list[list[int]] = [[] for _ in self.ops]
+        for slot, index in last.items():
+            if slot not in keep:
+                release[index].append(slot)
+        return [tuple(r) for r in release]
 
     @property
     def size(self) -> int:
@@ -96,8 +110,16 @@ class Program:
             raise ValueError(f"no numeric rule for {node.func.__name__}")
 
     def evaluate(self, values: Sequence[Any]) -> list[Any]:
-        """The outputs for input values (scalars, or equal-length float64 arrays)."""
-        slots = self._forward(values)
+        """The outputs for input values (scalars, or equal-length float64 arrays).
+
+        Intermediate arrays are dropped as soon as no later operation needs them, so a
+        large model evaluated on a block of trials holds only its live values."""
+        slots: list[Any] = list(values)
+        with np.errstate(all="ignore"):
+            for (kind, args, payload), done in zip(self.ops, self.release):
+                slots.append(_apply(kind, [slots[a] for a in args], payload))
+                for slot in done:
+                    slots[slot] = None
         return [slots[i] for i in self.outputs]
 
     def _forward(self, values: Sequence[Any]) -> list[Any]:

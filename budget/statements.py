@@ -174,10 +174,10 @@ def _from_expanded(table: _Table, shape: str, dof: float, unit: Any, _: str) -> 
 
 
 def _coverage_factor(level: float, dof: float) -> float:
-    from scipy.special import ndtri, stdtrit
+    from .special import normal_ppf, t_ppf
 
     tail = 0.5 + level / 2.0
-    return float(ndtri(tail)) if math.isinf(dof) else float(stdtrit(dof, tail))
+    return normal_ppf(tail) if math.isinf(dof) else t_ppf(tail, dof)
 
 
 def _from_half_width(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Statement:

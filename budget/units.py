@@ -7,6 +7,12 @@ unit*, as a budget table shows them. A temperature in ``degC`` is the one offset
 accepted: it may enter the model only as a difference of two such temperatures or as the
 argument of a function that declares °C (``air_density``); everything else is checked by
 dimension before any number is computed (GUM 4.1: the model must be dimensionally sound).
+
+pint parses every unit string; the common ones were parsed by pint in advance
+(``unit_table.py``, checked against pint by the tests), so a typical model runs without
+importing pint. While expressions are built, units travel as :class:`Unit` values —
+dimension exponents, SI factor and a pint-readable text — so that checking dimensions
+needs no registry either.
 """
 
 from __future__ import annotations
@@ -18,29 +24,107 @@ from typing import Any
 
 from .errors import Location, UnitError
 
-__all__ = ["UnitInfo", "parse_unit", "registry", "DIMENSIONLESS"]
+__all__ = ["Unit", "UnitInfo", "parse_unit", "registry", "dimension_text", "DIMENSIONLESS"]
+
+_ORDER = ("[mass]", "[length]", "[time]", "[current]", "[substance]", "[temperature]",
+          "[luminosity]")
 
 
 @lru_cache(maxsize=1)
 def registry() -> Any:
-    """The shared pint registry, created on first use (it takes a moment to build)."""
+    """The shared pint registry, created on first use (it takes half a second)."""
     import pint
 
     return pint.UnitRegistry(autoconvert_offset_to_baseunit=False)
 
 
+def _key(item: tuple[str, Fraction]) -> tuple[int, str]:
+    name = item[0]
+    return (_ORDER.index(name) if name in _ORDER else len(_ORDER), name)
+
+
+def _bracket(text: str) -> str:
+    return f"({text})" if any(c in text for c in "*/ ") else text
+
+
+@dataclass(frozen=True, slots=True)
+class Unit:
+    """Dimension exponents, the factor to coherent SI, and a text pint can read again."""
+
+    dims: tuple[tuple[str, Fraction], ...]
+    factor: Fraction
+    text: str
+
+    @staticmethod
+    def make(dims: dict[str, Fraction], factor: Fraction, text: str) -> "Unit":
+        cleaned = tuple(sorted(((k, v) for k, v in dims.items() if v != 0), key=_key))
+        return Unit(cleaned, factor, text)
+
+    @property
+    def dimensionality(self) -> tuple[tuple[str, Fraction], ...]:
+        return self.dims
+
+    @property
+    def dimensionless(self) -> bool:
+        return not self.dims
+
+    def _combine(self, other: "Unit", sign: int) -> dict[str, Fraction]:
+        dims = dict(self.dims)
+        for name, power in other.dims:
+            dims[name] = dims.get(name, Fraction(0)) + sign * power
+        return dims
+
+    def __mul__(self, other: "Unit") -> "Unit":
+        text = other.text if self.text == "1" else self.text if other.text == "1" else \
+            f"{_bracket(self.text)}*{_bracket(other.text)}"
+        return Unit.make(self._combine(other, 1), self.factor * other.factor, text)
+
+    def __truediv__(self, other: "Unit") -> "Unit":
+        text = self.text if other.text == "1" else f"{_bracket(self.text)}/{_bracket(other.text)}"
+        return Unit.make(self._combine(other, -1), self.factor / other.factor, text)
+
+    def __pow__(self, power: float | Fraction) -> "Unit":
+        exponent = Fraction(power).limit_denominator(1000)
+        dims = {name: p * exponent for name, p in self.dims}
+        factor = self.factor ** exponent
+        if not isinstance(factor, Fraction):
+            factor = Fraction(f"{float(factor):.15g}")
+        text = "1" if self.text == "1" else f"{_bracket(self.text)}**{exponent}"
+        return Unit.make(dims, factor, text)
+
+    def __format__(self, spec: str) -> str:
+        return self.text
+
+
+DIMENSIONLESS = Unit((), Fraction(1), "1")
+
+
+def dimension_text(unit: Unit) -> str:
+    """Dimensions written as pint writes them, e.g. ``[mass] / [length] ** 3``."""
+    if not unit.dims:
+        return "dimensionless"
+
+    def term(name: str, power: Fraction) -> str:
+        power = abs(power)
+        return name if power == 1 else f"{name} ** {power}"
+
+    up = [term(n, p) for n, p in unit.dims if p > 0]
+    down = [term(n, p) for n, p in unit.dims if p < 0]
+    return " / ".join([" * ".join(up) or "1", *down])
+
+
 @dataclass(frozen=True, slots=True)
 class UnitInfo:
-    """A parsed unit: what the user wrote, the pint unit, and its SI scale factor."""
+    """A parsed unit: what the user wrote, its :class:`Unit`, and whether it is °C."""
 
     text: str
-    unit: Any
+    unit: Unit
     factor: Fraction
     offset: bool = False
 
     @property
     def dimensionality(self) -> Any:
-        return self.unit.dimensionality
+        return self.unit.dims
 
     @property
     def dimensionless(self) -> bool:
@@ -53,14 +137,7 @@ class UnitInfo:
         return dimension_text(self.unit)
 
 
-def dimension_text(unit: Any) -> str:
-    dims = unit.dimensionality
-    return "dimensionless" if not dims else str(dims)
-
-
-def _round_factor(value: float) -> Fraction:
-    """SI factor as an exact fraction; pint's float products are rounded to 15 digits."""
-    return Fraction(f"{value:.15g}")
+_PARSED: dict[str, UnitInfo] = {}  # successful parses only; errors are raised every time
 
 
 def parse_unit(text: Any, where: Location) -> UnitInfo:
@@ -69,31 +146,41 @@ def parse_unit(text: Any, where: Location) -> UnitInfo:
         raise UnitError(f"expected a unit string such as \"mg\", found {text!r}", where)
     cleaned = text.strip()
     if cleaned in ("", "1"):
-        return UnitInfo(text=cleaned or "1", unit=registry().dimensionless, factor=Fraction(1))
-    return _parse(cleaned, where)
+        return UnitInfo(text="1", unit=DIMENSIONLESS, factor=Fraction(1))
+    if cleaned not in _PARSED:
+        _PARSED[cleaned] = _from_table(cleaned) or _parse(cleaned, where)
+    return _PARSED[cleaned]
+
+
+def _from_table(cleaned: str) -> UnitInfo | None:
+    from .unit_table import TABLE
+
+    if cleaned not in TABLE:
+        return None
+    dims, factor, offset, _ = TABLE[cleaned]
+    if offset:
+        kelvin = Unit.make({"[temperature]": Fraction(1)}, Fraction(1), "K")
+        return UnitInfo(text=cleaned, unit=kelvin, factor=Fraction(1), offset=True)
+    unit = Unit.make({k: Fraction(v) for k, v in dims}, Fraction(factor), cleaned)
+    return UnitInfo(text=cleaned, unit=unit, factor=unit.factor)
 
 
 def _parse(cleaned: str, where: Location) -> UnitInfo:
     reg = registry()
     try:
-        unit = reg.Unit(cleaned)
+        parsed = reg.Unit(cleaned)
     except Exception as exc:  # pint raises several unrelated types for bad strings
         raise UnitError(f"expected a unit that pint understands, found '{cleaned}' "
                         f"({type(exc).__name__})", where) from exc
-    if _has_offset_part(unit):
-        return _offset_unit(cleaned, unit, where)
-    magnitude = reg.Quantity(1.0, unit).to_base_units().magnitude
-    return UnitInfo(text=cleaned, unit=unit, factor=_round_factor(float(magnitude)))
-
-
-def _has_offset_part(unit: Any) -> bool:
-    reg = registry()
-    return any(not reg._units[name].is_multiplicative for name in unit._units
-               if name in reg._units)
-
-
-def _offset_unit(cleaned: str, unit: Any, where: Location) -> UnitInfo:
-    if str(unit) == "degree_Celsius":
-        return UnitInfo(text=cleaned, unit=registry().kelvin, factor=Fraction(1), offset=True)
-    raise UnitError(f"expected a multiplicative unit or degC, found '{cleaned}' "
-                    "(offset units other than degC are not supported; use K or degC)", where)
+    if any(not reg._units[name].is_multiplicative for name in parsed._units
+           if name in reg._units):
+        if str(parsed) == "degree_Celsius":
+            return _from_table("degC")  # type: ignore[return-value]
+        raise UnitError(f"expected a multiplicative unit or degC, found '{cleaned}' "
+                        "(offset units other than degC are not supported; use K or degC)",
+                        where)
+    magnitude = float(reg.Quantity(1.0, parsed).to_base_units().magnitude)
+    dims = {name: Fraction(power).limit_denominator(1000)
+            for name, power in parsed.dimensionality.items()}
+    unit = Unit.make(dims, Fraction(f"{magnitude:.15g}"), cleaned)
+    return UnitInfo(text=cleaned, unit=unit, factor=unit.factor)
