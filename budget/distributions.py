@@ -60,10 +60,7 @@ class Normal:
         return self.sd
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
-        values = rng.standard_normal(size)
-        values *= self.sd
-        values += self.estimate
-        return values
+        return rng.normal(self.estimate, self.sd, size)
 
     def ppf(self, p: np.ndarray) -> np.ndarray:
         from scipy.special import ndtri

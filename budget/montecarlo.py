@@ -45,6 +45,7 @@ __all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "Validation", "MeasurandSim
 
 BLOCK = 1 << 16
 _BLOCK_BYTES = 1 << 25
+_SLICE = 1 << 13  # evaluation works on slices that stay in the processor's cache
 NONFINITE_LIMIT = 0.01
 ADAPTIVE_LIMIT = 20_000_000
 
@@ -67,7 +68,7 @@ class MeasurandSimulation:
     interval: tuple[float, float]
     shortest_interval: tuple[float, float]
     validation: Validation | None
-    samples: np.ndarray = field(repr=False, compare=False)
+    samples: np.ndarray = field(repr=False, compare=False)  # the values, partially sorted
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -137,6 +138,26 @@ def shortest_interval(values: np.ndarray, p: float) -> tuple[float, float]:
     return float(low[best]), float(high[best])
 
 
+def _intervals(values: np.ndarray, p: float) -> tuple[tuple[float, float],
+                                                     tuple[float, float]]:
+    """Both JCGM 101 7.7 intervals from one partition and two sorts of the tails."""
+    m = values.size
+    q = _q(m, p)
+    tail = m - q
+    lo, hi = _indices(m, p)
+    if tail - 1 >= q:  # p ≤ 1/2: a full sort is as cheap
+        values.sort()
+        low, high = values[:tail], values[q:]
+    else:
+        values.partition(sorted({tail - 1, q, lo, hi}))
+        low = np.sort(values[:tail])
+        high = np.sort(values[q:])
+    best = int(np.argmin(high - low))
+    symmetric = (float(low[lo]) if lo < tail else float(values[lo]),
+                 float(high[hi - q]) if hi >= q else float(values[hi]))
+    return symmetric, (float(low[best]), float(high[best]))
+
+
 class _Sampler:
     """Draws the inputs of one block and evaluates the model on them."""
 
@@ -147,7 +168,18 @@ class _Sampler:
         self.groups = _groups(model)
         self.warnings = _copula_warnings(model, self.groups)
 
-    def block(self, index: int, size: int) -> np.ndarray:
+    def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
+        """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
+        values = self.draw(index, size)
+        out = np.empty((len(self.model.measurands), size)) if out is None else out
+        for start in range(0, size, _SLICE):  # cache-sized slices of the drawn block
+            stop = min(size, start + _SLICE)
+            part = [v if np.ndim(v) == 0 else v[start:stop] for v in values]
+            for k, y in enumerate(self.program.evaluate(part)):
+                out[k, start:stop] = y
+        return out
+
+    def draw(self, index: int, size: int) -> list[Any]:
         rng = np.random.Generator(np.random.PCG64(
             np.random.SeedSequence(self.seed, spawn_key=(index,))))
         values: list[Any] = [None] * len(self.model.inputs)
@@ -159,11 +191,7 @@ class _Sampler:
             else:
                 for slot, column in zip(group, _correlated(self.model, group, rng, size)):
                     values[slot] = column
-        outputs = self.program.evaluate(values)
-        result = np.empty((len(outputs), size))
-        for k, y in enumerate(outputs):
-            result[k] = y
-        return result
+        return values
 
 
 def _groups(model: Model) -> list[list[int]]:
@@ -223,27 +251,53 @@ def _correlated(model: Model, group: list[int], rng: np.random.Generator,
 
 
 def _run_blocks(sampler: _Sampler, first: int, count: int, trials: int, out: np.ndarray,
-                progress: Callable[[int], None] | None, workers: int) -> None:
+                progress: Callable[[int], None] | None, workers: int) -> np.ndarray:
     """Fill ``out[:, :]`` with blocks first … first+count-1 of a run of ``trials``."""
     block = sampler.size
+    moments: list[np.ndarray] = []
 
-    def work(b: int) -> int:
+    def work(b: int) -> tuple[int, np.ndarray]:
         start = b * block
         size = min(block, trials - start)
-        out[:, start - first * block:start - first * block + size] = sampler.block(b, size)
-        return size
+        view = out[:, start - first * block:start - first * block + size]
+        sampler.block(b, size, view)
+        return size, _block_moments(view)
 
     blocks = range(first, first + count)
-    if workers <= 1:
-        for b in blocks:
-            done = work(b)
-            if progress:
-                progress(done)
-        return
-    with ThreadPoolExecutor(max_workers=workers) as pool:
-        for done in pool.map(work, blocks):
-            if progress:
-                progress(done)
+    results = map(work, blocks) if workers <= 1 else \
+        ThreadPoolExecutor(max_workers=workers).map(work, blocks)
+    for done, block_moments in results:  # in block order, whatever finished first
+        moments.append(block_moments)
+        if progress:
+            progress(done)
+    return _combine(moments)
+
+
+def _block_moments(view: np.ndarray) -> np.ndarray:
+    """Per measurand: count, mean and sum of squared deviations of the jointly finite
+    values of one block (computed while the block is in the cache)."""
+    finite = np.isfinite(view).all(axis=0)
+    data = view if finite.all() else view[:, finite]
+    n = data.shape[1]
+    mean = data.mean(axis=1) if n else np.zeros(view.shape[0])
+    centred = data - mean[:, None]
+    m2 = np.einsum("ij,ij->i", centred, centred)
+    return np.column_stack([np.full(view.shape[0], float(n)), mean, m2])
+
+
+def _combine(moments: list[np.ndarray]) -> np.ndarray:
+    """Chan et al.'s pairwise update, block by block in order: (n, mean, M2) per measurand."""
+    total = moments[0].copy()
+    for part in moments[1:]:
+        n_a, n_b = total[:, 0], part[:, 0]
+        n = n_a + n_b
+        with np.errstate(invalid="ignore", divide="ignore"):
+            delta = part[:, 1] - total[:, 1]
+            share = np.where(n > 0, n_b / np.where(n > 0, n, 1), 0.0)
+            total[:, 1] = total[:, 1] + delta * share
+            total[:, 2] = total[:, 2] + part[:, 2] + delta * delta * n_a * share
+        total[:, 0] = n
+    return total
 
 
 def simulate(model: Model, budget: Budget | None = None, *, trials: int | None = None,
@@ -262,16 +316,18 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     sampler = _Sampler(model, seed)
     if adaptive:
         samples, warnings = _adaptive(sampler, budget, coverage, digits, workers, progress)
+        moments = None
     else:
         if trials < 2 or trials < 1.0 / (1.0 - coverage):
             raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
                                   f"trials for a {100 * coverage:g} % interval, found {trials}")
         samples = np.empty((len(model.measurands), trials))
         ticker = (lambda n, total=trials: progress(n, total)) if progress else None
-        _run_blocks(sampler, 0, -(-trials // sampler.size), trials, samples, ticker, workers)
+        moments = _run_blocks(sampler, 0, -(-trials // sampler.size), trials, samples,
+                              ticker, workers)
         warnings = []
     return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
-                      sampler.warnings + warnings)
+                      sampler.warnings + warnings, moments)
 
 
 def _adaptive(sampler: _Sampler, budget: Budget | None, coverage: float, digits: int,
@@ -324,13 +380,14 @@ def _converged(all_values: np.ndarray, stats: np.ndarray, digits: int) -> bool:
 
 
 def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: int,
-               coverage: float, digits: int, adaptive: bool, warnings: list[str]
-               ) -> Simulation:
+               coverage: float, digits: int, adaptive: bool, warnings: list[str],
+               moments: np.ndarray | None = None) -> Simulation:
     total = samples.shape[1]
-    finite = np.all(np.isfinite(samples), axis=0)
-    bad = int(total - finite.sum())
+    if moments is None:
+        moments = _block_moments(samples)
+    bad = int(total - moments[0, 0])
     if bad:
-        samples = samples[:, finite]
+        samples = samples[:, np.isfinite(samples).all(axis=0)]
         share = bad / total
         if share > NONFINITE_LIMIT:
             raise SimulationError(
@@ -339,7 +396,9 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: i
                 "input distributions reach outside the equations' domain")
         warnings.append(f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) gave a "
                         "non-finite model value and were left out")
-    results = tuple(_one(model, budget, k, samples[k], coverage, digits)
+    correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
+    correlation = np.nan_to_num(np.atleast_2d(correlation), nan=0.0)
+    results = tuple(_one(model, budget, k, samples[k], coverage, digits, moments[k])
                     for k in range(samples.shape[0]))
     for item in results:
         if item.validation is not None and not item.validation.validated:
@@ -348,8 +407,6 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: i
                 f"{item.validation.tolerance:.2g} {item.unit} (d_low = "
                 f"{item.validation.d_low:.2g}, d_high = {item.validation.d_high:.2g}, "
                 "JCGM 101 8.2)")
-    correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
-    correlation = np.nan_to_num(np.atleast_2d(correlation), nan=0.0)
     return Simulation(trials=total, seed=seed, coverage_probability=coverage,
                       adaptive=adaptive, nonfinite=bad, measurands=results,
                       output_correlation=tuple(tuple(float(x) for x in row)
@@ -358,16 +415,14 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: i
 
 
 def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: float,
-         digits: int) -> MeasurandSimulation:
+         digits: int, moments: np.ndarray) -> MeasurandSimulation:
     measurand = model.measurands[k]
     if y.size < 2:
         raise SimulationError(f"{model.source}: too few finite Monte Carlo values for "
                               f"'{measurand.name}'")
-    mean = float(y.mean())
-    sd = float(y.std(ddof=1))
-    work = y.copy()
-    interval = coverage_interval(work, coverage)
-    shortest = shortest_interval(work, coverage)
+    mean = float(moments[1])
+    sd = math.sqrt(float(moments[2]) / (moments[0] - 1))
+    interval, shortest = _intervals(y, coverage)  # partitions y in place: no copy
     validation = None
     if budget is not None:
         gum = budget.measurands[k]

@@ -198,13 +198,19 @@ def test_same_seed_same_numbers_whatever_the_workers():
     assert not np.array_equal(one, other)
 
 
-def test_longer_run_extends_a_shorter_one():
-    # blocks are independent streams: the first 2 blocks of a long run equal a short run
+def test_blocks_do_not_depend_on_the_run_length():
+    # block b draws from SeedSequence(seed, spawn_key=(b,)): the same numbers whatever the
+    # number of trials, so a longer run extends a shorter one
+    from budget.montecarlo import _Sampler, _run_blocks
+
     m = model(_additive("normal"))
-    budget = propagate(m)
-    short = simulate(m, budget, trials=2 * BLOCK, seed=3).measurand("Y").samples
-    long = simulate(m, budget, trials=5 * BLOCK, seed=3).measurand("Y").samples
-    assert np.array_equal(short, long[:2 * BLOCK])
+    sampler = _Sampler(m, 3)
+    short = np.empty((1, 2 * BLOCK))
+    long = np.empty((1, 5 * BLOCK))
+    _run_blocks(sampler, 0, 2, 2 * BLOCK, short, None, 2)
+    _run_blocks(sampler, 0, 5, 5 * BLOCK, long, None, 1)
+    assert np.array_equal(short[0], long[0, :2 * BLOCK])
+    assert np.array_equal(sampler.block(1, BLOCK), long[:, BLOCK:2 * BLOCK])
 
 
 def test_non_finite_trials_are_counted_and_reported():
