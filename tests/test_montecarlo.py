@@ -258,6 +258,19 @@ def test_coverage_interval_indices_follow_jcgm101_7_7():
     assert high == pytest.approx(stats.expon.ppf(0.95), abs=0.02)
 
 
+@pytest.mark.parametrize("shape", ["normal", "rectangular"])
+def test_intervals_from_the_kept_tails_equal_a_full_selection(shape):
+    # the engine sorts only the values beyond cut points taken from the first block;
+    # the result must be exactly that of selecting among all M values (JCGM 101 7.7)
+    m = model(_additive(shape))
+    result = simulate(m, propagate(m), trials=6 * BLOCK + 17).measurand("Y")
+    values = result.samples.copy()
+    assert result.interval == coverage_interval(values.copy(), 0.95)
+    assert result.shortest_interval == shortest_interval(values.copy(), 0.95)
+    p99 = simulate(m, propagate(m), trials=6 * BLOCK, coverage=0.99).measurand("Y")
+    assert p99.interval == coverage_interval(p99.samples.copy(), 0.99)
+
+
 @pytest.mark.parametrize("u, digits, delta", [
     # JCGM 101 7.9.2 example: u = 0.000 35 g with two significant digits: delta = 0.000 005 g
     (0.00035, 2, 0.000005), (2.0, 2, 0.05), (2.0, 1, 0.5), (0.0999, 2, 0.005)])
