@@ -11,7 +11,7 @@ keeps every number unrounded; only tables and reports call this module.
 from __future__ import annotations
 
 import math
-from decimal import ROUND_HALF_UP, Decimal
+from decimal import ROUND_HALF_UP, Decimal, localcontext
 
 __all__ = ["decimal_exponent", "round_pair", "format_pair", "format_number",
            "format_dof", "format_percent"]
@@ -29,11 +29,13 @@ def decimal_exponent(u: float, digits: int = 2) -> int:
 
 def round_pair(value: float, u: float, digits: int = 2) -> tuple[Decimal, Decimal]:
     """Value and uncertainty rounded to the uncertainty's last significant digit."""
-    if not math.isfinite(u) or u <= 0.0:
+    if not math.isfinite(u) or u <= 0.0 or not math.isfinite(value):
         return Decimal(repr(value)), Decimal(0)
     quantum = Decimal(1).scaleb(decimal_exponent(u, digits))
-    return (Decimal(repr(value)).quantize(quantum, ROUND_HALF_UP),
-            Decimal(repr(u)).quantize(quantum, ROUND_HALF_UP))
+    with localcontext() as context:  # room for a value far larger than its uncertainty
+        context.prec = 800
+        return (Decimal(repr(value)).quantize(quantum, ROUND_HALF_UP),
+                Decimal(repr(u)).quantize(quantum, ROUND_HALF_UP))
 
 
 def format_pair(value: float, u: float, digits: int = 2) -> tuple[str, str]:

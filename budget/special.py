@@ -16,6 +16,7 @@ __all__ = ["betainc", "t_cdf", "t_ppf", "normal_ppf", "f_sf", "t_two_sided_p"]
 
 _EPS = 1e-15
 _TINY = 1e-300
+_LARGE_DOF = 1e7  # beyond: the normal distribution (t quantiles differ by < 1e-6 relative)
 
 
 def _continued_fraction(a: float, b: float, x: float) -> float:
@@ -58,7 +59,7 @@ def betainc(a: float, b: float, x: float) -> float:
 
 def t_cdf(t: float, dof: float) -> float:
     """P(T ≤ t) for Student's t with ``dof`` degrees of freedom."""
-    if math.isinf(dof):
+    if dof > _LARGE_DOF:
         return NormalDist().cdf(t)
     tail = 0.5 * betainc(dof / 2.0, 0.5, dof / (dof + t * t))
     return 1.0 - tail if t > 0 else tail
@@ -66,7 +67,7 @@ def t_cdf(t: float, dof: float) -> float:
 
 def t_two_sided_p(t: float, dof: float) -> float:
     """P(|T| ≥ |t|)."""
-    if math.isinf(dof):
+    if dof > _LARGE_DOF:
         return 2.0 * NormalDist().cdf(-abs(t))
     return betainc(dof / 2.0, 0.5, dof / (dof + t * t))
 
@@ -77,7 +78,7 @@ def normal_ppf(p: float) -> float:
 
 def t_ppf(p: float, dof: float) -> float:
     """The p-quantile of Student's t (0 < p < 1)."""
-    if math.isinf(dof):
+    if dof > _LARGE_DOF:
         return normal_ppf(p)
     if p == 0.5:
         return 0.0
@@ -98,6 +99,8 @@ def t_ppf(p: float, dof: float) -> float:
     log_c = math.lgamma((dof + 1) / 2) - math.lgamma(dof / 2) - 0.5 * math.log(dof * math.pi)
     for _ in range(20):
         density = math.exp(log_c - (dof + 1) / 2 * math.log1p(x * x / dof))
+        if density <= 0.0:
+            break
         step = (t_cdf(x, dof) - p) / density
         x -= step
         if abs(step) < 1e-14 * max(1.0, abs(x)):

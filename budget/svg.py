@@ -37,7 +37,9 @@ def _text(x: float, y: float, text: str, anchor: str = "start", extra: str = "")
 def bar_chart(rows: Sequence[tuple[str, float]], unit: str = "%",
               label: str = "contributions") -> Markup:
     """Horizontal bars, one per (name, value); negative values drawn leftwards."""
-    rows = [r for r in rows if r[1] != 0] or list(rows[:1])
+    rows = [r for r in rows if r[1] != 0 and math.isfinite(r[1])]
+    if not rows:
+        return _svg(_W, 30, [_text(10, 20, "no input contributes to the uncertainty")], label)
     height = 22 * len(rows) + 30
     left = min(260, 20 + 7 * max(len(name) for name, _ in rows))
     right = _W - 70
@@ -67,7 +69,11 @@ def histogram(samples: np.ndarray, *, estimate: float, u: float, dof: float,
     low, high = np.quantile(samples, [0.0005, 0.9995])
     low = min(low, gum_interval[0], interval[0])
     high = max(high, gum_interval[1], interval[1])
-    pad = 0.04 * (high - low) or 1.0
+    span = high - low
+    if not math.isfinite(span) or span <= 1e-12 * max(abs(low), abs(high)):
+        return _svg(_W, 30, [_text(10, 20, "the Monte Carlo values do not spread enough "
+                                           "for a histogram")], label)
+    pad = 0.04 * span
     low, high = low - pad, high + pad
     counts, edges = np.histogram(samples, bins=70, range=(low, high), density=True)
     grid = np.linspace(low, high, 241)
