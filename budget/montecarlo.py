@@ -34,6 +34,7 @@ from typing import Any, Callable
 
 import numpy as np
 
+from .distributions import Normal
 from .errors import SimulationError
 from .evaluation import compile_model
 from .formatting import decimal_exponent
@@ -189,7 +190,7 @@ class _Sampler:
         out = np.empty((len(self.model.measurands), size)) if out is None else out
         for start in range(0, size, _SLICE):  # cache-sized slices of the drawn block
             stop = min(size, start + _SLICE)
-            part = [v if np.ndim(v) == 0 else v[start:stop] for v in values]
+            part = [_slice(v, start, stop) for v in values]
             for k, y in enumerate(self.program.evaluate(part)):
                 out[k, start:stop] = y
         return out
@@ -201,12 +202,27 @@ class _Sampler:
         for group in self.groups:
             if len(group) == 1:
                 item = self.model.inputs[group[0]]
-                values[group[0]] = item.estimate if item.standard_uncertainty == 0 \
-                    else item.distribution.sample(rng, size)
+                if item.standard_uncertainty == 0:
+                    values[group[0]] = item.estimate
+                elif isinstance(item.distribution, Normal):  # scaled slice by slice, in cache
+                    values[group[0]] = (rng.standard_normal(size), item.estimate,
+                                        item.distribution.sd)
+                else:
+                    values[group[0]] = item.distribution.sample(rng, size)
             else:
                 for slot, column in zip(group, _correlated(self.model, group, rng, size)):
                     values[slot] = column
         return values
+
+
+def _slice(value: Any, start: int, stop: int) -> Any:
+    """A slice of a drawn input: scalars as they are, standard normals scaled on the way."""
+    if isinstance(value, tuple):
+        standard, mean, sd = value
+        part = standard[start:stop] * sd
+        part += mean
+        return part
+    return value if np.ndim(value) == 0 else value[start:stop]
 
 
 def _groups(model: Model) -> list[list[int]]:

@@ -35,3 +35,28 @@ def test_campaign_runs_end_to_end(path, cli):
 def test_every_model_file_is_commented():
     for path in _MODELS + _CAMPAIGNS:
         assert path.read_text().lstrip().startswith("#"), path
+
+
+def test_amount_content_times_molar_mass_is_the_mass_fraction():
+    # the amount-content variant writes charges in mC, the mass in mg, the pressure in hPa
+    # and the humidity in %: kappa * M must equal the mass-fraction model's w (same
+    # determination D1) once the units are converted [C: w / % = kappa * M / 10]
+    from budget.chemistry import molar_mass
+    from budget.gum import propagate
+    from budget.model import load_model
+
+    kappa = propagate(load_model(MODELS / "vics-as-25a" / "coulometric-amount-content.toml")
+                      ).measurand("kappa").estimate
+    w = propagate(load_model(MODELS / "vics-as-25a" / "coulometric-purity.toml")
+                  ).measurand("w").estimate
+    assert kappa * molar_mass("C8H5KO4").value / 10 == pytest.approx(w, rel=1e-12)
+
+
+def test_weight_titration_reproduces_the_demo_comparison_value():
+    # invented demo data (../shared/demo/README.md): the weight titration gives 99.978 %
+    from budget.gum import propagate
+    from budget.model import load_model
+
+    w = propagate(load_model(MODELS / "vics-as-25a" / "weight-titration-comparison.toml")
+                  ).measurand("w_x")
+    assert w.estimate == pytest.approx(99.978, abs=0.0015)
