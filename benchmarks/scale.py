@@ -70,6 +70,18 @@ def main() -> None:
         path.write_text(mean_of_determinations(n))
         seconds, _ = run([ "run", str(path), "--json", "--trials", "0"], repeats=2)
         print(f"   {3 * n + 3:6d}   {seconds:7.2f}")
+    print("   the engine alone (parse + GUM propagation, in process, best of 3):")
+    from budget.gum import propagate
+    from budget.model import parse_model
+
+    for n in (33, 100, 200, 300, 500, 1000):
+        text = mean_of_determinations(n)
+        best = float("inf")
+        for _ in range(3):
+            start = time.perf_counter()
+            propagate(parse_model(text))
+            best = min(best, time.perf_counter() - start)
+        print(f"   {3 * n + 3:6d}   {best:7.3f}   ({1e3 * best / (3 * n + 3):.2f} ms per input)")
     product = folder / "product200.toml"
     product.write_text(product_model(200))
     seconds, _ = run(["run", str(product), "--json", "--trials", "0"], repeats=2)
