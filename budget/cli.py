@@ -40,7 +40,7 @@ class _Progress:
         self.shown = False
 
     def __call__(self, done: int, total: int) -> None:
-        self.done = max(self.done, 0) + done if done < total else done
+        self.done += done  # the engine reports trials done since the last call
         if not self.enabled or time.monotonic() - self.start < 1.0:
             return
         share = min(1.0, self.done / max(total, 1))

@@ -410,8 +410,7 @@ def _adaptive(sampler: _Sampler, budget: Budget | None, coverage: float, digits:
     while True:
         h = len(batches)
         chunk = np.empty((n_out, size))
-        ticker = (lambda n, total=size * (h + 1): progress(h * size + n, total)) \
-            if progress else None
+        ticker = (lambda n, total=size * (h + 1): progress(n, total)) if progress else None
         _run_blocks(sampler, h * per_batch, per_batch, (h + 1) * size, chunk, ticker,
                     workers)  # moments and tails are recomputed over all batches below
         batches.append(chunk)

@@ -138,3 +138,27 @@ def test_json_numbers_are_plain(cli):
     assert "NaN" not in stdout and "Infinity" not in stdout
     assert all(math.isfinite(c["sensitivity"]) for c in
                json.loads(stdout)["measurands"][0]["contributions"])
+
+
+def test_adaptive_flag(cli):
+    # JCGM 101 7.9 through the command line: whole batches of 65,536 trials
+    code, stdout, stderr = cli("run", H1, "--json", "--adaptive")
+    assert code == 0, stderr
+    mc = json.loads(stdout)["measurands"][0]["monte_carlo"]
+    assert mc["trials"] % 65536 == 0 and mc["trials"] >= 2 * 65536
+    assert json.loads(stdout)["provenance"]["adaptive"] is True
+
+
+def test_progress_is_shown_on_a_terminal_only_after_a_second(monkeypatch, capsys):
+    from budget import cli as module
+
+    monkeypatch.setattr(module.sys.stderr, "isatty", lambda: True, raising=False)
+    progress = module._Progress(True)
+    progress(10, 100)
+    assert capsys.readouterr().err == ""  # too early
+    progress.start -= 2.0
+    progress(50, 100)
+    progress.close()
+    err = capsys.readouterr().err
+    assert "Monte Carlo  60.0 % of 100 trials" in err  # 10 + 50 trials reported
+    assert module._Progress(False).enabled is False  # --json: never
