@@ -208,3 +208,18 @@ def test_console_error_detection_works(tmp_path):
     page.write_text("<html><body><p>x</p><script>undefinedFunction();</script></body></html>")
     _, log = _render(page, tmp_path)
     assert _console_errors(log)
+
+
+@pytest.mark.skipif(_CHROMIUM is None, reason="Chromium is not installed (.ci/run installs it)")
+def test_report_prints_on_a4(demo, tmp_path):
+    # the style sheet asks for A4 (@page size: A4): 595 x 842 points in the PDF
+    html, _, _ = demo
+    pdf = tmp_path / "report.pdf"
+    subprocess.run([_CHROMIUM, *_FLAGS, f"--user-data-dir={tmp_path / 'profile'}",
+                    "--no-pdf-header-footer", f"--print-to-pdf={pdf}", html.as_uri()],
+                   capture_output=True, timeout=120, check=False)
+    data = pdf.read_bytes()
+    boxes = re.findall(rb"/MediaBox\s*\[\s*0\s+0\s+([\d.]+)\s+([\d.]+)\s*\]", data)
+    assert boxes, "no page in the PDF"
+    for width, height in boxes:
+        assert (round(float(width)), round(float(height))) == (595, 842)
