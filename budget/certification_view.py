@@ -50,7 +50,8 @@ def _characterization(char: Any, covers: tuple[str, ...], unit: str,
                       digits: int) -> dict[str, Any]:
     return {"runs": [{"label": label, "value": format_number(y, 9)}
                      for label, y in zip(char.labels, char.runs)],
-            "mean": format_pair(char.mean, char.u, digits + 1)[0], "s": format_number(char.s, digits),
+            "mean": format_pair(char.mean, char.u, digits + 1)[0],
+            "s": format_number(char.s, digits),
             "n": char.n, "repeatability": format_number(char.s / math.sqrt(char.n), digits),
             "u_B": format_number(char.u_B, digits), "u": format_number(char.u, digits),
             "dof": format_dof(char.dof), "covers": ", ".join(covers) or "none",
@@ -90,7 +91,8 @@ def _stability(s: Any, unit: str, digits: int) -> dict[str, Any] | None:
         band.append((float(t), fit - half, fit + half))
     return {"slope": format_number(s.slope, digits), "u_slope": format_number(s.u_slope, digits),
             "t": f"{s.t:.3g}", "p": f"{s.p_value:.2g}", "significant": s.p_value < 0.05,
-            "dof": s.dof, "shelf_life": f"{s.shelf_life:g}", "u_lts": format_number(s.u_lts, digits),
+            "dof": s.dof, "shelf_life": f"{s.shelf_life:g}",
+            "u_lts": format_number(s.u_lts, digits),
             "chart": trend_plot(s.times, s.values, intercept=s.intercept, slope=s.slope,
                                 band=band, unit=unit, time_label="time",
                                 label="stability: values against time")}

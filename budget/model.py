@@ -11,7 +11,6 @@ value in the measurand's unit (see ``units.py``).
 from __future__ import annotations
 
 import hashlib
-import math
 import re
 import tomllib
 from dataclasses import dataclass, field, replace
@@ -22,7 +21,7 @@ import numpy as np
 import sympy
 
 from .chemistry import CONVENTIONS, DEFAULT_CONVENTION
-from .errors import (BudgetError, InputError, Location, ModelSyntaxError, UnitError,
+from .errors import (InputError, Location, ModelSyntaxError, UnitError,
                      did_you_mean)
 from .expressions import Term, build, names_in, parse_expression
 from .statements import read_statement
@@ -143,7 +142,7 @@ def decode(data: bytes | str, name: str, what: str = "model") -> str:
         text = data
     else:
         if b"\x00" in data:
-            raise ModelSyntaxError(f"expected a UTF-8 text file, found binary data",
+            raise ModelSyntaxError("expected a UTF-8 text file, found binary data",
                                    Location(file=name))
         try:
             text = data.decode("utf-8-sig")

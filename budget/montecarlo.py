@@ -41,7 +41,8 @@ from .formatting import decimal_exponent
 from .gum import Budget
 from .model import Model
 
-__all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "Validation", "MeasurandSimulation", "Simulation",
+__all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "Validation", "MeasurandSimulation",
+           "Simulation",
            "simulate", "tolerance", "coverage_interval", "shortest_interval"]
 
 BLOCK = 1 << 16
@@ -248,11 +249,11 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
     for group in (g for g in groups if len(g) > 1):
         members = [model.inputs[i] for i in group]
         odd = [i for i in members if not i.distribution.gaussian]
-        refused = [i.name for i in odd if not i.distribution.has_ppf]
+        refused = [i for i in odd if not i.distribution.has_ppf]
         if refused:
+            shapes = ", ".join(f"{i.name} ({i.distribution.name})" for i in refused)
             raise SimulationError(
-                f"{model.source}: [[correlations]]: cannot draw correlated "
-                f"{', '.join(refused)} ({', '.join(i.distribution.name for i in odd if i.name in refused)}); "
+                f"{model.source}: [[correlations]]: cannot draw correlated {shapes}; "
                 "correlate only inputs with a normal, rectangular, triangular, arcsine, "
                 "trapezoidal or student_t distribution")
         if odd:

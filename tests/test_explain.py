@@ -5,7 +5,6 @@ against their known values for an additive model."""
 from __future__ import annotations
 
 import json
-import math
 
 import pytest
 

@@ -287,3 +287,28 @@ def test_adaptive_procedure_reaches_its_tolerance():
     assert result.trials % BLOCK == 0 and result.trials >= 2 * BLOCK
     y = result.measurand("Y")
     assert y.interval[1] == pytest.approx(3.92, abs=0.05)  # delta for u = 2.0, n_dig = 2
+
+
+def test_correlated_input_without_an_inverse_is_refused():
+    m = model("""
+        title = "refused"
+        [measurands.y]
+        equation = "a + b"
+        [inputs.a]
+        value = 1
+        distribution = "curvilinear_trapezoid"
+        half_width = 1
+        inexactness = 0.1
+        [inputs.b]
+        value = 1
+        u = 0.1
+        [[correlations]]
+        between = ["a", "b"]
+        r = 0.5
+    """)
+    with pytest.raises(SimulationError) as caught:
+        simulate(m, propagate(m), trials=1000)
+    assert str(caught.value) == (
+        "test.toml: [[correlations]]: cannot draw correlated a (curvilinear_trapezoid); "
+        "correlate only inputs with a normal, rectangular, triangular, arcsine, trapezoidal "
+        "or student_t distribution")

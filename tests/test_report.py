@@ -17,7 +17,7 @@ import pytest
 
 from budget.analysis import evaluate
 from budget.formatting import format_pair
-from budget.model import load_model, parse_model
+from budget.model import parse_model
 from budget.report import render_report
 
 from conftest import MODELS
