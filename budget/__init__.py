@@ -18,7 +18,8 @@ __all__ = [
     "BudgetError", "Location", "Model", "Input", "Measurand", "load_model", "parse_model",
     "Budget", "MeasurandBudget", "Contribution", "propagate", "Simulation",
     "MeasurandSimulation", "simulate", "Result", "evaluate", "result_document",
-    "molar_mass", "air_density",
+    "molar_mass", "air_density", "load_campaign", "Campaign", "certify", "Certification",
+    "certification_document", "explain", "render_report", "render_certification_report",
 ]
 
 _WHERE = {
@@ -28,6 +29,10 @@ _WHERE = {
     "Simulation": "montecarlo", "MeasurandSimulation": "montecarlo",
     "simulate": "montecarlo", "Result": "analysis", "evaluate": "analysis",
     "result_document": "document", "molar_mass": "chemistry", "air_density": "chemistry",
+    "load_campaign": "campaign", "Campaign": "campaign", "certify": "certification",
+    "Certification": "certification", "certification_document": "document",
+    "explain": "explain", "render_report": "report",
+    "render_certification_report": "report",
 }
 
 

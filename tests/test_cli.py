@@ -162,3 +162,13 @@ def test_progress_is_shown_on_a_terminal_only_after_a_second(monkeypatch, capsys
     err = capsys.readouterr().err
     assert "Monte Carlo  60.0 % of 100 trials" in err  # 10 + 50 trials reported
     assert module._Progress(False).enabled is False  # --json: never
+
+
+def test_public_api_names_resolve():
+    import budget
+
+    for name in budget.__all__:
+        assert getattr(budget, name) is not None
+    campaign = budget.load_campaign(MODELS / "vics-as-25a" / "campaign.toml")
+    cert = budget.certify(campaign, trials=0)
+    assert budget.certification_document(cert)["U"] == pytest.approx(cert.U)
