@@ -5,9 +5,13 @@ Sources:
 * Defining constants of the SI (2019 revision, BIPM SI Brochure 9th ed., Table 1): exact.
 * Standard atomic weights 2021: T. Prohaska et al., "Standard atomic weights of the
   elements 2021 (IUPAC Technical Report)", Pure Appl. Chem. 94 (2022) 573, and the
-  abridged (five-significant-digit) table of the same report. Values marked ``[M]`` in
-  ``_TABLE`` were written from memory of that table and not checked against a copy; the
-  others were checked against the transcription cited in the project's references.
+  abridged (five-significant-digit) table of the same report. Every entry of ``_TABLE``
+  was checked against a public transcription of that Table 1 (repository
+  MilanSkocic/ciaaw, file data/src/saw_2021.txt), with two exceptions marked ``M``
+  (from memory): the transcription gives tin as 118.70(7), a value whose uncertainty
+  sits below its last digit, where the IUPAC value is 118.710(7); and it gives the
+  abridged beryllium as 9.0122 ± 0.00001, below the value's last digit, where ± 0.0001
+  is taken.
 * Moist-air density: A. Picard, R. S. Davis, M. Gläser, K. Fujii, "Revised formula for the
   density of moist air (CIPM-2007)", Metrologia 45 (2008) 149.
 
@@ -52,38 +56,38 @@ CONSTANTS: dict[str, tuple[float, str, str]] = {
 CONVENTIONS = ("iupac-2021-interval", "iupac-2021-abridged")
 DEFAULT_CONVENTION = CONVENTIONS[0]
 
-# symbol: (standard atomic weight as "[a, b]" interval or "value(U)", abridged "value(U)").
-# Abridged uncertainties and the standard values are those of IUPAC 2021 (see module doc).
+# symbol, standard atomic weight ("[a,b]" interval or "value(U)"), abridged "value(U)",
+# and M where the entry is from memory (see the module docstring).
 _TABLE = """
-H [1.00784,1.00811] 1.0080(2) | He 4.002602(2) 4.0026(1) M | Li [6.938,6.997] 6.94(6) M
+H [1.00784,1.00811] 1.0080(2) | He 4.002602(2) 4.0026(1) | Li [6.938,6.997] 6.94(6)
 Be 9.0121831(5) 9.0122(1) M | B [10.806,10.821] 10.81(2) | C [12.0096,12.0116] 12.011(2)
 N [14.00643,14.00728] 14.007(1) | O [15.99903,15.99977] 15.999(1)
-F 18.998403162(5) 18.998(1) | Ne 20.1797(6) 20.180(1) M | Na 22.98976928(2) 22.990(1)
-Mg [24.304,24.307] 24.305(2) | Al 26.9815384(3) 26.982(1) M | Si [28.084,28.086] 28.085(1) M
+F 18.998403162(5) 18.998(1) | Ne 20.1797(6) 20.180(1) | Na 22.98976928(2) 22.990(1)
+Mg [24.304,24.307] 24.305(2) | Al 26.9815384(3) 26.982(1) | Si [28.084,28.086] 28.085(1)
 P 30.973761998(5) 30.974(1) | S [32.059,32.076] 32.06(2) | Cl [35.446,35.457] 35.45(1)
-Ar 39.95(16) 39.95(16) M | K 39.0983(1) 39.098(1) | Ca 40.078(4) 40.078(4)
-Sc 44.955907(4) 44.956(1) M | Ti 47.867(1) 47.867(1) M | V 50.9415(1) 50.942(1) M
-Cr 51.9961(6) 51.996(1) | Mn 54.938043(2) 54.938(1) M | Fe 55.845(2) 55.845(2)
-Co 58.933194(3) 58.933(1) M | Ni 58.6934(4) 58.693(1) M | Cu 63.546(3) 63.546(3)
-Zn 65.38(2) 65.38(2) | Ga 69.723(1) 69.723(1) M | Ge 72.630(8) 72.630(8) M
-As 74.921595(6) 74.922(1) | Se 78.971(8) 78.971(8) M | Br [79.901,79.907] 79.904(3)
-Kr 83.798(2) 83.798(2) M | Rb 85.4678(3) 85.468(1) M | Sr 87.62(1) 87.62(1) M
-Y 88.905838(2) 88.906(1) M | Zr 91.224(2) 91.224(2) M | Nb 92.90637(1) 92.906(1) M
-Mo 95.95(1) 95.95(1) M | Ru 101.07(2) 101.07(2) M | Rh 102.90549(2) 102.91(1) M
-Pd 106.42(1) 106.42(1) M | Ag 107.8682(2) 107.87(1) | Cd 112.414(4) 112.41(1) M
-In 114.818(1) 114.82(1) M | Sn 118.710(7) 118.71(1) M | Sb 121.760(1) 121.76(1) M
-Te 127.60(3) 127.60(3) M | I 126.90447(3) 126.90(1) | Xe 131.293(6) 131.29(1) M
-Cs 132.90545196(6) 132.91(1) M | Ba 137.327(7) 137.33(1) M | La 138.90547(7) 138.91(1) M
-Ce 140.116(1) 140.12(1) M | Pr 140.90766(1) 140.91(1) M | Nd 144.242(3) 144.24(1) M
-Sm 150.36(2) 150.36(2) M | Eu 151.964(1) 151.96(1) M | Gd 157.25(3) 157.25(3) M
-Tb 158.925354(7) 158.93(1) M | Dy 162.500(1) 162.50(1) M | Ho 164.930329(5) 164.93(1) M
-Er 167.259(3) 167.26(1) M | Tm 168.934219(5) 168.93(1) M | Yb 173.045(10) 173.05(2) M
-Lu 174.9668(1) 174.97(1) M | Hf 178.486(6) 178.49(1) M | Ta 180.94788(2) 180.95(1) M
-W 183.84(1) 183.84(1) M | Re 186.207(1) 186.21(1) M | Os 190.23(3) 190.23(3) M
-Ir 192.217(2) 192.22(1) M | Pt 195.084(9) 195.08(2) M | Au 196.966570(4) 196.97(1) M
-Hg 200.592(3) 200.59(1) | Tl [204.382,204.385] 204.38(1) M | Pb [206.14,207.94] 207.2(1.1) M
-Bi 208.98040(1) 208.98(1) M | Th 232.0377(4) 232.04(1) M | Pa 231.03588(1) 231.04(1) M
-U 238.02891(3) 238.03(1) M
+Ar [39.792,39.963] 39.95(16) | K 39.0983(1) 39.098(1) | Ca 40.078(4) 40.078(4)
+Sc 44.955907(4) 44.956(1) | Ti 47.867(1) 47.867(1) | V 50.9415(1) 50.942(1)
+Cr 51.9961(6) 51.996(1) | Mn 54.938043(2) 54.938(1) | Fe 55.845(2) 55.845(2)
+Co 58.933194(3) 58.933(1) | Ni 58.6934(4) 58.693(1) | Cu 63.546(3) 63.546(3)
+Zn 65.38(2) 65.38(2) | Ga 69.723(1) 69.723(1) | Ge 72.630(8) 72.630(8)
+As 74.921595(6) 74.922(1) | Se 78.971(8) 78.971(8) | Br [79.901,79.907] 79.904(3)
+Kr 83.798(2) 83.798(2) | Rb 85.4678(3) 85.468(1) | Sr 87.62(1) 87.62(1)
+Y 88.905838(2) 88.906(1) | Zr 91.224(2) 91.224(2) | Nb 92.90637(1) 92.906(1)
+Mo 95.95(1) 95.95(1) | Ru 101.07(2) 101.07(2) | Rh 102.90549(2) 102.91(1)
+Pd 106.42(1) 106.42(1) | Ag 107.8682(2) 107.87(1) | Cd 112.414(4) 112.41(1)
+In 114.818(1) 114.82(1) | Sn 118.710(7) 118.71(1) M | Sb 121.760(1) 121.76(1)
+Te 127.60(3) 127.60(3) | I 126.90447(3) 126.90(1) | Xe 131.293(6) 131.29(1)
+Cs 132.90545196(6) 132.91(1) | Ba 137.327(7) 137.33(1) | La 138.90547(7) 138.91(1)
+Ce 140.116(1) 140.12(1) | Pr 140.90766(1) 140.91(1) | Nd 144.242(3) 144.24(1)
+Sm 150.36(2) 150.36(2) | Eu 151.964(1) 151.96(1) | Gd 157.25(3) 157.25(3)
+Tb 158.925354(7) 158.93(1) | Dy 162.500(1) 162.50(1) | Ho 164.930329(5) 164.93(1)
+Er 167.259(3) 167.26(1) | Tm 168.934219(5) 168.93(1) | Yb 173.045(10) 173.05(2)
+Lu 174.9668(1) 174.97(1) | Hf 178.486(6) 178.49(1) | Ta 180.94788(2) 180.95(1)
+W 183.84(1) 183.84(1) | Re 186.207(1) 186.21(1) | Os 190.23(3) 190.23(3)
+Ir 192.217(2) 192.22(1) | Pt 195.084(9) 195.08(2) | Au 196.966570(4) 196.97(1)
+Hg 200.592(3) 200.59(1) | Tl [204.382,204.385] 204.38(1) | Pb [206.14,207.94] 207.2(1.1)
+Bi 208.98040(1) 208.98(1) | Th 232.0377(4) 232.04(1) | Pa 231.03588(1) 231.04(1)
+U 238.02891(3) 238.03(1)
 """
 # Elements of the periodic table that have no standard atomic weight (no stable isotope
 # with a characteristic terrestrial isotopic composition).

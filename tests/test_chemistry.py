@@ -224,3 +224,31 @@ def test_formula_input_in_a_model_reports_the_convention():
     budget = propagate(m).measurand("y")
     assert budget.estimate == pytest.approx(0.2042220, abs=1e-8)
     assert budget.combined_uncertainty == pytest.approx(0.0096e-3, abs=1e-7)
+
+
+@pytest.mark.parametrize("symbol, standard, abridged", [
+    # IUPAC 2021 Table 1 as transcribed in the public repository MilanSkocic/ciaaw
+    # (data/src/saw_2021.txt) [V]: interval elements and elements with value(U)
+    ("Ar", (39.792, 39.963), (39.95, 0.16)), ("Li", (6.938, 6.997), (6.94, 0.06)),
+    ("Tl", (204.382, 204.385), (204.38, 0.01)), ("Pb", (206.14, 207.94), (207.2, 1.1)),
+    ("Mn", (54.938043, 0.000002), (54.938, 0.001)), ("U", (238.02891, 0.00003), (238.03, 0.01)),
+    ("Hf", (178.486, 0.006), (178.49, 0.01)), ("Ir", (192.217, 0.002), (192.22, 0.01)),
+    ("Yb", (173.045, 0.010), (173.05, 0.02)),
+])
+def test_atomic_weights_against_the_2021_table(symbol, standard, abridged):
+    weight = atomic_weight(symbol)
+    if symbol in ("Ar", "Li", "Tl", "Pb"):
+        low, high = standard
+        assert (weight.value - weight.half_width, weight.value + weight.half_width) == \
+            pytest.approx((low, high), abs=1e-12)
+    else:
+        assert (weight.value, weight.half_width) == pytest.approx(standard, abs=1e-12)
+    short = atomic_weight(symbol, "iupac-2021-abridged")
+    assert (short.value, short.half_width) == pytest.approx(abridged, abs=1e-12)
+
+
+def test_elements_without_a_standard_atomic_weight_are_refused():
+    # IUPAC 2021: Tc, Pm, Po ... Ac and the elements after U have none [V: same transcription]
+    for symbol in ("Tc", "Pm", "Po", "Rn", "Ac", "Np", "Og"):
+        with pytest.raises(InputError):
+            parse_formula(f"{symbol}O2")
