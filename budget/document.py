@@ -47,6 +47,9 @@ def result_document(result: Result) -> dict[str, Any]:
         "output_correlation_gum": {a: {b: result.budget.output_correlation[i][j]
                                        for j, b in enumerate(names)}
                                    for i, a in enumerate(names)},
+        "output_covariance_gum": {a: {b: result.budget.output_covariance[i][j]
+                                      for j, b in enumerate(names)}
+                                  for i, a in enumerate(names)},
         "warnings": list(result.warnings),
         "digits": result.digits,
         "atomic_weights": _convention(result),

@@ -111,8 +111,10 @@ u = 2
 """)
     code, stdout, _ = cli("run", str(model), "--json", "--trials", "0")
     document = json.loads(stdout)
-    # corr(a + b, a - b) = (1 - 4)/(sqrt 5 sqrt 5) = -0.6 [C]
+    # corr(a + b, a - b) = (1 - 4)/(sqrt 5 sqrt 5) = -0.6; cov = 1 - 4 = -3 [C]
     assert document["output_correlation"]["s"]["d"] == pytest.approx(-0.6)
+    assert document["output_covariance_gum"]["s"]["d"] == pytest.approx(-3.0)
+    assert document["output_covariance_gum"]["s"]["s"] == pytest.approx(5.0)
     code, stdout, _ = cli("run", str(model), "--trials", "0")
     assert "output correlation (GUM)" in stdout
 
