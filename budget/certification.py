@@ -201,8 +201,7 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
                      stability.dof if stability else math.inf, math.inf], dtype=float)
     nu = welch_satterthwaite(u, np.array([c for _, c in components]), dofs)
     k = campaign.k if campaign.k is not None else coverage_factor(campaign.coverage, nu)
-    k_char = k
-    scores = tuple(_score(c, char, k_char) for c in campaign.comparisons)
+    scores = tuple(_score(c, char, k) for c in campaign.comparisons)
     for s in scores:
         if not s.agrees:
             warnings.append(f"comparison with '{s.label}': no agreement (E_n = {s.E_n:.2f}, "

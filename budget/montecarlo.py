@@ -126,18 +126,14 @@ def _q(m: int, p: float) -> int:
 
 def shortest_interval(values: np.ndarray, p: float) -> tuple[float, float]:
     """Shortest 100p % interval (JCGM 101 7.7.3) from the sorted tails; reorders values."""
-    m = values.size
-    q = _q(m, p)
-    tail = m - q
-    if tail - 1 < q:
-        values.partition([tail - 1, q])
-        low = np.sort(values[:tail])
-        high = np.sort(values[q:])
-    else:
-        values.sort()
-        low, high = values[:tail], values[q:]
+    return _intervals(values, p)[1]
+
+
+def _pick(low: np.ndarray, high: np.ndarray, m: int, p: float) -> tuple[tuple, tuple]:
+    """Both intervals from the sorted ``m − q`` lowest and highest of M values."""
+    lo, hi = _indices(m, p)
     best = int(np.argmin(high - low))
-    return float(low[best]), float(high[best])
+    return (float(low[lo]), float(high[hi - _q(m, p)])), (float(low[best]), float(high[best]))
 
 
 def _from_tails(tails: list, m: int, p: float) -> tuple | None:
@@ -148,11 +144,7 @@ def _from_tails(tails: list, m: int, p: float) -> tuple | None:
     high = np.concatenate([block[1] for block in tails])
     if low.size < tail or high.size < tail:
         return None
-    low = np.sort(low)[:tail]
-    high = np.sort(high)[high.size - tail:]
-    lo, hi = _indices(m, p)
-    best = int(np.argmin(high - low))
-    return (float(low[lo]), float(high[hi - q])), (float(low[best]), float(high[best]))
+    return _pick(np.sort(low)[:tail], np.sort(high)[high.size - tail:], m, p)
 
 
 def _intervals(values: np.ndarray, p: float) -> tuple[tuple[float, float],
@@ -161,18 +153,11 @@ def _intervals(values: np.ndarray, p: float) -> tuple[tuple[float, float],
     m = values.size
     q = _q(m, p)
     tail = m - q
-    lo, hi = _indices(m, p)
     if tail - 1 >= q:  # p ≤ 1/2: a full sort is as cheap
         values.sort()
-        low, high = values[:tail], values[q:]
-    else:
-        values.partition(sorted({tail - 1, q, lo, hi}))
-        low = np.sort(values[:tail])
-        high = np.sort(values[q:])
-    best = int(np.argmin(high - low))
-    symmetric = (float(low[lo]) if lo < tail else float(values[lo]),
-                 float(high[hi - q]) if hi >= q else float(values[hi]))
-    return symmetric, (float(low[best]), float(high[best]))
+        return _pick(values[:tail], values[q:], m, p)
+    values.partition([tail - 1, q])
+    return _pick(np.sort(values[:tail]), np.sort(values[q:]), m, p)
 
 
 class _Sampler:
@@ -184,6 +169,9 @@ class _Sampler:
         self.program = compile_model(model)
         self.groups = _groups(model)
         self.warnings = _copula_warnings(model, self.groups)
+        matrix = model.correlation_matrix() if model.correlations else None
+        self.factors = {tuple(g): _factor(matrix[np.ix_(g, g)]) for g in self.groups
+                        if len(g) > 1}
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
@@ -211,7 +199,9 @@ class _Sampler:
                 else:
                     values[group[0]] = item.distribution.sample(rng, size)
             else:
-                for slot, column in zip(group, _correlated(self.model, group, rng, size)):
+                factor = self.factors[tuple(group)]
+                for slot, column in zip(group, _correlated(self.model, group, factor, rng,
+                                                           size)):
                     values[slot] = column
         return values
 
@@ -264,11 +254,14 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
     return warnings
 
 
-def _correlated(model: Model, group: list[int], rng: np.random.Generator,
-                size: int) -> list[np.ndarray]:
-    r = model.correlation_matrix()[np.ix_(group, group)]
+def _factor(r: np.ndarray) -> np.ndarray:
+    """F with F Fᵀ = r for a positive semi-definite r (singular ones included)."""
     eigenvalues, vectors = np.linalg.eigh(r)
-    factor = vectors * np.sqrt(np.clip(eigenvalues, 0.0, None))
+    return vectors * np.sqrt(np.clip(eigenvalues, 0.0, None))
+
+
+def _correlated(model: Model, group: list[int], factor: np.ndarray,
+                rng: np.random.Generator, size: int) -> list[np.ndarray]:
     z = rng.standard_normal((size, len(group))) @ factor.T
     columns = []
     for j, slot in enumerate(group):

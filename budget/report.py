@@ -22,7 +22,7 @@ from .montecarlo import MeasurandSimulation
 from .output import write_atomic
 from .provenance import describe
 from .svg import bar_chart, histogram
-from .table import SHORT_DISTRIBUTION, result_statement
+from .table import contribution_cells, result_statement
 
 __all__ = ["render_report", "write_report", "render_certification_report",
            "write_certification_report", "mathml"]
@@ -91,7 +91,7 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "equation": measurand.equation,
         "math": mathml(sympy.Symbol(b.name), measurand.shown),
         "statement": result_statement(b, digits),
-        "rows": [_row(c, digits) for c in b.contributions],
+        "rows": [contribution_cells(c, digits) for c in b.contributions],
         "correlation_terms": [{"pair": f"{t.inputs[0]}, {t.inputs[1]}", "r": f"{t.r:g}",
                                "variance": format_number(t.variance, 3),
                                "index": format_percent(t.index)} for t in b.correlation_terms],
@@ -105,17 +105,6 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "formulas": _formulas(result, k),
         "mc": _simulation_view(b, simulation, digits) if simulation else None,
     }
-
-
-def _row(c: Any, digits: int) -> dict[str, str]:
-    estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
-                   if c.standard_uncertainty > 0 else (f"{c.estimate:.10g}", "0"))
-    return {"input": c.input, "estimate": estimate, "unit": c.unit, "u": u,
-            "distribution": SHORT_DISTRIBUTION.get(c.distribution, c.distribution),
-            "type": c.type, "dof": format_dof(c.dof),
-            "sensitivity": format_number(c.sensitivity, 4),
-            "contribution": format_number(c.contribution, digits),
-            "index": format_percent(c.index)}
 
 
 def _formulas(result: Result, k: int) -> list[dict[str, Any]]:

@@ -10,7 +10,8 @@ from .formatting import format_dof, format_number, format_pair, format_percent
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
 
-__all__ = ["render", "result_statement", "SHORT_DISTRIBUTION"]
+__all__ = ["render", "render_certification", "result_statement", "contribution_cells",
+           "SHORT_DISTRIBUTION"]
 
 WIDTH = 100
 SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
@@ -47,15 +48,27 @@ def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None
     return lines
 
 
+_CELLS = ("input", "estimate", "unit", "u", "distribution", "type", "dof", "sensitivity",
+          "contribution", "index")
+
+
+def contribution_cells(c: Any, digits: int) -> dict[str, str]:
+    """One budget row as display strings (GUM 7.2.6); the table and the report share it."""
+    estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
+                   if c.standard_uncertainty > 0 else (f"{c.estimate:.10g}", "0"))
+    return {"input": c.input, "estimate": estimate, "unit": c.unit, "u": u,
+            "distribution": SHORT_DISTRIBUTION.get(c.distribution, c.distribution),
+            "type": c.type, "dof": format_dof(c.dof),
+            "sensitivity": format_number(c.sensitivity, 4),
+            "contribution": format_number(c.contribution, digits),
+            "index": format_percent(c.index)}
+
+
 def _rows(b: MeasurandBudget, digits: int) -> list[str]:
     rows = [list(_HEAD)]
     for c in b.contributions:
-        estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
-                       if c.standard_uncertainty > 0 else (f"{c.estimate:.10g}", "0"))
-        rows.append([c.input, estimate, c.unit, u,
-                     SHORT_DISTRIBUTION.get(c.distribution, c.distribution), c.type,
-                     format_dof(c.dof), format_number(c.sensitivity, 4),
-                     format_number(c.contribution, digits), format_percent(c.index)])
+        cells = contribution_cells(c, digits)
+        rows.append([cells[key] for key in _CELLS])
     for t in b.correlation_terms:
         rows.append([f"r({t.inputs[0]},{t.inputs[1]})", format_number(t.r, 3), "", "", "", "",
                      "", "", "", format_percent(t.index)])
