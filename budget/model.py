@@ -155,7 +155,7 @@ def decode(data: bytes | str, name: str, what: str = "model") -> str:
     return text
 
 
-def read_toml(text: str, name: str) -> dict:
+def read_toml(text: str, name: str) -> dict[str, Any]:
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -177,14 +177,14 @@ def parse_model(data: bytes | str, name: str = "<string>", **overrides: Any) -> 
 class _Reader:
     """Walks one parsed TOML document; knows how to point at a key's line."""
 
-    def __init__(self, text: str, name: str, document: dict) -> None:
+    def __init__(self, text: str, name: str, document: dict[str, Any]) -> None:
         self.index, self.name, self.doc = LineIndex(text.splitlines()), name, document
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
                         line=self.index.find(table, key, nth))
 
-    def model(self, sha256: str, overrides: dict) -> Model:
+    def model(self, sha256: str, overrides: dict[str, Any]) -> Model:
         for key in self.doc:
             if key not in _TOP_KEYS:
                 raise InputError(f"unknown top-level key '{key}'{did_you_mean(key, _TOP_KEYS)}"
@@ -210,7 +210,7 @@ class _Reader:
                      correlations=pairs, settings=settings, source=self.name, sha256=sha256,
                      warnings=warnings)
 
-    def table(self, key: str) -> dict:
+    def table(self, key: str) -> dict[str, Any]:
         value = self.doc.get(key, {})
         if not isinstance(value, dict):
             raise InputError(f"expected a table [{key}], found {type(value).__name__}",
@@ -252,7 +252,7 @@ class _Reader:
                      basis=statement.basis, description=str(data.get("description", "")),
                      source=str(data.get("source", "")), molar_mass=statement.molar_mass)
 
-    def definitions(self, table: dict[str, Term]) -> tuple[tuple[Definition, ...], dict]:
+    def definitions(self, table: dict[str, Term]) -> tuple[tuple[Definition, ...], dict[str, Any]]:
         texts = self.table("definitions")
         trees = {}
         for name, text in texts.items():
@@ -308,7 +308,7 @@ class _Reader:
                          description=str(data.get("description", "")), line=eq_where.line)
 
 
-def check_settings(data: dict, where: Any) -> Settings:
+def check_settings(data: dict[str, Any], where: Any) -> Settings:
     made: dict[str, Any] = {}
     if "coverage" in data:
         p = data["coverage"]
@@ -411,7 +411,7 @@ def _definition_order(trees: dict[str, Any], where: Location) -> list[str]:
     return order
 
 
-def _unused_inputs(inputs: tuple[Input, ...], measurands: tuple[Measurand, ...]) -> tuple:
+def _unused_inputs(inputs: tuple[Input, ...], measurands: tuple[Measurand, ...]) -> tuple[Any, ...]:
     used = set().union(*(m.expression.free_symbols for m in measurands))
     return tuple(f"input '{i.name}' appears in no measurand equation" for i in inputs
                  if i.symbol not in used and i.standard_uncertainty > 0)

@@ -9,7 +9,7 @@ report loads nothing from the network: no scripts, fonts, images or style sheets
 from __future__ import annotations
 
 from importlib import resources
-from typing import Any
+from typing import Any, Callable
 
 import sympy
 from markupsafe import Markup
@@ -50,7 +50,8 @@ def mathml(left: Any, right: Any) -> Markup:
 
 
 def render_report(result: Result) -> str:
-    return _environment().get_template("budget.html.j2").render(report=_budget_view(result))
+    html: str = _environment().get_template("budget.html.j2").render(report=_budget_view(result))
+    return html
 
 
 def write_report(result: Result, path: str) -> None:
@@ -130,9 +131,9 @@ def _partial(name: str, symbol: sympy.Symbol) -> Markup:
     return Markup(f"<mfrac><mrow><mo>∂</mo>{top}</mrow><mrow><mo>∂</mo>{bottom}</mrow></mfrac>")
 
 
-def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict:
+def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict[str, Any]:
     reference = b.combined_uncertainty or s.standard_uncertainty
-    rounded = lambda x: format_pair(x, reference, digits + 1)[0]  # noqa: E731
+    rounded: Callable[[float], str] = lambda x: format_pair(x, reference, digits + 1)[0]  # noqa: E731
     v = s.validation
     return {
         "trials": f"{s.trials:,}", "mean": rounded(s.mean),
@@ -175,8 +176,9 @@ def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tupl
 
 
 def render_certification_report(cert: Any) -> str:
-    return _environment().get_template("certificate.html.j2").render(
+    html: str = _environment().get_template("certificate.html.j2").render(
         report=_certification_view(cert))
+    return html
 
 
 def write_certification_report(cert: Any, path: str) -> None:
