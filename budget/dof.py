@@ -27,7 +27,7 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["Component", "Grouping", "grouping", "effective_dof"]
+__all__ = ["Component", "Grouping", "effective_dof", "grouping"]
 
 WS = "Welch-Satterthwaite, GUM eq. (G.2b)"
 

@@ -16,12 +16,13 @@ every member states the same ν; anything else is refused with its location.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from typing import Any, Callable, Sequence
+from typing import Any
 
 from .errors import InputError, Location, did_you_mean
 
-__all__ = ["Together", "read", "KEY"]
+__all__ = ["KEY", "Together", "read"]
 
 KEY = "estimated_together"
 _KEYS = ("inputs", "note")
@@ -47,7 +48,7 @@ def read(entries: Any, inputs: Sequence[Any],
     seen: dict[str, int] = {}
     sets = []
     for index, entry in enumerate(entries):
-        here = lambda key=None, i=index: where(KEY, key, i)  # noqa: E731
+        here = _pointer(where, index)
         names = _names(entry, list(by_name), here, index)
         for name in names:
             if name in seen:
@@ -59,6 +60,12 @@ def read(entries: Any, inputs: Sequence[Any],
         sets.append(Together(inputs=tuple(names), dof=_common_dof(members, here, index),
                              note=str(entry.get("note", ""))))
     return tuple(sets)
+
+
+def _pointer(where: Callable[..., Location], index: int) -> Callable[..., Location]:
+    def here(key: str | None = None) -> Location:
+        return where(KEY, key, index)
+    return here
 
 
 def _names(entry: Any, names: list[str], here: Callable[..., Location],
@@ -102,7 +109,7 @@ def _common_dof(members: list[Any], here: Callable[..., Location], index: int) -
         stated = ", ".join(f"{item.name} ν = {_shown(item.dof)}" for item in members)
         raise InputError(f"expected one common ν for the inputs of set {index + 1} (they "
                          f"come from one data set), found {stated}", here("inputs"))
-    return members[0].dof
+    return float(members[0].dof)
 
 
 def _shown(dof: float) -> str:

@@ -11,10 +11,9 @@ import math
 
 import numpy as np
 import pytest
+from conftest import model
 
 from budget.montecarlo import simulate
-
-from conftest import model
 
 # y1 = a + b, y2 = a - b with u(a) = 1, u(b) = 0.5: cov = 1 - 0.25, var = 1.25 each, so
 # r(y1, y2) = 0.75 / 1.25 = 0.60 (JCGM 102 6.2.1.3 by hand)

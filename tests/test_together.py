@@ -12,16 +12,15 @@ import math
 
 import numpy as np
 import pytest
+from conftest import MODELS, model
 from scipy import stats
 
+from budget.analysis import evaluate
 from budget.errors import InputError
 from budget.explain import explain
-from budget.analysis import evaluate
 from budget.gum import propagate
 from budget.model import load_model
 from budget.montecarlo import simulate
-
-from conftest import MODELS, model
 
 H3 = MODELS / "reference" / "gum-h3-thermometer.toml"
 
@@ -119,11 +118,11 @@ def test_undeclared_correlated_finite_dof_counts_with_the_smallest_nu_and_warns(
     assert "the correlated inputs (y1, y2) count as one component with their smallest " \
            "ν = 9" in b.dof_rule
     assert budget.warnings == (
-        "'b': inputs y1, y2 are correlated and have finite degrees of freedom but are not "
+        ("'b': inputs y1, y2 are correlated and have finite degrees of freedom but are not "
         "declared [[estimated_together]]; Welch-Satterthwaite has no rule for them "
         "(Willink 2007 needs the independent sources of the correlation), so they count as "
         "one component with ν = 9, their smallest; declare them estimated together if they "
-        "come from one data set",)
+        "come from one data set"),)
 
 
 def test_nu_eff_is_never_below_the_smallest_input_nu():
@@ -169,23 +168,23 @@ def test_set_with_uncorrelated_members_is_one_component():
 
 
 @pytest.mark.parametrize("body, message", [
-    ('inputs = ["a", "b"]\n', "test.toml:17: [estimated_together] inputs: expected one "
+    ('inputs = ["a", "b"]\n', ("test.toml:17: [estimated_together] inputs: expected one "
      "common ν for the inputs of set 1 (they come from one data set), found a ν = 5, "
-     "b ν = 7"),
-    ('inputs = ["a", "q"]\n', "test.toml:17: [estimated_together] inputs: unknown input "
-     "'q' in set 1"),
-    ('inputs = ["a"]\n', "test.toml:17: [estimated_together] inputs: expected inputs = "
-     "[\"name\", \"name\", …] (at least two) in set 1, found ['a']"),
-    ('inputs = ["a", "a"]\n', "test.toml:17: [estimated_together] inputs: expected "
-     "different inputs in set 1, found 'a' twice"),
-    ('inputs = ["a", "c"]\n', "test.toml:17: [estimated_together] inputs: expected inputs "
+     "b ν = 7")),
+    ('inputs = ["a", "q"]\n', ("test.toml:17: [estimated_together] inputs: unknown input "
+     "'q' in set 1")),
+    ('inputs = ["a"]\n', ("test.toml:17: [estimated_together] inputs: expected inputs = "
+     "[\"name\", \"name\", …] (at least two) in set 1, found ['a']")),
+    ('inputs = ["a", "a"]\n', ("test.toml:17: [estimated_together] inputs: expected "
+     "different inputs in set 1, found 'a' twice")),
+    ('inputs = ["a", "c"]\n', ("test.toml:17: [estimated_together] inputs: expected inputs "
      "stated with a normal or t distribution (u, expanded or observations) in set 1, found "
-     "'c' (rectangular)"),
-    ('input = ["a", "b"]\n', "test.toml:17: [estimated_together] input: unknown key 'input' "
-     "(did you mean 'inputs'?) in set 1; expected inputs and note"),
+     "'c' (rectangular)")),
+    ('input = ["a", "b"]\n', ("test.toml:17: [estimated_together] input: unknown key 'input' "
+     "(did you mean 'inputs'?) in set 1; expected inputs and note")),
     ('inputs = ["a", "b"]\n[[estimated_together]]\ninputs = ["b", "c"]\n',
-     "test.toml:17: [estimated_together] inputs: expected one common ν for the inputs of "
-     "set 1 (they come from one data set), found a ν = 5, b ν = 7"),
+     ("test.toml:17: [estimated_together] inputs: expected one common ν for the inputs of "
+     "set 1 (they come from one data set), found a ν = 5, b ν = 7")),
 ])
 def test_bad_sets_are_refused_with_the_place(body, message):
     text = ('title = "bad"\n[measurands.y]\nequation = "a + b + c"\n[inputs.a]\nvalue = 1\n'
