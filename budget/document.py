@@ -14,7 +14,11 @@ from .analysis import Result
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
 
-__all__ = ["result_document", "CAUTION", "dof_or_null"]
+__all__ = ["result_document", "certification_document", "CAUTION", "SCHEMA_VERSION",
+           "dof_or_null"]
+
+#: The layout version of every JSON document (``budget/schemas/*.schema.json``).
+SCHEMA_VERSION = "1"
 
 CAUTION = ("These results were computed by software from the model and data supplied. "
            "They must be reviewed and approved within the laboratory's quality system "
@@ -35,6 +39,7 @@ def result_document(result: Result) -> dict[str, Any]:
     matrix = simulation.output_correlation if simulation and simulation.trials else \
         result.budget.output_correlation
     return {
+        "schema_version": SCHEMA_VERSION,
         "title": model.title,
         "model_sha256": model.sha256,
         "coverage": result.budget.measurands[0].coverage_probability,
@@ -113,6 +118,7 @@ def certification_document(cert: Any) -> dict[str, Any]:
     campaign, char = cert.campaign, cert.characterization
     h, s = cert.homogeneity, cert.stability
     return {
+        "schema_version": SCHEMA_VERSION,
         "title": campaign.title,
         "unit": campaign.unit,
         "certified_value": cert.certified_value,
