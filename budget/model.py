@@ -27,13 +27,15 @@ from .expressions import Term, build, names_in, parse_expression
 from .statements import read_statement
 from .units import UnitInfo, dimension_text, parse_unit
 from . import correlations as corr
+from . import together
+from .together import Together
 
 __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model",
            "parse_model", "DEFAULT_SEED"]
 
 DEFAULT_SEED = 20260601
 _TOP_KEYS = ("title", "description", "measurands", "definitions", "inputs", "correlations",
-             "settings", "fits", "records")
+             "estimated_together", "settings", "fits", "records")
 _SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights")
 _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
@@ -100,11 +102,11 @@ class Model:
     measurands: tuple[Measurand, ...]
     correlations: tuple[tuple[str, str, float], ...]
     settings: Settings
+    estimated_together: tuple[Together, ...] = ()
     source: str = "<string>"
     sha256: str = ""
     warnings: tuple[str, ...] = field(default=())
     records: tuple[Any, ...] = field(default=())  # RecordView of each [fits]/[records] table
-    together: tuple[tuple[tuple[str, ...], float], ...] = field(default=())
 
     def input(self, name: str) -> Input:
         for item in self.inputs:
@@ -210,12 +212,15 @@ class _Reader:
         measurands = self.measurands(terms)
         pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
                           self.where) + tuple(generated.correlations)
+        sets = together.read(self.doc.get(together.KEY, []), inputs, self.where)
+        sets += tuple(Together(inputs=names, dof=dof, note=note)
+                      for names, dof, note in generated.together)
         warnings = _unused_inputs(inputs, measurands)
         return Model(title=title.strip(), description=str(self.doc.get("description", "")),
                      inputs=inputs, definitions=definitions, measurands=measurands,
-                     correlations=pairs, settings=settings, source=self.name, sha256=sha256,
-                     warnings=warnings, records=tuple(generated.views),
-                     together=tuple(generated.together))
+                     correlations=pairs, settings=settings, estimated_together=sets,
+                     source=self.name, sha256=sha256, warnings=warnings,
+                     records=tuple(generated.views))
 
     def home(self, generated: Any, name: str) -> tuple[str, str | None]:
         """The table and key where an input (typed in or generated) is stated."""
@@ -228,7 +233,7 @@ class _Reader:
         from .recordinputs import made_input
 
         made = []
-        in_sets = {n for names, _ in generated.together for n in names}
+        in_sets = {n for names, _, _ in generated.together for n in names}
         for item in generated.inputs:
             where = self.where(item.table, None)
             _check_name(item.name, where)

@@ -92,7 +92,7 @@ class RecordView:
 class Generated:
     inputs: list[Made] = field(default_factory=list)
     correlations: list[tuple[str, str, float]] = field(default_factory=list)
-    together: list[tuple[tuple[str, ...], float]] = field(default_factory=list)
+    together: list[tuple[tuple[str, ...], float, str]] = field(default_factory=list)
     definitions: dict[str, str] = field(default_factory=dict)
     views: list[RecordView] = field(default_factory=list)
 
@@ -237,7 +237,8 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
             name=coefficient, estimate=float(fit.estimates[k]), unit=units_of[k],
             u=float(fit.standard_uncertainties[k]), dof=fit.dof, type="A",
             basis=f"{described}, {len(x)} points", source=f"fit of {shown}"))
-    _together(made, names, fit.estimates, fit.covariance, fit.dof)
+    _together(made, names, fit.estimates, fit.covariance, fit.dof,
+              f"coefficients of one fit of {shown} ({described})")
     made.views.append(RecordView(
         table=f"fits.{name}", file=shown, method=described, produces=names,
         fits=(FitView(label=name, fit=fit, x_label=f"{data['x']} / {units['x']}",
@@ -307,7 +308,7 @@ def _fit_notes(fit: Fit) -> tuple[str, ...]:
 
 
 def _together(made: Generated, names: tuple[str, ...], estimates: np.ndarray,
-              covariance: np.ndarray, dof: float) -> None:
+              covariance: np.ndarray, dof: float, note: str = "") -> None:
     """Record a set of inputs estimated together: correlations and the set's ν."""
     u = np.sqrt(np.diag(covariance))
     for i in range(len(names)):
@@ -316,7 +317,7 @@ def _together(made: Generated, names: tuple[str, ...], estimates: np.ndarray,
                 r = float(np.clip(covariance[i, j] / (u[i] * u[j]), -1.0, 1.0))
                 made.correlations.append((names[i], names[j], r))
     if len(names) > 1:
-        made.together.append((names, dof))
+        made.together.append((names, dof, note or "fitted together from one record"))
 
 
 # ---------------------------------------------------------------- records

@@ -48,7 +48,8 @@ def _derived_inputs(made: Generated, derived: Derived, names: tuple[str, ...],
         made.inputs.append(Made(name=name, estimate=float(derived.estimates[k]),
                                 unit=units[k], u=float(u[k]), dof=derived.dof, type="A",
                                 basis=basis, source=source))
-    _together(made, names, derived.estimates, derived.covariance, derived.dof)
+    _together(made, names, derived.estimates, derived.covariance, derived.dof,
+              f"parts derived from one fit of {source}")
 
 
 def _views(derived: Derived, labels: Labels) -> tuple[FitView, ...]:
