@@ -155,10 +155,16 @@ def _output_correlation(result: Result) -> dict[str, Any] | None:
     names = [b.name for b in result.budget.measurands]
     if len(names) < 2:
         return None
-    matrix = result.simulation.output_correlation if result.simulation else \
-        result.budget.output_correlation
-    return {"names": names, "rows": [{"name": a, "values": [f"{x:.3f}" for x in row]}
-                                     for a, row in zip(names, matrix)]}
+    tables = [("GUM, from the output covariance J·U_x·Jᵀ (JCGM 102 6.2.1.3)",
+               result.budget.output_correlation)]
+    if result.simulation is not None and result.simulation.trials:
+        tables.append((f"Monte Carlo, {result.simulation.trials:,} trials",
+                       result.simulation.output_correlation))
+    # "cells", not "values": jinja2 would find the dict's own values() method
+    return {"names": names, "tables": [
+        {"source": source, "rows": [{"name": a, "cells": [f"{x:.3f}" for x in row]}
+                                    for a, row in zip(names, matrix)]}
+        for source, matrix in tables]}
 
 
 def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tuple[str, str]]:

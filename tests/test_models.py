@@ -14,7 +14,11 @@ _CAMPAIGNS = sorted(MODELS.rglob("campaign.toml"))
 
 
 @pytest.mark.parametrize("path", _MODELS, ids=[str(p.relative_to(MODELS)) for p in _MODELS])
-def test_model_runs_end_to_end(path, cli):
+def test_model_runs_end_to_end(path, cli, tmp_path):
+    code, stdout, stderr = cli("run", str(path), "--trials", "20000", "--html",
+                               str(tmp_path / "report.html"))
+    assert code == 0, stderr  # every model, one measurand or several, gives its report
+    assert (tmp_path / "report.html").stat().st_size > 0
     code, stdout, stderr = cli("check", str(path))
     assert code == 0, stderr
     code, stdout, stderr = cli("run", str(path), "--json", "--trials", "20000")
