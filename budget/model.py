@@ -35,7 +35,7 @@ __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model"
 
 DEFAULT_SEED = 20260601
 _TOP_KEYS = ("title", "description", "measurands", "definitions", "inputs", "correlations",
-             "estimated_together", "settings")
+             "estimated_together", "settings", "fits", "records")
 _SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights")
 _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
@@ -106,6 +106,7 @@ class Model:
     source: str = "<string>"
     sha256: str = ""
     warnings: tuple[str, ...] = field(default=())
+    records: tuple[Any, ...] = field(default=())  # RecordView of each [fits]/[records] table
 
     def input(self, name: str) -> Input:
         for item in self.inputs:
@@ -200,19 +201,48 @@ class _Reader:
                              self.where(None, "title"))
         settings = replace(self.settings(), **{k: v for k, v in overrides.items()
                                                if v is not None})
-        inputs = self.inputs(settings.atomic_weights)
-        table = {i.name: _input_term(i, self.where("inputs." + i.name, "unit"))
+        from .recordinputs import generate
+
+        generated = generate(self.doc, _base(self.name), self.where)
+        inputs = self.inputs(settings.atomic_weights, bool(generated.inputs))
+        inputs += self.made_inputs(generated, {i.name for i in inputs})
+        table = {i.name: _input_term(i, self.where(*self.home(generated, i.name)))
                  for i in inputs}
-        definitions, terms = self.definitions(table)
+        definitions, terms = self.definitions(table, generated.definitions)
         measurands = self.measurands(terms)
         pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
-                          self.where)
+                          self.where) + tuple(generated.correlations)
         sets = together.read(self.doc.get(together.KEY, []), inputs, self.where)
+        sets += tuple(Together(inputs=names, dof=dof, note=note)
+                      for names, dof, note in generated.together)
         warnings = _unused_inputs(inputs, measurands)
         return Model(title=title.strip(), description=str(self.doc.get("description", "")),
                      inputs=inputs, definitions=definitions, measurands=measurands,
                      correlations=pairs, settings=settings, estimated_together=sets,
-                     source=self.name, sha256=sha256, warnings=warnings)
+                     source=self.name, sha256=sha256, warnings=warnings,
+                     records=tuple(generated.views))
+
+    def home(self, generated: Any, name: str) -> tuple[str, str | None]:
+        """The table and key where an input (typed in or generated) is stated."""
+        for item in generated.inputs:
+            if item.name == name:
+                return item.table, None
+        return "inputs." + name, "unit"
+
+    def made_inputs(self, generated: Any, taken: set[str]) -> tuple[Input, ...]:
+        from .recordinputs import made_input
+
+        made = []
+        in_sets = {n for names, _, _ in generated.together for n in names}
+        for item in generated.inputs:
+            where = self.where(item.table, None)
+            _check_name(item.name, where)
+            if item.name in taken:
+                raise InputError(f"expected a new name, found '{item.name}' which is also "
+                                 "an [inputs] table", where)
+            taken.add(item.name)
+            made.append(made_input(item, item.name in in_sets))
+        return tuple(made)
 
     def table(self, key: str) -> dict:
         value = self.doc.get(key, {})
@@ -230,9 +260,9 @@ class _Reader:
                                  self.where("settings", key))
         return check_settings(data, lambda key: self.where("settings", key))
 
-    def inputs(self, convention: str) -> tuple[Input, ...]:
+    def inputs(self, convention: str, generated: bool = False) -> tuple[Input, ...]:
         tables = self.table("inputs")
-        if not tables:
+        if not tables and not generated:
             raise InputError("expected at least one [inputs.NAME] table, found none",
                              self.where(None))
         made = []
@@ -256,11 +286,18 @@ class _Reader:
                      basis=statement.basis, description=str(data.get("description", "")),
                      source=str(data.get("source", "")), molar_mass=statement.molar_mass)
 
-    def definitions(self, table: dict[str, Term]) -> tuple[tuple[Definition, ...], dict]:
-        texts = self.table("definitions")
+    def definitions(self, table: dict[str, Term], generated: dict[str, str]
+                    ) -> tuple[tuple[Definition, ...], dict]:
+        texts = dict(self.table("definitions"))
+        for name in generated:
+            if name in texts:
+                raise InputError(f"expected a new name, found '{name}' which is also a "
+                                 "record", self.where("definitions", name))
+        texts.update(generated)
         trees = {}
         for name, text in texts.items():
-            where = self.where("definitions", name)
+            where = self.where("definitions", name) if name not in generated else \
+                self.where("records." + name)
             _check_name(name, where)
             if name in table:
                 raise InputError(f"expected a new name, found '{name}' which is also an "
@@ -270,7 +307,8 @@ class _Reader:
         terms = dict(table)
         made = []
         for name in order:
-            where = self.where("definitions", name)
+            where = self.where("definitions", name) if name not in generated else \
+                self.where("records." + name)
             term = build(trees[name], terms, texts[name], where)
             terms[name] = Term(term.expr, sympy.Symbol(name), term.unit, term.offset,
                                term.opaque)
@@ -342,6 +380,12 @@ def check_settings(data: dict, where: Any) -> Settings:
                              where("atomic_weights"))
         made["atomic_weights"] = value
     return Settings(**made)
+
+
+def _base(name: str) -> Path:
+    """Record files are found next to the model file (or in the working directory)."""
+    path = Path(name)
+    return path.parent if path.is_file() else Path.cwd()
 
 
 def _check_name(name: str, where: Location) -> None:
