@@ -41,7 +41,7 @@ class Contribution:
     dof: float
     sensitivity: float
     contribution: float
-    index: float
+    share: float  # percentage of u_c²
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -49,7 +49,7 @@ class CorrelationTerm:
     inputs: tuple[str, str]
     r: float
     variance: float  # 2 c_i c_j u_i u_j r_ij, signed
-    index: float
+    share: float  # percentage of u_c²
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -76,17 +76,17 @@ class MeasurandBudget:
     @property
     def type_a_share(self) -> float:
         """Percentage of the uncorrelated variance that comes from Type A inputs."""
-        return math.fsum(c.index for c in self.contributions if c.type == "A")
+        return math.fsum(c.share for c in self.contributions if c.type == "A")
 
     def to_frame(self) -> Any:
         """The budget table as a pandas DataFrame, one row per input."""
         import pandas as pd
 
         rows = [{"input": c.input, "estimate": c.estimate, "unit": c.unit,
-                 "standard_uncertainty": c.standard_uncertainty,
+                 "u": c.standard_uncertainty,
                  "distribution": c.distribution, "type": c.type, "dof": c.dof,
                  "sensitivity": c.sensitivity, "contribution": c.contribution,
-                 "index": c.index} for c in self.contributions]
+                 "share": c.share} for c in self.contributions]
         return pd.DataFrame(rows).set_index("input")
 
 
@@ -169,7 +169,7 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
                                f"({first:.3g}); check the correlations")
     variance = first + (extra or 0.0)
     combined = math.sqrt(variance)
-    index = (100.0 * parts ** 2 / variance) if variance > 0 else np.zeros_like(parts)
+    share = (100.0 * parts ** 2 / variance) if variance > 0 else np.zeros_like(parts)
     nu = welch_satterthwaite(combined, np.abs(parts), dofs)
     rule = "Welch-Satterthwaite, GUM eq. (G.2b)"
     if terms:
@@ -183,11 +183,11 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
                      standard_uncertainty=i.standard_uncertainty,
                      distribution=i.distribution.name, type=i.type, dof=i.dof,
                      sensitivity=float(c[j]), contribution=float(abs(parts[j])),
-                     index=float(index[j]))
+                     share=float(share[j]))
         for j, i in enumerate(model.inputs))
     correlation_terms = tuple(
         CorrelationTerm(inputs=(a, b), r=rho, variance=v,
-                        index=100.0 * v / variance if variance > 0 else 0.0)
+                        share=100.0 * v / variance if variance > 0 else 0.0)
         for a, b, rho, v in terms)
     return MeasurandBudget(
         name=measurand.name, unit=measurand.unit, estimate=estimate,
