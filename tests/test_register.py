@@ -301,3 +301,19 @@ def test_a_what_if_copy_never_carries_the_files_digest(cli):
     assert original["model_sha256"] == hashlib.sha256(
         (DEMO / "coulometric-purity.toml").read_bytes()).hexdigest()
     assert math.isclose(changed.input("R_s").standard_uncertainty, 5e-6)
+
+
+def test_reports_list_the_certificates_and_the_generated_traceability():
+    from budget.report import render_certification_report, render_report
+
+    budget_page = render_report(evaluate(load_model(DEMO / "coulometric-purity.toml"),
+                                         trials=0))
+    assert "<td>CVCS-R-2025-0113</td>" in budget_page
+    assert "valid on 2025-05-06" in budget_page
+    cert = certify(load_campaign(DEMO / "campaign.toml"), trials=0)
+    page = render_certification_report(cert)
+    assert "The measurement results are traceable to the SI: the volt through certificate " \
+           "CVCS-V-2025-0042" in page
+    assert "valid on each of the 3 measurement dates" in page
+    assert "SHA-256 " + hashlib.sha256((DEMO / "calibrations.toml").read_bytes()).hexdigest() \
+        in page
