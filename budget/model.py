@@ -30,13 +30,15 @@ from .register import (CertificateUse, Register, agreement_warnings, date_warnin
 from .statements import STATEMENT_WAYS, read_statement
 from .units import UnitInfo, dimension_text, parse_unit
 from . import correlations as corr
+from . import together
+from .together import Together
 
 __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model",
            "parse_model", "DEFAULT_SEED"]
 
 DEFAULT_SEED = 20260601
 _TOP_KEYS = ("title", "description", "measurands", "definitions", "inputs", "correlations",
-             "settings", "register", "measured")
+             "estimated_together", "settings", "register", "measured")
 _SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights")
 _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
@@ -103,6 +105,7 @@ class Model:
     measurands: tuple[Measurand, ...]
     correlations: tuple[tuple[str, str, float], ...]
     settings: Settings
+    estimated_together: tuple[Together, ...] = ()
     source: str = "<string>"
     sha256: str = ""
     warnings: tuple[str, ...] = field(default=())
@@ -219,6 +222,7 @@ class _Reader:
         measurands = self.measurands(terms)
         pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
                           self.where)
+        sets = together.read(self.doc.get(together.KEY, []), inputs, self.where)
         uses = tuple(self.uses)
         warnings = (_unused_inputs(inputs, measurands) + tuple(self.checks)
                     + date_warnings(uses, measured))
@@ -227,8 +231,9 @@ class _Reader:
             files += (("register", self.register.source, self.register.sha256),)
         return Model(title=title.strip(), description=str(self.doc.get("description", "")),
                      inputs=inputs, definitions=definitions, measurands=measurands,
-                     correlations=pairs, settings=settings, source=self.name, sha256=sha256,
-                     warnings=warnings, certificates=uses, measured=measured, files=files)
+                     correlations=pairs, settings=settings, estimated_together=sets,
+                     source=self.name, sha256=sha256, warnings=warnings, certificates=uses,
+                     measured=measured, files=files)
 
     def read_register(self, convention: str) -> Register | None:
         if "register" not in self.doc:
