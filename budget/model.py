@@ -38,7 +38,7 @@ __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model"
 
 DEFAULT_SEED = 20260601
 _TOP_KEYS = ("title", "description", "measurands", "definitions", "inputs", "correlations",
-             "estimated_together", "settings", "register", "measured")
+             "estimated_together", "settings", "fits", "records", "register", "measured")
 _SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights")
 _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
@@ -117,6 +117,7 @@ class Model:
     def changed(self, inputs: tuple[Input, ...], change: str) -> "Model":
         """A what-if copy: new inputs, the change recorded, the file's digest dropped."""
         return replace(self, inputs=inputs, changes=self.changes + (change,), sha256="")
+    records: tuple[Any, ...] = field(default=())  # RecordView of each [fits]/[records] table
 
     def input(self, name: str) -> Input:
         for item in self.inputs:
@@ -214,15 +215,21 @@ class _Reader:
         self.register = self.read_register(settings.atomic_weights)
         self.uses: list[CertificateUse] = []
         self.checks: list[str] = []
-        inputs = self.inputs(settings.atomic_weights)
+        from .recordinputs import generate
+
+        generated = generate(self.doc, _base(self.name), self.where)
+        inputs = self.inputs(settings.atomic_weights, bool(generated.inputs))
+        inputs += self.made_inputs(generated, {i.name for i in inputs})
         measured = self.measured()
-        table = {i.name: _input_term(i, self.where("inputs." + i.name, "unit"))
+        table = {i.name: _input_term(i, self.where(*self.home(generated, i.name)))
                  for i in inputs}
-        definitions, terms = self.definitions(table)
+        definitions, terms = self.definitions(table, generated.definitions)
         measurands = self.measurands(terms)
         pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
-                          self.where)
+                          self.where) + tuple(generated.correlations)
         sets = together.read(self.doc.get(together.KEY, []), inputs, self.where)
+        sets += tuple(Together(inputs=names, dof=dof, note=note)
+                      for names, dof, note in generated.together)
         uses = tuple(self.uses)
         warnings = (_unused_inputs(inputs, measurands) + tuple(self.checks)
                     + date_warnings(uses, measured))
@@ -233,7 +240,7 @@ class _Reader:
                      inputs=inputs, definitions=definitions, measurands=measurands,
                      correlations=pairs, settings=settings, estimated_together=sets,
                      source=self.name, sha256=sha256, warnings=warnings, certificates=uses,
-                     measured=measured, files=files)
+                     measured=measured, files=files, records=tuple(generated.views))
 
     def read_register(self, convention: str) -> Register | None:
         if "register" not in self.doc:
@@ -256,6 +263,28 @@ class _Reader:
             raise InputError("expected a date or a list of dates, found an empty list", where)
         return tuple(read_date(day, where) for day in days)
 
+    def home(self, generated: Any, name: str) -> tuple[str, str | None]:
+        """The table and key where an input (typed in or generated) is stated."""
+        for item in generated.inputs:
+            if item.name == name:
+                return item.table, None
+        return "inputs." + name, "unit"
+
+    def made_inputs(self, generated: Any, taken: set[str]) -> tuple[Input, ...]:
+        from .recordinputs import made_input
+
+        made = []
+        in_sets = {n for names, _, _ in generated.together for n in names}
+        for item in generated.inputs:
+            where = self.where(item.table, None)
+            _check_name(item.name, where)
+            if item.name in taken:
+                raise InputError(f"expected a new name, found '{item.name}' which is also "
+                                 "an [inputs] table", where)
+            taken.add(item.name)
+            made.append(made_input(item, item.name in in_sets))
+        return tuple(made)
+
     def table(self, key: str) -> dict:
         value = self.doc.get(key, {})
         if not isinstance(value, dict):
@@ -272,9 +301,9 @@ class _Reader:
                                  self.where("settings", key))
         return check_settings(data, lambda key: self.where("settings", key))
 
-    def inputs(self, convention: str) -> tuple[Input, ...]:
+    def inputs(self, convention: str, generated: bool = False) -> tuple[Input, ...]:
         tables = self.table("inputs")
-        if not tables:
+        if not tables and not generated:
             raise InputError("expected at least one [inputs.NAME] table, found none",
                              self.where(None))
         made = []
@@ -349,11 +378,18 @@ class _Reader:
                              f"a reading), found none", self.where("inputs." + name))
         return {**stated.table, **data}
 
-    def definitions(self, table: dict[str, Term]) -> tuple[tuple[Definition, ...], dict]:
-        texts = self.table("definitions")
+    def definitions(self, table: dict[str, Term], generated: dict[str, str]
+                    ) -> tuple[tuple[Definition, ...], dict]:
+        texts = dict(self.table("definitions"))
+        for name in generated:
+            if name in texts:
+                raise InputError(f"expected a new name, found '{name}' which is also a "
+                                 "record", self.where("definitions", name))
+        texts.update(generated)
         trees = {}
         for name, text in texts.items():
-            where = self.where("definitions", name)
+            where = self.where("definitions", name) if name not in generated else \
+                self.where("records." + name)
             _check_name(name, where)
             if name in table:
                 raise InputError(f"expected a new name, found '{name}' which is also an "
@@ -363,7 +399,8 @@ class _Reader:
         terms = dict(table)
         made = []
         for name in order:
-            where = self.where("definitions", name)
+            where = self.where("definitions", name) if name not in generated else \
+                self.where("records." + name)
             term = build(trees[name], terms, texts[name], where)
             terms[name] = Term(term.expr, sympy.Symbol(name), term.unit, term.offset,
                                term.opaque)
@@ -435,6 +472,12 @@ def check_settings(data: dict, where: Any) -> Settings:
                              where("atomic_weights"))
         made["atomic_weights"] = value
     return Settings(**made)
+
+
+def _base(name: str) -> Path:
+    """Record files are found next to the model file (or in the working directory)."""
+    path = Path(name)
+    return path.parent if path.is_file() else Path.cwd()
 
 
 def _check_name(name: str, where: Location) -> None:
