@@ -58,12 +58,14 @@ class Campaign:
     coverage: float | None
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
+    data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
 
 
 class _Reader:
     def __init__(self, path: Path, text: str, document: dict[str, Any]) -> None:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
+        self.files: list[tuple[str, str, str]] = []
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -117,6 +119,14 @@ class _Reader:
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
+        import hashlib
+
+        try:
+            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        except OSError as exc:
+            raise self.fail(f"expected a readable file '{relative}', found {exc.strerror}",
+                            table, key) from exc
+        self.files.append((f"{table}.{key}", str(path), digest))
         return path
 
 
@@ -170,7 +180,8 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r), k=k,
         coverage=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
-                    if key in r.doc))
+                    if key in r.doc),
+        data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"))
 
 
 def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),
