@@ -11,6 +11,7 @@ root only, so anything else that escapes is a bug in ``budget`` and shows as one
     ├── UnitError        (also ValueError)   unknown unit, dimension mismatch, offset misuse
     ├── InputError       (also ValueError)   missing/invalid keys and numbers, correlations
     ├── CampaignError    (also ValueError)   campaign files and their CSV data
+    ├── NotFoundError    (also KeyError)     a lookup by a name the result does not have
     ├── PropagationError                     the model cannot be evaluated at the estimates
     └── SimulationError                      Monte Carlo cannot give a result
 
@@ -26,7 +27,8 @@ from typing import Iterable
 
 __all__ = [
     "BudgetError", "ModelSyntaxError", "UnknownNameError", "UnitError", "InputError",
-    "CampaignError", "PropagationError", "SimulationError", "Location", "did_you_mean",
+    "CampaignError", "NotFoundError", "PropagationError", "SimulationError", "Location",
+    "did_you_mean",
 ]
 
 
@@ -76,6 +78,13 @@ class InputError(BudgetError, ValueError):
 
 class CampaignError(BudgetError, ValueError):
     """A campaign file or its data tables break the campaign contract."""
+
+
+class NotFoundError(BudgetError, KeyError):
+    """A lookup (``budget.measurand("w")``, ``model.input("x")``) by a name that is not there."""
+
+    def __str__(self) -> str:  # KeyError would show the message in quotes
+        return str(self.args[0]) if self.args else ""
 
 
 class PropagationError(BudgetError):

@@ -73,6 +73,35 @@ class Explanation:
     sobol_notes: tuple[str, ...]
     target: float | None
 
+    def __repr__(self) -> str:
+        lead = ", ".join(f"{d.input} {format_percent(d.share)} %" for d in self.drivers)
+        return f"<Explanation of {self.name}: {lead} of u_c²>"
+
+    def summary(self, digits: int = 2) -> str:
+        """The plain-language answer of ``budget explain``."""
+        return render((self,), digits)
+
+    def _repr_html_(self) -> str:
+        from .notebook import explanation_html
+
+        return explanation_html(self)
+
+    def to_frame(self) -> Any:
+        """One row per input named (leading inputs first), columns as in the JSON."""
+        from .notebook import frame
+
+        document = self.to_dict()
+        rows = [*document["drivers"], *document["others"]]
+        totals = {key: document[key] for key in ("name", "unit", "value", "u", "U", "k",
+                                                 "type_a_share", "type_b_share",
+                                                 "correlation_share", "validated")}
+        return frame(rows, "input", totals)
+
+    def to_dict(self) -> dict[str, Any]:
+        """This measurand's part of the ``budget explain --json`` document."""
+        measurand: dict[str, Any] = explanation_document((self,))["measurands"][0]
+        return measurand
+
 
 def explain(result: Result, *, target: float | None = None, leading: int = 3,
             sobol_trials: int = 1 << 15) -> tuple[Explanation, ...]:
@@ -104,7 +133,7 @@ def explain(result: Result, *, target: float | None = None, leading: int = 3,
 
 def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
             target: float | None) -> Driver:
-    halved = propagate(model.with_uncertainty(c.input, 0.5), coverage).measurands[k]
+    halved = propagate(model.with_uncertainty(c.input, factor=0.5), coverage).measurands[k]
     needed = reached = None
     if target is not None and c.standard_uncertainty > 0 and c.sensitivity != 0:
         rest = budget.combined_uncertainty ** 2 - c.contribution ** 2
@@ -112,7 +141,7 @@ def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
         if room > 0:
             needed = math.sqrt(room) / abs(c.sensitivity)
             factor = needed / c.standard_uncertainty
-            reached = propagate(model.with_uncertainty(c.input, factor),
+            reached = propagate(model.with_uncertainty(c.input, factor=factor),
                                 coverage).measurands[k].expanded_uncertainty
     return Driver(input=c.input, share=c.share, contribution=c.contribution,
                   distribution=c.distribution, type=c.type,

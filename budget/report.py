@@ -230,3 +230,16 @@ def _certification_view(cert: Any) -> dict[str, Any]:
 
     view["traceability_generated"] = traceability_statement(cert.campaign.model.certificates)
     return view
+
+
+def simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict[str, Any]:
+    """The Monte Carlo part of a budget's view (used by the notebook display too)."""
+    return _simulation_view(b, s, digits)
+
+
+def render_notebook(*, title: str, measurands: list[dict[str, Any]],
+                    tables: list[dict[str, Any]]) -> str:
+    """An HTML fragment for a notebook: the report's tables and charts, scoped styles."""
+    html: str = _environment().get_template("notebook.html.j2").render(
+        title=title, measurands=measurands, tables=tables)
+    return html
