@@ -20,9 +20,10 @@ from .model import LineIndex, Model, decode, load_model, read_toml
 __all__ = ["Campaign", "Comparison", "load_campaign", "read_table"]
 
 _TOP = ("title", "material", "unit", "description", "producer", "characterization",
-        "homogeneity", "stability", "comparison", "certificate")
+        "homogeneity", "stability", "comparison", "certificate",
+        "method", "shared", "combination")  # the last three: methods.py
 _SECTIONS = {
-    "characterization": ("model", "measurand", "runs", "scatter_covers"),
+    "characterization": ("model", "measurand", "runs", "scatter_covers", "label"),
     "homogeneity": ("data",),
     "stability": ("data", "shelf_life", "u_short_term"),
     "comparison": ("label", "value", "expanded", "k", "u"),
@@ -58,6 +59,8 @@ class Campaign:
     coverage: float | None
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
+    method_label: str = "characterization"
+    methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
 
 
 class _Reader:
@@ -155,6 +158,13 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
                      "measurand")
     runs, run_inputs = _runs(r, char, model)
     covers = _covers(r, char, model)
+    from .methods import check_primary_references, read_methods
+
+    label = r.text(char, "label", "characterization") if "label" in char \
+        else "characterization"
+    plan = read_methods(r, label)
+    if plan is not None:
+        check_primary_references(r, plan, model, run_inputs)
     homogeneity = _homogeneity(r)
     stability_section = r.section("stability", False)
     stability = _stability(r, stability_section)
@@ -170,7 +180,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r), k=k,
         coverage=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
-                    if key in r.doc))
+                    if key in r.doc), method_label=label, methods=plan)
 
 
 def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),

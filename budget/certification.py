@@ -26,7 +26,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field, replace
-from typing import Callable
+from typing import Any, Callable
 
 import numpy as np
 
@@ -114,6 +114,7 @@ class Certification:
     stability: Stability | None
     comparisons: tuple[ComparisonScore, ...]
     warnings: tuple[str, ...] = ()
+    methods: Any = None  # intercomparison.MethodsResult when the campaign has several
 
     @property
     def shares(self) -> dict[str, float]:
@@ -170,6 +171,12 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     """The certified value, its uncertainty budget and the comparisons."""
     warnings: list[str] = []
     char = _characterize(campaign, trials, seed, progress, warnings)
+    methods, value_from = None, char
+    if campaign.methods is not None:
+        from .intercomparison import characterization_value, evaluate_methods
+
+        methods = evaluate_methods(campaign, char, trials, seed, warnings)
+        value_from = characterization_value(char, methods)
     homogeneity = None
     if campaign.homogeneity is not None:
         homogeneity = anova([v for _, v in campaign.homogeneity],
@@ -188,7 +195,8 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
                             f"{stability.p_value:.3g} < 0.05)")
     else:
         warnings.append("no stability study: u_lts and u_sts are taken as 0")
-    return _certified(campaign, char, homogeneity, stability, warnings)
+    cert = _certified(campaign, value_from, homogeneity, stability, warnings)
+    return cert if methods is None else replace(cert, characterization=char, methods=methods)
 
 
 def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogeneity | None,

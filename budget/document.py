@@ -112,7 +112,7 @@ def certification_document(cert: Any) -> dict[str, Any]:
 
     campaign, char = cert.campaign, cert.characterization
     h, s = cert.homogeneity, cert.stability
-    return {
+    document = {
         "title": campaign.title,
         "unit": campaign.unit,
         "certified_value": cert.certified_value,
@@ -147,3 +147,8 @@ def certification_document(cert: Any) -> dict[str, Any]:
                        "campaign_file": campaign.source, "campaign_sha256": campaign.sha256},
         "caution": CAUTION,
     }
+    if cert.methods is not None:  # several methods (methods_output.py)
+        from .methods_output import methods_document
+
+        document["methods"] = methods_document(cert.methods)
+    return document

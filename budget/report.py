@@ -193,4 +193,9 @@ def _certification_view(cert: Any) -> dict[str, Any]:
                                      cert.characterization.result) + [
         ("campaign file", cert.campaign.source), ("campaign SHA-256", cert.campaign.sha256)]
     view["caution"] = CAUTION
+    if cert.methods is not None:  # several methods (methods_output.py, methods.html.j2)
+        from .methods_output import methods_view
+
+        view["methods"] = methods_view(cert.methods, cert.campaign.unit,
+                                       cert.campaign.model.settings.digits, _budget_view)
     return view

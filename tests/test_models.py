@@ -9,8 +9,8 @@ import pytest
 
 from conftest import MODELS
 
-_MODELS = sorted(p for p in MODELS.rglob("*.toml") if p.name != "campaign.toml")
-_CAMPAIGNS = sorted(MODELS.rglob("campaign.toml"))
+_MODELS = sorted(p for p in MODELS.rglob("*.toml") if not p.name.startswith("campaign"))
+_CAMPAIGNS = sorted(MODELS.rglob("campaign*.toml"))
 
 
 @pytest.mark.parametrize("path", _MODELS, ids=[str(p.relative_to(MODELS)) for p in _MODELS])
