@@ -59,6 +59,7 @@ class Campaign:
     coverage: float | None
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
+    data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
     method_label: str = "characterization"
     methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
 
@@ -67,6 +68,7 @@ class _Reader:
     def __init__(self, path: Path, text: str, document: dict) -> None:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
+        self.files: list[tuple[str, str, str]] = []
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -120,6 +122,14 @@ class _Reader:
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
+        import hashlib
+
+        try:
+            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        except OSError as exc:
+            raise self.fail(f"expected a readable file '{relative}', found {exc.strerror}",
+                            table, key) from exc
+        self.files.append((f"{table}.{key}", str(path), digest))
         return path
 
 
@@ -180,7 +190,9 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r), k=k,
         coverage=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
-                    if key in r.doc), method_label=label, methods=plan)
+                    if key in r.doc),
+        data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
+        method_label=label, methods=plan)
 
 
 def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),

@@ -146,7 +146,8 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list) -> tuple[
                        f"carries {format_percent(top.share)} % of u_c², so the distribution "
                        f"of {budget.name} is {'flatter than' if shape == 'flatter' else 'not'}"
                        " a Gaussian and k·u_c does not give the stated coverage")
-    if top.share >= 40 and math.isfinite(item.dof) and item.dof < 10:
+    if (top.share >= 40 and math.isfinite(item.dof) and item.dof < 10
+            and item.distribution.name == "student_t"):
         reasons.append(f"a dominant input with few degrees of freedom: {top.input} "
                        f"(ν = {item.dof:g}) is drawn from a t distribution with heavy tails")
     shift = abs(simulation.mean - budget.estimate)

@@ -6,9 +6,9 @@ Method:
 * u_c²(y) = Σ (c_i u_i)² + 2 Σ_{i<j} c_i c_j u_i u_j r_ij (GUM 5.1.2 and 5.2.2);
 * GUM 5.1.2 note: with ``second_order`` the higher-order terms of eq. (14) for
   uncorrelated inputs, Σ_ij [½(∂²f/∂x_i∂x_j)² + ∂f/∂x_i ∂³f/∂x_i∂x_j²] u_i² u_j²;
-* ν_eff by Welch–Satterthwaite, eq. (G.2b); the GUM's rule has no term for correlations,
-  so with correlated inputs the correlation terms count with infinite degrees of freedom
-  (stated in ``dof_rule``);
+* ν_eff by Welch–Satterthwaite, eq. (G.2b), over independent components: inputs
+  estimated together and groups of correlated inputs count as one component each
+  (``dof.py``; the rule applied is stated in ``dof_rule``);
 * k = t_p(ν) with ν_eff (rounded to 0.1) truncated to the next lower integer (GUM G.4.1
   note 1), or the
   normal quantile when ν_eff is infinite; U = k·u_c (GUM 6.2, G.6.4);
@@ -23,6 +23,7 @@ from typing import Any
 
 import numpy as np
 
+from .dof import Grouping, effective_dof, grouping
 from .errors import PropagationError
 from .model import Model
 
@@ -141,12 +142,12 @@ def propagate(model: Model, coverage: float | None = None, *,
         raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}")
     values, jac = jacobian_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
-    dofs = np.array([i.dof for i in model.inputs])
+    groups = grouping(model)
     r = model.correlation_matrix()
     warnings: list[str] = list(model.warnings)
     extra = _second_order(model, second_order, warnings)
     budgets = tuple(
-        _one(model, k, float(values[k]), jac[k], u, dofs, r, coverage,
+        _one(model, k, float(values[k]), jac[k], u, groups, r, coverage,
              None if extra is None else float(extra[k]), warnings)
         for k in range(len(model.measurands)))
     covariance = jac @ (np.outer(u, u) * r) @ jac.T
@@ -158,7 +159,7 @@ def propagate(model: Model, coverage: float | None = None, *,
 
 
 def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
-         dofs: np.ndarray, r: np.ndarray, coverage: float, extra: float | None,
+         groups: Grouping, r: np.ndarray, coverage: float, extra: float | None,
          warnings: list[str]) -> MeasurandBudget:
     measurand = model.measurands[k]
     parts = c * u
@@ -170,10 +171,8 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
     variance = first + (extra or 0.0)
     combined = math.sqrt(variance)
     share = (100.0 * parts ** 2 / variance) if variance > 0 else np.zeros_like(parts)
-    nu = welch_satterthwaite(combined, np.abs(parts), dofs)
-    rule = "Welch-Satterthwaite, GUM eq. (G.2b)"
-    if terms:
-        rule += "; the correlation terms are taken with infinite degrees of freedom"
+    nu, rule, notes = effective_dof(model, measurand.name, parts, combined, groups)
+    warnings.extend(notes)
     if extra:
         rule += "; the second-order terms are taken with infinite degrees of freedom"
     _warn(measurand.name, combined, nu, warnings)

@@ -197,6 +197,14 @@ def _file(r: _Reader, entry: dict[str, Any], key: str, table: str, nth: int) -> 
     if not path.is_file():
         raise r.fail(f"expected a file '{relative}' beside the campaign file, found none",
                      table, key, nth)
+    import hashlib
+
+    try:
+        digest = hashlib.sha256(path.read_bytes()).hexdigest()
+    except OSError as exc:
+        raise r.fail(f"expected a readable file '{relative}', found {exc.strerror}", table,
+                     key, nth) from exc
+    r.files.append((f"{table}.{key}", str(path), digest))
     return path
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import textwrap
 from typing import Any
 
 from .analysis import Result
@@ -109,6 +110,9 @@ def _summary(b: MeasurandBudget, digits: int) -> list[str]:
     lines = [f"GUM:  y = {value} {b.unit}   u_c = {u} {b.unit}   ν_eff = {format_dof(b.dof)}"
              f"   k = {b.coverage_factor:.3g}",
              f"      {result_statement(b, digits)}"]
+    if "; " in b.dof_rule:  # more than Welch-Satterthwaite input by input: say which rule
+        lines += textwrap.wrap("ν_eff: " + b.dof_rule.split("; ", 1)[1], WIDTH,
+                               initial_indent="      ", subsequent_indent="      ")
     if b.second_order_variance is not None:
         lines.append(f"      includes GUM 5.1.2 higher-order terms "
                      f"(first-order u_c = {format_number(b.first_order_uncertainty, 3)})")

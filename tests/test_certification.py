@@ -89,7 +89,8 @@ def test_en_and_zeta_scores(tmp_path):
 
 
 def test_disagreeing_comparison_warns(tmp_path):
-    for name in ("coulometric-purity.toml", "determinations.csv", "homogeneity.csv",
+    for name in ("coulometric-purity.toml", "calibrations.toml", "determinations.csv",
+                 "homogeneity.csv",
                  "stability.csv"):
         (tmp_path / name).write_bytes((DEMO / name).read_bytes())
     (tmp_path / "campaign.toml").write_text(_campaign_text(99.900))
@@ -131,7 +132,8 @@ def test_demo_campaign_end_to_end(cli):
 
 
 def test_scatter_covers_removes_an_input_from_u_b(tmp_path):
-    for name in ("coulometric-purity.toml", "determinations.csv", "homogeneity.csv",
+    for name in ("coulometric-purity.toml", "calibrations.toml", "determinations.csv",
+                 "homogeneity.csv",
                  "stability.csv"):
         (tmp_path / name).write_bytes((DEMO / name).read_bytes())
     (tmp_path / "campaign.toml").write_text(_campaign_text().replace(
@@ -170,7 +172,8 @@ def test_scatter_covers_removes_an_input_from_u_b(tmp_path):
      "combination"),
 ])
 def test_campaign_errors(edit, csv, message, tmp_path, cli, monkeypatch):
-    for name in ("coulometric-purity.toml", "determinations.csv", "homogeneity.csv",
+    for name in ("coulometric-purity.toml", "calibrations.toml", "determinations.csv",
+                 "homogeneity.csv",
                  "stability.csv"):
         (tmp_path / name).write_bytes((DEMO / name).read_bytes())
     text = _campaign_text()
