@@ -32,7 +32,7 @@ from typing import Any, Callable
 import numpy as np
 
 from .analysis import Result, evaluate
-from .campaign import Campaign
+from .campaign import Campaign, Comparison
 from .errors import BudgetError, CampaignError, Location
 from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
@@ -234,7 +234,8 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
     dofs = np.array([char.dof, homogeneity.dof_between if homogeneity else math.inf,
                      stability.dof if stability else math.inf, math.inf], dtype=float)
     nu = welch_satterthwaite(u, np.array([c for _, c in components]), dofs)
-    k = campaign.k if campaign.k is not None else coverage_factor(campaign.coverage, nu)
+    k = campaign.k if campaign.k is not None else \
+        coverage_factor(campaign.coverage or 0.95, nu)  # the campaign gives one of them
     scores = tuple(_score(c, char, k) for c in campaign.comparisons)
     for s in scores:
         if not s.agrees:
@@ -248,7 +249,7 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
                          warnings=tuple(dict.fromkeys([*char.result.warnings, *warnings])))
 
 
-def _score(comparison, char: Characterization, k: float) -> ComparisonScore:
+def _score(comparison: Comparison, char: Characterization, k: float) -> ComparisonScore:
     difference = char.mean - comparison.estimate
     e_n = difference / math.hypot(k * char.standard_uncertainty, comparison.expanded_uncertainty)
     zeta = difference / math.hypot(char.standard_uncertainty, comparison.standard_uncertainty)

@@ -130,7 +130,8 @@ def certification_document(cert: Any) -> dict[str, Any]:
         "components": dict(cert.components),
         "characterization": {
             "runs": list(char.runs), "mean": char.mean, "s": char.s, "n": char.n,
-            "u_B": char.model_uncertainty, "u": char.standard_uncertainty, "labels": list(char.labels),
+            "u_B": char.model_uncertainty, "u": char.standard_uncertainty,
+            "labels": list(char.labels),
             "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.model_dof),
             "scatter_covers": list(campaign.scatter_covers),
             "budget": result_document(char.result)},

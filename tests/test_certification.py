@@ -200,7 +200,8 @@ def test_missing_campaign_file(cli, tmp_path, monkeypatch):
 
 def test_certified_value_components_and_shares():
     cert = certify(load_campaign(DEMO / "campaign.toml"), trials=0)
-    assert cert.standard_uncertainty == pytest.approx(math.sqrt(sum(u * u for _, u in cert.components)))
+    total = math.sqrt(sum(u * u for _, u in cert.components))
+    assert cert.standard_uncertainty == pytest.approx(total)
     assert sum(cert.shares.values()) == pytest.approx(100.0)
     with pytest.raises(CampaignError):
         load_campaign(DEMO / "coulometric-purity.toml")
