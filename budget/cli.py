@@ -140,7 +140,8 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
             target: float | None) -> None:
     """What dominates the uncertainty of MODEL.toml, why, and what would reduce it."""
     from .errors import BudgetError
-    from .explain import explain as run_explain, explanation_document, render
+    from .explanation import explain as run_explain
+    from .explanation_view import explanation_document, render
 
     progress = _Progress(not as_json)
     try:

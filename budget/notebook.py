@@ -27,7 +27,7 @@ from .formatting import format_dof, format_number, format_pair, format_percent
 if TYPE_CHECKING:
     from .analysis import Result
     from .certification import Certification
-    from .explain import Explanation
+    from .explanation import Explanation
     from .gum import MeasurandBudget
     from .montecarlo import MeasurandSimulation
 
