@@ -39,17 +39,18 @@ def audit_view(result: Any, chains: list[dict[str, Any]]) -> list[dict[str, Any]
         out.append({
             "name": Markup(name_html(e.name)), "unit": unit,
             "lead": {"name": Markup(name_html(lead.input)), "written": lead.input,
-                     "share": format_percent(lead.index), "distribution": lead.distribution,
+                     "share": format_percent(lead.share), "distribution": lead.distribution,
                      "type": lead.type, "basis": item.basis,
                      "u": format_number(lead.standard_uncertainty, digits),
                      "input_unit": display_unit(lead.unit),
                      "c": format_number(contribution.sensitivity, 4),
                      "contribution": format_number(lead.contribution, digits),
                      "chain": chain},
-            "drivers": [{"name": Markup(name_html(d.input)), "share": format_percent(d.index),
+            "drivers": [{"name": Markup(name_html(d.input)), "share": format_percent(d.share),
                          "distribution": d.distribution, "type": d.type,
                          "contribution": format_number(d.contribution, digits),
-                         "halved": format_pair(e.estimate, d.halved_U, digits)[1]}
+                         "halved": format_pair(e.estimate, d.halved_expanded_uncertainty,
+                                               digits)[1]}
                         for d in e.drivers],
             "others": [{"name": Markup(name_html(n)), "share": format_percent(s)}
                        for n, s in e.others],

@@ -32,7 +32,7 @@ _SECTIONS = {
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Comparison:
     label: str
-    value: float
+    estimate: float
     standard_uncertainty: float
     expanded_uncertainty: float
 
@@ -295,7 +295,7 @@ def _comparisons(r: _Reader) -> tuple[Comparison, ...]:
         else:
             expanded = r.number(entry, "expanded", "comparison", positive=True, nth=nth)
             u = expanded / r.number(entry, "k", "comparison", positive=True, nth=nth)
-        made.append(Comparison(label=label, value=float(value), standard_uncertainty=u,
+        made.append(Comparison(label=label, estimate=float(value), standard_uncertainty=u,
                                expanded_uncertainty=expanded))
     return tuple(made)
 

@@ -88,9 +88,9 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
     digits = result.digits
     unit = display_unit(b.unit)
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
-    chart_rows = [(name_text(c.input), c.index) for c in
-                  sorted(b.contributions, key=lambda c: -c.index) if c.index > 0]
-    chart_rows += [(f"r({name_text(t.inputs[0])}, {name_text(t.inputs[1])})", t.index)
+    chart_rows = [(name_text(c.input), c.share) for c in
+                  sorted(b.contributions, key=lambda c: -c.share) if c.share > 0]
+    chart_rows += [(f"r({name_text(t.inputs[0])}, {name_text(t.inputs[1])})", t.share)
                    for t in b.correlation_terms]
     return {
         "name": b.name, "shown": Markup(name_html(b.name)), "unit": unit,
@@ -101,7 +101,7 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "correlation_terms": [{"pair": Markup(f"{name_html(t.inputs[0])}, "
                                               f"{name_html(t.inputs[1])}"), "r": f"{t.r:g}",
                                "variance": format_number(t.variance, 3),
-                               "index": format_percent(t.index)} for t in b.correlation_terms],
+                               "share": format_percent(t.share)} for t in b.correlation_terms],
         "value": value, "u": u, "dof": format_dof(b.dof), "dof_rule": b.dof_rule,
         "k": f"{b.coverage_factor:.3f}", "U": format_pair(b.estimate, b.expanded_uncertainty,
                                                           digits)[1],
