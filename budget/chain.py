@@ -253,7 +253,7 @@ class _Sweep:
             return air_density(*args) if name == "air_density" else _FUNCTIONS[name](args[0])
         if isinstance(node, ast.Name):
             return self.known[node.id].value
-        return float(node.value)  # type: ignore[attr-defined, arg-type]
+        return float(node.value)  # type: ignore[attr-defined]
 
     def back(self, node: ast.expr, adjoint: float) -> None:
         work = [(node, adjoint)]

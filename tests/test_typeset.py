@@ -8,7 +8,6 @@ import ast
 import re
 import tomllib
 from html.parser import HTMLParser
-from pathlib import Path
 
 import pytest
 
