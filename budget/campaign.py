@@ -20,9 +20,10 @@ from .model import LineIndex, Model, decode, load_model, read_toml
 __all__ = ["Campaign", "Comparison", "load_campaign", "read_table"]
 
 _TOP = ("title", "material", "unit", "description", "producer", "characterization",
-        "homogeneity", "stability", "comparison", "certificate")
+        "homogeneity", "stability", "comparison", "certificate",
+        "method", "shared", "combination")  # the last three: methods.py
 _SECTIONS = {
-    "characterization": ("model", "measurand", "runs", "scatter_covers"),
+    "characterization": ("model", "measurand", "runs", "scatter_covers", "label"),
     "homogeneity": ("data",),
     "stability": ("data", "shelf_life", "u_short_term"),
     "comparison": ("label", "value", "expanded", "k", "u"),
@@ -59,6 +60,8 @@ class Campaign:
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
     data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
+    method_label: str = "characterization"
+    methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
 
 
 class _Reader:
@@ -165,6 +168,13 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
                      "measurand")
     runs, run_inputs = _runs(r, char, model)
     covers = _covers(r, char, model)
+    from .methods import check_primary_references, read_methods
+
+    label = r.text(char, "label", "characterization") if "label" in char \
+        else "characterization"
+    plan = read_methods(r, label)
+    if plan is not None:
+        check_primary_references(r, plan, model, run_inputs)
     homogeneity = _homogeneity(r)
     stability_section = r.section("stability", False)
     stability = _stability(r, stability_section)
@@ -181,7 +191,8 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         coverage=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
                     if key in r.doc),
-        data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"))
+        data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
+        method_label=label, methods=plan)
 
 
 def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),

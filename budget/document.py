@@ -119,7 +119,7 @@ def certification_document(cert: Any) -> dict[str, Any]:
 
     campaign, char = cert.campaign, cert.characterization
     h, s = cert.homogeneity, cert.stability
-    return {
+    document = {
         "schema_version": SCHEMA_VERSION,
         "title": campaign.title,
         "unit": campaign.unit,
@@ -163,3 +163,8 @@ def certification_document(cert: Any) -> dict[str, Any]:
         "traceability_generated": traceability_statement(campaign.model.certificates),
         "caution": CAUTION,
     }
+    if cert.methods is not None:  # several methods (methods_output.py)
+        from .methods_output import methods_document
+
+        document["methods"] = methods_document(cert.methods)
+    return document

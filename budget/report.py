@@ -219,4 +219,9 @@ def _certification_view(cert: Any) -> dict[str, Any]:
     from .register import traceability_statement
 
     view["traceability_generated"] = traceability_statement(cert.campaign.model.certificates)
+    if cert.methods is not None:  # several methods (methods_output.py, methods.html.j2)
+        from .methods_output import methods_view
+
+        view["methods"] = methods_view(cert.methods, cert.campaign.unit,
+                                       cert.campaign.model.settings.digits, _budget_view)
     return view

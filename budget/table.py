@@ -199,4 +199,8 @@ def render_certification(cert: Any, digits: int = 2) -> str:
         verdict = "agrees" if c.agrees else "DOES NOT AGREE"
         lines.append(f"comparison with {c.label}: E_n = {c.E_n:.2f}, ζ = {c.zeta:.2f}, "
                      f"{verdict}")
+    if cert.methods is not None:  # several methods (methods_output.py)
+        from .methods_output import methods_lines
+
+        lines += methods_lines(cert.methods, unit, digits)
     return "\n".join(lines)
