@@ -260,7 +260,7 @@ def render_difference_report(difference: Any, digits: int = 2) -> str:
             "before": difference.before.label, "after": difference.after.label,
             "caution": CAUTION, "notes": list(difference.notes),
             "measurands": [measurand(m) for m in difference.measurands]}
-    return _environment().get_template("compare.html.j2").render(report=view)
+    return str(_environment().get_template("compare.html.j2").render(report=view))
 
 
 def write_difference_report(difference: Any, path: str, digits: int = 2) -> None:
