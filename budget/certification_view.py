@@ -56,7 +56,10 @@ def _characterization(char: Any, covers: tuple[str, ...], unit: str,
             "n": char.n, "repeatability": format_number(char.s / math.sqrt(char.n), digits),
             "u_B": format_number(char.model_uncertainty, digits),
             "u": format_number(char.standard_uncertainty, digits),
-            "dof": format_dof(char.dof), "covers": ", ".join(covers) or "none",
+            "dof": format_dof(char.dof), "covers": (f"{', '.join(covers)}: covered by the run-to-run scatter, their "
+                       f"variation is in the Type A term s/√n = "
+                       f"{format_number(char.s / math.sqrt(char.n), digits)} {unit}"
+                       if covers else "none"),
             "chart": points_with_bars([(label, y, 0.0) for label, y in
                                        zip(char.labels, char.runs)], centre=char.mean,
                                       unit=unit, label="results of the determinations")}
