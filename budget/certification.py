@@ -314,7 +314,7 @@ def _run_values(campaign: Campaign, index: int) -> np.ndarray:
     return y
 
 
-def _model_at_mean(campaign: Campaign, repeatability: float) -> Model:
+def _model_at_mean(campaign: Campaign, repeatability: float | None = None) -> Model:
     """The model at the mean run inputs; the inputs the scatter covers are marked so (no
     term of their own: the Type A term s/√n = ``repeatability`` of the runs covers them)."""
     from .distributions import CoveredByScatter
@@ -328,11 +328,15 @@ def _model_at_mean(campaign: Campaign, repeatability: float) -> Model:
         if item.name in campaign.scatter_covers:
             item = replace(item, standard_uncertainty=0.0, dof=math.inf, type="A",
                            distribution=CoveredByScatter(item.estimate, repeatability),
-                           basis=f"covered by the run-to-run scatter: the Type A term "
-                                 f"s/√n = {repeatability:.3g} {campaign.unit} of the runs "
-                                 f"includes its variation (was: {item.basis})")
+                           basis=_covered_basis(repeatability, campaign.unit, item.basis))
         inputs.append(item)
     return replace(campaign.model, inputs=tuple(inputs))
+
+
+def _covered_basis(repeatability: float | None, unit: str, basis: str) -> str:
+    term = "s/√n" if repeatability is None else f"s/√n = {repeatability:.3g} {unit}"
+    return (f"covered by the run-to-run scatter: the Type A term {term} of the runs "
+            f"includes its variation (stated: {basis})")
 
 
 def _labels(campaign: Campaign) -> tuple[str, ...]:

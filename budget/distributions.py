@@ -262,7 +262,7 @@ class CoveredByScatter:
     term s/√n of the runs (``repeatability``) covers it; drawn at its estimate."""
 
     estimate: float
-    repeatability: float  # s/√n of the runs, in the measurand's unit
+    repeatability: float | None  # s/√n of the runs, in the campaign's unit
     name = "covered_by_scatter"
     gaussian = True
     has_ppf = True
