@@ -22,7 +22,7 @@ from collections.abc import Iterable, Sequence
 from typing import TYPE_CHECKING, Any, Protocol, TypeVar
 
 from .errors import NotFoundError, did_you_mean
-from .formatting import format_dof, format_number, format_pair, format_percent
+from .formatting import format_number, format_pair, format_percent
 
 if TYPE_CHECKING:
     from .analysis import Result
@@ -110,44 +110,10 @@ def simulation_frame(items: Sequence[MeasurandSimulation], attrs: dict[str, Any]
     return frame([simulation_row(s) for s in items], "name", attrs)
 
 
-def budget_view(b: MeasurandBudget, digits: int,
-                simulation: MeasurandSimulation | None = None) -> dict[str, Any]:
-    """What the report's budget macros need, built from the budget alone."""
-    from .svg import bar_chart
-    from .table import contribution_cells, result_statement
-
-    value, u = short(b.estimate, b.combined_uncertainty, digits)
-    chart_rows = [(c.input, c.share) for c in sorted(b.contributions, key=lambda c: -c.share)
-                  if c.share > 0]
-    chart_rows += [(f"r({t.inputs[0]}, {t.inputs[1]})", t.share) for t in b.correlation_terms]
-    return {
-        "name": b.name, "unit": b.unit, "statement": result_statement(b, digits),
-        "rows": [contribution_cells(c, digits) for c in b.contributions],
-        "correlation_terms": [{"pair": f"{t.inputs[0]}, {t.inputs[1]}", "r": f"{t.r:g}",
-                               "variance": format_number(t.variance, 3),
-                               "share": format_percent(t.share)} for t in b.correlation_terms],
-        "value": value, "u": u, "dof": format_dof(b.dof), "dof_rule": b.dof_rule,
-        "k": f"{b.coverage_factor:.3f}",
-        "U": short(b.estimate, b.expanded_uncertainty, digits)[1],
-        "p": f"{100 * b.coverage_probability:g}",
-        "second_order": None if b.second_order_variance is None else
-        format_number(b.first_order_uncertainty, 3),
-        "chart": bar_chart(chart_rows, "%", f"contributions to u_c² of {b.name}"),
-        "mc": None if simulation is None else _simulation_view(b, simulation, digits),
-    }
-
-
-def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation,
-                     digits: int) -> dict[str, Any]:
-    from .report import simulation_view
-
-    return simulation_view(b, s, digits)
-
-
 def budget_html(budgets: Sequence[MeasurandBudget], digits: int,
                 simulations: Sequence[MeasurandSimulation | None] | None = None,
                 title: str = "") -> str:
-    from .report import render_notebook
+    from .report import budget_view, render_notebook
 
     sims = list(simulations) if simulations is not None else [None] * len(budgets)
     views = [budget_view(b, digits, s) for b, s in zip(budgets, sims)]
