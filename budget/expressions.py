@@ -2,9 +2,11 @@
 
 Method: the text is parsed by ``ast.parse(mode="eval")`` (which never runs it), every node
 is checked against a short whitelist, and the accepted tree is rebuilt node by node into a
-sympy expression from an explicit symbol table. Model text is never handed to ``eval``,
-``sympify`` or ``parse_expr``; every name is an ordinary symbol (``E``, ``I``, ``S``,
-``pi`` and ``gamma`` included). While building, the unit of each sub-expression is carried
+graph of operations (``algebra.Node``) from an explicit symbol table. Model text is never
+handed to ``eval``, ``sympify`` or ``parse_expr``; every name is an ordinary symbol
+(``E``, ``I``, ``S``, ``pi`` and ``gamma`` included). Long sums and products (thousands of
+terms) are split at their top-level operators before ``ast.parse`` sees them, so that no
+step of reading a model recurses once per term. While building, the unit of each sub-expression is carried
 along so that sums of unlike dimensions, dimensioned function arguments and misused Celsius
 temperatures are refused before any number is computed.
 """
@@ -16,19 +18,15 @@ from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Callable, Mapping
 
-import sympy
-
+from . import algebra as alg
+from . import longparse
+from .algebra import Node
 from .errors import Location, ModelSyntaxError, UnitError, UnknownNameError, did_you_mean
 from .units import DIMENSIONLESS, dimension_text, parse_unit
 
 __all__ = ["Term", "parse_expression", "names_in", "build", "FUNCTIONS"]
 
-_PLAIN = {
-    "sqrt": sympy.sqrt, "exp": sympy.exp, "log": sympy.log,
-    "log10": lambda x: sympy.log(x, 10), "sin": sympy.sin, "cos": sympy.cos,
-    "tan": sympy.tan, "asin": sympy.asin, "acos": sympy.acos, "atan": sympy.atan,
-    "abs": sympy.Abs,
-}
+_PLAIN = ("sqrt", "exp", "log", "log10", "sin", "cos", "tan", "asin", "acos", "atan", "abs")
 FUNCTIONS = tuple(sorted([*_PLAIN, "air_density"]))
 
 _BINARY = {ast.Add: "+", ast.Sub: "-", ast.Mult: "*", ast.Div: "/", ast.Pow: "**"}
@@ -64,10 +62,13 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
     if not text.strip():
         raise ModelSyntaxError("expected an expression, found an empty string", where)
     try:
-        tree = ast.parse(text.strip(), mode="eval")
+        tree = longparse.parse(text.strip())
     except SyntaxError as exc:
         raise ModelSyntaxError(f"expected an arithmetic expression, found '{text.strip()}' "
                                f"(syntax error at column {exc.offset or 0})", where) from exc
+    except (RecursionError, MemoryError) as exc:
+        raise ModelSyntaxError("expected an expression nested less deeply, found one too "
+                               "deep to read", where) from exc
     nodes = list(ast.walk(tree))
     for node in nodes:  # constructs first, so that '(lambda: x)()' is named a lambda
         if type(node) in _FORBIDDEN:
@@ -176,8 +177,7 @@ class _Builder:
 
     def visit(self, node: ast.AST) -> Term:
         if isinstance(node, ast.Constant):
-            number = sympy.Integer(node.value) if isinstance(node.value, int) \
-                else sympy.Float(repr(node.value))
+            number = alg.number(node.value)
             return Term(number, number, self.dimensionless, opaque=number)
         if isinstance(node, ast.Name):
             return self.name(node)
@@ -234,8 +234,8 @@ class _Builder:
                     f"expected terms of like dimension in '{self.segment(node)}', found "
                     f"'{self.segment(first_node)}' in {dimension_text(first.unit)} and "
                     f"'{self.segment(operand)}' in {dimension_text(term.unit)}", self.where)
-        pick = lambda field: sympy.Add(*(getattr(t, field) if sign > 0  # noqa: E731
-                                         else -getattr(t, field) for sign, _, t in terms))
+        pick = lambda field: alg.add(*(getattr(t, field) if sign > 0  # noqa: E731
+                                       else -getattr(t, field) for sign, _, t in terms))
         return Term(pick("expr"), pick("shown"), first.unit, opaque=pick("opaque"))
 
     def long_product(self, node: ast.BinOp) -> Term:
@@ -246,8 +246,8 @@ class _Builder:
         for sign, operand, term in factors:
             self.refuse_offset(term, node)
             unit = unit * term.unit if sign > 0 else unit / term.unit
-        pick = lambda field: sympy.Mul(*(getattr(t, field) if sign > 0  # noqa: E731
-                                         else 1 / getattr(t, field) for sign, _, t in factors))
+        pick = lambda field: alg.mul(*(getattr(t, field) if sign > 0  # noqa: E731
+                                       else 1 / getattr(t, field) for sign, _, t in factors))
         return Term(pick("expr"), pick("shown"), unit, opaque=pick("opaque"))
 
     def sum(self, node: ast.BinOp, left: Term, right: Term) -> Term:
@@ -280,7 +280,8 @@ class _Builder:
                 raise UnitError(f"expected a numeric exponent for a quantity in "
                                 f"{dimension_text(base.unit)} in '{self.segment(node)}', "
                                 f"found '{self.segment(node.right)}'", self.where)
-            unit = base.unit ** Fraction(str(sympy.nsimplify(exponent.expr)))
+            power = Fraction(alg.constant_value(exponent.expr)).limit_denominator(10 ** 6)
+            unit = base.unit ** power
         return Term(base.expr ** exponent.expr, base.shown ** exponent.shown, unit,
                     opaque=base.opaque ** exponent.opaque)
 
@@ -305,9 +306,8 @@ class _Builder:
                             self.where)
         else:
             unit = self.dimensionless
-        function: Callable[[Any], Any] = _PLAIN[name]
-        return Term(function(arg.expr), function(arg.shown), unit,
-                    opaque=function(arg.opaque))
+        return Term(alg.call(name, arg.expr), alg.call(name, arg.shown), unit,
+                    opaque=alg.call(name, arg.opaque))
 
     def air_density(self, node: ast.Call, args: list[Term]) -> Term:
         from .chemistry import air_density_expression
@@ -321,12 +321,13 @@ class _Builder:
                 raise UnitError(f"air_density() expects its {label} in {dimension_text(unit)}"
                                 f", found '{self.segment(arg_node)}' in "
                                 f"{dimension_text(arg.unit)}", self.where)
-        kelvin = sympy.Rational(27315, 100)
+        kelvin = alg.number(Fraction(27315, 100))
         celsius = args[0].expr if args[0].offset else args[0].expr - kelvin
         values = [celsius, *(a.expr for a in args[1:])]
-        function = sympy.Function("air_density")
-        shown = function(*(a.shown for a in args))
-        opaque = function(args[0].opaque if args[0].offset else args[0].opaque - kelvin,
+        shown = alg.call("air_density", *(a.shown for a in args))
+        opaque = alg.call("air_density",
+                          args[0].opaque if args[0].offset else args[0].opaque - kelvin,
                           *(a.opaque for a in args[1:]))
-        density = air_density_expression(*values)
+        density = air_density_expression(*values, number=alg.number,
+                                         exp=lambda x: alg.call("exp", x))
         return Term(density, shown, unit_of("kg/m^3"), opaque=opaque)

@@ -142,14 +142,14 @@ def propagate(model: Model, coverage: float | None = None, *,
     values, jac = jacobian_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
     dofs = np.array([i.dof for i in model.inputs])
-    r = model.correlation_matrix()
+    pairs = _Pairs(model)
     warnings: list[str] = list(model.warnings)
     extra = _second_order(model, second_order, warnings)
     budgets = tuple(
-        _one(model, k, float(values[k]), jac[k], u, dofs, r, coverage,
+        _one(model, k, float(values[k]), jac[k], u, dofs, pairs, coverage,
              None if extra is None else float(extra[k]), warnings)
         for k in range(len(model.measurands)))
-    covariance = jac @ (np.outer(u, u) * r) @ jac.T
+    covariance = pairs.covariance(jac * u)
     if extra is not None:
         covariance = covariance + np.diag(extra)
     return Budget(model=model, measurands=budgets, output_covariance=_rows(covariance),
@@ -158,11 +158,11 @@ def propagate(model: Model, coverage: float | None = None, *,
 
 
 def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
-         dofs: np.ndarray, r: np.ndarray, coverage: float, extra: float | None,
+         dofs: np.ndarray, pairs: "_Pairs", coverage: float, extra: float | None,
          warnings: list[str]) -> MeasurandBudget:
     measurand = model.measurands[k]
     parts = c * u
-    terms = _correlation_terms(model, parts, r)
+    terms = pairs.terms(parts)
     first = float(np.sum(parts ** 2)) + math.fsum(t[3] for t in terms)
     if first < 0.0:
         raise PropagationError(f"the variance of '{measurand.name}' came out negative "
@@ -206,14 +206,33 @@ def _warn(name: str, combined: float, nu: float, warnings: list[str]) -> None:
                         "factor from the t-distribution is very uncertain")
 
 
-def _correlation_terms(model: Model, parts: np.ndarray,
-                       r: np.ndarray) -> list[tuple[str, str, float, float]]:
-    names = [i.name for i in model.inputs]
-    terms = []
-    for a, b, rho in model.correlations:
-        i, j = names.index(a), names.index(b)
-        terms.append((a, b, rho, float(2.0 * parts[i] * parts[j] * r[i, j])))
-    return terms
+class _Pairs:
+    """The stated correlations as index arrays: no n × n matrix for n inputs, so the
+    cost of the correlation terms grows with the number of pairs, not with n²."""
+
+    def __init__(self, model: Model) -> None:
+        index = {item.name: j for j, item in enumerate(model.inputs)}
+        self.pairs = model.correlations
+        self.first = np.array([index[a] for a, _, _ in self.pairs], dtype=np.intp)
+        self.second = np.array([index[b] for _, b, _ in self.pairs], dtype=np.intp)
+        self.r = np.array([r for _, _, r in self.pairs], dtype=float)
+
+    def terms(self, parts: np.ndarray) -> list[tuple[str, str, float, float]]:
+        """(a, b, r_ab, 2 c_a u_a c_b u_b r_ab) for each stated pair."""
+        if not self.pairs:
+            return []
+        variances = 2.0 * parts[self.first] * parts[self.second] * self.r
+        return [(a, b, rho, float(v)) for (a, b, rho), v in zip(self.pairs, variances)]
+
+    def covariance(self, scaled: np.ndarray) -> np.ndarray:
+        """J U_x Jᵀ from the columns c_i u_i of ``scaled`` (measurands × inputs)."""
+        covariance = scaled @ scaled.T
+        if self.pairs:
+            left = scaled[:, self.first] * self.r
+            right = scaled[:, self.second]
+            cross = left @ right.T
+            covariance = covariance + cross + cross.T
+        return covariance
 
 
 def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray | None:

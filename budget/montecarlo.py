@@ -169,8 +169,7 @@ class _Sampler:
         self.program = compile_model(model)
         self.groups = _groups(model)
         self.warnings = _copula_warnings(model, self.groups)
-        matrix = model.correlation_matrix() if model.correlations else None
-        self.factors = {tuple(g): _factor(matrix[np.ix_(g, g)]) for g in self.groups
+        self.factors = {tuple(g): _factor(_group_matrix(model, g)) for g in self.groups
                         if len(g) > 1}
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
@@ -218,20 +217,31 @@ def _slice(value: Any, start: int, stop: int) -> Any:
 
 def _groups(model: Model) -> list[list[int]]:
     """Inputs joined by correlations (connected components), in model order."""
-    names = [i.name for i in model.inputs]
+    index = {item.name: j for j, item in enumerate(model.inputs)}
+    names = list(index)
     parent = list(range(len(names)))
 
     def root(i: int) -> int:
         while parent[i] != i:
+            parent[i] = parent[parent[i]]
             i = parent[i]
         return i
 
     for a, b, _ in model.correlations:
-        parent[root(names.index(a))] = root(names.index(b))
+        parent[root(index[a])] = root(index[b])
     groups: dict[int, list[int]] = {}
     for i in range(len(names)):
         groups.setdefault(root(i), []).append(i)
     return sorted(groups.values(), key=lambda g: g[0])
+
+
+def _group_matrix(model: Model, group: list[int]) -> np.ndarray:
+    """The correlation matrix of one group of correlated inputs (never all n × n)."""
+    from .correlations import matrix
+
+    names = [model.inputs[j].name for j in group]
+    members = set(names)
+    return matrix(names, [p for p in model.correlations if p[0] in members])
 
 
 def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
