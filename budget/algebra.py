@@ -21,7 +21,7 @@ from fractions import Fraction
 from typing import Any, Callable, Iterator
 
 __all__ = ["Node", "Number", "symbol", "number", "call", "add", "mul", "to_sympy",
-           "symbols_in", "walk", "constant_value", "FUNCTION_NAMES"]
+           "symbols_in", "walk", "constant_value", "substitute", "FUNCTION_NAMES"]
 
 Number = int | Fraction | str
 
@@ -136,6 +136,27 @@ def symbols_in(roots: Any) -> set[str]:
     for root in roots:
         found.update(n.name for n in walk(root) if n.kind == "symbol")
     return found
+
+
+def substitute(root: Node, mapping: dict[str, Node]) -> Node:
+    """``root`` with each symbol named in ``mapping`` replaced (untouched parts shared)."""
+    done: dict[int, Node] = {}
+    stack: list[tuple[Node, bool]] = [(root, False)]
+    while stack:
+        node, ready = stack.pop()
+        if id(node) in done:
+            continue
+        if node.kind == "symbol":
+            done[id(node)] = mapping.get(node.name, node)
+            continue
+        if not ready and node.args:
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args if id(a) not in done)
+            continue
+        args = tuple(done[id(a)] for a in node.args)
+        same = all(new is old for new, old in zip(args, node.args))
+        done[id(node)] = node if same else Node(node.kind, args, node.name, node.exact)
+    return done[id(root)]
 
 
 def constant_value(node: Node) -> float:

@@ -32,7 +32,7 @@ _SECTIONS = {
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Comparison:
     label: str
-    value: float
+    estimate: float
     standard_uncertainty: float
     expanded_uncertainty: float
 
@@ -58,12 +58,14 @@ class Campaign:
     coverage: float | None
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
+    data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
 
 
 class _Reader:
     def __init__(self, path: Path, text: str, document: dict) -> None:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
+        self.files: list[tuple[str, str, str]] = []
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -117,6 +119,14 @@ class _Reader:
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
+        import hashlib
+
+        try:
+            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        except OSError as exc:
+            raise self.fail(f"expected a readable file '{relative}', found {exc.strerror}",
+                            table, key) from exc
+        self.files.append((f"{table}.{key}", str(path), digest))
         return path
 
 
@@ -170,7 +180,8 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r), k=k,
         coverage=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
-                    if key in r.doc))
+                    if key in r.doc),
+        data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"))
 
 
 def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),
@@ -295,7 +306,7 @@ def _comparisons(r: _Reader) -> tuple[Comparison, ...]:
         else:
             expanded = r.number(entry, "expanded", "comparison", positive=True, nth=nth)
             u = expanded / r.number(entry, "k", "comparison", positive=True, nth=nth)
-        made.append(Comparison(label=label, value=float(value), standard_uncertainty=u,
+        made.append(Comparison(label=label, estimate=float(value), standard_uncertainty=u,
                                expanded_uncertainty=expanded))
     return tuple(made)
 

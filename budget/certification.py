@@ -24,6 +24,7 @@ report or the command line.
 
 from __future__ import annotations
 
+import datetime as dt
 import math
 from dataclasses import dataclass, field, replace
 from typing import Callable
@@ -32,10 +33,11 @@ import numpy as np
 
 from .analysis import Result, evaluate
 from .campaign import Campaign
-from .errors import CampaignError, Location
+from .errors import BudgetError, CampaignError, Location
 from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
 from .model import Model
+from .register import date_warnings, read_date
 from .units import parse_unit
 
 __all__ = ["Homogeneity", "Stability", "Characterization", "ComparisonScore",
@@ -81,9 +83,9 @@ class Characterization:
     mean: float
     s: float
     n: int
-    u_B: float
-    dof_B: float
-    u: float
+    model_uncertainty: float  # u_B: the model's GUM u_c at the mean run inputs
+    model_dof: float
+    standard_uncertainty: float  # u_char
     dof: float
     result: Result = field(repr=False, compare=False)
 
@@ -91,9 +93,9 @@ class Characterization:
 @dataclass(frozen=True, slots=True, kw_only=True)
 class ComparisonScore:
     label: str
-    value: float
-    u: float
-    U: float
+    estimate: float
+    standard_uncertainty: float
+    expanded_uncertainty: float
     E_n: float
     zeta: float
     agrees: bool
@@ -103,10 +105,10 @@ class ComparisonScore:
 class Certification:
     campaign: Campaign
     certified_value: float
-    u: float
-    k: float
-    U: float
-    coverage: float | None
+    standard_uncertainty: float  # u_CRM
+    coverage_factor: float
+    expanded_uncertainty: float
+    coverage_probability: float | None
     dof: float
     components: tuple[tuple[str, float], ...]
     characterization: Characterization
@@ -114,10 +116,12 @@ class Certification:
     stability: Stability | None
     comparisons: tuple[ComparisonScore, ...]
     warnings: tuple[str, ...] = ()
+    run_dates: tuple[dt.date, ...] = ()  # the measurement dates of the runs, if given
 
     @property
     def shares(self) -> dict[str, float]:
-        return {name: 100.0 * u * u / (self.u * self.u) if self.u > 0 else 0.0
+        total = self.standard_uncertainty
+        return {name: 100.0 * u * u / (total * total) if total > 0 else 0.0
                 for name, u in self.components}
 
 
@@ -168,6 +172,9 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
             progress: Callable[[int, int], None] | None = None) -> Certification:
     """The certified value, its uncertainty budget and the comparisons."""
     warnings: list[str] = []
+    days = _run_dates(campaign)
+    warnings.extend(date_warnings(campaign.model.certificates, days,
+                                  " (a date of the runs)"))
     char = _characterize(campaign, trials, seed, progress, warnings)
     homogeneity = None
     if campaign.homogeneity is not None:
@@ -187,12 +194,31 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
                             f"{stability.p_value:.3g} < 0.05)")
     else:
         warnings.append("no stability study: u_lts and u_sts are taken as 0")
-    return _certified(campaign, char, homogeneity, stability, warnings)
+    return replace(_certified(campaign, char, homogeneity, stability, warnings),
+                   run_dates=days)
+
+
+def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:
+    """The dates in the runs table's ``date`` column (ISO 8601), if it has one."""
+    frame = campaign.runs
+    if "date" not in frame.columns:
+        return campaign.model.measured
+    days = []
+    for row, cell in enumerate(frame["date"]):
+        where = Location(file=campaign.source, table="characterization", key="runs")
+        try:
+            days.append(read_date(str(cell), where))
+        except BudgetError as exc:
+            path = next((p for role, p, _ in campaign.data_files
+                         if role == "characterization.runs"), campaign.source)
+            raise CampaignError(f"column 'date': expected a date such as 2025-05-06, found "
+                                f"'{cell}'", Location(file=path, line=row + 2)) from exc
+    return tuple(days)
 
 
 def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogeneity | None,
                stability: Stability | None, warnings: list[str]) -> Certification:
-    components = (("characterization", char.u),
+    components = (("characterization", char.standard_uncertainty),
                   ("homogeneity", homogeneity.u_bb if homogeneity else 0.0),
                   ("long_term_stability", stability.u_lts if stability else 0.0),
                   ("short_term_stability", campaign.u_short_term))
@@ -206,20 +232,21 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
         if not s.agrees:
             warnings.append(f"comparison with '{s.label}': no agreement (E_n = {s.E_n:.2f}, "
                             f"ζ = {s.zeta:.2f})")
-    return Certification(campaign=campaign, certified_value=char.mean, u=u, k=k, U=k * u,
-                         coverage=campaign.coverage, dof=nu, components=components,
+    return Certification(campaign=campaign, certified_value=char.mean,
+                         standard_uncertainty=u, coverage_factor=k, expanded_uncertainty=k * u,
+                         coverage_probability=campaign.coverage, dof=nu, components=components,
                          characterization=char, homogeneity=homogeneity, stability=stability,
                          comparisons=scores,
                          warnings=tuple(dict.fromkeys([*char.result.warnings, *warnings])))
 
 
 def _score(comparison, char: Characterization, k: float) -> ComparisonScore:
-    difference = char.mean - comparison.value
-    e_n = difference / math.hypot(k * char.u, comparison.expanded_uncertainty)
-    zeta = difference / math.hypot(char.u, comparison.standard_uncertainty)
-    return ComparisonScore(label=comparison.label, value=comparison.value,
-                           u=comparison.standard_uncertainty,
-                           U=comparison.expanded_uncertainty, E_n=e_n, zeta=zeta,
+    difference = char.mean - comparison.estimate
+    e_n = difference / math.hypot(k * char.standard_uncertainty, comparison.expanded_uncertainty)
+    zeta = difference / math.hypot(char.standard_uncertainty, comparison.standard_uncertainty)
+    return ComparisonScore(label=comparison.label, estimate=comparison.estimate,
+                           standard_uncertainty=comparison.standard_uncertainty,
+                           expanded_uncertainty=comparison.expanded_uncertainty, E_n=e_n, zeta=zeta,
                            agrees=bool(abs(e_n) <= 1.0 and abs(zeta) <= 2.0))
 
 
@@ -245,8 +272,8 @@ def _characterize(campaign: Campaign, trials: int | None, seed: int | None,
                              np.array([gum.dof, n - 1.0]))
     labels = _labels(campaign)
     return Characterization(runs=tuple(float(y) for y in runs), labels=labels,
-                            mean=float(runs.mean()), s=s, n=n, u_B=u_b, dof_B=gum.dof, u=u,
-                            dof=nu, result=result)
+                            mean=float(runs.mean()), s=s, n=n, model_uncertainty=u_b,
+                            model_dof=gum.dof, standard_uncertainty=u, dof=nu, result=result)
 
 
 def _unit_scale(campaign: Campaign, unit: str) -> float:

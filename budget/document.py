@@ -13,8 +13,13 @@ from typing import Any
 from .analysis import Result
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
+from .register import certificates_document, traceability_statement
 
-__all__ = ["result_document", "CAUTION", "dof_or_null"]
+__all__ = ["result_document", "certification_document", "CAUTION", "SCHEMA_VERSION",
+           "dof_or_null"]
+
+#: The layout version of every JSON document (``budget/schemas/*.schema.json``).
+SCHEMA_VERSION = "1"
 
 CAUTION = ("These results were computed by software from the model and data supplied. "
            "They must be reviewed and approved within the laboratory's quality system "
@@ -35,8 +40,9 @@ def result_document(result: Result) -> dict[str, Any]:
     matrix = simulation.output_correlation if simulation and simulation.trials else \
         result.budget.output_correlation
     return {
+        "schema_version": SCHEMA_VERSION,
         "title": model.title,
-        "model_sha256": model.sha256,
+        "model_sha256": model.sha256 or None,
         "coverage": result.budget.measurands[0].coverage_probability,
         "seed": seed,
         "measurands": [
@@ -51,6 +57,7 @@ def result_document(result: Result) -> dict[str, Any]:
                                       for j, b in enumerate(names)}
                                   for i, a in enumerate(names)},
         "warnings": list(result.warnings),
+        "certificates": certificates_document(model, model.measured),
         "digits": result.digits,
         "atomic_weights": _convention(result),
         "provenance": provenance.describe(model, simulation),
@@ -76,7 +83,7 @@ def _measurand(budget: MeasurandBudget, simulation: MeasurandSimulation | None
         "interval": list(budget.interval),
         "contributions": [_contribution(c) for c in budget.contributions],
         "correlation_terms": [{"inputs": list(t.inputs), "r": t.r, "variance": t.variance,
-                               "index": t.index} for t in budget.correlation_terms],
+                               "share": t.share} for t in budget.correlation_terms],
         "dof_rule": budget.dof_rule,
         "u_first_order": budget.first_order_uncertainty,
         "second_order_variance": budget.second_order_variance,
@@ -91,7 +98,7 @@ def _contribution(c: Any) -> dict[str, Any]:
     return {"input": c.input, "estimate": c.estimate, "unit": c.unit,
             "u": c.standard_uncertainty, "distribution": c.distribution, "type": c.type,
             "dof": dof_or_null(c.dof), "sensitivity": c.sensitivity,
-            "contribution": c.contribution, "index": c.index}
+            "contribution": c.contribution, "share": c.share}
 
 
 def _simulation(s: MeasurandSimulation) -> dict[str, Any]:
@@ -113,17 +120,18 @@ def certification_document(cert: Any) -> dict[str, Any]:
     campaign, char = cert.campaign, cert.characterization
     h, s = cert.homogeneity, cert.stability
     return {
+        "schema_version": SCHEMA_VERSION,
         "title": campaign.title,
         "unit": campaign.unit,
         "certified_value": cert.certified_value,
-        "u": cert.u,
-        "k": cert.k,
-        "U": cert.U,
+        "u": cert.standard_uncertainty,
+        "k": cert.coverage_factor,
+        "U": cert.expanded_uncertainty,
         "components": dict(cert.components),
         "characterization": {
             "runs": list(char.runs), "mean": char.mean, "s": char.s, "n": char.n,
-            "u_B": char.u_B, "u": char.u, "labels": list(char.labels),
-            "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.dof_B),
+            "u_B": char.model_uncertainty, "u": char.standard_uncertainty, "labels": list(char.labels),
+            "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.model_dof),
             "scatter_covers": list(campaign.scatter_covers),
             "budget": result_document(char.result)},
         "homogeneity": None if h is None else {
@@ -135,14 +143,22 @@ def certification_document(cert: Any) -> dict[str, Any]:
             "slope": s.slope, "u_slope": s.u_slope, "p_value": s.p_value, "u_lts": s.u_lts,
             "intercept": s.intercept, "t": s.t, "dof": s.dof, "shelf_life": s.shelf_life},
         "comparisons": [{"label": c.label, "E_n": c.E_n, "zeta": c.zeta, "agrees": c.agrees,
-                         "value": c.value, "u": c.u, "U": c.U} for c in cert.comparisons],
+                         "value": c.estimate, "u": c.standard_uncertainty,
+                         "U": c.expanded_uncertainty} for c in cert.comparisons],
         "warnings": list(cert.warnings),
         "material": campaign.material,
-        "coverage": cert.coverage,
+        "coverage": cert.coverage_probability,
         "dof": dof_or_null(cert.dof),
         "shares": cert.shares,
         "certificate": dict(campaign.certificate),
         "provenance": {**provenance.describe(campaign.model, char.result.simulation),
-                       "campaign_file": campaign.source, "campaign_sha256": campaign.sha256},
+                       "campaign_file": campaign.source, "campaign_sha256": campaign.sha256,
+                       "files": [{"role": "campaign", "path": campaign.source,
+                                  "sha256": campaign.sha256},
+                                 *provenance.files(campaign.model),
+                                 *({"role": role, "path": path, "sha256": digest}
+                                   for role, path, digest in campaign.data_files)]},
+        "certificates": certificates_document(campaign.model, cert.run_dates),
+        "traceability_generated": traceability_statement(campaign.model.certificates),
         "caution": CAUTION,
     }

@@ -69,8 +69,27 @@ def _budget_view(result: Result) -> dict[str, Any]:
         "output_correlation": _output_correlation(result),
         "inputs": [_input_view(i) for i in model.inputs],
         "provenance": _provenance(describe(model, result.simulation), result),
+        "certificates": _certificates_view(model, model.measured),
         "warnings": list(result.warnings),
     }
+
+
+def _certificates_view(model: Any, days: Any) -> list[dict[str, str]]:
+    """One row per calibration certificate used, with its validity on the dates."""
+    from .register import certificates_document
+
+    rows = []
+    for entry in certificates_document(model, tuple(days)):
+        dates = entry["measurement_dates"]
+        status = "; ".join(entry["problems"]) if entry["problems"] else (
+            f"valid on {'each of the ' + str(len(dates)) + ' measurement dates' if len(dates) > 1 else dates[0]}"
+            if dates else "no measurement date given")
+        rows.append({"number": entry["number"], "instrument": entry["instrument"],
+                     "issuer": entry["issuer"],
+                     "period": f"{entry['calibrated']} to {entry['valid_until']}",
+                     "inputs": ", ".join(i["input"] for i in entry["inputs"]),
+                     "status": status, "valid": "no" if entry["problems"] else "yes"})
+    return rows
 
 
 def _input_view(item: Any) -> dict[str, str]:
@@ -83,9 +102,9 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
     simulation = result.simulation.measurands[k] if result.simulation else None
     digits = result.digits
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
-    chart_rows = [(c.input, c.index) for c in sorted(b.contributions, key=lambda c: -c.index)
-                  if c.index > 0]
-    chart_rows += [(f"r({t.inputs[0]}, {t.inputs[1]})", t.index) for t in b.correlation_terms]
+    chart_rows = [(c.input, c.share) for c in sorted(b.contributions, key=lambda c: -c.share)
+                  if c.share > 0]
+    chart_rows += [(f"r({t.inputs[0]}, {t.inputs[1]})", t.share) for t in b.correlation_terms]
     return {
         "name": b.name, "unit": b.unit, "description": measurand.description,
         "equation": measurand.equation,
@@ -94,7 +113,7 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "rows": [contribution_cells(c, digits) for c in b.contributions],
         "correlation_terms": [{"pair": f"{t.inputs[0]}, {t.inputs[1]}", "r": f"{t.r:g}",
                                "variance": format_number(t.variance, 3),
-                               "index": format_percent(t.index)} for t in b.correlation_terms],
+                               "share": format_percent(t.share)} for t in b.correlation_terms],
         "value": value, "u": u, "dof": format_dof(b.dof), "dof_rule": b.dof_rule,
         "k": f"{b.coverage_factor:.3f}", "U": format_pair(b.estimate, b.expanded_uncertainty,
                                                           digits)[1],
@@ -155,14 +174,21 @@ def _output_correlation(result: Result) -> dict[str, Any] | None:
     names = [b.name for b in result.budget.measurands]
     if len(names) < 2:
         return None
-    matrix = result.simulation.output_correlation if result.simulation else \
-        result.budget.output_correlation
-    return {"names": names, "rows": [{"name": a, "values": [f"{x:.3f}" for x in row]}
-                                     for a, row in zip(names, matrix)]}
+    tables = [("GUM, from the output covariance J·U_x·Jᵀ (JCGM 102 6.2.1.3)",
+               result.budget.output_correlation)]
+    if result.simulation is not None and result.simulation.trials:
+        tables.append((f"Monte Carlo, {result.simulation.trials:,} trials",
+                       result.simulation.output_correlation))
+    # "cells", not "values": jinja2 would find the dict's own values() method
+    return {"names": names, "tables": [
+        {"source": source, "rows": [{"name": a, "cells": [f"{x:.3f}" for x in row]}
+                                    for a, row in zip(names, matrix)]}
+        for source, matrix in tables]}
 
 
 def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tuple[str, str]]:
-    rows = [("model file", str(data["model_file"])), ("model SHA-256", data["model_sha256"]),
+    rows = [("model file", str(data["model_file"])),
+            ("model SHA-256", data["model_sha256"] or "none: a changed copy of the file"),
             ("seed", str(data["seed"])), ("Monte Carlo trials", f"{data['trials']:,}"
                                           + (" (adaptive)" if data["adaptive"] else "")),
             ("date", data["date"]),
@@ -170,6 +196,9 @@ def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tupl
             ("machine", data["machine"])]
     if result is not None:
         rows.append(("significant digits", str(result.digits)))
+    rows += [(f"{entry['role']} {entry['path']}", f"SHA-256 {entry['sha256']}")
+             for entry in data.get("files", [])]
+    rows += [("changed from the file", change) for change in data.get("changes", [])]
     rows += [(f"{name} version", version) for name, version in data["versions"].items()]
     return rows
 
@@ -193,4 +222,8 @@ def _certification_view(cert: Any) -> dict[str, Any]:
                                      cert.characterization.result) + [
         ("campaign file", cert.campaign.source), ("campaign SHA-256", cert.campaign.sha256)]
     view["caution"] = CAUTION
+    view["certificates"] = _certificates_view(cert.campaign.model, cert.run_dates)
+    from .register import traceability_statement
+
+    view["traceability_generated"] = traceability_statement(cert.campaign.model.certificates)
     return view

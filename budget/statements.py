@@ -18,15 +18,17 @@ from . import distributions as dist
 from .chemistry import CONSTANTS, molar_mass
 from .errors import InputError, Location, did_you_mean
 
-__all__ = ["Statement", "read_statement", "INPUT_KEYS", "SHAPES"]
+__all__ = ["Statement", "read_statement", "INPUT_KEYS", "SHAPES", "STATEMENT_WAYS"]
 
 SHAPES = ("normal", "rectangular", "triangular", "arcsine", "trapezoidal",
           "curvilinear_trapezoid", "student_t")
 _WAYS = (("u",), ("expanded",), ("half_width",), ("lower", "upper"), ("observations",),
          ("exact",), ("formula",), ("constant",))
+STATEMENT_WAYS = tuple(key for way in _WAYS for key in way)
 INPUT_KEYS = ("value", "unit", "description", "source", "distribution", "dof",
               "reliability", "u", "expanded", "k", "level", "half_width", "beta",
-              "inexactness", "lower", "upper", "observations", "exact", "formula", "constant")
+              "inexactness", "lower", "upper", "observations", "exact", "formula", "constant",
+              "certificate", "stated")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -139,8 +141,9 @@ def _from_u(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Stateme
     estimate = table.number("value")
     u = table.number("u", positive=True)
     _no_keys(table, ("k", "level", "lower", "upper"), "to a stated standard uncertainty 'u'")
-    if shape == "normal":
-        made: Any = dist.Normal(estimate, u)
+    if shape == "normal":  # finite ν: a scaled and shifted t (JCGM 101 6.4.9)
+        made: Any = dist.Normal(estimate, u) if math.isinf(dof) else \
+            dist.StudentT(estimate, u, dof)
     elif shape == "student_t":
         if math.isinf(dof):
             raise InputError("expected 'dof' for a student_t distribution, found none",
