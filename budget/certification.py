@@ -27,12 +27,12 @@ from __future__ import annotations
 import datetime as dt
 import math
 from dataclasses import dataclass, field, replace
-from typing import Callable
+from typing import Any, Callable
 
 import numpy as np
 
 from .analysis import Result, evaluate
-from .campaign import Campaign
+from .campaign import Campaign, Comparison
 from .errors import BudgetError, CampaignError, Location
 from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
@@ -117,6 +117,7 @@ class Certification:
     comparisons: tuple[ComparisonScore, ...]
     warnings: tuple[str, ...] = ()
     run_dates: tuple[dt.date, ...] = ()  # the measurement dates of the runs, if given
+    methods: Any = None  # intercomparison.MethodsResult when the campaign has several
 
     @property
     def shares(self) -> dict[str, float]:
@@ -176,6 +177,12 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     warnings.extend(date_warnings(campaign.model.certificates, days,
                                   " (a date of the runs)"))
     char = _characterize(campaign, trials, seed, progress, warnings)
+    methods, value_from = None, char
+    if campaign.methods is not None:
+        from .intercomparison import characterization_value, evaluate_methods
+
+        methods = evaluate_methods(campaign, char, trials, seed, warnings)
+        value_from = characterization_value(char, methods)
     homogeneity = None
     if campaign.homogeneity is not None:
         homogeneity = anova([v for _, v in campaign.homogeneity],
@@ -194,8 +201,9 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
                             f"{stability.p_value:.3g} < 0.05)")
     else:
         warnings.append("no stability study: u_lts and u_sts are taken as 0")
-    return replace(_certified(campaign, char, homogeneity, stability, warnings),
+    cert = replace(_certified(campaign, value_from, homogeneity, stability, warnings),
                    run_dates=days)
+    return cert if methods is None else replace(cert, characterization=char, methods=methods)
 
 
 def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:
@@ -226,7 +234,8 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
     dofs = np.array([char.dof, homogeneity.dof_between if homogeneity else math.inf,
                      stability.dof if stability else math.inf, math.inf], dtype=float)
     nu = welch_satterthwaite(u, np.array([c for _, c in components]), dofs)
-    k = campaign.k if campaign.k is not None else coverage_factor(campaign.coverage, nu)
+    k = campaign.k if campaign.k is not None else \
+        coverage_factor(campaign.coverage or 0.95, nu)  # the campaign gives one of them
     scores = tuple(_score(c, char, k) for c in campaign.comparisons)
     for s in scores:
         if not s.agrees:
@@ -240,7 +249,7 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
                          warnings=tuple(dict.fromkeys([*char.result.warnings, *warnings])))
 
 
-def _score(comparison, char: Characterization, k: float) -> ComparisonScore:
+def _score(comparison: Comparison, char: Characterization, k: float) -> ComparisonScore:
     difference = char.mean - comparison.estimate
     e_n = difference / math.hypot(k * char.standard_uncertainty, comparison.expanded_uncertainty)
     zeta = difference / math.hypot(char.standard_uncertainty, comparison.standard_uncertainty)

@@ -154,7 +154,8 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
     if as_json:
         from .document import SCHEMA_VERSION
 
-        document = {"schema_version": SCHEMA_VERSION, "title": result.model.title, "model_sha256": result.model.sha256,
+        document = {"schema_version": SCHEMA_VERSION, "title": result.model.title,
+                    "model_sha256": result.model.sha256,
                     **explanation_document(explanations), "warnings": list(result.warnings)}
         click.echo(json.dumps(document, indent=2, allow_nan=False))
     else:

@@ -30,7 +30,8 @@ def read(entries: Any, names: Sequence[str],
     seen: set[frozenset[str]] = set()
     known = _Names(names)
     for index, entry in enumerate(entries):
-        here = lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
+        here: Callable[..., Location] = \
+            lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
         pair = _one(entry, known, here, index)
         key = frozenset(pair[:2])
         if key in seen:

@@ -119,7 +119,7 @@ def certification_document(cert: Any) -> dict[str, Any]:
 
     campaign, char = cert.campaign, cert.characterization
     h, s = cert.homogeneity, cert.stability
-    return {
+    document = {
         "schema_version": SCHEMA_VERSION,
         "title": campaign.title,
         "unit": campaign.unit,
@@ -130,7 +130,8 @@ def certification_document(cert: Any) -> dict[str, Any]:
         "components": dict(cert.components),
         "characterization": {
             "runs": list(char.runs), "mean": char.mean, "s": char.s, "n": char.n,
-            "u_B": char.model_uncertainty, "u": char.standard_uncertainty, "labels": list(char.labels),
+            "u_B": char.model_uncertainty, "u": char.standard_uncertainty,
+            "labels": list(char.labels),
             "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.model_dof),
             "scatter_covers": list(campaign.scatter_covers),
             "budget": result_document(char.result)},
@@ -162,3 +163,8 @@ def certification_document(cert: Any) -> dict[str, Any]:
         "traceability_generated": traceability_statement(campaign.model.certificates),
         "caution": CAUTION,
     }
+    if cert.methods is not None:  # several methods (methods_output.py)
+        from .methods_output import methods_document
+
+        document["methods"] = methods_document(cert.methods)
+    return document

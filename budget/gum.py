@@ -225,7 +225,7 @@ class _Pairs:
 
     def covariance(self, scaled: np.ndarray) -> np.ndarray:
         """J U_x Jᵀ from the columns c_i u_i of ``scaled`` (measurands × inputs)."""
-        covariance = scaled @ scaled.T
+        covariance: np.ndarray = scaled @ scaled.T
         if self.pairs:
             left = scaled[:, self.first] * self.r
             right = scaled[:, self.second]

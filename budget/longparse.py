@@ -21,9 +21,9 @@ __all__ = ["parse"]
 
 _SHORT = 400  # texts with fewer operator characters go straight to ast.parse
 _LEAF = 300  # token ranges shorter than this are parsed by ast.parse
-_SUMS = {"+": ast.Add, "-": ast.Sub}
-_PRODUCTS = {"*": ast.Mult, "/": ast.Div, "//": ast.FloorDiv, "%": ast.Mod,
-             "@": ast.MatMult}
+_SUMS: dict[str, type[ast.operator]] = {"+": ast.Add, "-": ast.Sub}
+_PRODUCTS: dict[str, type[ast.operator]] = {"*": ast.Mult, "/": ast.Div, "//": ast.FloorDiv,
+                                            "%": ast.Mod, "@": ast.MatMult}
 _KEYWORDS = {"if", "else", "lambda", "not", "and", "or", "in", "is", "for", "await",
              "yield"}
 _OPEN, _CLOSE = "([{", ")]}"
@@ -146,7 +146,8 @@ class _Splitter:
             return before.text not in _KEYWORDS
         return before.text in _CLOSE
 
-    def chain(self, i: int, j: int, cuts: list[int], ops: dict[str, type]) -> ast.expr:
+    def chain(self, i: int, j: int, cuts: list[int],
+              ops: dict[str, type[ast.operator]]) -> ast.expr:
         bounds = [i, *cuts, j]
         node = self.expression(i, cuts[0])
         for position, cut in enumerate(cuts):
@@ -173,7 +174,7 @@ class _Splitter:
                                         self.text)) from exc
         line, column = self.position(start)
         for node in ast.walk(body):
-            if not hasattr(node, "lineno"):
+            if not isinstance(node, (ast.expr, ast.keyword)):
                 continue
             if node.lineno == 1:
                 node.col_offset += column

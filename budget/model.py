@@ -197,7 +197,7 @@ def decode(data: bytes | str, name: str, what: str = "model") -> str:
     return text
 
 
-def read_toml(text: str, name: str) -> dict:
+def read_toml(text: str, name: str) -> dict[str, Any]:
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -219,14 +219,14 @@ def parse_model(data: bytes | str, name: str = "<string>", **overrides: Any) -> 
 class _Reader:
     """Walks one parsed TOML document; knows how to point at a key's line."""
 
-    def __init__(self, text: str, name: str, document: dict) -> None:
+    def __init__(self, text: str, name: str, document: dict[str, Any]) -> None:
         self.index, self.name, self.doc = LineIndex(text.splitlines()), name, document
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
                         line=self.index.find(table, key, nth))
 
-    def model(self, sha256: str, overrides: dict) -> Model:
+    def model(self, sha256: str, overrides: dict[str, Any]) -> Model:
         for key in self.doc:
             if key not in _TOP_KEYS:
                 raise InputError(f"unknown top-level key '{key}'{did_you_mean(key, _TOP_KEYS)}"
@@ -260,7 +260,7 @@ class _Reader:
         uses = tuple(self.uses)
         warnings = (_unused_inputs(inputs, measurands) + tuple(self.checks)
                     + date_warnings(uses, measured))
-        files = (("model", self.name, sha256),)
+        files: tuple[tuple[str, str, str], ...] = (("model", self.name, sha256),)
         if self.register is not None:
             files += (("register", self.register.source, self.register.sha256),)
         return Model(title=title.strip(), description=str(self.doc.get("description", "")),
@@ -312,7 +312,7 @@ class _Reader:
             made.append(made_input(item, item.name in in_sets))
         return tuple(made)
 
-    def table(self, key: str) -> dict:
+    def table(self, key: str) -> dict[str, Any]:
         value = self.doc.get(key, {})
         if not isinstance(value, dict):
             raise InputError(f"expected a table [{key}], found {type(value).__name__}",
@@ -363,7 +363,7 @@ class _Reader:
                 self.where("inputs." + name, "certificate")))
         return made
 
-    def certificate_use(self, name: str, data: dict) -> CertificateUse | None:
+    def certificate_use(self, name: str, data: dict[str, Any]) -> CertificateUse | None:
         """The certificate an input names (``certificate``, ``stated``), if any."""
         table = "inputs." + name
         if "certificate" not in data:
@@ -390,7 +390,8 @@ class _Reader:
         self.uses.append(use)
         return use
 
-    def from_certificate(self, name: str, data: dict, use: CertificateUse) -> dict:
+    def from_certificate(self, name: str, data: dict[str, Any],
+                         use: CertificateUse) -> dict[str, Any]:
         """An input that states nothing itself takes the certificate's statement whole."""
         stated = use.certificate.value(use.stated, self.where("inputs." + name))
         own = ("unit", "distribution", "dof", "reliability", "k", "level")
@@ -406,7 +407,7 @@ class _Reader:
         return {**stated.table, **data}
 
     def definitions(self, table: dict[str, Term], generated: dict[str, str]
-                    ) -> tuple[tuple[Definition, ...], dict]:
+                    ) -> tuple[tuple[Definition, ...], dict[str, Any]]:
         texts = dict(self.table("definitions"))
         for name in generated:
             if name in texts:
@@ -470,7 +471,7 @@ class _Reader:
                          description=str(data.get("description", "")), line=eq_where.line)
 
 
-def check_settings(data: dict, where: Any) -> Settings:
+def check_settings(data: dict[str, Any], where: Any) -> Settings:
     made: dict[str, Any] = {}
     if "coverage" in data:
         p = data["coverage"]
@@ -588,7 +589,8 @@ def _definition_order(trees: dict[str, Any], where: Location) -> list[str]:
     return order
 
 
-def _unused_inputs(inputs: tuple[Input, ...], measurands: tuple[Measurand, ...]) -> tuple:
+def _unused_inputs(inputs: tuple[Input, ...],
+                   measurands: tuple[Measurand, ...]) -> tuple[str, ...]:
     used = alg.symbols_in(m.graph for m in measurands)
     return tuple(f"input '{i.name}' appears in no measurand equation" for i in inputs
                  if i.name not in used and i.standard_uncertainty > 0)

@@ -10,6 +10,8 @@ and the equations stay symbolic. See ``fits.py`` and ``records.py`` for the meth
 
 from __future__ import annotations
 
+import functools
+
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
@@ -107,7 +109,7 @@ def generate(document: dict[str, Any], base: Path,
             raise InputError(f"expected [{group}.NAME] tables, found a single value",
                              where(None, group))
         for name, data in tables.items():
-            here: Where = (lambda key, t=f"{group}.{name}": where(t, key))
+            here: Where = functools.partial(where, f"{group}.{name}")
             if not isinstance(data, dict):
                 raise InputError(f"expected a table [{group}.{name}], found {data!r}",
                                  here(None))

@@ -268,7 +268,7 @@ def drift(record: Series, before: tuple[float, float],
     fitted = design @ coefficients
     dof = len(y) - 3
     s2 = float(np.sum((y - fitted) ** 2)) / dof
-    covariance = s2 * np.linalg.inv(design.T @ design)
+    covariance = np.asarray(s2 * np.linalg.inv(design.T @ design), dtype=np.float64)
     fit = Fit(method="ols", parameters=("before", "after", "rate"), estimates=coefficients,
               covariance=covariance, dof=float(dof), x=x, y=y, fitted=fitted,
               chi2=math.nan, x0=centre)

@@ -9,7 +9,7 @@ report loads nothing from the network: no scripts, fonts, images or style sheets
 from __future__ import annotations
 
 from importlib import resources
-from typing import Any
+from typing import Any, Callable
 
 import sympy
 from markupsafe import Markup
@@ -50,7 +50,8 @@ def mathml(left: Any, right: Any) -> Markup:
 
 
 def render_report(result: Result) -> str:
-    return _environment().get_template("budget.html.j2").render(report=_budget_view(result))
+    html: str = _environment().get_template("budget.html.j2").render(report=_budget_view(result))
+    return html
 
 
 def write_report(result: Result, path: str) -> None:
@@ -81,9 +82,10 @@ def _certificates_view(model: Any, days: Any) -> list[dict[str, str]]:
     rows = []
     for entry in certificates_document(model, tuple(days)):
         dates = entry["measurement_dates"]
+        when = f"each of the {len(dates)} measurement dates" if len(dates) > 1 else \
+            (dates[0] if dates else "")
         status = "; ".join(entry["problems"]) if entry["problems"] else (
-            f"valid on {'each of the ' + str(len(dates)) + ' measurement dates' if len(dates) > 1 else dates[0]}"
-            if dates else "no measurement date given")
+            f"valid on {when}" if dates else "no measurement date given")
         rows.append({"number": entry["number"], "instrument": entry["instrument"],
                      "issuer": entry["issuer"],
                      "period": f"{entry['calibrated']} to {entry['valid_until']}",
@@ -149,9 +151,9 @@ def _partial(name: str, symbol: sympy.Symbol) -> Markup:
     return Markup(f"<mfrac><mrow><mo>∂</mo>{top}</mrow><mrow><mo>∂</mo>{bottom}</mrow></mfrac>")
 
 
-def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict:
+def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict[str, Any]:
     reference = b.combined_uncertainty or s.standard_uncertainty
-    rounded = lambda x: format_pair(x, reference, digits + 1)[0]  # noqa: E731
+    rounded: Callable[[float], str] = lambda x: format_pair(x, reference, digits + 1)[0]  # noqa: E731
     v = s.validation
     return {
         "trials": f"{s.trials:,}", "mean": rounded(s.mean),
@@ -204,8 +206,9 @@ def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tupl
 
 
 def render_certification_report(cert: Any) -> str:
-    return _environment().get_template("certificate.html.j2").render(
+    html: str = _environment().get_template("certificate.html.j2").render(
         report=_certification_view(cert))
+    return html
 
 
 def write_certification_report(cert: Any, path: str) -> None:
@@ -226,4 +229,9 @@ def _certification_view(cert: Any) -> dict[str, Any]:
     from .register import traceability_statement
 
     view["traceability_generated"] = traceability_statement(cert.campaign.model.certificates)
+    if cert.methods is not None:  # several methods (methods_output.py, methods.html.j2)
+        from .methods_output import methods_view
+
+        view["methods"] = methods_view(cert.methods, cert.campaign.unit,
+                                       cert.campaign.model.settings.digits, _budget_view)
     return view

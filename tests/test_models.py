@@ -13,8 +13,8 @@ from conftest import MODELS
 _REGISTERS = sorted(p for p in MODELS.rglob("*.toml")
                     if "certificates" in tomllib.loads(p.read_text()))
 _MODELS = sorted(p for p in MODELS.rglob("*.toml")
-                 if p.name != "campaign.toml" and p not in _REGISTERS)
-_CAMPAIGNS = sorted(MODELS.rglob("campaign.toml"))
+                 if not p.name.startswith("campaign") and p not in _REGISTERS)
+_CAMPAIGNS = sorted(MODELS.rglob("campaign*.toml"))
 
 
 @pytest.mark.parametrize("path", _MODELS, ids=[str(p.relative_to(MODELS)) for p in _MODELS])
