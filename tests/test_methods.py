@@ -216,9 +216,11 @@ def test_one_method_campaign_unchanged_to_the_last_digit(cli) -> None:  # type: 
 
 
 def test_compared_only_methods_leave_the_certified_value_alone() -> None:
-    # the demo's three methods without their [combination]: the first method certifies
+    # the demo's three methods without their [combination] (and with the stability of
+    # campaign.toml): the first method certifies
     campaign = load_campaign(DEMO / "campaign-methods.toml")
-    compared = replace(campaign, methods=replace(campaign.methods, rule=None, combined=()))
+    compared = replace(campaign, methods=replace(campaign.methods, rule=None, combined=()),
+                       stability_plan=None, u_short_term=0.0005)  # as campaign.toml
     cert = certify(compared, trials=0)
     assert cert.certified_value == _ONE_METHOD["certified_value"]
     assert dict(cert.components) == _ONE_METHOD["components"]
