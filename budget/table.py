@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import sys
 import textwrap
 from typing import Any
 
@@ -10,6 +11,7 @@ from .analysis import Result
 from .formatting import format_dof, format_number, format_pair, format_percent
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
+from .unit_display import display_unit
 
 __all__ = ["render", "render_certification", "result_statement", "contribution_cells",
            "SHORT_DISTRIBUTION"]
@@ -19,9 +21,16 @@ SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
                       "triangular": "triangular", "arcsine": "arcsine",
                       "trapezoidal": "trapezoidal", "curvilinear_trapezoid": "curv. trap.",
                       "student_t": "t", "exact": "exact",
+                      "covered_by_scatter": "in the scatter",
                       "rectangular (atomic weights)": "atomic wts"}
 _HEAD = ("input", "estimate", "unit", "u(x)", "distribution", "type", "ν", "c",
          "|c|·u(x)", "share %")
+
+
+def terminal_unit(text: str) -> str:
+    """A unit as symbols (°C, kg/m³, Ω) when standard output can encode them, else as
+    written; the one function through which the terminal shows units."""
+    return display_unit(text, encoding=getattr(sys.stdout, "encoding", None) or "utf-8")
 
 
 def render(result: Result) -> str:
@@ -38,7 +47,7 @@ def render(result: Result) -> str:
 def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None) -> list[str]:
     model_measurand = result.model.measurands[[m.name for m in result.model.measurands]
                                               .index(b.name)]
-    heading = f"{b.name} = {model_measurand.equation}   [{b.unit}]"
+    heading = f"{b.name} = {model_measurand.equation}   [{terminal_unit(b.unit)}]"
     lines = [heading if len(heading) <= WIDTH else heading[:WIDTH - 1] + "…"]
     if model_measurand.description:
         lines.append(model_measurand.description[:WIDTH])
@@ -57,6 +66,8 @@ def contribution_cells(c: Any, digits: int) -> dict[str, str]:
     """One budget row as display strings (GUM 7.2.6); the table and the report share it."""
     estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
                    if c.standard_uncertainty > 0 else (f"{c.estimate:.10g}", "0"))
+    if c.distribution == "covered_by_scatter":  # never "exact": its term is s/√n of the runs
+        u = "in s/√n"
     return {"input": c.input, "estimate": estimate, "unit": c.unit, "u": u,
             "distribution": SHORT_DISTRIBUTION.get(c.distribution, c.distribution),
             "type": c.type, "dof": format_dof(c.dof),
@@ -69,6 +80,7 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
     rows = [list(_HEAD)]
     for c in b.contributions:
         cells = contribution_cells(c, digits)
+        cells["unit"] = terminal_unit(c.unit)
         rows.append([cells[key] for key in _CELLS])
     for t in b.correlation_terms:
         rows.append([f"r({t.inputs[0]},{t.inputs[1]})", format_number(t.r, 3), "", "", "", "",
@@ -99,17 +111,18 @@ def _bar(share: float, width: int) -> str:
     return "█" * full + ("▌" if cells - full >= 0.5 else "")
 
 
-def result_statement(b: MeasurandBudget, digits: int) -> str:
+def result_statement(b: MeasurandBudget, digits: int, unit: str | None = None) -> str:
     value, expanded = format_pair(b.estimate, b.expanded_uncertainty, digits)
-    return (f"{b.name} = ({value} ± {expanded}) {b.unit}, k = {b.coverage_factor:.2f}, "
+    return (f"{b.name} = ({value} ± {expanded}) {unit or b.unit}, k = {b.coverage_factor:.2f}, "
             f"coverage probability {100 * b.coverage_probability:g} %")
 
 
 def _summary(b: MeasurandBudget, digits: int) -> list[str]:
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
-    lines = [f"GUM:  y = {value} {b.unit}   u_c = {u} {b.unit}   ν_eff = {format_dof(b.dof)}"
+    unit = terminal_unit(b.unit)
+    lines = [f"GUM:  y = {value} {unit}   u_c = {u} {unit}   ν_eff = {format_dof(b.dof)}"
              f"   k = {b.coverage_factor:.3g}",
-             f"      {result_statement(b, digits)}"]
+             f"      {result_statement(b, digits, unit=unit)}"]
     if "; " in b.dof_rule:  # more than Welch-Satterthwaite input by input: say which rule
         lines += textwrap.wrap("ν_eff: " + b.dof_rule.split("; ", 1)[1], WIDTH,
                                initial_indent="      ", subsequent_indent="      ")
@@ -126,14 +139,15 @@ def _monte_carlo(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> lis
     short_low, short_high = (format_pair(x, reference, digits + 1)[0]
                              for x in s.shortest_interval)
     p = f"{100 * b.coverage_probability:g} %"
-    lines = [f"MC:   {s.trials:,} trials   y = {mean} {b.unit}   u = {u} {b.unit}",
+    unit = terminal_unit(b.unit)
+    lines = [f"MC:   {s.trials:,} trials   y = {mean} {unit}   u = {u} {unit}",
              f"      {p} interval [{low}, {high}]   shortest [{short_low}, {short_high}]"]
     v = s.validation
     if v is not None:
         verdict = "validated" if v.validated else "NOT validated"
         lines.append(f"      GUM result {verdict} (JCGM 101 8.2): d_low = "
                      f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
-                     f"δ = {format_number(v.tolerance, 1)} {b.unit}")
+                     f"δ = {format_number(v.tolerance, 1)} {unit}")
     return lines
 
 
@@ -154,7 +168,7 @@ def _correlations(result: Result) -> list[str]:
 def render_certification(cert: Any, digits: int = 2) -> str:
     """Terminal summary of ``budget certify``."""
     campaign, char = cert.campaign, cert.characterization
-    unit = campaign.unit
+    unit = terminal_unit(campaign.unit)
     value, expanded = format_pair(cert.certified_value, cert.expanded_uncertainty, digits)
     lines = [campaign.title, "=" * min(WIDTH, len(campaign.title))]
     if campaign.material:
@@ -173,6 +187,10 @@ def render_certification(cert: Any, digits: int = 2) -> str:
               f"s = {format_number(char.s, digits)}, "
               f"u_B = {format_number(char.model_uncertainty, digits)},"
               f" u_char = {format_number(char.standard_uncertainty, digits)} {unit}"]
+    if campaign.scatter_covers:
+        lines.append(f"  covered by the run-to-run scatter (Type A, s/√n = "
+                     f"{format_number(char.s / math.sqrt(char.n), digits)} {unit}), no term "
+                     f"of their own in u_B: {', '.join(campaign.scatter_covers)}")
     if cert.homogeneity:
         h = cert.homogeneity
         lines.append(f"homogeneity: {len(h.units)} units, F = {h.F:.3g} (p = {h.p_value:.2g}),"
