@@ -21,9 +21,10 @@ from .model import LineIndex, Model, decode, load_model, read_toml
 __all__ = ["Campaign", "Comparison", "load_campaign", "read_table"]
 
 _TOP = ("title", "material", "unit", "description", "producer", "characterization",
-        "homogeneity", "stability", "comparison", "certificate")
+        "homogeneity", "stability", "comparison", "certificate",
+        "method", "shared", "combination")  # the last three: methods.py
 _SECTIONS = {
-    "characterization": ("model", "measurand", "runs", "scatter_covers"),
+    "characterization": ("model", "measurand", "runs", "scatter_covers", "label"),
     "homogeneity": ("data",),
     "stability": ("data", "shelf_life", "u_short_term"),
     "comparison": ("label", "value", "expanded", "k", "u"),
@@ -59,12 +60,16 @@ class Campaign:
     coverage: float | None
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
+    data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
+    method_label: str = "characterization"
+    methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
 
 
 class _Reader:
-    def __init__(self, path: Path, text: str, document: dict) -> None:
+    def __init__(self, path: Path, text: str, document: dict[str, Any]) -> None:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
+        self.files: list[tuple[str, str, str]] = []
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -74,7 +79,7 @@ class _Reader:
              nth: int = 0) -> CampaignError:
         return CampaignError(message, self.where(table, key, nth))
 
-    def section(self, name: str, required: bool) -> dict | None:
+    def section(self, name: str, required: bool) -> dict[str, Any] | None:
         value = self.doc.get(name)
         if value is None:
             if required:
@@ -85,20 +90,20 @@ class _Reader:
         self.known(value, name, _SECTIONS[name])
         return value
 
-    def known(self, data: dict, table: str, keys: tuple[str, ...], nth: int = 0) -> None:
+    def known(self, data: dict[str, Any], table: str, keys: tuple[str, ...], nth: int = 0) -> None:
         for key in data:
             if key not in keys:
                 raise self.fail(f"unknown key '{key}'{did_you_mean(key, keys)}; expected one "
                                 f"of {', '.join(keys)}", table, key, nth)
 
-    def text(self, data: dict, key: str, table: str | None, nth: int = 0) -> str:
+    def text(self, data: dict[str, Any], key: str, table: str | None, nth: int = 0) -> str:
         value = data.get(key)
         if not isinstance(value, str) or not value.strip():
             found = "none" if value is None else repr(value)
             raise self.fail(f"expected a '{key}' string, found {found}", table, key, nth)
         return value.strip()
 
-    def number(self, data: dict, key: str, table: str, *, positive: bool = False,
+    def number(self, data: dict[str, Any], key: str, table: str, *, positive: bool = False,
                nth: int = 0, default: float | None = None) -> float:
         value = data.get(key, default)
         if value is None:
@@ -112,7 +117,7 @@ class _Reader:
             raise self.fail(f"expected a number ≥ 0, found {value:g}", table, key, nth)
         return float(value)
 
-    def file(self, data: dict, key: str, table: str) -> Path:
+    def file(self, data: dict[str, Any], key: str, table: str) -> Path:
         relative = self.text(data, key, table)
         path = (self.path.parent / relative)
         if not path.is_file():
@@ -121,6 +126,14 @@ class _Reader:
         if path.stat().st_size > MAX_DATA_BYTES:
             raise self.fail(f"expected a data file of at most {MAX_DATA_BYTES // 2 ** 20} MiB "
                             f"(limits: {LIMITS_PAGE}), found a larger file", table, key)
+        import hashlib
+
+        try:
+            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        except OSError as exc:
+            raise self.fail(f"expected a readable file '{relative}', found {exc.strerror}",
+                            table, key) from exc
+        self.files.append((f"{table}.{key}", str(path), digest))
         return path
 
 
@@ -145,7 +158,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     check_strings(r.doc, r.where)
     title = r.text(r.doc, "title", None)
     unit = r.text(r.doc, "unit", None)
-    char = r.section("characterization", True)
+    char = r.section("characterization", True) or {}
     model = load_model(r.file(char, "model", "characterization"))
     measurand = r.text(char, "measurand", "characterization")
     names = [m.name for m in model.measurands]
@@ -155,6 +168,13 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
                      "measurand")
     runs, run_inputs = _runs(r, char, model)
     covers = _covers(r, char, model)
+    from .methods import check_primary_references, read_methods
+
+    label = r.text(char, "label", "characterization") if "label" in char \
+        else "characterization"
+    plan = read_methods(r, label)
+    if plan is not None:
+        check_primary_references(r, plan, model, run_inputs)
     homogeneity = _homogeneity(r)
     stability_section = r.section("stability", False)
     stability = _stability(r, stability_section)
@@ -170,7 +190,9 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r), k=k,
         coverage=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
-                    if key in r.doc))
+                    if key in r.doc),
+        data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
+        method_label=label, methods=plan)
 
 
 def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),
@@ -212,7 +234,7 @@ def _numbers(cells: Any, column: str, shown: str) -> np.ndarray:
     return values
 
 
-def _runs(r: _Reader, char: dict, model: Model) -> tuple[Any, tuple[str, ...]]:
+def _runs(r: _Reader, char: dict[str, Any], model: Model) -> tuple[Any, tuple[str, ...]]:
     path = r.file(char, "runs", "characterization")
     import pandas as pd
 
@@ -229,7 +251,7 @@ def _runs(r: _Reader, char: dict, model: Model) -> tuple[Any, tuple[str, ...]]:
     return read_table(path, inputs), inputs
 
 
-def _covers(r: _Reader, char: dict, model: Model) -> tuple[str, ...]:
+def _covers(r: _Reader, char: dict[str, Any], model: Model) -> tuple[str, ...]:
     covers = char.get("scatter_covers", [])
     names = [i.name for i in model.inputs]
     if not isinstance(covers, list) or not all(isinstance(c, str) for c in covers):
@@ -260,7 +282,7 @@ def _homogeneity(r: _Reader) -> tuple[tuple[str, np.ndarray], ...] | None:
     return groups
 
 
-def _stability(r: _Reader, section: dict | None) -> tuple[np.ndarray, np.ndarray] | None:
+def _stability(r: _Reader, section: dict[str, Any] | None) -> tuple[np.ndarray, np.ndarray] | None:
     if section is None:
         return None
     path = r.file(section, "data", "stability")
@@ -300,7 +322,7 @@ def _comparisons(r: _Reader) -> tuple[Comparison, ...]:
     return tuple(made)
 
 
-def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple]:
+def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...]]:
     data = r.doc.get("certificate", {})
     if not isinstance(data, dict):
         raise r.fail(f"expected a table [certificate], found {data!r}", None, "certificate")

@@ -19,7 +19,7 @@ import click
 
 __all__ = ["main"]
 
-class _Finite(click.ParamType):
+class _Finite(click.ParamType):  # type: ignore[type-arg]
     """A finite number in [low, high]: 'nan' and 'inf' are a bad command line (exit 2)."""
 
     name = "number"
@@ -218,7 +218,10 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
         progress.close()
         _fail(error)
     if as_json:
-        document = {"title": result.model.title, "model_sha256": result.model.sha256,
+        from .document import SCHEMA_VERSION
+
+        document = {"schema_version": SCHEMA_VERSION, "title": result.model.title,
+                    "model_sha256": result.model.sha256,
                     **explanation_document(explanations), "warnings": list(result.warnings)}
         from .document import json_safe
 

@@ -6,9 +6,9 @@ Method:
 * u_c²(y) = Σ (c_i u_i)² + 2 Σ_{i<j} c_i c_j u_i u_j r_ij (GUM 5.1.2 and 5.2.2);
 * GUM 5.1.2 note: with ``second_order`` the higher-order terms of eq. (14) for
   uncorrelated inputs, Σ_ij [½(∂²f/∂x_i∂x_j)² + ∂f/∂x_i ∂³f/∂x_i∂x_j²] u_i² u_j²;
-* ν_eff by Welch–Satterthwaite, eq. (G.2b); the GUM's rule has no term for correlations,
-  so with correlated inputs the correlation terms count with infinite degrees of freedom
-  (stated in ``dof_rule``);
+* ν_eff by Welch–Satterthwaite, eq. (G.2b), over independent components: inputs
+  estimated together and groups of correlated inputs count as one component each
+  (``dof.py``; the rule applied is stated in ``dof_rule``);
 * k = t_p(ν) with ν_eff (rounded to 0.1) truncated to the next lower integer (GUM G.4.1
   note 1), or the
   normal quantile when ν_eff is infinite; U = k·u_c (GUM 6.2, G.6.4);
@@ -23,6 +23,7 @@ from typing import Any
 
 import numpy as np
 
+from .dof import Grouping, effective_dof, grouping
 from .errors import PropagationError
 from .model import Model
 
@@ -142,12 +143,12 @@ def propagate(model: Model, coverage: float | None = None, *,
         raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}")
     values, jac = jacobian_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
-    dofs = np.array([i.dof for i in model.inputs])
+    groups = grouping(model)
     r = model.correlation_matrix()
     warnings: list[str] = list(model.warnings)
     extra = _second_order(model, second_order, warnings)
     budgets = tuple(
-        _one(model, k, float(values[k]), jac[k], u, dofs, r, coverage,
+        _one(model, k, float(values[k]), jac[k], u, groups, r, coverage,
              None if extra is None else float(extra[k]), warnings)
         for k in range(len(model.measurands)))
     core, scale = _scaled_covariance(jac, u, r, extra)
@@ -159,7 +160,7 @@ def propagate(model: Model, coverage: float | None = None, *,
 
 
 def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
-         dofs: np.ndarray, r: np.ndarray, coverage: float, extra: float | None,
+         groups: Grouping, r: np.ndarray, coverage: float, extra: float | None,
          warnings: list[str]) -> MeasurandBudget:
     measurand = model.measurands[k]
     parts = _parts(measurand.name, model, c, u)
@@ -181,10 +182,9 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
     with np.errstate(over="ignore"):
         terms = [(a, b, rho, v * scale * scale) for a, b, rho, v in terms]
         first, variance = first * scale * scale, variance * scale * scale
-    nu = welch_satterthwaite(combined, np.abs(parts), dofs)
-    rule = "Welch-Satterthwaite, GUM eq. (G.2b)"
-    if terms:
-        rule += "; the correlation terms are taken with infinite degrees of freedom"
+    # ν_eff does not depend on the scale: computed in units of the largest contribution
+    nu, rule, notes = effective_dof(model, measurand.name, scaled, combined / scale, groups)
+    warnings.extend(notes)
     if extra:
         rule += "; the second-order terms are taken with infinite degrees of freedom"
     _warn(measurand.name, combined, nu, warnings)
@@ -224,7 +224,7 @@ def _scaled_covariance(jac: np.ndarray, u: np.ndarray, r: np.ndarray,
 def _parts(name: str, model: Model, c: np.ndarray, u: np.ndarray) -> np.ndarray:
     """c_i·u(x_i), refused when one is beyond the floating-point range."""
     with np.errstate(over="ignore", invalid="ignore"):
-        parts = c * u
+        parts: np.ndarray = np.asarray(c * u, dtype=float)
     bad = np.flatnonzero(~np.isfinite(parts))
     if bad.size:
         raise PropagationError(f"the contribution c·u(x) of '{model.inputs[int(bad[0])].name}'"

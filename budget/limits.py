@@ -19,8 +19,8 @@ from .errors import InputError, Location
 __all__ = ["MAX_FILE_BYTES", "MAX_DATA_BYTES", "MAX_EXPRESSION_CHARS", "MAX_NESTING",
            "MAX_NUMBER_DIGITS", "MAX_EXPONENT", "MAX_EXACT_DIGITS", "MAX_UNIT_CHARS",
            "MAX_TRIALS", "MAX_SECOND_ORDER_INPUTS", "DIGITS", "PROBABILITY",
-           "MIN_RELIABILITY", "MAX_SEED", "LIMITS_PAGE", "check_seed", "check_probability", "check_digits",
-           "check_trials", "as_float", "terminal_text", "control_character",
+           "MIN_RELIABILITY", "MAX_SEED", "LIMITS_PAGE", "check_seed", "check_probability",
+           "check_digits", "check_trials", "as_float", "terminal_text", "control_character",
            "shorten", "check_strings", "character_name"]
 
 LIMITS_PAGE = "docs/limits.md"

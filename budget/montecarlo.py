@@ -2,10 +2,12 @@
 
 Method:
 
-* 6.4: every input is drawn from its own distribution; correlated Gaussian inputs as one
-  multivariate Gaussian (6.4.8); correlated non-Gaussian inputs through a Gaussian copula
-  (a documented approximation, announced by a warning); inputs without an inverse
-  distribution function are refused when correlated.
+* 6.4: every input is drawn from its own distribution; an input with finite ν as a
+  scaled and shifted t (6.4.9); correlated Gaussian inputs as one multivariate Gaussian
+  (6.4.8); the inputs of an ``[[estimated_together]]`` set with finite ν as one
+  multivariate t with the set's ν (JCGM 102 6.5); other correlated non-Gaussian inputs
+  through a Gaussian copula (a documented approximation, announced by a warning);
+  inputs without an inverse distribution function are refused when correlated.
 * 7.2-7.6: M trials in blocks; block b draws from its own stream
   ``SeedSequence(seed, spawn_key=(b,))``, so the numbers depend on the seed and the model
   only, never on the chunk size or the number of threads; blocks are evaluated on both
@@ -72,7 +74,7 @@ class MeasurandSimulation:
     interval: tuple[float, float]
     shortest_interval: tuple[float, float]
     validation: Validation | None
-    samples: np.ndarray = field(repr=False, compare=False)  # the values, partially sorted
+    samples: np.ndarray = field(repr=False, compare=False)  # in trial order, joint
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -131,14 +133,15 @@ def shortest_interval(values: np.ndarray, p: float) -> tuple[float, float]:
     return _intervals(values, p)[1]
 
 
-def _pick(low: np.ndarray, high: np.ndarray, m: int, p: float) -> tuple[tuple, tuple]:
+def _pick(low: np.ndarray, high: np.ndarray, m: int,
+          p: float) -> tuple[tuple[Any, ...], tuple[Any, ...]]:
     """Both intervals from the sorted ``m − q`` lowest and highest of M values."""
     lo, hi = _indices(m, p)
     best = int(np.argmin(high - low))
     return (float(low[lo]), float(high[hi - _q(m, p)])), (float(low[best]), float(high[best]))
 
 
-def _from_tails(tails: list, m: int, p: float) -> tuple | None:
+def _from_tails(tails: list[Any], m: int, p: float) -> tuple[Any, ...] | None:
     """Both intervals from the values kept below and above the cuts, when enough were."""
     q = _q(m, p)
     tail = m - q
@@ -171,9 +174,9 @@ class _Sampler:
         self.program = compile_model(model)
         self.groups = _groups(model)
         self.warnings = _copula_warnings(model, self.groups)
-        matrix = model.correlation_matrix() if model.correlations else None
-        self.factors = {tuple(g): _factor(matrix[np.ix_(g, g)]) for g in self.groups
-                        if len(g) > 1}
+        self.factors = {key: _factor(matrix)
+                        for key, matrix in _group_matrices(model, self.groups).items()}
+        self.sets = _set_slots(model)
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
@@ -203,7 +206,7 @@ class _Sampler:
             else:
                 factor = self.factors[tuple(group)]
                 for slot, column in zip(group, _correlated(self.model, group, factor, rng,
-                                                           size)):
+                                                           size, self.sets)):
                     values[slot] = column
         return values
 
@@ -228,18 +231,42 @@ def _groups(model: Model) -> list[list[int]]:
             i = parent[i]
         return i
 
-    for a, b, _ in model.correlations:
-        parent[root(names.index(a))] = root(names.index(b))
+    index = {name: k for k, name in enumerate(names)}
+    links = [(a, b) for a, b, _ in model.correlations]
+    links += [(s.inputs[0], name) for s in model.estimated_together for name in s.inputs[1:]]
+    for a, b in links:
+        parent[root(index[a])] = root(index[b])
     groups: dict[int, list[int]] = {}
     for i in range(len(names)):
         groups.setdefault(root(i), []).append(i)
     return sorted(groups.values(), key=lambda g: g[0])
 
 
+def _group_matrices(model: Model, groups: list[list[int]]) -> dict[tuple[int, ...], np.ndarray]:
+    """The correlation matrix of each group of inputs, in one pass over the pairs
+    (never the whole N × N matrix)."""
+    joint = [g for g in groups if len(g) > 1]
+    matrices = {tuple(g): np.eye(len(g)) for g in joint}
+    where = {model.inputs[slot].name: (tuple(g), j) for g in joint for j, slot in enumerate(g)}
+    for a, b, r in model.correlations:
+        key, i = where[a]
+        j = where[b][1]
+        matrices[key][i, j] = matrices[key][j, i] = r
+    return matrices
+
+
+def _set_slots(model: Model) -> dict[int, tuple[int, float]]:
+    """Input index → (number of its [[estimated_together]] set, the set's ν)."""
+    index = {item.name: k for k, item in enumerate(model.inputs)}
+    return {index[name]: (number, s.dof) for number, s in enumerate(model.estimated_together)
+            for name in s.inputs}
+
+
 def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
     warnings = []
+    in_sets = _set_slots(model)
     for group in (g for g in groups if len(g) > 1):
-        members = [model.inputs[i] for i in group]
+        members = [model.inputs[i] for i in group if i not in in_sets]
         odd = [i for i in members if not i.distribution.gaussian]
         refused = [i for i in odd if not i.distribution.has_ppf]
         if refused:
@@ -259,16 +286,29 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
 def _factor(r: np.ndarray) -> np.ndarray:
     """F with F Fᵀ = r for a positive semi-definite r (singular ones included)."""
     eigenvalues, vectors = np.linalg.eigh(r)
-    return vectors * np.sqrt(np.clip(eigenvalues, 0.0, None))
+    factor: np.ndarray = vectors * np.sqrt(np.clip(eigenvalues, 0.0, None))
+    return factor
 
 
 def _correlated(model: Model, group: list[int], factor: np.ndarray,
-                rng: np.random.Generator, size: int) -> list[np.ndarray]:
+                rng: np.random.Generator, size: int,
+                sets: dict[int, tuple[int, float]]) -> list[np.ndarray]:
+    """One group of jointly drawn inputs: a multivariate Gaussian z with the group's
+    correlations (JCGM 101 6.4.8); the members of an [[estimated_together]] set with
+    finite ν share one χ²_ν draw w and are z·√(ν/w), a multivariate t (JCGM 102 6.5);
+    other non-Gaussian members go through the Gaussian copula of their own ppf."""
     z = rng.standard_normal((size, len(group))) @ factor.T
+    scales: dict[int, np.ndarray] = {}
+    for number, nu in sorted({sets[slot] for slot in group if slot in sets}):
+        if math.isfinite(nu):
+            scales[number] = np.sqrt(nu / rng.chisquare(nu, size))
     columns = []
     for j, slot in enumerate(group):
         item = model.inputs[slot]
-        if item.distribution.gaussian:
+        if slot in sets:
+            column = z[:, j] * scales[sets[slot][0]] if sets[slot][0] in scales else z[:, j]
+            columns.append(item.estimate + item.standard_uncertainty * column)
+        elif item.distribution.gaussian:
             columns.append(item.estimate + item.standard_uncertainty * z[:, j])
         else:
             from scipy.special import ndtr
@@ -294,14 +334,14 @@ class _Tails:
 
 def _run_blocks(sampler: _Sampler, first: int, count: int, trials: int, out: np.ndarray,
                 progress: Callable[[int], None] | None, workers: int,
-                tails: _Tails | None = None) -> tuple[np.ndarray, list]:
+                tails: _Tails | None = None) -> tuple[np.ndarray, list[Any]]:
     """Fill ``out[:, :]`` with blocks first … first+count-1 of a run of ``trials``;
     the moments of all of them and, with ``tails``, each block's tail values."""
     block = sampler.size
     moments: list[np.ndarray] = []
     kept: list[list[tuple[np.ndarray, np.ndarray]]] = []
 
-    def work(b: int) -> tuple[int, np.ndarray, list]:
+    def work(b: int) -> tuple[int, np.ndarray, list[Any]]:
         start = b * block
         size = min(block, trials - start)
         view = out[:, start - first * block:start - first * block + size]
@@ -379,7 +419,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
 
 
 def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
-               ticker: Callable[[int], None] | None, workers: int) -> tuple[np.ndarray, list]:
+               ticker: Callable[[int], None] | None, workers: int) -> tuple[np.ndarray, list[Any]]:
     trials = samples.shape[1]
     blocks = -(-trials // sampler.size)
     if blocks < 4 or coverage <= 0.5:
@@ -484,7 +524,7 @@ def _converged(all_values: np.ndarray, stats: np.ndarray, digits: int) -> bool:
 
 def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: int,
                coverage: float, digits: int, adaptive: bool, warnings: list[str],
-               moments: np.ndarray | None = None, kept: list | None = None) -> Simulation:
+               moments: np.ndarray | None = None, kept: list[Any] | None = None) -> Simulation:
     total = samples.shape[1]
     if moments is None:
         moments = _block_moments(samples)
@@ -522,7 +562,7 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: i
 
 
 def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: float,
-         digits: int, moments: np.ndarray, tails: list | None = None
+         digits: int, moments: np.ndarray, tails: list[Any] | None = None
          ) -> MeasurandSimulation:
     measurand = model.measurands[k]
     if y.size < 2:
@@ -531,7 +571,9 @@ def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: f
     mean = float(moments[1])
     sd = _spread(y, mean, float(moments[2]) / (moments[0] - 1))
     found = _from_tails(tails, y.size, coverage) if tails else None
-    interval, shortest = found or _intervals(y, coverage)  # partitions y in place
+    # the intervals partition a copy: ``samples`` keep the trial order, jointly with the
+    # other measurands (issue 10: sorting row by row destroyed their correlation)
+    interval, shortest = found or _intervals(y.copy(), coverage)
     validation = None
     if budget is not None:
         gum = budget.measurands[k]

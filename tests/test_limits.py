@@ -23,7 +23,8 @@ from budget.model import parse_model
 
 from conftest import ROOT
 
-HEAD = 'title = "t"\n[measurands.y]\nequation = "{eq}"\n[inputs.a]\nvalue = 2.0\nunit = "{unit}"\nu = 0.1\n'
+HEAD = ('title = "t"\n[measurands.y]\nequation = "{eq}"\n[inputs.a]\nvalue = 2.0\n'
+        'unit = "{unit}"\nu = 0.1\n')
 LIMITS = "(limits: docs/limits.md)"
 
 
