@@ -16,12 +16,14 @@ text of a decimal number, so that a typeset formula shows ``1/1000`` rather than
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Callable, Iterator
 
 __all__ = ["Node", "Number", "symbol", "number", "call", "add", "mul", "to_sympy",
-           "symbols_in", "walk", "constant_value", "substitute", "FUNCTION_NAMES"]
+           "symbols_in", "walk", "constant_value", "exact_value", "substitute",
+           "FUNCTION_NAMES"]
 
 Number = int | Fraction | str
 
@@ -157,6 +159,48 @@ def substitute(root: Node, mapping: dict[str, Node]) -> Node:
         same = all(new is old for new, old in zip(args, node.args))
         done[id(node)] = node if same else Node(node.kind, args, node.name, node.exact)
     return done[id(root)]
+
+
+_EXACT_DIGITS = 20_000  # exact powers beyond about this many digits are not computed
+
+
+def exact_value(root: Node) -> Fraction | None:
+    """The exact rational value of a node built from integers and fractions by sums,
+    products and integer powers; None when a decimal, a function or a symbol occurs."""
+    done: dict[int, Fraction | None] = {}
+    stack: list[tuple[Node, bool]] = [(root, False)]
+    while stack:
+        node, ready = stack.pop()
+        if id(node) in done:
+            continue
+        if not ready and node.args:
+            stack.append((node, True))
+            stack.extend((a, False) for a in node.args if id(a) not in done)
+            continue
+        done[id(node)] = _exact_step(node, [done[id(a)] for a in node.args])
+    return done[id(root)]
+
+
+def _exact_step(node: Node, args: list[Fraction | None]) -> Fraction | None:
+    if node.kind == "number":
+        return None if isinstance(node.exact, str) else Fraction(node.exact)
+    if node.kind in ("symbol", "call") or any(a is None for a in args):
+        return None
+    values = [a for a in args if a is not None]
+    if node.kind == "add":
+        return sum(values, Fraction(0))
+    if node.kind == "mul":
+        product = Fraction(1)
+        for value in values:
+            product *= value
+        return product
+    base, exponent = values
+    if exponent.denominator != 1 or (base == 0 and exponent < 0):
+        return None
+    size = max(abs(base.numerator), base.denominator)
+    if size > 1 and abs(exponent) * math.log10(size) > _EXACT_DIGITS:
+        return None
+    return base ** int(exponent)
 
 
 def constant_value(node: Node) -> float:
