@@ -205,10 +205,13 @@ class _Reader:
         pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
                           self.where)
         warnings = _unused_inputs(inputs, measurands)
-        return Model(title=title.strip(), description=str(self.doc.get("description", "")),
+        made = Model(title=title.strip(), description=str(self.doc.get("description", "")),
                      inputs=inputs, definitions=definitions, measurands=measurands,
                      correlations=pairs, settings=settings, source=self.name, sha256=sha256,
                      warnings=warnings)
+        from .plausibility import model_warnings
+
+        return replace(made, warnings=warnings + model_warnings(made))
 
     def table(self, key: str) -> dict:
         value = self.doc.get(key, {})
