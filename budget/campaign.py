@@ -292,11 +292,10 @@ def _stability(r: _Reader, section: dict | None, unit: str, warnings: list[str]
     path = r.file(section, "data", "stability")
     time_unit = _optional_unit(r, section, "time_unit", "stability")
     shelf_text = section.get("shelf_life")
-    if time_unit is None and isinstance(shelf_text, str):
-        time_unit = _shelf_unit(r, shelf_text)
+    shelf_unit = _shelf_unit(r, shelf_text) if isinstance(shelf_text, str) else None
     data = read_stability(path, _format(r, section, "stability"), unit,
                           _optional_unit(r, section, "value_unit", "stability"), time_unit,
-                          _origin(r, section), str(path))
+                          _origin(r, section), str(path), date_unit=time_unit or shelf_unit)
     shelf = _shelf_life(r, section, data.time_unit)
     if data.times.size < 3 or np.unique(data.times).size < 2:
         raise CampaignError(f"expected at least 3 points at 2 or more different times, found "

@@ -134,13 +134,17 @@ class StabilityData:
 
 
 def read_stability(path: Path, fmt: FileFormat, unit: str, value_unit: str | None,
-                   time_unit: str | None, origin: datetime | None, shown: str
-                   ) -> StabilityData:
-    """Times (numbers or dates) in the study's time unit and values in ``unit``."""
+                   time_unit: str | None, origin: datetime | None, shown: str, *,
+                   date_unit: str | None = None) -> StabilityData:
+    """Times (numbers or dates) in the study's time unit and values in ``unit``.
+
+    Numeric times are in ``time_unit`` (declared) or else the header's unit; dates become
+    elapsed time in ``date_unit`` (the declared unit, or the shelf life's).
+    """
     table = read_table(path, fmt, shown=shown)
     name = "time" if table.has("time") or not table.has("date") else "date"
     values = column_in(table, "value", unit, declared=value_unit, allow_missing=True)
-    times, used_unit, dated = _times(table, name, time_unit, origin)
+    times, used_unit, dated = _times(table, name, time_unit, origin, date_unit)
     excluded = []
     keep = np.ones(len(table), dtype=bool)
     for index in range(len(table)):
@@ -152,18 +156,18 @@ def read_stability(path: Path, fmt: FileFormat, unit: str, value_unit: str | Non
                          excluded=tuple(excluded), dates=dated)
 
 
-def _times(table: Table, name: str, time_unit: str | None, origin: datetime | None
-           ) -> tuple[np.ndarray, str, bool]:
+def _times(table: Table, name: str, time_unit: str | None, origin: datetime | None,
+           date_unit: str | None) -> tuple[np.ndarray, str, bool]:
     column = table.column(name)
     if column.unit is None and table.looks_like_dates(name):
         from .datadates import elapsed
 
-        if time_unit is None:
+        if date_unit is None:
             raise DataFileError(f"column '{name}': expected a declared time_unit (for example "
                                 "\"month\") to turn dates into elapsed time, found none",
                                 Location(file=table.source))
         dates = table.dates_of(name, allow_missing=True)
-        return elapsed(dates, origin, _unit(time_unit, table, name)), time_unit, True
+        return elapsed(dates, origin, _unit(date_unit, table, name)), date_unit, True
     if origin is not None:
         raise DataFileError(f"column '{name}': expected dates when time_origin is declared, "
                             "found numbers", Location(file=table.source))
