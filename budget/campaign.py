@@ -37,7 +37,7 @@ _SECTIONS = {
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Comparison:
     label: str
-    value: float
+    estimate: float
     standard_uncertainty: float
     expanded_uncertainty: float
 
@@ -381,7 +381,7 @@ def _comparisons(r: _Reader, unit: str) -> tuple[Comparison, ...]:
             expanded = r.number(entry, "expanded", "comparison", positive=True, nth=nth)
             u = expanded / r.number(entry, "k", "comparison", positive=True, nth=nth)
         scale = _comparison_scale(r, entry, unit, nth)
-        made.append(Comparison(label=label, value=float(value) * scale,
+        made.append(Comparison(label=label, estimate=float(value) * scale,
                                standard_uncertainty=u * scale,
                                expanded_uncertainty=expanded * scale))
     return tuple(made)

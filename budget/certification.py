@@ -83,9 +83,9 @@ class Characterization:
     mean: float
     s: float
     n: int
-    u_B: float
-    dof_B: float
-    u: float
+    model_uncertainty: float  # u_B: the model's GUM u_c at the mean run inputs
+    model_dof: float
+    standard_uncertainty: float  # u_char
     dof: float
     result: Result = field(repr=False, compare=False)
 
@@ -93,9 +93,9 @@ class Characterization:
 @dataclass(frozen=True, slots=True, kw_only=True)
 class ComparisonScore:
     label: str
-    value: float
-    u: float
-    U: float
+    estimate: float
+    standard_uncertainty: float
+    expanded_uncertainty: float
     E_n: float
     zeta: float
     agrees: bool
@@ -105,10 +105,10 @@ class ComparisonScore:
 class Certification:
     campaign: Campaign
     certified_value: float
-    u: float
-    k: float
-    U: float
-    coverage: float | None
+    standard_uncertainty: float  # u_CRM
+    coverage_factor: float
+    expanded_uncertainty: float
+    coverage_probability: float | None
     dof: float
     components: tuple[tuple[str, float], ...]
     characterization: Characterization
@@ -119,7 +119,8 @@ class Certification:
 
     @property
     def shares(self) -> dict[str, float]:
-        return {name: 100.0 * u * u / (self.u * self.u) if self.u > 0 else 0.0
+        total = self.standard_uncertainty
+        return {name: 100.0 * u * u / (total * total) if total > 0 else 0.0
                 for name, u in self.components}
 
 
@@ -200,7 +201,7 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
 
 def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogeneity | None,
                stability: Stability | None, warnings: list[str]) -> Certification:
-    components = (("characterization", char.u),
+    components = (("characterization", char.standard_uncertainty),
                   ("homogeneity", homogeneity.u_bb if homogeneity else 0.0),
                   ("long_term_stability", stability.u_lts if stability else 0.0),
                   ("short_term_stability", campaign.u_short_term))
@@ -214,20 +215,21 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
         if not s.agrees:
             warnings.append(f"comparison with '{s.label}': no agreement (E_n = {s.E_n:.2f}, "
                             f"ζ = {s.zeta:.2f})")
-    return Certification(campaign=campaign, certified_value=char.mean, u=u, k=k, U=k * u,
-                         coverage=campaign.coverage, dof=nu, components=components,
+    return Certification(campaign=campaign, certified_value=char.mean,
+                         standard_uncertainty=u, coverage_factor=k, expanded_uncertainty=k * u,
+                         coverage_probability=campaign.coverage, dof=nu, components=components,
                          characterization=char, homogeneity=homogeneity, stability=stability,
                          comparisons=scores,
                          warnings=tuple(dict.fromkeys([*char.result.warnings, *warnings])))
 
 
 def _score(comparison, char: Characterization, k: float) -> ComparisonScore:
-    difference = char.mean - comparison.value
-    e_n = difference / math.hypot(k * char.u, comparison.expanded_uncertainty)
-    zeta = difference / math.hypot(char.u, comparison.standard_uncertainty)
-    return ComparisonScore(label=comparison.label, value=comparison.value,
-                           u=comparison.standard_uncertainty,
-                           U=comparison.expanded_uncertainty, E_n=e_n, zeta=zeta,
+    difference = char.mean - comparison.estimate
+    e_n = difference / math.hypot(k * char.standard_uncertainty, comparison.expanded_uncertainty)
+    zeta = difference / math.hypot(char.standard_uncertainty, comparison.standard_uncertainty)
+    return ComparisonScore(label=comparison.label, estimate=comparison.estimate,
+                           standard_uncertainty=comparison.standard_uncertainty,
+                           expanded_uncertainty=comparison.expanded_uncertainty, E_n=e_n, zeta=zeta,
                            agrees=bool(abs(e_n) <= 1.0 and abs(zeta) <= 2.0))
 
 
@@ -253,8 +255,8 @@ def _characterize(campaign: Campaign, trials: int | None, seed: int | None,
                              np.array([gum.dof, n - 1.0]))
     labels = _labels(campaign)
     return Characterization(runs=tuple(float(y) for y in runs), labels=labels,
-                            mean=float(runs.mean()), s=s, n=n, u_B=u_b, dof_B=gum.dof, u=u,
-                            dof=nu, result=result)
+                            mean=float(runs.mean()), s=s, n=n, model_uncertainty=u_b,
+                            model_dof=gum.dof, standard_uncertainty=u, dof=nu, result=result)
 
 
 def _unit_scale(campaign: Campaign, unit: str) -> float:
@@ -318,10 +320,12 @@ def study_warnings(campaign: Campaign, char: Characterization,
         mean = sum(m * c for m, c in zip(homogeneity.means, homogeneity.counts)) / total
         found.append(consistency_warning("homogeneity", mean,
                                          math.sqrt(homogeneity.ms_between / total),
-                                         char.mean, char.u, campaign.unit, "homogeneity"))
+                                         char.mean, char.standard_uncertainty, campaign.unit,
+                                         "homogeneity"))
     if stability is not None:
         values = np.array(stability.values)
         found.append(consistency_warning("stability", float(values.mean()),
                                          stability.residual_sd / math.sqrt(values.size),
-                                         char.mean, char.u, campaign.unit, "stability"))
+                                         char.mean, char.standard_uncertainty, campaign.unit,
+                                         "stability"))
     return [w for w in found if w is not None]

@@ -23,14 +23,15 @@ def certification_view(cert: Any) -> dict[str, Any]:
     campaign, char = cert.campaign, cert.characterization
     digits = campaign.model.settings.digits
     unit = campaign.unit
-    value, expanded = format_pair(cert.certified_value, cert.U, digits)
+    value, expanded = format_pair(cert.certified_value, cert.expanded_uncertainty, digits)
     rounded = lambda x: format_number(x, digits)  # noqa: E731
     return {
         "title": campaign.title, "material": campaign.material, "unit": unit,
         "extra": list(campaign.extra),
-        "statement": {"value": value, "U": expanded, "k": f"{cert.k:.3g}",
-                      "coverage": None if cert.coverage is None else f"{100 * cert.coverage:g}",
-                      "u": rounded(cert.u), "dof": format_dof(cert.dof)},
+        "statement": {"value": value, "U": expanded, "k": f"{cert.coverage_factor:.3g}",
+                      "coverage": None if cert.coverage_probability is None
+                      else f"{100 * cert.coverage_probability:g}",
+                      "u": rounded(cert.standard_uncertainty), "dof": format_dof(cert.dof)},
         "certificate": [(key.replace("_", " "), text) for key, text in campaign.certificate],
         "components": [{"name": _LABELS[name], "u": rounded(u),
                         "share": format_percent(cert.shares[name])}
@@ -51,10 +52,11 @@ def _characterization(char: Any, covers: tuple[str, ...], unit: str,
                       digits: int) -> dict[str, Any]:
     return {"runs": [{"label": label, "value": format_number(y, 9)}
                      for label, y in zip(char.labels, char.runs)],
-            "mean": format_pair(char.mean, char.u, digits + 1)[0],
+            "mean": format_pair(char.mean, char.standard_uncertainty, digits + 1)[0],
             "s": format_number(char.s, digits),
             "n": char.n, "repeatability": format_number(char.s / math.sqrt(char.n), digits),
-            "u_B": format_number(char.u_B, digits), "u": format_number(char.u, digits),
+            "u_B": format_number(char.model_uncertainty, digits),
+            "u": format_number(char.standard_uncertainty, digits),
             "dof": format_dof(char.dof), "covers": ", ".join(covers) or "none",
             "chart": points_with_bars([(label, y, 0.0) for label, y in
                                        zip(char.labels, char.runs)], centre=char.mean,
@@ -107,10 +109,11 @@ def _comparisons(cert: Any, unit: str, digits: int) -> dict[str, Any] | None:
     if not cert.comparisons:
         return None
     char = cert.characterization
-    rows = [("this characterization", char.mean, cert.k * char.u)]
-    rows += [(c.label, c.value, c.U) for c in cert.comparisons]
-    return {"rows": [{"label": c.label, "value": format_pair(c.value, c.U, digits)[0],
-                      "U": format_pair(c.value, c.U, digits)[1], "E_n": f"{c.E_n:.2f}",
+    rows = [("this characterization", char.mean,
+             cert.coverage_factor * char.standard_uncertainty)]
+    rows += [(c.label, c.estimate, c.expanded_uncertainty) for c in cert.comparisons]
+    return {"rows": [{"label": c.label, "value": format_pair(c.estimate, c.expanded_uncertainty, digits)[0],
+                      "U": format_pair(c.estimate, c.expanded_uncertainty, digits)[1], "E_n": f"{c.E_n:.2f}",
                       "zeta": f"{c.zeta:.2f}", "agrees": c.agrees} for c in cert.comparisons],
             "chart": points_with_bars(rows, centre=None, unit=unit,
                                       label="comparison with independent results (± U)")}

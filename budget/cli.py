@@ -194,7 +194,9 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
         progress.close()
         _fail(error)
     if as_json:
-        document = {"title": result.model.title, "model_sha256": result.model.sha256,
+        from .document import SCHEMA_VERSION
+
+        document = {"schema_version": SCHEMA_VERSION, "title": result.model.title, "model_sha256": result.model.sha256,
                     **explanation_document(explanations), "warnings": list(result.warnings)}
         click.echo(json.dumps(document, indent=2, allow_nan=False))
     else:

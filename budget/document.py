@@ -14,7 +14,11 @@ from .analysis import Result
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
 
-__all__ = ["result_document", "CAUTION", "dof_or_null"]
+__all__ = ["result_document", "certification_document", "CAUTION", "SCHEMA_VERSION",
+           "dof_or_null"]
+
+#: The layout version of every JSON document (``budget/schemas/*.schema.json``).
+SCHEMA_VERSION = "1"
 
 CAUTION = ("These results were computed by software from the model and data supplied. "
            "They must be reviewed and approved within the laboratory's quality system "
@@ -35,6 +39,7 @@ def result_document(result: Result) -> dict[str, Any]:
     matrix = simulation.output_correlation if simulation and simulation.trials else \
         result.budget.output_correlation
     return {
+        "schema_version": SCHEMA_VERSION,
         "title": model.title,
         "model_sha256": model.sha256,
         "coverage": result.budget.measurands[0].coverage_probability,
@@ -76,7 +81,7 @@ def _measurand(budget: MeasurandBudget, simulation: MeasurandSimulation | None
         "interval": list(budget.interval),
         "contributions": [_contribution(c) for c in budget.contributions],
         "correlation_terms": [{"inputs": list(t.inputs), "r": t.r, "variance": t.variance,
-                               "index": t.index} for t in budget.correlation_terms],
+                               "share": t.share} for t in budget.correlation_terms],
         "dof_rule": budget.dof_rule,
         "u_first_order": budget.first_order_uncertainty,
         "second_order_variance": budget.second_order_variance,
@@ -91,7 +96,7 @@ def _contribution(c: Any) -> dict[str, Any]:
     return {"input": c.input, "estimate": c.estimate, "unit": c.unit,
             "u": c.standard_uncertainty, "distribution": c.distribution, "type": c.type,
             "dof": dof_or_null(c.dof), "sensitivity": c.sensitivity,
-            "contribution": c.contribution, "index": c.index}
+            "contribution": c.contribution, "share": c.share}
 
 
 def _simulation(s: MeasurandSimulation) -> dict[str, Any]:
@@ -113,17 +118,18 @@ def certification_document(cert: Any) -> dict[str, Any]:
     campaign, char = cert.campaign, cert.characterization
     h, s = cert.homogeneity, cert.stability
     return {
+        "schema_version": SCHEMA_VERSION,
         "title": campaign.title,
         "unit": campaign.unit,
         "certified_value": cert.certified_value,
-        "u": cert.u,
-        "k": cert.k,
-        "U": cert.U,
+        "u": cert.standard_uncertainty,
+        "k": cert.coverage_factor,
+        "U": cert.expanded_uncertainty,
         "components": dict(cert.components),
         "characterization": {
             "runs": list(char.runs), "mean": char.mean, "s": char.s, "n": char.n,
-            "u_B": char.u_B, "u": char.u, "labels": list(char.labels),
-            "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.dof_B),
+            "u_B": char.model_uncertainty, "u": char.standard_uncertainty, "labels": list(char.labels),
+            "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.model_dof),
             "scatter_covers": list(campaign.scatter_covers),
             "budget": result_document(char.result)},
         "homogeneity": None if h is None else {
@@ -136,12 +142,13 @@ def certification_document(cert: Any) -> dict[str, Any]:
             "intercept": s.intercept, "t": s.t, "dof": s.dof, "shelf_life": s.shelf_life,
             "time_unit": s.time_unit or None},
         "comparisons": [{"label": c.label, "E_n": c.E_n, "zeta": c.zeta, "agrees": c.agrees,
-                         "value": c.value, "u": c.u, "U": c.U} for c in cert.comparisons],
+                         "value": c.estimate, "u": c.standard_uncertainty,
+                         "U": c.expanded_uncertainty} for c in cert.comparisons],
         "warnings": list(cert.warnings),
         "excluded": [{"file": e.file, "row": e.row, "column": e.column, "reason": e.reason}
                      for e in campaign.excluded],
         "material": campaign.material,
-        "coverage": cert.coverage,
+        "coverage": cert.coverage_probability,
         "dof": dof_or_null(cert.dof),
         "shares": cert.shares,
         "certificate": dict(campaign.certificate),

@@ -2,7 +2,7 @@
 
 Method:
 
-* ranking by the index 100·(c_i u_i)²/u_c² of the GUM budget (JCGM 100 5.1.3), Type A
+* ranking by the share 100·(c_i u_i)²/u_c² of the GUM budget (JCGM 100 5.1.3), Type A
   and Type B shares, the share of the correlation terms;
 * what-if: each leading input's uncertainty halved (or set to reach a target U) and the
   GUM budget evaluated again on the changed copy of the model — nothing is extrapolated;
@@ -35,15 +35,15 @@ __all__ = ["Driver", "SobolIndex", "Explanation", "explain", "render", "explanat
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Driver:
     input: str
-    index: float
+    share: float
     contribution: float
     distribution: str
     type: str
     standard_uncertainty: float
     unit: str
-    halved_U: float
-    needed_u: float | None = None
-    reached_U: float | None = None
+    halved_expanded_uncertainty: float
+    needed_standard_uncertainty: float | None = None
+    reached_expanded_uncertainty: float | None = None
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -51,7 +51,7 @@ class SobolIndex:
     input: str
     first_order: float
     standard_error: float
-    linear: float
+    linear_share: float  # the GUM budget's share of u_c², %
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -81,10 +81,10 @@ def explain(result: Result, *, target: float | None = None, leading: int = 3,
     coverage = result.budget.measurands[0].coverage_probability
     made = []
     for k, budget in enumerate(result.budget.measurands):
-        ranked = sorted(budget.contributions, key=lambda c: -c.index)
-        lead = [c for c in ranked if c.index >= 1.0][:leading] or ranked[:1]
+        ranked = sorted(budget.contributions, key=lambda c: -c.share)
+        lead = [c for c in ranked if c.share >= 1.0][:leading] or ranked[:1]
         drivers = tuple(_driver(model, k, budget, c, coverage, target) for c in lead)
-        others = tuple((c.input, c.index) for c in ranked[len(lead):] if c.index > 0)
+        others = tuple((c.input, c.share) for c in ranked[len(lead):] if c.share > 0)
         simulation = result.simulation.measurands[k] if result.simulation else None
         sobol, notes = _sobol(result, k, sobol_trials) if simulation else ((), ())
         made.append(Explanation(
@@ -93,8 +93,8 @@ def explain(result: Result, *, target: float | None = None, leading: int = 3,
             expanded_uncertainty=budget.expanded_uncertainty,
             coverage_factor=budget.coverage_factor, drivers=drivers, others=others,
             type_a_share=budget.type_a_share,
-            type_b_share=math.fsum(c.index for c in budget.contributions if c.type == "B"),
-            correlation_share=math.fsum(t.index for t in budget.correlation_terms),
+            type_b_share=math.fsum(c.share for c in budget.contributions if c.type == "B"),
+            correlation_share=math.fsum(t.share for t in budget.correlation_terms),
             validated=None if simulation is None or simulation.validation is None
             else simulation.validation.validated,
             reasons=_reasons(model, budget, simulation, ranked), sobol=sobol,
@@ -114,10 +114,11 @@ def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
             factor = needed / c.standard_uncertainty
             reached = propagate(model.with_uncertainty(c.input, factor),
                                 coverage).measurands[k].expanded_uncertainty
-    return Driver(input=c.input, index=c.index, contribution=c.contribution,
+    return Driver(input=c.input, share=c.share, contribution=c.contribution,
                   distribution=c.distribution, type=c.type,
                   standard_uncertainty=c.standard_uncertainty, unit=c.unit,
-                  halved_U=halved.expanded_uncertainty, needed_u=needed, reached_U=reached)
+                  halved_expanded_uncertainty=halved.expanded_uncertainty,
+                  needed_standard_uncertainty=needed, reached_expanded_uncertainty=reached)
 
 
 def _reasons(model: Model, budget: Any, simulation: Any, ranked: list) -> tuple[str, ...]:
@@ -137,15 +138,15 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list) -> tuple[
                    f"({format_number(gum_width, 3)} vs {format_number(mc_width, 3)} "
                    f"{budget.unit}; d_low = {format_number(v.d_low, 2)}, d_high = "
                    f"{format_number(v.d_high, 2)}, δ = {format_number(v.tolerance, 1)})")
-    if top.index >= 40 and not item.distribution.gaussian and item.distribution.name != "student_t":
+    if top.share >= 40 and not item.distribution.gaussian and item.distribution.name != "student_t":
         shape = "flatter" if item.distribution.name.startswith(("rectangular", "arcsine",
                                                                  "trapezoidal",
                                                                  "curvilinear")) else "other"
         reasons.append(f"a dominant non-Gaussian input: {top.input} ({top.distribution}) "
-                       f"carries {format_percent(top.index)} % of u_c², so the distribution "
+                       f"carries {format_percent(top.share)} % of u_c², so the distribution "
                        f"of {budget.name} is {'flatter than' if shape == 'flatter' else 'not'}"
                        " a Gaussian and k·u_c does not give the stated coverage")
-    if top.index >= 40 and math.isfinite(item.dof) and item.dof < 10:
+    if top.share >= 40 and math.isfinite(item.dof) and item.dof < 10:
         reasons.append(f"a dominant input with few degrees of freedom: {top.input} "
                        f"(ν = {item.dof:g}) is drawn from a t distribution with heavy tails")
     shift = abs(simulation.mean - budget.estimate)
@@ -192,12 +193,12 @@ def _sobol(result: Result, k: int, n: int) -> tuple[tuple[SobolIndex, ...], tupl
         terms = f_b * (f_ab - f_a)
         s_i = float(np.mean(terms)) / variance
         se = float(np.std(terms, ddof=1)) / math.sqrt(n) / variance
-        linear = budget.contributions[j].index / 100.0
+        linear = budget.contributions[j].share / 100.0
         indices.append(SobolIndex(input=item.name, first_order=s_i, standard_error=se,
-                                  linear=linear))
+                                  linear_share=100.0 * linear))
         if abs(s_i - linear) > max(0.05, 3 * se):
             notes.append(f"{item.name}: variance-based index {s_i:.2f} ± {se:.2f} differs "
-                         f"from the linear index {linear:.2f} (nonlinearity or interaction)")
+                         f"from the linear share {linear:.2f} of u_c² (nonlinearity or interaction)")
     indices.sort(key=lambda s: -s.first_order)
     return tuple(indices), tuple(notes)
 
@@ -212,10 +213,10 @@ def _text(e: Explanation, digits: int) -> str:
     value, expanded = format_pair(e.estimate, e.expanded_uncertainty, digits)
     lines = [f"{e.name} = ({value} ± {expanded}) {e.unit}  (k = {e.coverage_factor:.3g})", ""]
     first = e.drivers[0]
-    lines.append(f"1. {first.input} dominates: {format_percent(first.index)} % of u_c² "
+    lines.append(f"1. {first.input} dominates: {format_percent(first.share)} % of u_c² "
                  f"({first.distribution}, Type {first.type}).")
     for n, d in enumerate(e.drivers[1:], start=2):
-        lines.append(f"{n}. then {d.input}: {format_percent(d.index)} % ({d.distribution}, "
+        lines.append(f"{n}. then {d.input}: {format_percent(d.share)} % ({d.distribution}, "
                      f"Type {d.type}).")
     if e.others:
         rest = ", ".join(f"{name} {format_percent(share)} %" for name, share in e.others[:6])
@@ -228,7 +229,7 @@ def _text(e: Explanation, digits: int) -> str:
     lines += [f"  - {r}" for r in e.reasons]
     lines += ["", "What would reduce U:"]
     for d in e.drivers:
-        halved = format_pair(e.estimate, d.halved_U, digits)[1]
+        halved = format_pair(e.estimate, d.halved_expanded_uncertainty, digits)[1]
         lines.append(f"  - halving u({d.input}) gives U = {halved} {e.unit} (now {expanded})")
         if e.target is not None:
             lines.append("    " + _target_text(e, d, digits))
@@ -236,37 +237,38 @@ def _text(e: Explanation, digits: int) -> str:
         lines += ["", "Variance-based first-order indices (Saltelli et al. 2010), Monte Carlo:"]
         for s in e.sobol[:6]:
             lines.append(f"  - {s.input}: S = {s.first_order:.3f} ± {s.standard_error:.3f} "
-                         f"(linear index {s.linear:.3f})")
+                         f"(linear share {format_percent(s.linear_share)} %)")
     lines += [f"  note: {n}" for n in e.sobol_notes]
     return "\n".join(lines)
 
 
 def _target_text(e: Explanation, d: Driver, digits: int) -> str:
     target = format_pair(e.estimate, e.target, digits)[1]
-    if d.needed_u is None:
+    if d.needed_standard_uncertainty is None:
         return f"U = {target} {e.unit} cannot be reached by improving {d.input} alone"
-    reached = format_pair(e.estimate, d.reached_U, digits)[1]
-    return (f"for U = {target} {e.unit}: u({d.input}) ≤ {format_number(d.needed_u, 2)} "
+    reached = format_pair(e.estimate, d.reached_expanded_uncertainty, digits)[1]
+    return (f"for U = {target} {e.unit}: u({d.input}) ≤ {format_number(d.needed_standard_uncertainty, 2)} "
             f"{d.unit} (now {format_number(d.standard_uncertainty, 2)}; rerun gives U = "
             f"{reached})")
 
 
 def explanation_document(explanations: tuple[Explanation, ...]) -> dict[str, Any]:
     def driver(d: Driver) -> dict[str, Any]:
-        return {"input": d.input, "index": d.index, "contribution": d.contribution,
+        return {"input": d.input, "share": d.share, "contribution": d.contribution,
                 "distribution": d.distribution, "type": d.type, "u": d.standard_uncertainty,
-                "unit": d.unit, "U_if_halved": d.halved_U, "u_needed": d.needed_u,
-                "U_reached": d.reached_U}
+                "unit": d.unit, "U_if_halved": d.halved_expanded_uncertainty,
+                "u_needed": d.needed_standard_uncertainty,
+                "U_reached": d.reached_expanded_uncertainty}
 
     return {"measurands": [{
         "name": e.name, "unit": e.unit, "value": e.estimate, "u": e.combined_uncertainty,
         "U": e.expanded_uncertainty, "k": e.coverage_factor,
         "drivers": [driver(d) for d in e.drivers],
-        "others": [{"input": n, "index": s} for n, s in e.others],
+        "others": [{"input": n, "share": s} for n, s in e.others],
         "type_a_share": e.type_a_share, "type_b_share": e.type_b_share,
         "correlation_share": e.correlation_share, "validated": e.validated,
         "reasons": list(e.reasons), "target": e.target,
         "sobol": [{"input": s.input, "first_order": s.first_order,
-                   "standard_error": s.standard_error, "linear_index": s.linear}
+                   "standard_error": s.standard_error, "linear_share": s.linear_share}
                   for s in e.sobol],
         "sobol_notes": list(e.sobol_notes)} for e in explanations]}

@@ -6,9 +6,9 @@ Method:
 * u_c²(y) = Σ (c_i u_i)² + 2 Σ_{i<j} c_i c_j u_i u_j r_ij (GUM 5.1.2 and 5.2.2);
 * GUM 5.1.2 note: with ``second_order`` the higher-order terms of eq. (14) for
   uncorrelated inputs, Σ_ij [½(∂²f/∂x_i∂x_j)² + ∂f/∂x_i ∂³f/∂x_i∂x_j²] u_i² u_j²;
-* ν_eff by Welch–Satterthwaite, eq. (G.2b); the GUM's rule has no term for correlations,
-  so with correlated inputs the correlation terms count with infinite degrees of freedom
-  (stated in ``dof_rule``);
+* ν_eff by Welch–Satterthwaite, eq. (G.2b), over independent components: inputs
+  estimated together and groups of correlated inputs count as one component each
+  (``dof.py``; the rule applied is stated in ``dof_rule``);
 * k = t_p(ν) with ν_eff (rounded to 0.1) truncated to the next lower integer (GUM G.4.1
   note 1), or the
   normal quantile when ν_eff is infinite; U = k·u_c (GUM 6.2, G.6.4);
@@ -23,6 +23,7 @@ from typing import Any
 
 import numpy as np
 
+from .dof import Grouping, effective_dof, grouping
 from .errors import PropagationError
 from .model import Model
 
@@ -41,7 +42,7 @@ class Contribution:
     dof: float
     sensitivity: float
     contribution: float
-    index: float
+    share: float  # percentage of u_c²
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -49,7 +50,7 @@ class CorrelationTerm:
     inputs: tuple[str, str]
     r: float
     variance: float  # 2 c_i c_j u_i u_j r_ij, signed
-    index: float
+    share: float  # percentage of u_c²
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -76,17 +77,17 @@ class MeasurandBudget:
     @property
     def type_a_share(self) -> float:
         """Percentage of the uncorrelated variance that comes from Type A inputs."""
-        return math.fsum(c.index for c in self.contributions if c.type == "A")
+        return math.fsum(c.share for c in self.contributions if c.type == "A")
 
     def to_frame(self) -> Any:
         """The budget table as a pandas DataFrame, one row per input."""
         import pandas as pd
 
         rows = [{"input": c.input, "estimate": c.estimate, "unit": c.unit,
-                 "standard_uncertainty": c.standard_uncertainty,
+                 "u": c.standard_uncertainty,
                  "distribution": c.distribution, "type": c.type, "dof": c.dof,
                  "sensitivity": c.sensitivity, "contribution": c.contribution,
-                 "index": c.index} for c in self.contributions]
+                 "share": c.share} for c in self.contributions]
         return pd.DataFrame(rows).set_index("input")
 
 
@@ -141,12 +142,12 @@ def propagate(model: Model, coverage: float | None = None, *,
         raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}")
     values, jac = jacobian_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
-    dofs = np.array([i.dof for i in model.inputs])
+    groups = grouping(model)
     r = model.correlation_matrix()
     warnings: list[str] = list(model.warnings)
     extra = _second_order(model, second_order, warnings)
     budgets = tuple(
-        _one(model, k, float(values[k]), jac[k], u, dofs, r, coverage,
+        _one(model, k, float(values[k]), jac[k], u, groups, r, coverage,
              None if extra is None else float(extra[k]), warnings)
         for k in range(len(model.measurands)))
     covariance = jac @ (np.outer(u, u) * r) @ jac.T
@@ -158,7 +159,7 @@ def propagate(model: Model, coverage: float | None = None, *,
 
 
 def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
-         dofs: np.ndarray, r: np.ndarray, coverage: float, extra: float | None,
+         groups: Grouping, r: np.ndarray, coverage: float, extra: float | None,
          warnings: list[str]) -> MeasurandBudget:
     measurand = model.measurands[k]
     parts = c * u
@@ -169,11 +170,9 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
                                f"({first:.3g}); check the correlations")
     variance = first + (extra or 0.0)
     combined = math.sqrt(variance)
-    index = (100.0 * parts ** 2 / variance) if variance > 0 else np.zeros_like(parts)
-    nu = welch_satterthwaite(combined, np.abs(parts), dofs)
-    rule = "Welch-Satterthwaite, GUM eq. (G.2b)"
-    if terms:
-        rule += "; the correlation terms are taken with infinite degrees of freedom"
+    share = (100.0 * parts ** 2 / variance) if variance > 0 else np.zeros_like(parts)
+    nu, rule, notes = effective_dof(model, measurand.name, parts, combined, groups)
+    warnings.extend(notes)
     if extra:
         rule += "; the second-order terms are taken with infinite degrees of freedom"
     _warn(measurand.name, combined, nu, warnings)
@@ -183,11 +182,11 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
                      standard_uncertainty=i.standard_uncertainty,
                      distribution=i.distribution.name, type=i.type, dof=i.dof,
                      sensitivity=float(c[j]), contribution=float(abs(parts[j])),
-                     index=float(index[j]))
+                     share=float(share[j]))
         for j, i in enumerate(model.inputs))
     correlation_terms = tuple(
         CorrelationTerm(inputs=(a, b), r=rho, variance=v,
-                        index=100.0 * v / variance if variance > 0 else 0.0)
+                        share=100.0 * v / variance if variance > 0 else 0.0)
         for a, b, rho, v in terms)
     return MeasurandBudget(
         name=measurand.name, unit=measurand.unit, estimate=estimate,

@@ -27,13 +27,15 @@ from .expressions import Term, build, names_in, parse_expression
 from .statements import read_statement
 from .units import UnitInfo, dimension_text, parse_unit
 from . import correlations as corr
+from . import together
+from .together import Together
 
 __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model",
            "parse_model", "DEFAULT_SEED"]
 
 DEFAULT_SEED = 20260601
 _TOP_KEYS = ("title", "description", "measurands", "definitions", "inputs", "correlations",
-             "settings")
+             "estimated_together", "settings")
 _SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights")
 _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
@@ -100,6 +102,7 @@ class Model:
     measurands: tuple[Measurand, ...]
     correlations: tuple[tuple[str, str, float], ...]
     settings: Settings
+    estimated_together: tuple[Together, ...] = ()
     source: str = "<string>"
     sha256: str = ""
     warnings: tuple[str, ...] = field(default=())
@@ -204,11 +207,12 @@ class _Reader:
         measurands = self.measurands(terms)
         pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
                           self.where)
+        sets = together.read(self.doc.get(together.KEY, []), inputs, self.where)
         warnings = _unused_inputs(inputs, measurands)
         made = Model(title=title.strip(), description=str(self.doc.get("description", "")),
                      inputs=inputs, definitions=definitions, measurands=measurands,
-                     correlations=pairs, settings=settings, source=self.name, sha256=sha256,
-                     warnings=warnings)
+                     correlations=pairs, settings=settings, estimated_together=sets,
+                     source=self.name, sha256=sha256, warnings=warnings)
         from .plausibility import model_warnings
 
         return replace(made, warnings=warnings + model_warnings(made))

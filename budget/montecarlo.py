@@ -2,10 +2,12 @@
 
 Method:
 
-* 6.4: every input is drawn from its own distribution; correlated Gaussian inputs as one
-  multivariate Gaussian (6.4.8); correlated non-Gaussian inputs through a Gaussian copula
-  (a documented approximation, announced by a warning); inputs without an inverse
-  distribution function are refused when correlated.
+* 6.4: every input is drawn from its own distribution; an input with finite ν as a
+  scaled and shifted t (6.4.9); correlated Gaussian inputs as one multivariate Gaussian
+  (6.4.8); the inputs of an ``[[estimated_together]]`` set with finite ν as one
+  multivariate t with the set's ν (JCGM 102 6.5); other correlated non-Gaussian inputs
+  through a Gaussian copula (a documented approximation, announced by a warning);
+  inputs without an inverse distribution function are refused when correlated.
 * 7.2-7.6: M trials in blocks; block b draws from its own stream
   ``SeedSequence(seed, spawn_key=(b,))``, so the numbers depend on the seed and the model
   only, never on the chunk size or the number of threads; blocks are evaluated on both
@@ -70,7 +72,7 @@ class MeasurandSimulation:
     interval: tuple[float, float]
     shortest_interval: tuple[float, float]
     validation: Validation | None
-    samples: np.ndarray = field(repr=False, compare=False)  # the values, partially sorted
+    samples: np.ndarray = field(repr=False, compare=False)  # in trial order, joint
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -169,9 +171,9 @@ class _Sampler:
         self.program = compile_model(model)
         self.groups = _groups(model)
         self.warnings = _copula_warnings(model, self.groups)
-        matrix = model.correlation_matrix() if model.correlations else None
-        self.factors = {tuple(g): _factor(matrix[np.ix_(g, g)]) for g in self.groups
-                        if len(g) > 1}
+        self.factors = {key: _factor(matrix)
+                        for key, matrix in _group_matrices(model, self.groups).items()}
+        self.sets = _set_slots(model)
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
@@ -201,7 +203,7 @@ class _Sampler:
             else:
                 factor = self.factors[tuple(group)]
                 for slot, column in zip(group, _correlated(self.model, group, factor, rng,
-                                                           size)):
+                                                           size, self.sets)):
                     values[slot] = column
         return values
 
@@ -226,18 +228,42 @@ def _groups(model: Model) -> list[list[int]]:
             i = parent[i]
         return i
 
-    for a, b, _ in model.correlations:
-        parent[root(names.index(a))] = root(names.index(b))
+    index = {name: k for k, name in enumerate(names)}
+    links = [(a, b) for a, b, _ in model.correlations]
+    links += [(s.inputs[0], name) for s in model.estimated_together for name in s.inputs[1:]]
+    for a, b in links:
+        parent[root(index[a])] = root(index[b])
     groups: dict[int, list[int]] = {}
     for i in range(len(names)):
         groups.setdefault(root(i), []).append(i)
     return sorted(groups.values(), key=lambda g: g[0])
 
 
+def _group_matrices(model: Model, groups: list[list[int]]) -> dict[tuple, np.ndarray]:
+    """The correlation matrix of each group of inputs, in one pass over the pairs
+    (never the whole N × N matrix)."""
+    joint = [g for g in groups if len(g) > 1]
+    matrices = {tuple(g): np.eye(len(g)) for g in joint}
+    where = {model.inputs[slot].name: (tuple(g), j) for g in joint for j, slot in enumerate(g)}
+    for a, b, r in model.correlations:
+        key, i = where[a]
+        j = where[b][1]
+        matrices[key][i, j] = matrices[key][j, i] = r
+    return matrices
+
+
+def _set_slots(model: Model) -> dict[int, tuple[int, float]]:
+    """Input index → (number of its [[estimated_together]] set, the set's ν)."""
+    index = {item.name: k for k, item in enumerate(model.inputs)}
+    return {index[name]: (number, s.dof) for number, s in enumerate(model.estimated_together)
+            for name in s.inputs}
+
+
 def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
     warnings = []
+    in_sets = _set_slots(model)
     for group in (g for g in groups if len(g) > 1):
-        members = [model.inputs[i] for i in group]
+        members = [model.inputs[i] for i in group if i not in in_sets]
         odd = [i for i in members if not i.distribution.gaussian]
         refused = [i for i in odd if not i.distribution.has_ppf]
         if refused:
@@ -261,12 +287,24 @@ def _factor(r: np.ndarray) -> np.ndarray:
 
 
 def _correlated(model: Model, group: list[int], factor: np.ndarray,
-                rng: np.random.Generator, size: int) -> list[np.ndarray]:
+                rng: np.random.Generator, size: int,
+                sets: dict[int, tuple[int, float]]) -> list[np.ndarray]:
+    """One group of jointly drawn inputs: a multivariate Gaussian z with the group's
+    correlations (JCGM 101 6.4.8); the members of an [[estimated_together]] set with
+    finite ν share one χ²_ν draw w and are z·√(ν/w), a multivariate t (JCGM 102 6.5);
+    other non-Gaussian members go through the Gaussian copula of their own ppf."""
     z = rng.standard_normal((size, len(group))) @ factor.T
+    scales: dict[int, np.ndarray] = {}
+    for number, nu in sorted({sets[slot] for slot in group if slot in sets}):
+        if math.isfinite(nu):
+            scales[number] = np.sqrt(nu / rng.chisquare(nu, size))
     columns = []
     for j, slot in enumerate(group):
         item = model.inputs[slot]
-        if item.distribution.gaussian:
+        if slot in sets:
+            column = z[:, j] * scales[sets[slot][0]] if sets[slot][0] in scales else z[:, j]
+            columns.append(item.estimate + item.standard_uncertainty * column)
+        elif item.distribution.gaussian:
             columns.append(item.estimate + item.standard_uncertainty * z[:, j])
         else:
             from scipy.special import ndtr
@@ -485,7 +523,9 @@ def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: f
     mean = float(moments[1])
     sd = math.sqrt(float(moments[2]) / (moments[0] - 1))
     found = _from_tails(tails, y.size, coverage) if tails else None
-    interval, shortest = found or _intervals(y, coverage)  # partitions y in place
+    # the intervals partition a copy: ``samples`` keep the trial order, jointly with the
+    # other measurands (issue 10: sorting row by row destroyed their correlation)
+    interval, shortest = found or _intervals(y.copy(), coverage)
     validation = None
     if budget is not None:
         gum = budget.measurands[k]

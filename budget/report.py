@@ -83,9 +83,9 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
     simulation = result.simulation.measurands[k] if result.simulation else None
     digits = result.digits
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
-    chart_rows = [(c.input, c.index) for c in sorted(b.contributions, key=lambda c: -c.index)
-                  if c.index > 0]
-    chart_rows += [(f"r({t.inputs[0]}, {t.inputs[1]})", t.index) for t in b.correlation_terms]
+    chart_rows = [(c.input, c.share) for c in sorted(b.contributions, key=lambda c: -c.share)
+                  if c.share > 0]
+    chart_rows += [(f"r({t.inputs[0]}, {t.inputs[1]})", t.share) for t in b.correlation_terms]
     return {
         "name": b.name, "unit": b.unit, "description": measurand.description,
         "equation": measurand.equation,
@@ -94,7 +94,7 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "rows": [contribution_cells(c, digits) for c in b.contributions],
         "correlation_terms": [{"pair": f"{t.inputs[0]}, {t.inputs[1]}", "r": f"{t.r:g}",
                                "variance": format_number(t.variance, 3),
-                               "index": format_percent(t.index)} for t in b.correlation_terms],
+                               "share": format_percent(t.share)} for t in b.correlation_terms],
         "value": value, "u": u, "dof": format_dof(b.dof), "dof_rule": b.dof_rule,
         "k": f"{b.coverage_factor:.3f}", "U": format_pair(b.estimate, b.expanded_uncertainty,
                                                           digits)[1],

@@ -139,8 +139,9 @@ def _from_u(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Stateme
     estimate = table.number("value")
     u = table.number("u", positive=True)
     _no_keys(table, ("k", "level", "lower", "upper"), "to a stated standard uncertainty 'u'")
-    if shape == "normal":
-        made: Any = dist.Normal(estimate, u)
+    if shape == "normal":  # finite ν: a scaled and shifted t (JCGM 101 6.4.9)
+        made: Any = dist.Normal(estimate, u) if math.isinf(dof) else \
+            dist.StudentT(estimate, u, dof)
     elif shape == "student_t":
         if math.isinf(dof):
             raise InputError("expected 'dof' for a student_t distribution, found none",

@@ -20,7 +20,7 @@ SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
                       "student_t": "t", "exact": "exact",
                       "rectangular (atomic weights)": "atomic wts"}
 _HEAD = ("input", "estimate", "unit", "u(x)", "distribution", "type", "ν", "c",
-         "|c|·u(x)", "index %")
+         "|c|·u(x)", "share %")
 
 
 def render(result: Result) -> str:
@@ -49,7 +49,7 @@ def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None
 
 
 _CELLS = ("input", "estimate", "unit", "u", "distribution", "type", "dof", "sensitivity",
-          "contribution", "index")
+          "contribution", "share")
 
 
 def contribution_cells(c: Any, digits: int) -> dict[str, str]:
@@ -61,7 +61,7 @@ def contribution_cells(c: Any, digits: int) -> dict[str, str]:
             "type": c.type, "dof": format_dof(c.dof),
             "sensitivity": format_number(c.sensitivity, 4),
             "contribution": format_number(c.contribution, digits),
-            "index": format_percent(c.index)}
+            "share": format_percent(c.share)}
 
 
 def _rows(b: MeasurandBudget, digits: int) -> list[str]:
@@ -71,7 +71,7 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
         rows.append([cells[key] for key in _CELLS])
     for t in b.correlation_terms:
         rows.append([f"r({t.inputs[0]},{t.inputs[1]})", format_number(t.r, 3), "", "", "", "",
-                     "", "", "", format_percent(t.index)])
+                     "", "", "", format_percent(t.share)])
     widths = [min(max(len(r[i]) for r in rows), 14) for i in range(len(_HEAD))]
     bar_room = WIDTH - (sum(widths) + 2 * (len(widths) - 1)) - 2
     text = []
@@ -80,7 +80,7 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
                  enumerate(row)]
         line = "  ".join(cells)
         if n and bar_room >= 6 and n <= len(b.contributions):
-            line += "  " + _bar(b.contributions[n - 1].index, min(bar_room, 20))
+            line += "  " + _bar(b.contributions[n - 1].share, min(bar_room, 20))
         text.append(line.rstrip())
     text.insert(1, "-" * min(WIDTH, max(len(t) for t in text)))
     return text
@@ -92,8 +92,8 @@ def _fit(cell: str, width: int, right: bool) -> str:
     return cell.rjust(width) if right else cell.ljust(width)
 
 
-def _bar(index: float, width: int) -> str:
-    cells = max(0.0, min(100.0, index)) / 100.0 * width
+def _bar(share: float, width: int) -> str:
+    cells = max(0.0, min(100.0, share)) / 100.0 * width
     full = int(cells)
     return "█" * full + ("▌" if cells - full >= 0.5 else "")
 
@@ -153,21 +153,21 @@ def render_certification(cert: Any, digits: int = 2) -> str:
 
     campaign, char = cert.campaign, cert.characterization
     unit = campaign.unit
-    value, expanded = format_pair(cert.certified_value, cert.U, digits)
+    value, expanded = format_pair(cert.certified_value, cert.expanded_uncertainty, digits)
     lines = [campaign.title, "=" * min(WIDTH, len(campaign.title))]
     if campaign.material:
         lines.append(campaign.material)
-    lines += ["", f"certified value: ({value} ± {expanded}) {unit}, k = {cert.k:.3g}"
-              + (f", coverage probability {100 * cert.coverage:g} %" if cert.coverage else ""),
+    lines += ["", f"certified value: ({value} ± {expanded}) {unit}, k = {cert.coverage_factor:.3g}"
+              + (f", coverage probability {100 * cert.coverage_probability:g} %" if cert.coverage_probability else ""),
               "", "component                 u / " + unit + "      share of u_CRM²"]
     for name, u in cert.components:
         share = cert.shares[name]
         lines.append(f"{name.replace('_', ' '):24}  {format_number(u, digits):>10}    "
                      f"{format_percent(share):>6} %  {_bar(share, 20)}")
-    lines.append(f"{'u_CRM':24}  {format_number(cert.u, digits):>10}")
+    lines.append(f"{'u_CRM':24}  {format_number(cert.standard_uncertainty, digits):>10}")
     lines += ["", f"characterization: {char.n} runs, mean {format_number(char.mean, 8)}, "
-              f"s = {format_number(char.s, digits)}, u_B = {format_number(char.u_B, digits)},"
-              f" u_char = {format_number(char.u, digits)} {unit}"]
+              f"s = {format_number(char.s, digits)}, u_B = {format_number(char.model_uncertainty, digits)},"
+              f" u_char = {format_number(char.standard_uncertainty, digits)} {unit}"]
     if cert.homogeneity:
         h = cert.homogeneity
         lines.append(f"homogeneity: {len(h.units)} units, F = {h.F:.3g} (p = {h.p_value:.2g}),"

@@ -82,8 +82,9 @@ def test_en_and_zeta_scores(tmp_path):
     cert = certify(load_campaign(DEMO / "campaign.toml"), trials=0)
     char = cert.characterization
     score = cert.comparisons[0]
-    assert score.E_n == pytest.approx((char.mean - 99.978) / math.hypot(2 * char.u, 0.034))
-    assert score.zeta == pytest.approx((char.mean - 99.978) / math.hypot(char.u, 0.017))
+    u_char = char.standard_uncertainty
+    assert score.E_n == pytest.approx((char.mean - 99.978) / math.hypot(2 * u_char, 0.034))
+    assert score.zeta == pytest.approx((char.mean - 99.978) / math.hypot(u_char, 0.017))
     assert score.agrees
 
 
@@ -140,8 +141,8 @@ def test_scatter_covers_removes_an_input_from_u_b(tmp_path):
     budget = full.characterization.result.budget.measurands[0]
     removed = sum(c.contribution ** 2 for c in budget.contributions
                   if c.input in ("Q_post", "Q_pre"))
-    assert both.characterization.u_B == pytest.approx(
-        math.sqrt(full.characterization.u_B ** 2 - removed), rel=1e-9)
+    assert both.characterization.model_uncertainty == pytest.approx(
+        math.sqrt(full.characterization.model_uncertainty ** 2 - removed), rel=1e-9)
 
 
 @pytest.mark.parametrize("edit, csv, message", [
@@ -196,7 +197,7 @@ def test_missing_campaign_file(cli, tmp_path, monkeypatch):
 
 def test_certified_value_components_and_shares():
     cert = certify(load_campaign(DEMO / "campaign.toml"), trials=0)
-    assert cert.u == pytest.approx(math.sqrt(sum(u * u for _, u in cert.components)))
+    assert cert.standard_uncertainty == pytest.approx(math.sqrt(sum(u * u for _, u in cert.components)))
     assert sum(cert.shares.values()) == pytest.approx(100.0)
     with pytest.raises(CampaignError):
         load_campaign(DEMO / "coulometric-purity.toml")

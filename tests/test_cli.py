@@ -31,10 +31,10 @@ def test_run_json_document_has_the_contract_keys(cli):
                                  "M", "z", "F"}
     m = contribution["M"]
     assert {"input", "estimate", "unit", "u", "distribution", "type", "dof", "sensitivity",
-            "contribution", "index"} == set(m)
+            "contribution", "share"} == set(m)
     assert m["dof"] is None and m["type"] == "B"
     assert m["contribution"] == pytest.approx(abs(m["sensitivity"]) * m["u"])
-    assert m["index"] == pytest.approx(100 * m["contribution"] ** 2 / w["u"] ** 2)
+    assert m["share"] == pytest.approx(100 * m["contribution"] ** 2 / w["u"] ** 2)
     mc = w["monte_carlo"]
     assert mc["trials"] == 50000
     assert {"tolerance", "d_low", "d_high", "validated"} == set(mc["validation"])
@@ -173,4 +173,4 @@ def test_public_api_names_resolve():
         assert getattr(budget, name) is not None
     campaign = budget.load_campaign(MODELS / "vics-as-25a" / "campaign.toml")
     cert = budget.certify(campaign, trials=0)
-    assert budget.certification_document(cert)["U"] == pytest.approx(cert.U)
+    assert budget.certification_document(cert)["U"] == pytest.approx(cert.expanded_uncertainty)

@@ -18,7 +18,7 @@ DEMO = MODELS / "vics-as-25a" / "coulometric-purity.toml"
 
 def test_ranking_follows_the_json_indices(cli):
     code, stdout, _ = cli("run", str(DEMO), "--json", "--trials", "0")
-    indices = {c["input"]: c["index"] for c in json.loads(stdout)["measurands"][0]
+    indices = {c["input"]: c["share"] for c in json.loads(stdout)["measurands"][0]
                ["contributions"]}
     code, stdout, stderr = cli("explain", str(DEMO), "--json", "--trials", "0")
     assert code == 0
@@ -26,7 +26,7 @@ def test_ranking_follows_the_json_indices(cli):
     expected = sorted(indices, key=lambda name: -indices[name])[:len(drivers)]
     assert [d["input"] for d in drivers] == expected
     for d in drivers:
-        assert d["index"] == pytest.approx(indices[d["input"]])
+        assert d["share"] == pytest.approx(indices[d["input"]])
 
 
 def test_halving_matches_a_rerun_of_the_edited_file(cli, tmp_path):
@@ -67,7 +67,7 @@ def test_plain_language_answer(cli):
 
 
 def test_variance_based_indices_of_an_additive_model():
-    # for Y = X1 + 2 X2 with independent inputs, S_i equals the linear index exactly:
+    # for Y = X1 + 2 X2 with independent inputs, S_i equals the linear share exactly:
     # u1^2/(u1^2 + 4 u2^2) = 1/(1 + 4 * 0.25) = 0.5 [C]
     m = model("""
         title = "additive"
@@ -104,8 +104,8 @@ def test_interaction_shows_in_the_variance_based_indices():
     result = evaluate(m, trials=100_000)
     (e,) = explain(result, sobol_trials=1 << 16)
     x1 = next(s for s in e.sobol if s.input == "X1")
-    # V(Y) = 1 + 0.01; V[E(Y|X1)] = 0.01: S_1 = 0.01/1.01 [C]; the linear index is 100 %
+    # V(Y) = 1 + 0.01; V[E(Y|X1)] = 0.01: S_1 = 0.01/1.01 [C]; the linear share is 100 %
     assert x1.first_order == pytest.approx(0.01 / 1.01, abs=5 * x1.standard_error + 0.002)
-    assert x1.linear == pytest.approx(1.0)
+    assert x1.linear_share == pytest.approx(100.0)
     assert any(note.startswith("X1: variance-based index") for note in e.sobol_notes)
     assert not e.validated and any("nonlinearity" in r for r in e.reasons)

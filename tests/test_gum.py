@@ -81,10 +81,10 @@ def test_sensitivities_against_finite_differences_and_sympy():
         assert item.sensitivity == pytest.approx(exact, rel=1e-13)
 
 
-def test_correlation_terms_are_listed_and_indices_add_up():
+def test_correlation_terms_are_listed_and_shares_add_up():
     budget = propagate(model(_NONLINEAR)).measurand("y")
     assert [t.inputs for t in budget.correlation_terms] == [("a", "b"), ("b", "c")]
-    total = sum(c.index for c in budget.contributions) + sum(t.index for t in
+    total = sum(c.share for c in budget.contributions) + sum(t.share for t in
                                                              budget.correlation_terms)
     assert total == pytest.approx(100.0)
     assert "infinite degrees of freedom" in budget.dof_rule
@@ -104,7 +104,7 @@ def test_zero_first_order_uncertainty_does_not_break():
     budget = propagate(m).measurand("y")
     assert budget.combined_uncertainty == 0.0
     assert math.isinf(budget.dof)
-    assert [c.index for c in budget.contributions] == [0.0]
+    assert [c.share for c in budget.contributions] == [0.0]
     assert budget.expanded_uncertainty == 0.0
     assert propagate(m).warnings == ("'y': the combined standard uncertainty is zero to "
                                      "first order (try --second-order or Monte Carlo)",)
@@ -155,8 +155,8 @@ def test_low_effective_degrees_of_freedom_warns():
 def test_budget_as_dataframe():
     frame = propagate(model(_NONLINEAR)).measurand("y").to_frame()
     assert list(frame.index) == ["a", "b", "c"]
-    assert list(frame.columns) == ["estimate", "unit", "standard_uncertainty", "distribution",
-                                   "type", "dof", "sensitivity", "contribution", "index"]
+    assert list(frame.columns) == ["estimate", "unit", "u", "distribution",
+                                   "type", "dof", "sensitivity", "contribution", "share"]
 
 
 # -- invariants (Hypothesis) --------------------------------------------------------------

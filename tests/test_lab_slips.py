@@ -15,14 +15,13 @@ from typing import Callable
 
 import numpy as np
 import pytest
+from conftest import MODELS, model
 from scipy import stats
 
 from budget.campaign import load_campaign
 from budget.certification import anova, certify
 from budget.errors import BudgetError, CampaignError
 from budget.plausibility import AIR_DENSITY_VALIDITY
-
-from conftest import MODELS, model
 
 DEMO = MODELS / "vics-as-25a"
 FILES = ("coulometric-purity.toml", "determinations.csv", "homogeneity.csv", "stability.csv",
@@ -202,7 +201,7 @@ def test_homogeneity_and_stability_data_in_another_unit(tmp_path, demo):
         "u_short_term = 0.0005", "u_short_term = 0.000005").replace(
         "expanded = 0.034\n", 'expanded = 0.034\nunit = "%"\n')}
     cert = _certified(_copy(tmp_path, declared))
-    assert cert.U == pytest.approx(demo.U / 100, rel=1e-9)
+    assert cert.expanded_uncertainty == pytest.approx(demo.expanded_uncertainty / 100, rel=1e-9)
     assert cert.comparisons[0].E_n == pytest.approx(demo.comparisons[0].E_n, rel=1e-9)
     assert [w for w in _plausibility(cert) if "shelf life" not in w] == []
 
@@ -268,7 +267,7 @@ def test_semicolons_and_decimal_commas(tmp_path, demo):
                                                         "homogeneity.csv", "stability.csv")})
     cert = _certified(path)
     assert cert.certified_value == pytest.approx(demo.certified_value, rel=1e-15)
-    assert cert.U == pytest.approx(demo.U, rel=1e-12)
+    assert cert.expanded_uncertainty == pytest.approx(demo.expanded_uncertainty, rel=1e-12)
 
 
 @pytest.mark.parametrize("encoding", ["utf-8-sig", "utf-16", "cp1252"])

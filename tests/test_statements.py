@@ -48,8 +48,10 @@ def _input(body: str):
     # a rectangular stated by its standard uncertainty
     ('value = 1\ndistribution = "rectangular"\nu = 0.2', 0.2, math.inf, "rectangular"),
     ('value = 1\ndistribution = "student_t"\nu = 0.2\ndof = 4', 0.2, 4.0, "student_t"),
-    # GUM G.4.2: reliability 25 % gives nu = 8
-    ("value = 1\nu = 0.3\nreliability = 0.25", 0.3, 8.0, "normal"),
+    # GUM G.4.2: reliability 25 % gives nu = 8; a finite nu is drawn as a t with that nu
+    # (JCGM 101 6.4.9; issue 10 regression: it was drawn as a plain normal)
+    ("value = 1\nu = 0.3\nreliability = 0.25", 0.3, 8.0, "student_t"),
+    ("value = 1\nu = 0.3\ndof = 6", 0.3, 6.0, "student_t"),
     ("value = 1\nexact = true", 0.0, math.inf, "exact"),
     ('constant = "N_A"', 0.0, math.inf, "exact"),
 ])
