@@ -1,7 +1,8 @@
 """budget: measurement-uncertainty budgets to the GUM (JCGM 100), cross-checked by the
 Monte Carlo method (JCGM 101), for the certification of reference materials.
 
-The public API; every name is loaded on first use so that the command line starts fast::
+The public API; every name is loaded on first use so that the command line starts fast
+(type checkers see the imports below, the interpreter does not run them)::
 
     import budget
     model = budget.load_model("models/vics-as-25a/coulometric-purity.toml")
@@ -12,7 +13,27 @@ The public API; every name is loaded on first use so that the command line start
 from __future__ import annotations
 
 from importlib import import_module
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:  # the same names, eagerly, for type checkers only
+    from .analysis import Result as Result, evaluate as evaluate
+    from .campaign import Campaign as Campaign, load_campaign as load_campaign
+    from .certification import Certification as Certification, certify as certify
+    from .chemistry import air_density as air_density, molar_mass as molar_mass
+    from .document import (certification_document as certification_document,
+                           result_document as result_document)
+    from .errors import BudgetError as BudgetError, Location as Location
+    from .explain import explain as explain
+    from .gum import (Budget as Budget, Contribution as Contribution,
+                      MeasurandBudget as MeasurandBudget, propagate as propagate)
+    from .model import (Input as Input, Measurand as Measurand, Model as Model,
+                        load_model as load_model, parse_model as parse_model)
+    from .montecarlo import (MeasurandSimulation as MeasurandSimulation,
+                             Simulation as Simulation, simulate as simulate)
+    from .report import (render_certification_report as render_certification_report,
+                         render_report as render_report)
+
+__version__ = "0.2.0"
 
 __all__ = [
     "BudgetError", "Location", "Model", "Input", "Measurand", "load_model", "parse_model",
@@ -20,6 +41,7 @@ __all__ = [
     "MeasurandSimulation", "simulate", "Result", "evaluate", "result_document",
     "molar_mass", "air_density", "load_campaign", "Campaign", "certify", "Certification",
     "certification_document", "explain", "render_report", "render_certification_report",
+    "__version__",
 ]
 
 _WHERE = {

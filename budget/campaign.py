@@ -20,13 +20,14 @@ from .errors import CampaignError, Location, did_you_mean
 from .model import LineIndex, Model, decode, load_model, read_toml
 from .studydata import Exclusion, Runs
 
-__all__ = ["Campaign", "Comparison", "load_campaign"]
+__all__ = ["Campaign", "Comparison", "load_campaign", "read_runs_file"]
 
 _TOP = ("title", "material", "unit", "description", "producer", "characterization",
-        "homogeneity", "stability", "comparison", "certificate")
+        "homogeneity", "stability", "comparison", "certificate",
+        "method", "shared", "combination")  # the last three: methods.py
 _SECTIONS = {
-    "characterization": ("model", "measurand", "runs", "scatter_covers", "estimate_factor",
-                         *FORMAT_KEYS),
+    "characterization": ("model", "measurand", "runs", "scatter_covers", "label",
+                         "estimate_factor", *FORMAT_KEYS),
     "homogeneity": ("data", "value_unit", *FORMAT_KEYS),
     "stability": ("data", "shelf_life", "u_short_term", "value_unit", "time_unit",
                   "time_origin", *FORMAT_KEYS),
@@ -63,15 +64,19 @@ class Campaign:
     coverage: float | None
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
+    data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
+    method_label: str = "characterization"
+    methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
     time_unit: str = ""
     excluded: tuple[Exclusion, ...] = field(default=())
     warnings: tuple[str, ...] = field(default=())
 
 
 class _Reader:
-    def __init__(self, path: Path, text: str, document: dict) -> None:
+    def __init__(self, path: Path, text: str, document: dict[str, Any]) -> None:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
+        self.files: list[tuple[str, str, str]] = []
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -81,7 +86,7 @@ class _Reader:
              nth: int = 0) -> CampaignError:
         return CampaignError(message, self.where(table, key, nth))
 
-    def section(self, name: str, required: bool) -> dict | None:
+    def section(self, name: str, required: bool) -> dict[str, Any] | None:
         value = self.doc.get(name)
         if value is None:
             if required:
@@ -92,20 +97,20 @@ class _Reader:
         self.known(value, name, _SECTIONS[name])
         return value
 
-    def known(self, data: dict, table: str, keys: tuple[str, ...], nth: int = 0) -> None:
+    def known(self, data: dict[str, Any], table: str, keys: tuple[str, ...], nth: int = 0) -> None:
         for key in data:
             if key not in keys:
                 raise self.fail(f"unknown key '{key}'{did_you_mean(key, keys)}; expected one "
                                 f"of {', '.join(keys)}", table, key, nth)
 
-    def text(self, data: dict, key: str, table: str | None, nth: int = 0) -> str:
+    def text(self, data: dict[str, Any], key: str, table: str | None, nth: int = 0) -> str:
         value = data.get(key)
         if not isinstance(value, str) or not value.strip():
             found = "none" if value is None else repr(value)
             raise self.fail(f"expected a '{key}' string, found {found}", table, key, nth)
         return value.strip()
 
-    def number(self, data: dict, key: str, table: str, *, positive: bool = False,
+    def number(self, data: dict[str, Any], key: str, table: str, *, positive: bool = False,
                nth: int = 0, default: float | None = None) -> float:
         value = data.get(key, default)
         if value is None:
@@ -119,12 +124,20 @@ class _Reader:
             raise self.fail(f"expected a number ≥ 0, found {value:g}", table, key, nth)
         return float(value)
 
-    def file(self, data: dict, key: str, table: str) -> Path:
+    def file(self, data: dict[str, Any], key: str, table: str) -> Path:
         relative = self.text(data, key, table)
         path = (self.path.parent / relative)
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
+        import hashlib
+
+        try:
+            digest = hashlib.sha256(path.read_bytes()).hexdigest()
+        except OSError as exc:
+            raise self.fail(f"expected a readable file '{relative}', found {exc.strerror}",
+                            table, key) from exc
+        self.files.append((f"{table}.{key}", str(path), digest))
         return path
 
 
@@ -153,7 +166,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
                          f"one of {', '.join(_TOP)}", None, key)
     title = r.text(r.doc, "title", None)
     unit = r.text(r.doc, "unit", None)
-    char: dict = r.section("characterization", True) or {}
+    char = r.section("characterization", True) or {}
     model = load_model(r.file(char, "model", "characterization"))
     measurand = r.text(char, "measurand", "characterization")
     names = [m.name for m in model.measurands]
@@ -162,8 +175,16 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
                      f"'{measurand}'{did_you_mean(measurand, names)}", "characterization",
                      "measurand")
     runs = _runs(r, char, model)
+    run_inputs = runs.names
     covers = _covers(r, char, model)
     warnings = _run_warnings(r, char, model, runs)
+    from .methods import check_primary_references, read_methods
+
+    label = r.text(char, "label", "characterization") if "label" in char \
+        else "characterization"
+    plan = read_methods(r, label)
+    if plan is not None:
+        check_primary_references(r, plan, model, run_inputs)
     homogeneity, excluded = _homogeneity(r, unit)
     stability_section = r.section("stability", False)
     stability, time_unit, shelf, more = _stability(r, stability_section, unit, warnings)
@@ -173,35 +194,44 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     k, coverage, fields = _certificate(r)
     return Campaign(
         title=title, material=str(r.doc.get("material", "")), unit=unit, source=r.name,
-        sha256=sha256, model=model, measurand=measurand, runs=runs,
-        run_inputs=runs.names, scatter_covers=covers, homogeneity=homogeneity,
-        stability=stability, shelf_life=shelf, u_short_term=u_sts,
-        comparisons=_comparisons(r, unit), k=k, coverage=coverage, certificate=fields,
+        sha256=sha256, model=model, measurand=measurand, runs=runs, run_inputs=run_inputs,
+        scatter_covers=covers, homogeneity=homogeneity, stability=stability,
+        shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r, unit), k=k,
+        coverage=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
                     if key in r.doc),
-        time_unit=time_unit, excluded=excluded + more, warnings=tuple(warnings))
+        data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
+        method_label=label, methods=plan, time_unit=time_unit, excluded=excluded + more,
+        warnings=tuple(warnings))
 
 
-def _format(r: _Reader, data: dict, table: str) -> FileFormat:
+def _format(r: _Reader, data: dict[str, Any], table: str) -> FileFormat:
     return parse_declared_format(data, lambda message, key: r.fail(message, table, key))
 
 
-def _runs(r: _Reader, char: dict, model: Model) -> Runs:
+def _runs(r: _Reader, char: dict[str, Any], model: Model) -> Runs:
+    path = r.file(char, "runs", "characterization")
+    return read_runs_file(r, path, _format(r, char, "characterization"), model,
+                          "characterization")
+
+
+def read_runs_file(r: _Reader, path: Path, fmt: FileFormat, model: Model, table: str,
+                   nth: int = 0) -> Runs:
+    """A runs table whose input columns are converted into the model inputs' units."""
     from .studydata import read_runs
 
-    path = r.file(char, "runs", "characterization")
-    runs = read_runs(path, _format(r, char, "characterization"), model, str(path))
+    runs = read_runs(path, fmt, model, str(path))
     if not runs.inputs:
         raise r.fail(f"expected columns named like inputs of the model in '{path.name}', "
-                     "found none", "characterization", "runs")
+                     "found none", table, "runs", nth)
     for name in runs.names:
         if model.input(name).molar_mass is not None:
             raise r.fail(f"expected run columns for measured inputs, found '{name}', which "
-                         "a formula gives", "characterization", "runs")
+                         "a formula gives", table, "runs", nth)
     return runs
 
 
-def _run_warnings(r: _Reader, char: dict, model: Model, runs: Runs) -> list[str]:
+def _run_warnings(r: _Reader, char: dict[str, Any], model: Model, runs: Runs) -> list[str]:
     """Plausibility of each run: input estimates near the model's, air density in range."""
     from .plausibility import DEFAULT_ESTIMATE_FACTOR, air_density_warnings, estimate_warnings
 
@@ -219,12 +249,12 @@ def _run_warnings(r: _Reader, char: dict, model: Model, runs: Runs) -> list[str]
     return found
 
 
-def _estimate_factors(r: _Reader, char: dict, names: tuple[str, ...], default: float
+def _estimate_factors(r: _Reader, char: dict[str, Any], names: tuple[str, ...], default: float
                       ) -> dict[str, float]:
     given = char.get("estimate_factor", default)
     table = given if isinstance(given, dict) else {"default": given}
     factors = {"default": default}
-    for key, value in table.items():
+    for key in table:
         if key != "default" and key not in names:
             raise r.fail(f"expected a run column or 'default', found '{key}'"
                          f"{did_you_mean(key, names)}", "characterization", "estimate_factor")
@@ -236,7 +266,7 @@ def _estimate_factors(r: _Reader, char: dict, names: tuple[str, ...], default: f
     return factors
 
 
-def _covers(r: _Reader, char: dict, model: Model) -> tuple[str, ...]:
+def _covers(r: _Reader, char: dict[str, Any], model: Model) -> tuple[str, ...]:
     covers = char.get("scatter_covers", [])
     names = [i.name for i in model.inputs]
     if not isinstance(covers, list) or not all(isinstance(c, str) for c in covers):
@@ -249,7 +279,7 @@ def _covers(r: _Reader, char: dict, model: Model) -> tuple[str, ...]:
     return tuple(covers)
 
 
-def _optional_unit(r: _Reader, data: dict, key: str, table: str) -> str | None:
+def _optional_unit(r: _Reader, data: dict[str, Any], key: str, table: str) -> str | None:
     if key not in data:
         return None
     from .units import parse_unit
@@ -281,7 +311,7 @@ def _homogeneity(r: _Reader, unit: str) -> tuple[tuple[tuple[str, np.ndarray], .
     return groups, excluded
 
 
-def _stability(r: _Reader, section: dict | None, unit: str, warnings: list[str]
+def _stability(r: _Reader, section: dict[str, Any] | None, unit: str, warnings: list[str]
                ) -> tuple[tuple[np.ndarray, np.ndarray] | None, str, float,
                           tuple[Exclusion, ...]]:
     from .plausibility import shelf_life_warning
@@ -321,7 +351,7 @@ def _shelf_unit(r: _Reader, text: str) -> str:
     return found.group(1).strip()
 
 
-def _shelf_life(r: _Reader, section: dict, time_unit: str) -> float:
+def _shelf_life(r: _Reader, section: dict[str, Any], time_unit: str) -> float:
     value = section.get("shelf_life")
     if not isinstance(value, str):
         return r.number(section, "shelf_life", "stability", positive=True)
@@ -338,7 +368,7 @@ def _shelf_life(r: _Reader, section: dict, time_unit: str) -> float:
                          column="shelf_life")[0])
 
 
-def _origin(r: _Reader, section: dict) -> Any:
+def _origin(r: _Reader, section: dict[str, Any]) -> Any:
     from datetime import date, datetime
 
     value = section.get("time_origin")
@@ -387,7 +417,7 @@ def _comparisons(r: _Reader, unit: str) -> tuple[Comparison, ...]:
     return tuple(made)
 
 
-def _comparison_scale(r: _Reader, entry: dict, unit: str, nth: int) -> float:
+def _comparison_scale(r: _Reader, entry: dict[str, Any], unit: str, nth: int) -> float:
     """The factor from the comparison's declared unit to the certified value's unit."""
     if "unit" not in entry:
         return 1.0
@@ -403,7 +433,7 @@ def _comparison_scale(r: _Reader, entry: dict, unit: str, nth: int) -> float:
     return float(given.factor / wanted.factor)
 
 
-def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple]:
+def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...]]:
     data = r.doc.get("certificate", {})
     if not isinstance(data, dict):
         raise r.fail(f"expected a table [certificate], found {data!r}", None, "certificate")

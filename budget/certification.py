@@ -24,18 +24,20 @@ report or the command line.
 
 from __future__ import annotations
 
+import datetime as dt
 import math
 from dataclasses import dataclass, field, replace
-from typing import Callable
+from typing import Any, Callable
 
 import numpy as np
 
 from .analysis import Result, evaluate
-from .campaign import Campaign
-from .errors import CampaignError, Location
+from .campaign import Campaign, Comparison
+from .errors import BudgetError, CampaignError, Location
 from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
 from .model import Model
+from .register import date_warnings, read_date
 from .studydata import time_words
 from .units import parse_unit
 
@@ -116,6 +118,8 @@ class Certification:
     stability: Stability | None
     comparisons: tuple[ComparisonScore, ...]
     warnings: tuple[str, ...] = ()
+    run_dates: tuple[dt.date, ...] = ()  # the measurement dates of the runs, if given
+    methods: Any = None  # intercomparison.MethodsResult when the campaign has several
 
     @property
     def shares(self) -> dict[str, float]:
@@ -173,7 +177,16 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
             progress: Callable[[int, int], None] | None = None) -> Certification:
     """The certified value, its uncertainty budget and the comparisons."""
     warnings: list[str] = []
+    days = _run_dates(campaign)
+    warnings.extend(date_warnings(campaign.model.certificates, days,
+                                  " (a date of the runs)"))
     char = _characterize(campaign, trials, seed, progress, warnings)
+    methods, value_from = None, char
+    if campaign.methods is not None:
+        from .intercomparison import characterization_value, evaluate_methods
+
+        methods = evaluate_methods(campaign, char, trials, seed, warnings)
+        value_from = characterization_value(char, methods)
     homogeneity = None
     if campaign.homogeneity is not None:
         homogeneity = anova([v for _, v in campaign.homogeneity],
@@ -195,8 +208,28 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     else:
         warnings.append("no stability study: u_lts and u_sts are taken as 0")
     warnings.extend(campaign.warnings)
-    warnings.extend(study_warnings(campaign, char, homogeneity, stability))
-    return _certified(campaign, char, homogeneity, stability, warnings)
+    warnings.extend(study_warnings(campaign, value_from, homogeneity, stability))
+    cert = replace(_certified(campaign, value_from, homogeneity, stability, warnings),
+                   run_dates=days)
+    return cert if methods is None else replace(cert, characterization=char, methods=methods)
+
+
+def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:
+    """The dates in the runs table's ``date`` column (ISO 8601), if it has one."""
+    labels = dict(campaign.runs.labels)
+    if "date" not in labels:
+        return campaign.model.measured
+    days = []
+    for row, cell in zip(campaign.runs.rows, labels["date"]):
+        where = Location(file=campaign.source, table="characterization", key="runs")
+        try:
+            days.append(read_date(str(cell), where))
+        except BudgetError as exc:
+            path = next((p for role, p, _ in campaign.data_files
+                         if role == "characterization.runs"), campaign.source)
+            raise CampaignError(f"column 'date': expected a date such as 2025-05-06, found "
+                                f"'{cell}'", Location(file=path, line=row)) from exc
+    return tuple(days)
 
 
 def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogeneity | None,
@@ -209,7 +242,8 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
     dofs = np.array([char.dof, homogeneity.dof_between if homogeneity else math.inf,
                      stability.dof if stability else math.inf, math.inf], dtype=float)
     nu = welch_satterthwaite(u, np.array([c for _, c in components]), dofs)
-    k = campaign.k if campaign.k is not None else coverage_factor(campaign.coverage, nu)
+    k = campaign.k if campaign.k is not None else \
+        coverage_factor(campaign.coverage or 0.95, nu)  # the campaign gives one of them
     scores = tuple(_score(c, char, k) for c in campaign.comparisons)
     for s in scores:
         if not s.agrees:
@@ -223,7 +257,7 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
                          warnings=tuple(dict.fromkeys([*char.result.warnings, *warnings])))
 
 
-def _score(comparison, char: Characterization, k: float) -> ComparisonScore:
+def _score(comparison: Comparison, char: Characterization, k: float) -> ComparisonScore:
     difference = char.mean - comparison.estimate
     e_n = difference / math.hypot(k * char.standard_uncertainty, comparison.expanded_uncertainty)
     zeta = difference / math.hypot(char.standard_uncertainty, comparison.standard_uncertainty)

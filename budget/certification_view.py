@@ -5,7 +5,7 @@ least-squares line, ŷ(t) ± t_0.975(n−2)·s·√(1/n + (t − t̄)²/S_tt) (c
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import Any, Callable
 
 import numpy as np
 
@@ -24,7 +24,7 @@ def certification_view(cert: Any) -> dict[str, Any]:
     digits = campaign.model.settings.digits
     unit = campaign.unit
     value, expanded = format_pair(cert.certified_value, cert.expanded_uncertainty, digits)
-    rounded = lambda x: format_number(x, digits)  # noqa: E731
+    rounded: Callable[[float], str] = lambda x: format_number(x, digits)  # noqa: E731
     return {
         "title": campaign.title, "material": campaign.material, "unit": unit,
         "extra": list(campaign.extra),
@@ -112,8 +112,9 @@ def _comparisons(cert: Any, unit: str, digits: int) -> dict[str, Any] | None:
     rows = [("this characterization", char.mean,
              cert.coverage_factor * char.standard_uncertainty)]
     rows += [(c.label, c.estimate, c.expanded_uncertainty) for c in cert.comparisons]
-    return {"rows": [{"label": c.label, "value": format_pair(c.estimate, c.expanded_uncertainty, digits)[0],
-                      "U": format_pair(c.estimate, c.expanded_uncertainty, digits)[1], "E_n": f"{c.E_n:.2f}",
-                      "zeta": f"{c.zeta:.2f}", "agrees": c.agrees} for c in cert.comparisons],
+    shown = [format_pair(c.estimate, c.expanded_uncertainty, digits) for c in cert.comparisons]
+    return {"rows": [{"label": c.label, "value": value, "U": expanded, "E_n": f"{c.E_n:.2f}",
+                      "zeta": f"{c.zeta:.2f}", "agrees": c.agrees}
+                     for c, (value, expanded) in zip(cert.comparisons, shown)],
             "chart": points_with_bars(rows, centre=None, unit=unit,
                                       label="comparison with independent results (± U)")}

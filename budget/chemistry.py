@@ -174,7 +174,8 @@ def _parse_group(text: str, formula: str, where: Location) -> dict[str, int]:
             stack[-1][element] = stack[-1].get(element, 0) + 1
             last = element
         elif digits:
-            last = _multiply(stack[-1], last, int(digits), formula, where)
+            _multiply(stack[-1], last, int(digits), formula, where)
+            last = None
         elif opening:
             stack.append({})
             closers.append({"(": ")", "[": "]", "{": "}"}[opening])

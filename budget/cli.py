@@ -3,7 +3,8 @@
 Exit status: 0 success; 1 a model or input error (one ``error:`` line naming the file and
 where in it, no traceback); 2 a bad command line (click's usage errors); 3 with
 ``--strict``, when there is any warning (nothing is printed on standard output and no
-file is written). Warnings go to standard error as ``warning:`` lines. The engine is imported inside the commands, so
+file is written). Warnings go to standard error as ``warning:`` lines. The engine is
+imported inside the commands, so
 ``budget --help`` starts without loading sympy, scipy, pint or pandas.
 """
 
@@ -196,7 +197,8 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
     if as_json:
         from .document import SCHEMA_VERSION
 
-        document = {"schema_version": SCHEMA_VERSION, "title": result.model.title, "model_sha256": result.model.sha256,
+        document = {"schema_version": SCHEMA_VERSION, "title": result.model.title,
+                    "model_sha256": result.model.sha256,
                     **explanation_document(explanations), "warnings": list(result.warnings)}
         click.echo(json.dumps(document, indent=2, allow_nan=False))
     else:

@@ -29,7 +29,7 @@ def read(entries: Any, names: Sequence[str],
     pairs: list[tuple[str, str, float]] = []
     seen: set[frozenset[str]] = set()
     for index, entry in enumerate(entries):
-        here = lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
+        here: Callable[..., Location] = lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
         pair = _one(entry, names, here, index)
         key = frozenset(pair[:2])
         if key in seen:

@@ -65,7 +65,8 @@ class Normal:
     def ppf(self, p: np.ndarray) -> np.ndarray:
         from scipy.special import ndtri
 
-        return self.estimate + self.sd * ndtri(p)
+        result: np.ndarray = self.estimate + self.sd * ndtri(p)
+        return result
 
 
 @dataclass(frozen=True, slots=True)
@@ -114,7 +115,8 @@ class Triangular:
         p = np.asarray(p, dtype=float)
         low = np.sqrt(2.0 * np.minimum(p, 0.5)) - 1.0
         high = 1.0 - np.sqrt(2.0 * (1.0 - np.maximum(p, 0.5)))
-        return self.estimate + self.half_width * np.where(p < 0.5, low, high)
+        result: np.ndarray = self.estimate + self.half_width * np.where(p < 0.5, low, high)
+        return result
 
 
 @dataclass(frozen=True, slots=True)
@@ -177,7 +179,8 @@ class Trapezoidal:
             in_top = -beta + (q - ramp_p) * (1.0 + beta)
         x = np.where(q < ramp_p, in_ramp, in_top)
         x = np.where(p > 0.5, -x, x)
-        return self.estimate + self.half_width * x
+        result: np.ndarray = self.estimate + self.half_width * x
+        return result
 
 
 @dataclass(frozen=True, slots=True)
@@ -230,7 +233,8 @@ class StudentT:
     def ppf(self, p: np.ndarray) -> np.ndarray:
         from scipy.special import stdtrit
 
-        return self.estimate + self.scale * stdtrit(self.dof, p)
+        result: np.ndarray = self.estimate + self.scale * stdtrit(self.dof, p)
+        return result
 
 
 @dataclass(frozen=True, slots=True)

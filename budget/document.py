@@ -13,6 +13,7 @@ from typing import Any
 from .analysis import Result
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
+from .register import certificates_document, traceability_statement
 
 __all__ = ["result_document", "certification_document", "CAUTION", "SCHEMA_VERSION",
            "dof_or_null"]
@@ -41,7 +42,7 @@ def result_document(result: Result) -> dict[str, Any]:
     return {
         "schema_version": SCHEMA_VERSION,
         "title": model.title,
-        "model_sha256": model.sha256,
+        "model_sha256": model.sha256 or None,
         "coverage": result.budget.measurands[0].coverage_probability,
         "seed": seed,
         "measurands": [
@@ -56,6 +57,7 @@ def result_document(result: Result) -> dict[str, Any]:
                                       for j, b in enumerate(names)}
                                   for i, a in enumerate(names)},
         "warnings": list(result.warnings),
+        "certificates": certificates_document(model, model.measured),
         "digits": result.digits,
         "atomic_weights": _convention(result),
         "provenance": provenance.describe(model, simulation),
@@ -117,7 +119,7 @@ def certification_document(cert: Any) -> dict[str, Any]:
 
     campaign, char = cert.campaign, cert.characterization
     h, s = cert.homogeneity, cert.stability
-    return {
+    document = {
         "schema_version": SCHEMA_VERSION,
         "title": campaign.title,
         "unit": campaign.unit,
@@ -128,7 +130,8 @@ def certification_document(cert: Any) -> dict[str, Any]:
         "components": dict(cert.components),
         "characterization": {
             "runs": list(char.runs), "mean": char.mean, "s": char.s, "n": char.n,
-            "u_B": char.model_uncertainty, "u": char.standard_uncertainty, "labels": list(char.labels),
+            "u_B": char.model_uncertainty, "u": char.standard_uncertainty,
+            "labels": list(char.labels),
             "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.model_dof),
             "scatter_covers": list(campaign.scatter_covers),
             "budget": result_document(char.result)},
@@ -153,6 +156,18 @@ def certification_document(cert: Any) -> dict[str, Any]:
         "shares": cert.shares,
         "certificate": dict(campaign.certificate),
         "provenance": {**provenance.describe(campaign.model, char.result.simulation),
-                       "campaign_file": campaign.source, "campaign_sha256": campaign.sha256},
+                       "campaign_file": campaign.source, "campaign_sha256": campaign.sha256,
+                       "files": [{"role": "campaign", "path": campaign.source,
+                                  "sha256": campaign.sha256},
+                                 *provenance.files(campaign.model),
+                                 *({"role": role, "path": path, "sha256": digest}
+                                   for role, path, digest in campaign.data_files)]},
+        "certificates": certificates_document(campaign.model, cert.run_dates),
+        "traceability_generated": traceability_statement(campaign.model.certificates),
         "caution": CAUTION,
     }
+    if cert.methods is not None:  # several methods (methods_output.py)
+        from .methods_output import methods_document
+
+        document["methods"] = methods_document(cert.methods)
+    return document

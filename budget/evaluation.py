@@ -84,7 +84,7 @@ def second_order_variances(model: Model) -> np.ndarray:
     return np.array(result)
 
 
-def _at(expr: Any, point: dict) -> float:
+def _at(expr: Any, point: dict[str, Any]) -> float:
     if expr == 0:
         return 0.0
     value = complex(expr.xreplace(point).evalf())

@@ -121,7 +121,7 @@ def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
                   needed_standard_uncertainty=needed, reached_expanded_uncertainty=reached)
 
 
-def _reasons(model: Model, budget: Any, simulation: Any, ranked: list) -> tuple[str, ...]:
+def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> tuple[str, ...]:
     if simulation is None or simulation.validation is None:
         return ("no Monte Carlo run (trials = 0): the linear approximation was not checked",)
     v = simulation.validation
@@ -146,7 +146,8 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list) -> tuple[
                        f"carries {format_percent(top.share)} % of u_c², so the distribution "
                        f"of {budget.name} is {'flatter than' if shape == 'flatter' else 'not'}"
                        " a Gaussian and k·u_c does not give the stated coverage")
-    if top.share >= 40 and math.isfinite(item.dof) and item.dof < 10:
+    if (top.share >= 40 and math.isfinite(item.dof) and item.dof < 10
+            and item.distribution.name == "student_t"):
         reasons.append(f"a dominant input with few degrees of freedom: {top.input} "
                        f"(ν = {item.dof:g}) is drawn from a t distribution with heavy tails")
     shift = abs(simulation.mean - budget.estimate)
@@ -198,7 +199,8 @@ def _sobol(result: Result, k: int, n: int) -> tuple[tuple[SobolIndex, ...], tupl
                                   linear_share=100.0 * linear))
         if abs(s_i - linear) > max(0.05, 3 * se):
             notes.append(f"{item.name}: variance-based index {s_i:.2f} ± {se:.2f} differs "
-                         f"from the linear share {linear:.2f} of u_c² (nonlinearity or interaction)")
+                         f"from the linear share {linear:.2f} of u_c² (nonlinearity or "
+                         "interaction)")
     indices.sort(key=lambda s: -s.first_order)
     return tuple(indices), tuple(notes)
 
@@ -243,11 +245,12 @@ def _text(e: Explanation, digits: int) -> str:
 
 
 def _target_text(e: Explanation, d: Driver, digits: int) -> str:
-    target = format_pair(e.estimate, e.target, digits)[1]
-    if d.needed_standard_uncertainty is None:
+    target = format_pair(e.estimate, e.target or 0.0, digits)[1]
+    if d.needed_standard_uncertainty is None or d.reached_expanded_uncertainty is None:
         return f"U = {target} {e.unit} cannot be reached by improving {d.input} alone"
     reached = format_pair(e.estimate, d.reached_expanded_uncertainty, digits)[1]
-    return (f"for U = {target} {e.unit}: u({d.input}) ≤ {format_number(d.needed_standard_uncertainty, 2)} "
+    needed = format_number(d.needed_standard_uncertainty, 2)
+    return (f"for U = {target} {e.unit}: u({d.input}) ≤ {needed} "
             f"{d.unit} (now {format_number(d.standard_uncertainty, 2)}; rerun gives U = "
             f"{reached})")
 

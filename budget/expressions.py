@@ -139,7 +139,7 @@ _SUMS = {ast.Add: 1, ast.Sub: -1}
 _PRODUCTS = {ast.Mult: 1, ast.Div: -1}
 
 
-def _chain(node: ast.AST, ops: dict) -> list[tuple[int, ast.AST]]:
+def _chain(node: ast.AST, ops: dict[type[ast.operator], int]) -> list[tuple[int, ast.AST]]:
     """Operands of a left-nested chain such as a - b + c, with their signs."""
     parts: list[tuple[int, ast.AST]] = []
     while isinstance(node, ast.BinOp) and type(node.op) in ops:
@@ -149,7 +149,7 @@ def _chain(node: ast.AST, ops: dict) -> list[tuple[int, ast.AST]]:
     return parts[::-1]
 
 
-def _chain_length(node: ast.AST, ops: dict) -> int:
+def _chain_length(node: ast.AST, ops: dict[type[ast.operator], int]) -> int:
     count = 1
     while isinstance(node, ast.BinOp) and type(node.op) in ops:
         count += 1
@@ -157,7 +157,7 @@ def _chain_length(node: ast.AST, ops: dict) -> int:
     return count
 
 
-def _steps(node: ast.AST, ops: dict) -> list[ast.BinOp]:
+def _steps(node: ast.AST, ops: dict[type[ast.operator], int]) -> list[ast.BinOp]:
     """The BinOp nodes of a chain from the innermost out."""
     steps = []
     while isinstance(node, ast.BinOp) and type(node.op) in ops:
@@ -185,7 +185,8 @@ class _Builder:
             return self.unary(node)
         if isinstance(node, ast.BinOp):
             return self.binary(node)
-        return self.call(node)  # the grammar check leaves nothing else
+        assert isinstance(node, ast.Call)  # the grammar check leaves nothing else
+        return self.call(node)
 
     def name(self, node: ast.Name) -> Term:
         if node.id not in self.table:
@@ -224,7 +225,7 @@ class _Builder:
         terms = [(sign, operand, self.visit(operand)) for sign, operand in parts]
         if any(term.offset for _, _, term in terms):  # Celsius rules: pairwise, in order
             total = terms[0][2]
-            for (sign, operand, term), step in zip(terms[1:], _steps(node, _SUMS)):
+            for (_, _, term), step in zip(terms[1:], _steps(node, _SUMS)):
                 total = self.sum(step, total, term)
             return total
         first_node, first = terms[0][1], terms[0][2]
@@ -234,7 +235,7 @@ class _Builder:
                     f"expected terms of like dimension in '{self.segment(node)}', found "
                     f"'{self.segment(first_node)}' in {dimension_text(first.unit)} and "
                     f"'{self.segment(operand)}' in {dimension_text(term.unit)}", self.where)
-        pick = lambda field: sympy.Add(*(getattr(t, field) if sign > 0  # noqa: E731
+        pick: Callable[[str], Any] = lambda field: sympy.Add(*(getattr(t, field) if sign > 0  # noqa: E731
                                          else -getattr(t, field) for sign, _, t in terms))
         return Term(pick("expr"), pick("shown"), first.unit, opaque=pick("opaque"))
 
@@ -243,10 +244,10 @@ class _Builder:
         factors = [(sign, operand, self.visit(operand)) for sign, operand in
                    _chain(node, _PRODUCTS)]
         unit = self.dimensionless
-        for sign, operand, term in factors:
+        for sign, _, term in factors:
             self.refuse_offset(term, node)
             unit = unit * term.unit if sign > 0 else unit / term.unit
-        pick = lambda field: sympy.Mul(*(getattr(t, field) if sign > 0  # noqa: E731
+        pick: Callable[[str], Any] = lambda field: sympy.Mul(*(getattr(t, field) if sign > 0  # noqa: E731
                                          else 1 / getattr(t, field) for sign, _, t in factors))
         return Term(pick("expr"), pick("shown"), unit, opaque=pick("opaque"))
 
@@ -266,7 +267,8 @@ class _Builder:
         elif right.offset and not plus:
             raise UnitError(f"a Celsius temperature cannot be subtracted from a temperature "
                             f"difference in '{self.segment(node)}'", self.where)
-        combine = (lambda a, b: a + b) if plus else (lambda a, b: a - b)
+        combine: Callable[[Any, Any], Any] = (lambda a, b: a + b) if plus else (
+            lambda a, b: a - b)
         return Term(combine(left.expr, right.expr), combine(left.shown, right.shown),
                     left.unit, offset, combine(left.opaque, right.opaque))
 
@@ -312,7 +314,7 @@ class _Builder:
     def air_density(self, node: ast.Call, args: list[Term]) -> Term:
         from .chemistry import air_density_expression
 
-        unit_of = lambda text: parse_unit(text, self.where).unit  # noqa: E731
+        unit_of: Callable[[str], Any] = lambda text: parse_unit(text, self.where).unit  # noqa: E731
         wanted = [("temperature", unit_of("K")), ("pressure", unit_of("Pa")),
                   ("relative humidity", self.dimensionless),
                   ("CO2 mole fraction", self.dimensionless)]

@@ -87,9 +87,9 @@ def join(members: Sequence[Member],
             rename[(member, input_name)] = name
             factor[(member, input_name)] = _ratio(first, by_name[member].model.input(
                 input_name), where)
-    for member in members:
-        for item in member.model.inputs:
-            key = (member.name, item.name)
+    for one in members:
+        for item in one.model.inputs:
+            key = (one.name, item.name)
             if key not in rename:
                 rename[key] = joint_name(*key)
                 merged[rename[key]] = replace(item, name=rename[key])

@@ -10,6 +10,7 @@ value in the measurand's unit (see ``units.py``).
 
 from __future__ import annotations
 
+import datetime as dt
 import hashlib
 import re
 import tomllib
@@ -24,7 +25,9 @@ from .chemistry import CONVENTIONS, DEFAULT_CONVENTION
 from .errors import (InputError, Location, ModelSyntaxError, UnitError,
                      did_you_mean)
 from .expressions import Term, build, names_in, parse_expression
-from .statements import read_statement
+from .register import (CertificateUse, Register, agreement_warnings, date_warnings,
+                       load_register, read_date)
+from .statements import STATEMENT_WAYS, read_statement
 from .units import UnitInfo, dimension_text, parse_unit
 from . import correlations as corr
 from . import together
@@ -35,7 +38,7 @@ __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model"
 
 DEFAULT_SEED = 20260601
 _TOP_KEYS = ("title", "description", "measurands", "definitions", "inputs", "correlations",
-             "estimated_together", "settings")
+             "estimated_together", "settings", "fits", "records", "register", "measured")
 _SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights")
 _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
@@ -106,6 +109,15 @@ class Model:
     source: str = "<string>"
     sha256: str = ""
     warnings: tuple[str, ...] = field(default=())
+    certificates: tuple[CertificateUse, ...] = field(default=())
+    measured: tuple[dt.date, ...] = field(default=())
+    files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
+    changes: tuple[str, ...] = field(default=())  # what-if changes against the file
+
+    def changed(self, inputs: tuple[Input, ...], change: str) -> "Model":
+        """A what-if copy: new inputs, the change recorded, the file's digest dropped."""
+        return replace(self, inputs=inputs, changes=self.changes + (change,), sha256="")
+    records: tuple[Any, ...] = field(default=())  # RecordView of each [fits]/[records] table
 
     def input(self, name: str) -> Input:
         for item in self.inputs:
@@ -121,7 +133,7 @@ class Model:
         from .whatif import scaled_input
 
         inputs = tuple(scaled_input(i, factor) if i.name == name else i for i in self.inputs)
-        return replace(self, inputs=inputs)
+        return self.changed(inputs, f"u({name}) × {factor:g}")
 
 
 def load_model(path: str | Path, **overrides: Any) -> Model:
@@ -158,7 +170,7 @@ def decode(data: bytes | str, name: str, what: str = "model") -> str:
     return text
 
 
-def read_toml(text: str, name: str) -> dict:
+def read_toml(text: str, name: str) -> dict[str, Any]:
     try:
         return tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
@@ -180,14 +192,14 @@ def parse_model(data: bytes | str, name: str = "<string>", **overrides: Any) -> 
 class _Reader:
     """Walks one parsed TOML document; knows how to point at a key's line."""
 
-    def __init__(self, text: str, name: str, document: dict) -> None:
+    def __init__(self, text: str, name: str, document: dict[str, Any]) -> None:
         self.index, self.name, self.doc = LineIndex(text.splitlines()), name, document
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
                         line=self.index.find(table, key, nth))
 
-    def model(self, sha256: str, overrides: dict) -> Model:
+    def model(self, sha256: str, overrides: dict[str, Any]) -> Model:
         for key in self.doc:
             if key not in _TOP_KEYS:
                 raise InputError(f"unknown top-level key '{key}'{did_you_mean(key, _TOP_KEYS)}"
@@ -200,24 +212,83 @@ class _Reader:
                              self.where(None, "title"))
         settings = replace(self.settings(), **{k: v for k, v in overrides.items()
                                                if v is not None})
-        inputs = self.inputs(settings.atomic_weights)
-        table = {i.name: _input_term(i, self.where("inputs." + i.name, "unit"))
+        self.register = self.read_register(settings.atomic_weights)
+        self.uses: list[CertificateUse] = []
+        self.checks: list[str] = []
+        from .recordinputs import generate
+
+        generated = generate(self.doc, _base(self.name), self.where)
+        inputs = self.inputs(settings.atomic_weights, bool(generated.inputs))
+        inputs += self.made_inputs(generated, {i.name for i in inputs})
+        measured = self.measured()
+        table = {i.name: _input_term(i, self.where(*self.home(generated, i.name)))
                  for i in inputs}
-        definitions, terms = self.definitions(table)
+        definitions, terms = self.definitions(table, generated.definitions)
         measurands = self.measurands(terms)
         pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
-                          self.where)
+                          self.where) + tuple(generated.correlations)
         sets = together.read(self.doc.get(together.KEY, []), inputs, self.where)
-        warnings = _unused_inputs(inputs, measurands)
+        sets += tuple(Together(inputs=names, dof=dof, note=note)
+                      for names, dof, note in generated.together)
+        uses = tuple(self.uses)
+        warnings = (_unused_inputs(inputs, measurands) + tuple(self.checks)
+                    + date_warnings(uses, measured))
+        files: tuple[tuple[str, str, str], ...] = (("model", self.name, sha256),)
+        if self.register is not None:
+            files += (("register", self.register.source, self.register.sha256),)
         made = Model(title=title.strip(), description=str(self.doc.get("description", "")),
                      inputs=inputs, definitions=definitions, measurands=measurands,
                      correlations=pairs, settings=settings, estimated_together=sets,
-                     source=self.name, sha256=sha256, warnings=warnings)
+                     source=self.name, sha256=sha256, warnings=warnings, certificates=uses,
+                     measured=measured, files=files, records=tuple(generated.views))
         from .plausibility import model_warnings
 
         return replace(made, warnings=warnings + model_warnings(made))
 
-    def table(self, key: str) -> dict:
+    def read_register(self, convention: str) -> Register | None:
+        if "register" not in self.doc:
+            return None
+        relative = self.doc["register"]
+        where = self.where(None, "register")
+        if not isinstance(relative, str) or not relative.strip():
+            raise InputError(f"expected the path of a register file, found {relative!r}",
+                             where)
+        folder = Path(self.name).parent if self.name != "<string>" else Path(".")
+        return load_register(folder / relative.strip(), where, convention)
+
+    def measured(self) -> tuple[dt.date, ...]:
+        value = self.doc.get("measured")
+        if value is None:
+            return ()
+        where = self.where(None, "measured")
+        days = value if isinstance(value, list) else [value]
+        if not days:
+            raise InputError("expected a date or a list of dates, found an empty list", where)
+        return tuple(read_date(day, where) for day in days)
+
+    def home(self, generated: Any, name: str) -> tuple[str, str | None]:
+        """The table and key where an input (typed in or generated) is stated."""
+        for item in generated.inputs:
+            if item.name == name:
+                return item.table, None
+        return "inputs." + name, "unit"
+
+    def made_inputs(self, generated: Any, taken: set[str]) -> tuple[Input, ...]:
+        from .recordinputs import made_input
+
+        made = []
+        in_sets = {n for names, _, _ in generated.together for n in names}
+        for item in generated.inputs:
+            where = self.where(item.table, None)
+            _check_name(item.name, where)
+            if item.name in taken:
+                raise InputError(f"expected a new name, found '{item.name}' which is also "
+                                 "an [inputs] table", where)
+            taken.add(item.name)
+            made.append(made_input(item, item.name in in_sets))
+        return tuple(made)
+
+    def table(self, key: str) -> dict[str, Any]:
         value = self.doc.get(key, {})
         if not isinstance(value, dict):
             raise InputError(f"expected a table [{key}], found {type(value).__name__}",
@@ -233,9 +304,9 @@ class _Reader:
                                  self.where("settings", key))
         return check_settings(data, lambda key: self.where("settings", key))
 
-    def inputs(self, convention: str) -> tuple[Input, ...]:
+    def inputs(self, convention: str, generated: bool = False) -> tuple[Input, ...]:
         tables = self.table("inputs")
-        if not tables:
+        if not tables and not generated:
             raise InputError("expected at least one [inputs.NAME] table, found none",
                              self.where(None))
         made = []
@@ -248,22 +319,81 @@ class _Reader:
         _check_name(name, where)
         if not isinstance(data, dict):
             raise InputError(f"expected a table [inputs.{name}], found {data!r}", where)
+        use = self.certificate_use(name, data)
+        if use is not None and not any(key in data for key in STATEMENT_WAYS):
+            data = self.from_certificate(name, data, use)
         statement = read_statement(data, lambda key: self.where("inputs." + name, key),
                                    convention)
         unit_where = self.where("inputs." + name, "unit")
         unit = parse_unit(statement.unit if statement.unit is not None else "1", unit_where)
         distribution = _in_unit(statement, unit, unit_where)
-        return Input(name=name, estimate=float(distribution.estimate), unit=unit.text,
+        made = Input(name=name, estimate=float(distribution.estimate), unit=unit.text,
                      standard_uncertainty=float(distribution.standard_uncertainty),
                      distribution=distribution, dof=statement.dof, type=statement.type,
                      basis=statement.basis, description=str(data.get("description", "")),
                      source=str(data.get("source", "")), molar_mass=statement.molar_mass)
+        if use is not None:
+            stated = use.certificate.value(use.stated, where)
+            self.checks.extend(agreement_warnings(
+                name, unit, made.estimate, made.standard_uncertainty, use, stated,
+                self.where("inputs." + name, "certificate")))
+        return made
 
-    def definitions(self, table: dict[str, Term]) -> tuple[tuple[Definition, ...], dict]:
-        texts = self.table("definitions")
+    def certificate_use(self, name: str, data: dict[str, Any]) -> CertificateUse | None:
+        """The certificate an input names (``certificate``, ``stated``), if any."""
+        table = "inputs." + name
+        if "certificate" not in data:
+            if "stated" in data:
+                raise InputError("expected 'certificate' with 'stated', found none",
+                                 self.where(table, "stated"))
+            return None
+        where = self.where(table, "certificate")
+        if self.register is None:
+            raise InputError("expected a top-level 'register' file for inputs that name a "
+                             "certificate, found none", where)
+        ident = data["certificate"]
+        if not isinstance(ident, str):
+            raise InputError(f"expected a certificate identifier string, found {ident!r}",
+                             where)
+        certificate = self.register.certificate(ident, where)
+        stated = data.get("stated")
+        if stated is not None and not isinstance(stated, str):
+            raise InputError(f"expected the name of a stated value, found {stated!r}",
+                             self.where(table, "stated"))
+        value = certificate.value(stated, self.where(table, "stated" if stated else
+                                                     "certificate"))
+        use = CertificateUse(input=name, certificate=certificate, stated=value.name)
+        self.uses.append(use)
+        return use
+
+    def from_certificate(self, name: str, data: dict[str, Any],
+                         use: CertificateUse) -> dict[str, Any]:
+        """An input that states nothing itself takes the certificate's statement whole."""
+        stated = use.certificate.value(use.stated, self.where("inputs." + name))
+        own = ("unit", "distribution", "dof", "reliability", "k", "level")
+        for key in own if stated.reading else ("value", *own):
+            if key in data:
+                raise InputError(f"expected either a full statement of the uncertainty or "
+                                 f"none (taken from certificate '{use.certificate.identifier}'"
+                                 f"), found '{key}' alone", self.where("inputs." + name, key))
+        if stated.reading and "value" not in data:
+            raise InputError(f"expected the 'value' read (certificate "
+                             f"'{use.certificate.identifier}' states only the uncertainty of "
+                             f"a reading), found none", self.where("inputs." + name))
+        return {**stated.table, **data}
+
+    def definitions(self, table: dict[str, Term], generated: dict[str, str]
+                    ) -> tuple[tuple[Definition, ...], dict[str, Any]]:
+        texts = dict(self.table("definitions"))
+        for name in generated:
+            if name in texts:
+                raise InputError(f"expected a new name, found '{name}' which is also a "
+                                 "record", self.where("definitions", name))
+        texts.update(generated)
         trees = {}
         for name, text in texts.items():
-            where = self.where("definitions", name)
+            where = self.where("definitions", name) if name not in generated else \
+                self.where("records." + name)
             _check_name(name, where)
             if name in table:
                 raise InputError(f"expected a new name, found '{name}' which is also an "
@@ -273,7 +403,8 @@ class _Reader:
         terms = dict(table)
         made = []
         for name in order:
-            where = self.where("definitions", name)
+            where = self.where("definitions", name) if name not in generated else \
+                self.where("records." + name)
             term = build(trees[name], terms, texts[name], where)
             terms[name] = Term(term.expr, sympy.Symbol(name), term.unit, term.offset,
                                term.opaque)
@@ -315,7 +446,7 @@ class _Reader:
                          description=str(data.get("description", "")), line=eq_where.line)
 
 
-def check_settings(data: dict, where: Any) -> Settings:
+def check_settings(data: dict[str, Any], where: Any) -> Settings:
     made: dict[str, Any] = {}
     if "coverage" in data:
         p = data["coverage"]
@@ -345,6 +476,12 @@ def check_settings(data: dict, where: Any) -> Settings:
                              where("atomic_weights"))
         made["atomic_weights"] = value
     return Settings(**made)
+
+
+def _base(name: str) -> Path:
+    """Record files are found next to the model file (or in the working directory)."""
+    path = Path(name)
+    return path.parent if path.is_file() else Path.cwd()
 
 
 def _check_name(name: str, where: Location) -> None:
@@ -418,7 +555,7 @@ def _definition_order(trees: dict[str, Any], where: Location) -> list[str]:
     return order
 
 
-def _unused_inputs(inputs: tuple[Input, ...], measurands: tuple[Measurand, ...]) -> tuple:
+def _unused_inputs(inputs: tuple[Input, ...], measurands: tuple[Measurand, ...]) -> tuple[Any, ...]:
     used = set().union(*(m.expression.free_symbols for m in measurands))
     return tuple(f"input '{i.name}' appears in no measurand equation" for i in inputs
                  if i.symbol not in used and i.standard_uncertainty > 0)

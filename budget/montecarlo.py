@@ -131,14 +131,15 @@ def shortest_interval(values: np.ndarray, p: float) -> tuple[float, float]:
     return _intervals(values, p)[1]
 
 
-def _pick(low: np.ndarray, high: np.ndarray, m: int, p: float) -> tuple[tuple, tuple]:
+def _pick(low: np.ndarray, high: np.ndarray, m: int,
+          p: float) -> tuple[tuple[Any, ...], tuple[Any, ...]]:
     """Both intervals from the sorted ``m − q`` lowest and highest of M values."""
     lo, hi = _indices(m, p)
     best = int(np.argmin(high - low))
     return (float(low[lo]), float(high[hi - _q(m, p)])), (float(low[best]), float(high[best]))
 
 
-def _from_tails(tails: list, m: int, p: float) -> tuple | None:
+def _from_tails(tails: list[Any], m: int, p: float) -> tuple[Any, ...] | None:
     """Both intervals from the values kept below and above the cuts, when enough were."""
     q = _q(m, p)
     tail = m - q
@@ -239,7 +240,7 @@ def _groups(model: Model) -> list[list[int]]:
     return sorted(groups.values(), key=lambda g: g[0])
 
 
-def _group_matrices(model: Model, groups: list[list[int]]) -> dict[tuple, np.ndarray]:
+def _group_matrices(model: Model, groups: list[list[int]]) -> dict[tuple[int, ...], np.ndarray]:
     """The correlation matrix of each group of inputs, in one pass over the pairs
     (never the whole N × N matrix)."""
     joint = [g for g in groups if len(g) > 1]
@@ -283,7 +284,8 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
 def _factor(r: np.ndarray) -> np.ndarray:
     """F with F Fᵀ = r for a positive semi-definite r (singular ones included)."""
     eigenvalues, vectors = np.linalg.eigh(r)
-    return vectors * np.sqrt(np.clip(eigenvalues, 0.0, None))
+    factor: np.ndarray = vectors * np.sqrt(np.clip(eigenvalues, 0.0, None))
+    return factor
 
 
 def _correlated(model: Model, group: list[int], factor: np.ndarray,
@@ -330,14 +332,14 @@ class _Tails:
 
 def _run_blocks(sampler: _Sampler, first: int, count: int, trials: int, out: np.ndarray,
                 progress: Callable[[int], None] | None, workers: int,
-                tails: _Tails | None = None) -> tuple[np.ndarray, list]:
+                tails: _Tails | None = None) -> tuple[np.ndarray, list[Any]]:
     """Fill ``out[:, :]`` with blocks first … first+count-1 of a run of ``trials``;
     the moments of all of them and, with ``tails``, each block's tail values."""
     block = sampler.size
     moments: list[np.ndarray] = []
     kept: list[list[tuple[np.ndarray, np.ndarray]]] = []
 
-    def work(b: int) -> tuple[int, np.ndarray, list]:
+    def work(b: int) -> tuple[int, np.ndarray, list[Any]]:
         start = b * block
         size = min(block, trials - start)
         view = out[:, start - first * block:start - first * block + size]
@@ -412,7 +414,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
 
 
 def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
-               ticker: Callable[[int], None] | None, workers: int) -> tuple[np.ndarray, list]:
+               ticker: Callable[[int], None] | None, workers: int) -> tuple[np.ndarray, list[Any]]:
     trials = samples.shape[1]
     blocks = -(-trials // sampler.size)
     if blocks < 4 or coverage <= 0.5:
@@ -479,7 +481,7 @@ def _converged(all_values: np.ndarray, stats: np.ndarray, digits: int) -> bool:
 
 def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: int,
                coverage: float, digits: int, adaptive: bool, warnings: list[str],
-               moments: np.ndarray | None = None, kept: list | None = None) -> Simulation:
+               moments: np.ndarray | None = None, kept: list[Any] | None = None) -> Simulation:
     total = samples.shape[1]
     if moments is None:
         moments = _block_moments(samples)
@@ -514,7 +516,7 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: i
 
 
 def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: float,
-         digits: int, moments: np.ndarray, tails: list | None = None
+         digits: int, moments: np.ndarray, tails: list[Any] | None = None
          ) -> MeasurandSimulation:
     measurand = model.measurands[k]
     if y.size < 2:

@@ -129,7 +129,7 @@ class Program:
                 slots.append(_apply(kind, [slots[a] for a in args], payload))
         return slots
 
-    def gradient(self, values: Sequence[float]) -> tuple[np.ndarray, np.ndarray]:
+    def gradient(self, values: Sequence[float] | np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Outputs and the Jacobian ∂y_k/∂x_i at scalar input values (reverse sweeps)."""
         slots = self._forward([np.float64(v) for v in values])
         n_in = len(self.symbols)

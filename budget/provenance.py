@@ -26,11 +26,20 @@ def _version(name: str) -> str:
         return "not installed"
 
 
+def files(model: Any) -> list[dict[str, str]]:
+    """Every file that fed the model (model, register, …) with its SHA-256 digest."""
+    return [{"role": role, "path": path, "sha256": digest}
+            for role, path, digest in model.files]
+
+
 def describe(model: Any, simulation: Any = None) -> dict[str, Any]:
     used = any(i.molar_mass is not None for i in model.inputs)
+    changed = bool(model.changes)
     return {
         "model_file": model.source,
-        "model_sha256": model.sha256,
+        "model_sha256": None if changed else model.sha256,
+        "files": files(model),
+        "changes": list(model.changes),
         "versions": versions(),
         "seed": simulation.seed if simulation else model.settings.seed,
         "trials": simulation.trials if simulation else 0,

@@ -9,7 +9,7 @@ report loads nothing from the network: no scripts, fonts, images or style sheets
 from __future__ import annotations
 
 from importlib import resources
-from typing import Any
+from typing import Any, Callable
 
 import sympy
 from markupsafe import Markup
@@ -50,7 +50,8 @@ def mathml(left: Any, right: Any) -> Markup:
 
 
 def render_report(result: Result) -> str:
-    return _environment().get_template("budget.html.j2").render(report=_budget_view(result))
+    html: str = _environment().get_template("budget.html.j2").render(report=_budget_view(result))
+    return html
 
 
 def write_report(result: Result, path: str) -> None:
@@ -69,8 +70,28 @@ def _budget_view(result: Result) -> dict[str, Any]:
         "output_correlation": _output_correlation(result),
         "inputs": [_input_view(i) for i in model.inputs],
         "provenance": _provenance(describe(model, result.simulation), result),
+        "certificates": _certificates_view(model, model.measured),
         "warnings": list(result.warnings),
     }
+
+
+def _certificates_view(model: Any, days: Any) -> list[dict[str, str]]:
+    """One row per calibration certificate used, with its validity on the dates."""
+    from .register import certificates_document
+
+    rows = []
+    for entry in certificates_document(model, tuple(days)):
+        dates = entry["measurement_dates"]
+        when = f"each of the {len(dates)} measurement dates" if len(dates) > 1 else \
+            (dates[0] if dates else "")
+        status = "; ".join(entry["problems"]) if entry["problems"] else (
+            f"valid on {when}" if dates else "no measurement date given")
+        rows.append({"number": entry["number"], "instrument": entry["instrument"],
+                     "issuer": entry["issuer"],
+                     "period": f"{entry['calibrated']} to {entry['valid_until']}",
+                     "inputs": ", ".join(i["input"] for i in entry["inputs"]),
+                     "status": status, "valid": "no" if entry["problems"] else "yes"})
+    return rows
 
 
 def _input_view(item: Any) -> dict[str, str]:
@@ -130,9 +151,9 @@ def _partial(name: str, symbol: sympy.Symbol) -> Markup:
     return Markup(f"<mfrac><mrow><mo>∂</mo>{top}</mrow><mrow><mo>∂</mo>{bottom}</mrow></mfrac>")
 
 
-def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict:
+def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict[str, Any]:
     reference = b.combined_uncertainty or s.standard_uncertainty
-    rounded = lambda x: format_pair(x, reference, digits + 1)[0]  # noqa: E731
+    rounded: Callable[[float], str] = lambda x: format_pair(x, reference, digits + 1)[0]  # noqa: E731
     v = s.validation
     return {
         "trials": f"{s.trials:,}", "mean": rounded(s.mean),
@@ -155,14 +176,21 @@ def _output_correlation(result: Result) -> dict[str, Any] | None:
     names = [b.name for b in result.budget.measurands]
     if len(names) < 2:
         return None
-    matrix = result.simulation.output_correlation if result.simulation else \
-        result.budget.output_correlation
-    return {"names": names, "rows": [{"name": a, "values": [f"{x:.3f}" for x in row]}
-                                     for a, row in zip(names, matrix)]}
+    tables = [("GUM, from the output covariance J·U_x·Jᵀ (JCGM 102 6.2.1.3)",
+               result.budget.output_correlation)]
+    if result.simulation is not None and result.simulation.trials:
+        tables.append((f"Monte Carlo, {result.simulation.trials:,} trials",
+                       result.simulation.output_correlation))
+    # "cells", not "values": jinja2 would find the dict's own values() method
+    return {"names": names, "tables": [
+        {"source": source, "rows": [{"name": a, "cells": [f"{x:.3f}" for x in row]}
+                                    for a, row in zip(names, matrix)]}
+        for source, matrix in tables]}
 
 
 def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tuple[str, str]]:
-    rows = [("model file", str(data["model_file"])), ("model SHA-256", data["model_sha256"]),
+    rows = [("model file", str(data["model_file"])),
+            ("model SHA-256", data["model_sha256"] or "none: a changed copy of the file"),
             ("seed", str(data["seed"])), ("Monte Carlo trials", f"{data['trials']:,}"
                                           + (" (adaptive)" if data["adaptive"] else "")),
             ("date", data["date"]),
@@ -170,13 +198,17 @@ def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tupl
             ("machine", data["machine"])]
     if result is not None:
         rows.append(("significant digits", str(result.digits)))
+    rows += [(f"{entry['role']} {entry['path']}", f"SHA-256 {entry['sha256']}")
+             for entry in data.get("files", [])]
+    rows += [("changed from the file", change) for change in data.get("changes", [])]
     rows += [(f"{name} version", version) for name, version in data["versions"].items()]
     return rows
 
 
 def render_certification_report(cert: Any) -> str:
-    return _environment().get_template("certificate.html.j2").render(
+    html: str = _environment().get_template("certificate.html.j2").render(
         report=_certification_view(cert))
+    return html
 
 
 def write_certification_report(cert: Any, path: str) -> None:
@@ -193,4 +225,13 @@ def _certification_view(cert: Any) -> dict[str, Any]:
                                      cert.characterization.result) + [
         ("campaign file", cert.campaign.source), ("campaign SHA-256", cert.campaign.sha256)]
     view["caution"] = CAUTION
+    view["certificates"] = _certificates_view(cert.campaign.model, cert.run_dates)
+    from .register import traceability_statement
+
+    view["traceability_generated"] = traceability_statement(cert.campaign.model.certificates)
+    if cert.methods is not None:  # several methods (methods_output.py, methods.html.j2)
+        from .methods_output import methods_view
+
+        view["methods"] = methods_view(cert.methods, cert.campaign.unit,
+                                       cert.campaign.model.settings.digits, _budget_view)
     return view

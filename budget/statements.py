@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any, Callable
+from typing import Any, Callable, cast
 
 import numpy as np
 
@@ -18,15 +18,17 @@ from . import distributions as dist
 from .chemistry import CONSTANTS, molar_mass
 from .errors import InputError, Location, did_you_mean
 
-__all__ = ["Statement", "read_statement", "INPUT_KEYS", "SHAPES"]
+__all__ = ["Statement", "read_statement", "INPUT_KEYS", "SHAPES", "STATEMENT_WAYS"]
 
 SHAPES = ("normal", "rectangular", "triangular", "arcsine", "trapezoidal",
           "curvilinear_trapezoid", "student_t")
 _WAYS = (("u",), ("expanded",), ("half_width",), ("lower", "upper"), ("observations",),
          ("exact",), ("formula",), ("constant",))
+STATEMENT_WAYS = tuple(key for way in _WAYS for key in way)
 INPUT_KEYS = ("value", "unit", "description", "source", "distribution", "dof",
               "reliability", "u", "expanded", "k", "level", "half_width", "beta",
-              "inexactness", "lower", "upper", "observations", "exact", "formula", "constant")
+              "inexactness", "lower", "upper", "observations", "exact", "formula", "constant",
+              "certificate", "stated")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -46,7 +48,7 @@ class Statement:
 class _Table:
     """Typed access to one input table with messages that point at the key."""
 
-    def __init__(self, data: dict, where: Callable[[str | None], Location]) -> None:
+    def __init__(self, data: dict[str, Any], where: Callable[[str | None], Location]) -> None:
         self.data, self.where = data, where
 
     def has(self, key: str) -> bool:
@@ -73,7 +75,7 @@ class _Table:
             brackets = "[]" if closed else "()"
             raise InputError(f"expected a number in {brackets[0]}{low:g}, {high:g}"
                              f"{brackets[1]}, found {value:g}", self.where(key))
-        return value
+        return float(value)
 
 
 def _shown(value: Any) -> str:
@@ -86,7 +88,7 @@ def _shown(value: Any) -> str:
     return repr(value)
 
 
-def read_statement(data: dict, where: Callable[[str | None], Location],
+def read_statement(data: dict[str, Any], where: Callable[[str | None], Location],
                    convention: str) -> Statement:
     """Read one input table; ``where(key)`` gives the location of a key (None: the table)."""
     for key in data:
@@ -116,7 +118,7 @@ def _shape(table: _Table) -> str:
         raise InputError(f"expected a distribution, one of {', '.join(SHAPES)}, found "
                          f"{_shown(shape)}{did_you_mean(str(shape), SHAPES)}",
                          table.where("distribution"))
-    return shape
+    return str(shape)
 
 
 def _dof(table: _Table) -> float:
@@ -126,7 +128,7 @@ def _dof(table: _Table) -> float:
     if table.has("reliability"):
         r = table.fraction("reliability", 0.0, 1.0)
         return 1.0 / (2.0 * r * r)  # GUM G.4.2, eq. (G.3)
-    return table.number("dof", positive=True, default=math.inf)
+    return float(table.number("dof", positive=True, default=math.inf))
 
 
 def _no_keys(table: _Table, keys: tuple[str, ...], why: str) -> None:
@@ -222,12 +224,12 @@ def _bounded(table: _Table, shape: str, estimate: float, *, half_width: float | 
     divisor = {"rectangular": math.sqrt(3.0), "triangular": math.sqrt(6.0),
                "arcsine": math.sqrt(2.0)}
     if shape in divisor:
-        half = half_width if u is None else u * divisor[shape]
+        half = cast(float, half_width) if u is None else u * divisor[shape]
         return {"rectangular": dist.Rectangular, "triangular": dist.Triangular,
                 "arcsine": dist.Arcsine}[shape](estimate, half)
     if shape == "trapezoidal":
         beta = table.fraction("beta", 0.0, 1.0, closed=True)
-        half = half_width if u is None else u / math.sqrt((1.0 + beta ** 2) / 6.0)
+        half = cast(float, half_width) if u is None else u / math.sqrt((1.0 + beta ** 2) / 6.0)
         return dist.Trapezoidal(estimate, half, beta)
     d = table.number("inexactness", positive=True)
     if u is not None:
@@ -236,6 +238,7 @@ def _bounded(table: _Table, shape: str, estimate: float, *, half_width: float | 
             raise InputError(f"expected 'inexactness' < 3·u = {3 * u:g}, found {d:g}",
                              table.where("inexactness"))
         half_width = math.sqrt(square)
+    half_width = cast(float, half_width)
     if d > half_width:
         raise InputError(f"expected 'inexactness' ≤ the half-width {half_width:g}, found "
                          f"{d:g}", table.where("inexactness"))

@@ -8,7 +8,7 @@ templates do no arithmetic.
 from __future__ import annotations
 
 import math
-from typing import Sequence
+from typing import Callable, Sequence
 
 import numpy as np
 from markupsafe import Markup, escape
@@ -80,8 +80,8 @@ def histogram(samples: np.ndarray, *, estimate: float, u: float, dof: float,
     density = _gum_density(grid, estimate, u, dof)
     peak = max(float(counts.max()), float(density.max()), 1e-300)
     left, right, top, bottom = 40, _W - 20, 14, 210
-    sx = lambda x: left + (x - low) / (high - low) * (right - left)  # noqa: E731
-    sy = lambda d: bottom - d / peak * (bottom - top)  # noqa: E731
+    sx: Callable[[float], float] = lambda x: left + (x - low) / (high - low) * (right - left)  # noqa: E731
+    sy: Callable[[float], float] = lambda d: bottom - d / peak * (bottom - top)  # noqa: E731
     body = [f'<rect x="{sx(a):.2f}" y="{sy(c):.2f}" width="{sx(b) - sx(a):.2f}" '
             f'height="{bottom - sy(c):.2f}" fill="#d9c4b0"/>'
             for a, b, c in zip(edges[:-1], edges[1:], counts)]
@@ -129,7 +129,7 @@ def points_with_bars(rows: Sequence[tuple[str, float, float]], *, centre: float 
     if centre is not None:
         low, high = min(low, centre), max(high, centre)
     left, right, top, bottom = 70, _W - 20, 12, 200
-    sy = lambda v: bottom - (v - low) / (high - low) * (bottom - top)  # noqa: E731
+    sy: Callable[[float], float] = lambda v: bottom - (v - low) / (high - low) * (bottom - top)  # noqa: E731
     step = (right - left) / max(len(rows), 1)
     body = []
     if centre is not None:
@@ -154,8 +154,8 @@ def trend_plot(times: Sequence[float], values: Sequence[float], *, intercept: fl
     low, high = _frame(min(lows), max(highs))
     t_low, t_high = _frame(min(times), max(times), 0.05)
     left, right, top, bottom = 70, _W - 20, 12, 200
-    sx = lambda t: left + (t - t_low) / (t_high - t_low) * (right - left)  # noqa: E731
-    sy = lambda v: bottom - (v - low) / (high - low) * (bottom - top)  # noqa: E731
+    sx: Callable[[float], float] = lambda t: left + (t - t_low) / (t_high - t_low) * (right - left)  # noqa: E731
+    sy: Callable[[float], float] = lambda v: bottom - (v - low) / (high - low) * (bottom - top)  # noqa: E731
     upper = " ".join(f"{sx(t):.1f},{sy(h):.1f}" for t, _, h in band)
     lower = " ".join(f"{sx(t):.1f},{sy(lo):.1f}" for t, lo, _ in reversed(band))
     body = [f'<polygon points="{upper} {lower}" fill="#1f4e5f" fill-opacity="0.12"/>',
@@ -171,8 +171,8 @@ def trend_plot(times: Sequence[float], values: Sequence[float], *, intercept: fl
     return _svg(_W, bottom + 34, body, label)
 
 
-def _y_axis(low: float, high: float, left: float, top: float, bottom: float, sy,
-            unit: str) -> list[str]:
+def _y_axis(low: float, high: float, left: float, top: float, bottom: float,
+            sy: Callable[[float], float], unit: str) -> list[str]:
     body = [f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="{_AXIS}"/>']
     for v in np.linspace(low, high, 5):
         body.append(_text(left - 6, sy(v) + 4, format_number(float(v), 6), "end",

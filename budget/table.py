@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import textwrap
 from typing import Any
 
 from .analysis import Result
@@ -76,9 +77,9 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
     bar_room = WIDTH - (sum(widths) + 2 * (len(widths) - 1)) - 2
     text = []
     for n, row in enumerate(rows):
-        cells = [_fit(cell, widths[i], right=i not in (0, 2, 4, 5)) for i, cell in
-                 enumerate(row)]
-        line = "  ".join(cells)
+        padded = [_fit(cell, widths[i], right=i not in (0, 2, 4, 5)) for i, cell in
+                  enumerate(row)]
+        line = "  ".join(padded)
         if n and bar_room >= 6 and n <= len(b.contributions):
             line += "  " + _bar(b.contributions[n - 1].share, min(bar_room, 20))
         text.append(line.rstrip())
@@ -109,6 +110,9 @@ def _summary(b: MeasurandBudget, digits: int) -> list[str]:
     lines = [f"GUM:  y = {value} {b.unit}   u_c = {u} {b.unit}   ν_eff = {format_dof(b.dof)}"
              f"   k = {b.coverage_factor:.3g}",
              f"      {result_statement(b, digits)}"]
+    if "; " in b.dof_rule:  # more than Welch-Satterthwaite input by input: say which rule
+        lines += textwrap.wrap("ν_eff: " + b.dof_rule.split("; ", 1)[1], WIDTH,
+                               initial_indent="      ", subsequent_indent="      ")
     if b.second_order_variance is not None:
         lines.append(f"      includes GUM 5.1.2 higher-order terms "
                      f"(first-order u_c = {format_number(b.first_order_uncertainty, 3)})")
@@ -157,8 +161,10 @@ def render_certification(cert: Any, digits: int = 2) -> str:
     lines = [campaign.title, "=" * min(WIDTH, len(campaign.title))]
     if campaign.material:
         lines.append(campaign.material)
-    lines += ["", f"certified value: ({value} ± {expanded}) {unit}, k = {cert.coverage_factor:.3g}"
-              + (f", coverage probability {100 * cert.coverage_probability:g} %" if cert.coverage_probability else ""),
+    p = cert.coverage_probability
+    lines += ["", f"certified value: ({value} ± {expanded}) {unit}, "
+              f"k = {cert.coverage_factor:.3g}"
+              + (f", coverage probability {100 * p:g} %" if p else ""),
               "", "component                 u / " + unit + "      share of u_CRM²"]
     for name, u in cert.components:
         share = cert.shares[name]
@@ -166,7 +172,8 @@ def render_certification(cert: Any, digits: int = 2) -> str:
                      f"{format_percent(share):>6} %  {_bar(share, 20)}")
     lines.append(f"{'u_CRM':24}  {format_number(cert.standard_uncertainty, digits):>10}")
     lines += ["", f"characterization: {char.n} runs, mean {format_number(char.mean, 8)}, "
-              f"s = {format_number(char.s, digits)}, u_B = {format_number(char.model_uncertainty, digits)},"
+              f"s = {format_number(char.s, digits)}, "
+              f"u_B = {format_number(char.model_uncertainty, digits)},"
               f" u_char = {format_number(char.standard_uncertainty, digits)} {unit}"]
     if cert.homogeneity:
         h = cert.homogeneity
@@ -184,8 +191,11 @@ def render_certification(cert: Any, digits: int = 2) -> str:
         verdict = "agrees" if c.agrees else "DOES NOT AGREE"
         lines.append(f"comparison with {c.label}: E_n = {c.E_n:.2f}, ζ = {c.zeta:.2f}, "
                      f"{verdict}")
-    excluded = getattr(campaign, "excluded", ())
-    if excluded:
-        lines += ["", f"rows left out ({len(excluded)}):"]
-        lines += [f"  {item}" for item in excluded]
+    if cert.methods is not None:  # several methods (methods_output.py)
+        from .methods_output import methods_lines
+
+        lines += methods_lines(cert.methods, unit, digits)
+    if campaign.excluded:
+        lines += ["", f"rows left out ({len(campaign.excluded)}):"]
+        lines += [f"  {item}" for item in campaign.excluded]
     return "\n".join(lines)

@@ -87,9 +87,9 @@ class Unit:
     def __pow__(self, power: float | Fraction) -> "Unit":
         exponent = Fraction(power).limit_denominator(1000)
         dims = {name: p * exponent for name, p in self.dims}
-        factor = self.factor ** exponent
-        if not isinstance(factor, Fraction):
-            factor = Fraction(f"{float(factor):.15g}")
+        power_of = self.factor ** exponent
+        factor = power_of if isinstance(power_of, Fraction) else \
+            Fraction(f"{float(power_of):.15g}")
         text = "1" if self.text == "1" else f"{_bracket(self.text)}**{exponent}"
         return Unit.make(dims, factor, text)
 

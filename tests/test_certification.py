@@ -89,7 +89,8 @@ def test_en_and_zeta_scores(tmp_path):
 
 
 def test_disagreeing_comparison_warns(tmp_path):
-    for name in ("coulometric-purity.toml", "determinations.csv", "homogeneity.csv",
+    for name in ("coulometric-purity.toml", "calibrations.toml", "determinations.csv",
+                 "homogeneity.csv",
                  "stability.csv"):
         (tmp_path / name).write_bytes((DEMO / name).read_bytes())
     (tmp_path / "campaign.toml").write_text(_campaign_text(99.900))
@@ -131,7 +132,8 @@ def test_demo_campaign_end_to_end(cli):
 
 
 def test_scatter_covers_removes_an_input_from_u_b(tmp_path):
-    for name in ("coulometric-purity.toml", "determinations.csv", "homogeneity.csv",
+    for name in ("coulometric-purity.toml", "calibrations.toml", "determinations.csv",
+                 "homogeneity.csv",
                  "stability.csv"):
         (tmp_path / name).write_bytes((DEMO / name).read_bytes())
     (tmp_path / "campaign.toml").write_text(_campaign_text().replace(
@@ -167,10 +169,12 @@ def test_scatter_covers_removes_an_input_from_u_b(tmp_path):
     (("[certificate]", "[certificat]"), None,
      "campaign.toml:33: certificat: unknown top-level key 'certificat' (did you mean "
      "'certificate'?); expected one of title, material, unit, description, producer, "
-     "characterization, homogeneity, stability, comparison, certificate"),
+     "characterization, homogeneity, stability, comparison, certificate, method, shared, "
+     "combination"),
 ])
 def test_campaign_errors(edit, csv, message, tmp_path, cli, monkeypatch):
-    for name in ("coulometric-purity.toml", "determinations.csv", "homogeneity.csv",
+    for name in ("coulometric-purity.toml", "calibrations.toml", "determinations.csv",
+                 "homogeneity.csv",
                  "stability.csv"):
         (tmp_path / name).write_bytes((DEMO / name).read_bytes())
     text = _campaign_text()
@@ -197,7 +201,8 @@ def test_missing_campaign_file(cli, tmp_path, monkeypatch):
 
 def test_certified_value_components_and_shares():
     cert = certify(load_campaign(DEMO / "campaign.toml"), trials=0)
-    assert cert.standard_uncertainty == pytest.approx(math.sqrt(sum(u * u for _, u in cert.components)))
+    total = math.sqrt(sum(u * u for _, u in cert.components))
+    assert cert.standard_uncertainty == pytest.approx(total)
     assert sum(cert.shares.values()) == pytest.approx(100.0)
     with pytest.raises(CampaignError):
         load_campaign(DEMO / "coulometric-purity.toml")

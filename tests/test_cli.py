@@ -56,25 +56,25 @@ def test_model_digest_is_of_the_file_bytes(cli):
 def test_trials_zero_has_no_monte_carlo(cli):
     code, stdout, stderr = cli("run", H1, "--json", "--trials", "0")
     assert code == 0
-    (l,) = json.loads(stdout)["measurands"]
-    assert "monte_carlo" not in l
-    assert l["dof"] == pytest.approx(16.74, abs=0.01)
+    (m,) = json.loads(stdout)["measurands"]
+    assert "monte_carlo" not in m
+    assert m["dof"] == pytest.approx(16.74, abs=0.01)
 
 
 def test_coverage_and_digits_flags(cli):
     code, stdout, _ = cli("run", H1, "--json", "--trials", "0", "--coverage", "0.95")
-    (l,) = json.loads(stdout)["measurands"]
+    (m,) = json.loads(stdout)["measurands"]
     # t95(16) = 2.120 (JCGM 100 Table G.2 [C])
-    assert l["k"] == pytest.approx(2.120, abs=0.0005)
+    assert m["k"] == pytest.approx(2.120, abs=0.0005)
     code, stdout, _ = cli("run", H1, "--trials", "0", "--digits", "3")
     assert "u_c = 0.0000317 mm" in stdout
 
 
 def test_second_order_flag(cli):
     code, stdout, _ = cli("run", H1, "--json", "--trials", "0", "--second-order")
-    (l,) = json.loads(stdout)["measurands"]
-    assert l["u"] * 1e6 == pytest.approx(33.8, abs=0.05)
-    assert l["second_order_variance"] > 0
+    (m,) = json.loads(stdout)["measurands"]
+    assert m["u"] * 1e6 == pytest.approx(33.8, abs=0.05)
+    assert m["second_order_variance"] > 0
 
 
 def test_same_seed_same_json(cli):

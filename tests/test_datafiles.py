@@ -25,9 +25,9 @@ def _write(tmp_path: Path, name: str, text: str, encoding: str = "utf-8") -> Pat
     return path
 
 
-def _error(path: Path, fmt: FileFormat = FileFormat()) -> str:
+def _error(path: Path, fmt: FileFormat | None = None) -> str:
     with pytest.raises(DataFileError) as caught:
-        table = read_table(path, fmt)
+        table = read_table(path, fmt or FileFormat())
         for name in table.names:
             if name != "label":
                 table.numbers(name)

@@ -97,6 +97,12 @@ def _toml(body: str, scratch: Path) -> None:
         folder = scratch / "models" / "vics-as-25a"
         (folder / "doc-campaign.toml").write_text(body, encoding="utf-8")
         certify(load_campaign(folder / "doc-campaign.toml"), trials=0)
+    elif "[certificates." in body:
+        from budget.errors import Location
+        from budget.register import load_register
+
+        (scratch / "register.toml").write_text(body, encoding="utf-8")
+        assert load_register(scratch / "register.toml", Location(), "iupac-2021-interval")
     elif "[measurands." in body:
         from budget import propagate
 

@@ -33,6 +33,7 @@ def test_halving_matches_a_rerun_of_the_edited_file(cli, tmp_path):
     code, stdout, _ = cli("explain", str(DEMO), "--json", "--trials", "0")
     drivers = {d["input"]: d for d in json.loads(stdout)["measurands"][0]["drivers"]}
     text = DEMO.read_text()
+    (tmp_path / "calibrations.toml").write_bytes((DEMO.parent / "calibrations.toml").read_bytes())
     # Q_post: u = 0.0015 C -> 0.00075 C; Q_bl: half_width 0.0025 C -> 0.00125 C
     edits = {"Q_post": ("u = 0.0015", "u = 0.00075"),
              "Q_bl": ("half_width = 0.0025", "half_width = 0.00125")}

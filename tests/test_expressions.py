@@ -62,7 +62,8 @@ def test_functions_evaluate_like_math():
     budget = propagate(model("""
         title = "functions"
         [measurands.y]
-        equation = "sqrt(a) + exp(b) + log(c) + log10(c) + sin(b) + cos(b) + tan(b) + asin(b) + acos(b) + atan(b) + abs(-a)"
+        equation = "sqrt(a) + exp(b) + log(c) + log10(c) + sin(b) + cos(b) + tan(b) \
++ asin(b) + acos(b) + atan(b) + abs(-a)"
         [inputs.a]
         value = 4
         u = 0.1

@@ -24,8 +24,7 @@ from budget.errors import BudgetError, CampaignError
 from budget.plausibility import AIR_DENSITY_VALIDITY
 
 DEMO = MODELS / "vics-as-25a"
-FILES = ("coulometric-purity.toml", "determinations.csv", "homogeneity.csv", "stability.csv",
-         "campaign.toml")
+FILES = tuple(p.name for p in sorted(DEMO.iterdir()) if p.is_file())
 
 
 def _copy(tmp_path: Path, edits: dict[str, Callable[[str], str]] | None = None) -> Path:

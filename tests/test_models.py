@@ -4,17 +4,25 @@ models agree with their published results (see test_reference_*.py for the detai
 from __future__ import annotations
 
 import json
+import tomllib
 
 import pytest
 
 from conftest import MODELS
 
-_MODELS = sorted(p for p in MODELS.rglob("*.toml") if p.name != "campaign.toml")
-_CAMPAIGNS = sorted(MODELS.rglob("campaign.toml"))
+_REGISTERS = sorted(p for p in MODELS.rglob("*.toml")
+                    if "certificates" in tomllib.loads(p.read_text()))
+_MODELS = sorted(p for p in MODELS.rglob("*.toml")
+                 if not p.name.startswith("campaign") and p not in _REGISTERS)
+_CAMPAIGNS = sorted(MODELS.rglob("campaign*.toml"))
 
 
 @pytest.mark.parametrize("path", _MODELS, ids=[str(p.relative_to(MODELS)) for p in _MODELS])
-def test_model_runs_end_to_end(path, cli):
+def test_model_runs_end_to_end(path, cli, tmp_path):
+    code, stdout, stderr = cli("run", str(path), "--trials", "20000", "--html",
+                               str(tmp_path / "report.html"))
+    assert code == 0, stderr  # every model, one measurand or several, gives its report
+    assert (tmp_path / "report.html").stat().st_size > 0
     code, stdout, stderr = cli("check", str(path))
     assert code == 0, stderr
     code, stdout, stderr = cli("run", str(path), "--json", "--trials", "20000")
@@ -32,8 +40,18 @@ def test_campaign_runs_end_to_end(path, cli):
     assert json.loads(stdout)["U"] > 0
 
 
+@pytest.mark.parametrize("path", _REGISTERS,
+                         ids=[str(p.relative_to(MODELS)) for p in _REGISTERS])
+def test_register_loads(path):
+    from budget.errors import Location
+    from budget.register import load_register
+
+    register = load_register(path, Location(file="test"), "iupac-2021-interval")
+    assert register.certificates
+
+
 def test_every_model_file_is_commented():
-    for path in _MODELS + _CAMPAIGNS:
+    for path in _MODELS + _CAMPAIGNS + _REGISTERS:
         assert path.read_text().lstrip().startswith("#"), path
 
 

@@ -1,0 +1,197 @@
+"""The three kinds of ``[records.NAME]``: ``charge``, ``end_point`` and ``drift``.
+
+Each reader turns the numbers of ``records.py`` into generated inputs (``Made``), a
+definition where the quantity has several parts, and a view for the report.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+
+from .errors import InputError
+from .recordinputs import (
+    FitView,
+    Generated,
+    Made,
+    RecordView,
+    Where,
+    _choice,
+    _delta,
+    _number,
+    _pair,
+    _together,
+)
+from .records import Derived, Series, charge, drift, inflection, intersection
+
+__all__ = ["KINDS"]
+
+Labels = tuple[str, str]
+
+
+def _optional(data: dict[str, Any], key: str, here: Where) -> float | None:
+    if key not in data:
+        return None
+    value = _number(data, key, here)
+    if value < 0:
+        raise InputError(f"expected a number ≥ 0, found {value:g}", here(key))
+    return value
+
+
+def _derived_inputs(made: Generated, derived: Derived, names: tuple[str, ...],
+                    units: tuple[str, ...], basis: str, source: str) -> None:
+    u = derived.standard_uncertainties
+    for k, name in enumerate(names):
+        made.inputs.append(Made(name=name, estimate=float(derived.estimates[k]),
+                                unit=units[k], u=float(u[k]), dof=derived.dof, type="A",
+                                basis=basis, source=source))
+    _together(made, names, derived.estimates, derived.covariance, derived.dof,
+              f"parts derived from one fit of {source}")
+
+
+def _views(derived: Derived, labels: Labels) -> tuple[FitView, ...]:
+    return tuple(FitView(label=what, fit=fit, x_label=labels[0], y_label=labels[1])
+                 for what, fit in derived.fits)
+
+
+def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, str],
+            labels: Labels, here: Where, made: Generated) -> None:
+    window = _pair(data, "window", here)
+    background = _choice(data, "background", ("none", "constant", "line", "exponential"),
+                         here)
+    tail = _pair(data, "background_window", here, required=background != "none")
+    if background == "none" and "background_window" in data:
+        raise InputError("expected 'background_window' only with a background, found "
+                         "background = \"none\"", here("background_window"))
+    residual = data.get("residual", True)
+    if not isinstance(residual, bool):
+        raise InputError(f"expected true or false, found {residual!r}", here("residual"))
+    if "residual" in data and background != "exponential":
+        raise InputError("expected 'residual' only with background = \"exponential\", "
+                         f"found background = \"{background}\"", here("residual"))
+    result = charge(record, window, background, tail, residual)
+    unit = f"{_delta(units['y'])}*{_delta(units['x'])}"
+    source = f"record {record.file}"
+    span = f"{result.count} readings, {result.start:g} to {result.end:g} {units['x']}"
+    parts = _raw_part(name, data, result.raw, result.weights, unit, span, source, here)
+    made.inputs.append(parts)
+    inner = [parts.name]
+    notes = [f"trapezoidal rule over {span}: {result.raw:.8g} {unit}",
+             f"integration-rule error estimate (Richardson, (T_h − T_2h)/3): "
+             f"{result.rule_error:.3g} {unit}, carried as a rectangular term"]
+    views: tuple[FitView, ...] = ()
+    if result.background is not None:
+        names = tuple(f"{name}_{part}" for part in result.background.names)
+        _derived_inputs(made, result.background, names, (unit,) * len(names),
+                        f"{background} background fitted to {background_window_text(tail)}",
+                        source)
+        inner.append(f"- {names[0]}")
+        if len(names) > 1:
+            inner.append(f"+ {names[1]}")
+        notes.extend(result.background.notes)
+        views = _views(result.background, labels)
+    text = f"({' '.join(inner)})"
+    for suffix, key, what in (("cal", "current_u_relative", "current calibration"),
+                              ("time", "time_u_relative", "time base")):
+        value = _optional(data, key, here)
+        if value:
+            made.inputs.append(Made(name=f"{name}_{suffix}", estimate=1.0, unit="1", u=value,
+                                    dof=math.inf, type="B", basis=f"relative {what}",
+                                    source=source))
+            text = f"{name}_{suffix} * {text}"
+    if result.rule_error != 0.0:
+        made.inputs.append(Made(name=f"{name}_rule", estimate=0.0, unit=unit,
+                                u=abs(result.rule_error), dof=math.inf, type="B",
+                                basis="trapezoidal-rule error, Richardson estimate",
+                                source=source, shape="rectangular"))
+        text = f"{text} + {name}_rule"
+    made.definitions[name] = text
+    made.views.append(RecordView(table=f"records.{name}", file=record.file,
+                                 method=f"charge by the trapezoidal rule, {background} "
+                                        "background", produces=(name,), fits=views,
+                                 notes=tuple(notes)))
+
+
+def background_window_text(pair: tuple[float, float] | None) -> str:
+    return "the whole record" if pair is None else f"[{pair[0]:g}, {pair[1]:g}]"
+
+
+def _raw_part(name: str, data: dict[str, Any], raw: float, weights: np.ndarray, unit: str,
+              span: str, source: str, here: Where) -> Made:
+    per_reading = _optional(data, "current_u", here)
+    if not per_reading:
+        return Made(name=f"{name}_int", estimate=raw, unit=unit, u=0.0, dof=math.inf,
+                    type="B", basis=f"trapezoidal integral, {span}", source=source,
+                    shape="exact")
+    u = per_reading * float(np.sqrt(np.sum(weights ** 2)))
+    return Made(name=f"{name}_int", estimate=raw, unit=unit, u=u, dof=math.inf, type="B",
+                basis=f"trapezoidal integral, {span}; u of each reading {per_reading:g}",
+                source=source)
+
+
+def _end_point(name: str, data: dict[str, Any], record: Series, units: dict[str, str],
+               labels: Labels, here: Where, made: Generated) -> None:
+    method = _choice(data, "method", ("intersection", "inflection"), here)
+    if method == "intersection":
+        windows = data.get("windows")
+        if "window" in data:
+            raise InputError("expected 'windows' (two of them) for the intersection, found "
+                             "'window'", here("window"))
+        if not isinstance(windows, list) or len(windows) != 2:
+            raise InputError(f"expected windows = [[low, high], [low, high]], found "
+                             f"{'none' if windows is None else repr(windows)}",
+                             here("windows" if "windows" in data else None))
+        first = _pair({"windows": windows[0]}, "windows", here, required=True)
+        second = _pair({"windows": windows[1]}, "windows", here, required=True)
+        assert first is not None and second is not None
+        derived = intersection(record, first, second)
+        described = "intersection of two fitted straight segments"
+    else:
+        if "windows" in data:
+            raise InputError("expected one 'window' for the inflection, found 'windows'",
+                             here("windows"))
+        window = _pair(data, "window", here, required=True)
+        assert window is not None
+        derived = inflection(record, window)
+        described = "inflection point (extremum of the first derivative of a local cubic)"
+    _derived_inputs(made, derived, (name,), (units["x"],), f"end point, {described}",
+                    f"record {record.file}")
+    made.views.append(RecordView(table=f"records.{name}", file=record.file,
+                                 method=f"end point: {described}", produces=(name,),
+                                 fits=_views(derived, labels),
+                                 notes=derived.notes + (f"ν = {derived.dof:.3g}",)))
+
+
+def _drift(name: str, data: dict[str, Any], record: Series, units: dict[str, str],
+           labels: Labels, here: Where, made: Generated) -> None:
+    before = _pair(data, "before", here, required=True)
+    assert before is not None
+    after = _pair(data, "after", here)
+    give = _choice(data, "give", ("correction", "rate"), here)
+    derived = drift(record, before, after)
+    rate, u_rate = float(derived.estimates[0]), float(derived.standard_uncertainties[0])
+    x_unit, y_unit = _delta(units["x"]), _delta(units["y"])
+    notes = [f"drift rate {rate:.6g} {y_unit}/{x_unit}, u = {u_rate:.2g}, ν = {derived.dof:g}"]
+    if give == "correction":
+        duration = _number(data, "titration_time", here, positive=True)
+        estimate, u, unit = rate * duration, u_rate * duration, y_unit
+        notes.append(f"correction = rate × titration time {duration:g} {x_unit}")
+    else:
+        if "titration_time" in data:
+            raise InputError("expected no 'titration_time' with give = \"rate\"",
+                             here("titration_time"))
+        estimate, u, unit = rate, u_rate, f"{y_unit}/{x_unit}"
+    made.inputs.append(Made(name=name, estimate=estimate, unit=unit, u=u, dof=derived.dof,
+                            type="A", basis="drift rate, common slope of the background "
+                            "windows" + (" × titration time" if give == "correction" else ""),
+                            source=f"record {record.file}"))
+    made.views.append(RecordView(table=f"records.{name}", file=record.file,
+                                 method="drift of the titration cell", produces=(name,),
+                                 fits=_views(derived, labels), notes=tuple(notes)))
+
+
+KINDS: dict[str, Callable[..., None]] = {"charge": _charge, "end_point": _end_point,
+                                         "drift": _drift}
