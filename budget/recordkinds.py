@@ -81,7 +81,8 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
     inner = [parts.name]
     notes = [f"trapezoidal rule over {span}: {result.raw:.8g} {unit}",
              f"integration-rule error estimate (Richardson, (T_h − T_2h)/3): "
-             f"{result.rule_error:.3g} {unit}, carried as a rectangular term"]
+             f"{result.rule_error:.3g} {unit}, applied as a correction ± its size "
+             "(rectangular)"]
     views: tuple[FitView, ...] = ()
     if result.background is not None:
         names = tuple(f"{name}_{part}" for part in result.background.names)
@@ -103,9 +104,10 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
                                     source=source))
             text = f"{name}_{suffix} * {text}"
     if result.rule_error != 0.0:
-        made.inputs.append(Made(name=f"{name}_rule", estimate=0.0, unit=unit,
+        made.inputs.append(Made(name=f"{name}_rule", estimate=result.rule_error, unit=unit,
                                 u=abs(result.rule_error), dof=math.inf, type="B",
-                                basis="trapezoidal-rule error, Richardson estimate",
+                                basis="trapezoidal-rule correction (Richardson), ± its "
+                                      "size",
                                 source=source, shape="rectangular"))
         text = f"{text} + {name}_rule"
     made.definitions[name] = text

@@ -7,8 +7,8 @@ covariance is G·C·Gᵀ with G the gradient and C the fit covariance, GUM 5.1 a
   readings inside the integration window, Q = Σ (t_{k+1} − t_k)(i_k + i_{k+1})/2. The
   rule's error is estimated by Richardson's comparison with the rule on every second
   reading, E ≈ (T_h − T_2h)/3 (exact for a quadratic current over an even number of
-  equal steps; the sign is the correction T_h would need), and carried as a
-  rectangular term ±|E|, not applied as a correction. A
+  equal steps); as GUM 3.2.4 asks for a known systematic effect, E is applied as a
+  correction and its whole size kept as a rectangular uncertainty ±|E|. A
   background current is subtracted as its charge over the window: a constant (the mean
   of a background window), a straight line fitted to a background window, or the
   decaying current i(t) = i₀·e^(−(t − t₀)/τ) + i_b fitted to the tail, whose residual
@@ -178,7 +178,11 @@ def _background(tail: Series, kind: str, start: float, end: float,
         raise FitError(f"expected currents > 0 in background_window of '{tail.file}' for "
                        f"the exponential fit (its starting values take a logarithm), found "
                        f"{tail.y[k]:g} at row {tail.rows[k]}")
-    fit = exponential(tail.x, tail.y)
+    try:
+        fit = exponential(tail.x, tail.y)
+    except FitError as exc:
+        raise FitError(f"{exc} (background_window of '{tail.file}', rows {tail.rows[0]}–"
+                       f"{tail.rows[-1]})") from exc
     amplitude, tau, offset = (float(v) for v in fit.estimates)
     decay = math.exp(-(end - fit.x0) / tau)
     g = np.array([[0.0, 0.0, duration],

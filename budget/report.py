@@ -1,7 +1,8 @@
 """Self-contained HTML reports: the only module that imports jinja2.
 
 The view-models built here hold strings that are already rounded (``formatting``), SVG
-charts (``svg``) and MathML produced by sympy's presentation printer; the templates in
+charts (``svg``) and MathML typeset from the text the user wrote (``typeset``,
+``equations_view``), the auditor's page (``audit_view``); the templates in
 ``templates/`` only lay them out (autoescaping on, undefined names are errors). The
 report loads nothing from the network: no scripts, fonts, images or style sheets.
 """
@@ -11,7 +12,6 @@ from __future__ import annotations
 from importlib import resources
 from typing import Any, Callable
 
-import sympy
 from markupsafe import Markup
 
 from .analysis import Result
@@ -21,13 +21,15 @@ from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
 from .output import write_atomic
 from .provenance import describe
+from .audit_view import audit_view
+from .equations_view import model_view, sensitivity_view
 from .svg import bar_chart, histogram
 from .table import contribution_cells, result_statement
+from .typeset import equation_mathml, name_html, name_text
+from .unit_display import display_unit, unit_ratio
 
 __all__ = ["render_report", "write_report", "render_certification_report",
-           "write_certification_report", "mathml"]
-
-_FORMULA_LIMIT = 80  # operations; longer sensitivity formulas are not printed
+           "write_certification_report"]
 
 
 def _environment() -> Any:
@@ -37,16 +39,6 @@ def _environment() -> Any:
     return jinja2.Environment(loader=jinja2.FileSystemLoader(str(folder)), autoescape=True,
                               undefined=jinja2.StrictUndefined, trim_blocks=True,
                               lstrip_blocks=True)
-
-
-def mathml(left: Any, right: Any) -> Markup:
-    """``left = right`` as a MathML block; symbol names are identifiers, so nothing leaks."""
-    from sympy.printing.mathml import mathml as to_mathml
-
-    lhs = left if isinstance(left, Markup) else to_mathml(left, printer="presentation")
-    rhs = to_mathml(right, printer="presentation")
-    return Markup('<math xmlns="http://www.w3.org/1998/Math/MathML" display="block">'
-                  f"<mrow>{lhs}<mo>=</mo>{rhs}</mrow></math>")
 
 
 def render_report(result: Result) -> str:
@@ -60,13 +52,16 @@ def write_report(result: Result, path: str) -> None:
 
 def _budget_view(result: Result) -> dict[str, Any]:
     model = result.model
+    equations = model_view(model)
+    measurands = [_measurand_view(result, k, b) for k, b in
+                  enumerate(result.budget.measurands)]
     return {
         "title": model.title, "description": model.description, "caution": CAUTION,
-        "definitions": [{"name": d.name, "math": mathml(sympy.Symbol(d.name), d.shown),
-                         "unit": d.unit, "text": d.text} for d in model.definitions],
-        "measurands": [_measurand_view(result, k, b) for k, b in
-                       enumerate(result.budget.measurands)],
-        "correlations": [{"a": a, "b": b, "r": f"{r:g}"} for a, b, r in model.correlations],
+        "definitions": equations["definitions"], "equations": equations,
+        "measurands": measurands,
+        "audit": audit_view(result, [m["sensitivity"] for m in measurands]),
+        "correlations": [{"a": Markup(name_html(a)), "b": Markup(name_html(b)), "r": f"{r:g}"}
+                         for a, b, r in model.correlations],
         "output_correlation": _output_correlation(result),
         "inputs": [_input_view(i) for i in model.inputs],
         "provenance": _provenance(describe(model, result.simulation), result),
@@ -94,26 +89,38 @@ def _certificates_view(model: Any, days: Any) -> list[dict[str, str]]:
     return rows
 
 
-def _input_view(item: Any) -> dict[str, str]:
-    return {"name": item.name, "basis": item.basis, "source": item.source,
-            "description": item.description}
+def _input_view(item: Any) -> dict[str, Any]:
+    return {"name": item.name, "shown": Markup(name_html(item.name)), "basis": item.basis,
+            "source": item.source, "description": item.description,
+            "unit": display_unit(item.unit)}
+
+
+def _row_view(c: Any, unit: str, digits: int) -> dict[str, Any]:
+    cells: dict[str, Any] = dict(contribution_cells(c, digits))
+    cells["shown"] = Markup(name_html(c.input))
+    cells["unit"] = display_unit(c.unit)
+    cells["c_unit"] = unit_ratio(unit, cells["unit"])
+    return cells
 
 
 def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any]:
     measurand = result.model.measurands[k]
     simulation = result.simulation.measurands[k] if result.simulation else None
     digits = result.digits
+    unit = display_unit(b.unit)
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
-    chart_rows = [(c.input, c.share) for c in sorted(b.contributions, key=lambda c: -c.share)
-                  if c.share > 0]
-    chart_rows += [(f"r({t.inputs[0]}, {t.inputs[1]})", t.share) for t in b.correlation_terms]
+    chart_rows = [(name_text(c.input), c.share) for c in
+                  sorted(b.contributions, key=lambda c: -c.share) if c.share > 0]
+    chart_rows += [(f"r({name_text(t.inputs[0])}, {name_text(t.inputs[1])})", t.share)
+                   for t in b.correlation_terms]
     return {
-        "name": b.name, "unit": b.unit, "description": measurand.description,
-        "equation": measurand.equation,
-        "math": mathml(sympy.Symbol(b.name), measurand.shown),
-        "statement": result_statement(b, digits),
-        "rows": [contribution_cells(c, digits) for c in b.contributions],
-        "correlation_terms": [{"pair": f"{t.inputs[0]}, {t.inputs[1]}", "r": f"{t.r:g}",
+        "name": b.name, "shown": Markup(name_html(b.name)), "unit": unit,
+        "description": measurand.description, "equation": measurand.equation,
+        "math": model_view_math(result, k),
+        "statement": result_statement(b, digits, unit=unit),
+        "rows": [_row_view(c, unit, digits) for c in b.contributions],
+        "correlation_terms": [{"pair": Markup(f"{name_html(t.inputs[0])}, "
+                                              f"{name_html(t.inputs[1])}"), "r": f"{t.r:g}",
                                "variance": format_number(t.variance, 3),
                                "share": format_percent(t.share)} for t in b.correlation_terms],
         "value": value, "u": u, "dof": format_dof(b.dof), "dof_rule": b.dof_rule,
@@ -122,36 +129,19 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "p": f"{100 * b.coverage_probability:g}",
         "second_order": None if b.second_order_variance is None else
         format_number(b.first_order_uncertainty, 3),
-        "chart": bar_chart(chart_rows, "%", f"contributions to u_c² of {b.name}"),
-        "formulas": _formulas(result, k),
-        "mc": _simulation_view(b, simulation, digits) if simulation else None,
+        "chart": bar_chart(chart_rows, "%", f"shares of u_c² of {name_text(b.name)}"),
+        "sensitivity": sensitivity_view(result.model, k),
+        "mc": _simulation_view(b, simulation, digits, unit) if simulation else None,
     }
 
 
-def _formulas(result: Result, k: int) -> list[dict[str, Any]]:
+def model_view_math(result: Result, k: int) -> Markup:
     measurand = result.model.measurands[k]
-    formulas = []
-    for item in result.model.inputs:
-        if item.standard_uncertainty == 0:
-            continue
-        derivative = sympy.diff(measurand.opaque, item.symbol)
-        left = _partial(measurand.name, item.symbol)
-        if sympy.count_ops(derivative) > _FORMULA_LIMIT:
-            formulas.append({"input": item.name, "math": None})
-        else:
-            formulas.append({"input": item.name, "math": mathml(left, derivative)})
-    return formulas
+    return Markup(equation_mathml(measurand.name, measurand.equation))
 
 
-def _partial(name: str, symbol: sympy.Symbol) -> Markup:
-    from sympy.printing.mathml import mathml as to_mathml
-
-    top = to_mathml(sympy.Symbol(name), printer="presentation")
-    bottom = to_mathml(symbol, printer="presentation")
-    return Markup(f"<mfrac><mrow><mo>∂</mo>{top}</mrow><mrow><mo>∂</mo>{bottom}</mrow></mfrac>")
-
-
-def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> dict[str, Any]:
+def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int,
+                     unit: str) -> dict[str, Any]:
     reference = b.combined_uncertainty or s.standard_uncertainty
     rounded: Callable[[float], str] = lambda x: format_pair(x, reference, digits + 1)[0]  # noqa: E731
     v = s.validation
@@ -167,8 +157,8 @@ def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int) ->
         "tolerance": format_number(v.tolerance, 1) if v else "-",
         "histogram": histogram(s.samples, estimate=b.estimate, u=b.combined_uncertainty,
                                dof=b.dof, gum_interval=b.interval, interval=s.interval,
-                               shortest=s.shortest_interval, unit=b.unit,
-                               label=f"Monte Carlo distribution of {b.name}"),
+                               shortest=s.shortest_interval, unit=unit,
+                               label=f"Monte Carlo distribution of {name_text(b.name)}"),
     }
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import sys
 import textwrap
 from typing import Any
 
@@ -10,6 +11,7 @@ from .analysis import Result
 from .formatting import format_dof, format_number, format_pair, format_percent
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
+from .unit_display import display_unit
 
 __all__ = ["render", "render_certification", "result_statement", "contribution_cells",
            "SHORT_DISTRIBUTION"]
@@ -22,6 +24,12 @@ SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
                       "rectangular (atomic weights)": "atomic wts"}
 _HEAD = ("input", "estimate", "unit", "u(x)", "distribution", "type", "ν", "c",
          "|c|·u(x)", "share %")
+
+
+def terminal_unit(text: str) -> str:
+    """A unit as symbols (°C, kg/m³, Ω) when standard output can encode them, else as
+    written; the one function through which the terminal shows units."""
+    return display_unit(text, encoding=getattr(sys.stdout, "encoding", None) or "utf-8")
 
 
 def render(result: Result) -> str:
@@ -38,7 +46,7 @@ def render(result: Result) -> str:
 def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None) -> list[str]:
     model_measurand = result.model.measurands[[m.name for m in result.model.measurands]
                                               .index(b.name)]
-    heading = f"{b.name} = {model_measurand.equation}   [{b.unit}]"
+    heading = f"{b.name} = {model_measurand.equation}   [{terminal_unit(b.unit)}]"
     lines = [heading if len(heading) <= WIDTH else heading[:WIDTH - 1] + "…"]
     if model_measurand.description:
         lines.append(model_measurand.description[:WIDTH])
@@ -69,6 +77,7 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
     rows = [list(_HEAD)]
     for c in b.contributions:
         cells = contribution_cells(c, digits)
+        cells["unit"] = terminal_unit(c.unit)
         rows.append([cells[key] for key in _CELLS])
     for t in b.correlation_terms:
         rows.append([f"r({t.inputs[0]},{t.inputs[1]})", format_number(t.r, 3), "", "", "", "",
@@ -99,17 +108,18 @@ def _bar(share: float, width: int) -> str:
     return "█" * full + ("▌" if cells - full >= 0.5 else "")
 
 
-def result_statement(b: MeasurandBudget, digits: int) -> str:
+def result_statement(b: MeasurandBudget, digits: int, unit: str | None = None) -> str:
     value, expanded = format_pair(b.estimate, b.expanded_uncertainty, digits)
-    return (f"{b.name} = ({value} ± {expanded}) {b.unit}, k = {b.coverage_factor:.2f}, "
+    return (f"{b.name} = ({value} ± {expanded}) {unit or b.unit}, k = {b.coverage_factor:.2f}, "
             f"coverage probability {100 * b.coverage_probability:g} %")
 
 
 def _summary(b: MeasurandBudget, digits: int) -> list[str]:
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
-    lines = [f"GUM:  y = {value} {b.unit}   u_c = {u} {b.unit}   ν_eff = {format_dof(b.dof)}"
+    unit = terminal_unit(b.unit)
+    lines = [f"GUM:  y = {value} {unit}   u_c = {u} {unit}   ν_eff = {format_dof(b.dof)}"
              f"   k = {b.coverage_factor:.3g}",
-             f"      {result_statement(b, digits)}"]
+             f"      {result_statement(b, digits, unit=unit)}"]
     if "; " in b.dof_rule:  # more than Welch-Satterthwaite input by input: say which rule
         lines += textwrap.wrap("ν_eff: " + b.dof_rule.split("; ", 1)[1], WIDTH,
                                initial_indent="      ", subsequent_indent="      ")
@@ -126,14 +136,15 @@ def _monte_carlo(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> lis
     short_low, short_high = (format_pair(x, reference, digits + 1)[0]
                              for x in s.shortest_interval)
     p = f"{100 * b.coverage_probability:g} %"
-    lines = [f"MC:   {s.trials:,} trials   y = {mean} {b.unit}   u = {u} {b.unit}",
+    unit = terminal_unit(b.unit)
+    lines = [f"MC:   {s.trials:,} trials   y = {mean} {unit}   u = {u} {unit}",
              f"      {p} interval [{low}, {high}]   shortest [{short_low}, {short_high}]"]
     v = s.validation
     if v is not None:
         verdict = "validated" if v.validated else "NOT validated"
         lines.append(f"      GUM result {verdict} (JCGM 101 8.2): d_low = "
                      f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
-                     f"δ = {format_number(v.tolerance, 1)} {b.unit}")
+                     f"δ = {format_number(v.tolerance, 1)} {unit}")
     return lines
 
 
@@ -156,7 +167,7 @@ def render_certification(cert: Any, digits: int = 2) -> str:
     from .studydata import time_words
 
     campaign, char = cert.campaign, cert.characterization
-    unit = campaign.unit
+    unit = terminal_unit(campaign.unit)
     value, expanded = format_pair(cert.certified_value, cert.expanded_uncertainty, digits)
     lines = [campaign.title, "=" * min(WIDTH, len(campaign.title))]
     if campaign.material:

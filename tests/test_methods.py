@@ -102,7 +102,8 @@ def _write(folder: Path, campaign: str) -> Path:
 
 def test_shared_input_changes_the_scores_by_the_predicted_amount(tmp_path: Path) -> None:
     # hand computation (GUM 5.2.2, ISO 13528 9.7/9.8):
-    # u_A^2 = 0.001^2 (a) + 0.010^2 (s) + 0.001^2 (g = 0 ± 1e-5 = 0.001 %) + 1e-6 (s^2/n of 99.990, 99.992)
+    # u_A^2 = 0.001^2 (a) + 0.010^2 (s) + 0.001^2 (g = 0 ± 1e-5 = 0.001 %)
+    #         + 1e-6 (s^2/n of 99.990, 99.992)
     #       = 1.03e-4;
     # u_B^2 = 0.002^2 (b) + 0.010^2 (s) + 4e-6 (s^2/n of 99.970, 99.974) = 1.08e-4;
     # the shared s gives u_AB = 0.010^2 = 1e-4; d = 99.991 - 99.972 = 0.019;

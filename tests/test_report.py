@@ -19,6 +19,8 @@ from budget.analysis import evaluate
 from budget.formatting import format_pair
 from budget.model import parse_model
 from budget.report import render_report
+from budget.typeset import name_text
+from budget.unit_display import display_unit
 
 from conftest import MODELS
 
@@ -80,11 +82,11 @@ def test_every_input_row_with_the_json_numbers_rounded(demo):
     assert set(parser.rows) == {c["input"] for c in w["contributions"]}
     for c in w["contributions"]:
         cells = parser.rows[c["input"]]
-        assert cells[0] == c["input"]
+        assert cells[0] == name_text(c["input"]).replace("_", "")  # typeset: ρ<sub>ref</sub>
         if c["u"] > 0:
             # GUM 7.2.6: u to two significant digits, the estimate to the same place
             assert (cells[1], cells[3]) == format_pair(c["estimate"], c["u"], 2)
-        assert cells[2] == c["unit"]
+        assert cells[2] == display_unit(c["unit"])
         assert cells[5] == c["type"]
     value, expanded = format_pair(w["value"], w["U"], 2)
     assert f"w = ({value} ± {expanded}) %" in text
