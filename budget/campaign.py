@@ -30,7 +30,8 @@ _SECTIONS = {
                          "estimate_factor", *FORMAT_KEYS),
     "homogeneity": ("data", "value_unit", *FORMAT_KEYS),
     "stability": ("data", "shelf_life", "u_short_term", "value_unit", "time_unit",
-                  "time_origin", *FORMAT_KEYS),
+                  "time_origin", *FORMAT_KEYS,
+                  "label", "evaluation", "series", "short_term"),  # the last four: stability.py
     "comparison": ("label", "value", "expanded", "k", "u", "unit"),
 }
 
@@ -67,6 +68,7 @@ class Campaign:
     data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
     method_label: str = "characterization"
     methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
+    stability_plan: Any = None  # stability.StabilityPlan: more series, short-term study
     time_unit: str = ""
     excluded: tuple[Exclusion, ...] = field(default=())
     warnings: tuple[str, ...] = field(default=())
@@ -188,6 +190,9 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     homogeneity, excluded = _homogeneity(r, unit)
     stability_section = r.section("stability", False)
     stability, time_unit, shelf, more = _stability(r, stability_section, unit, warnings)
+    from .stability import read_stability_plan
+
+    stability_plan = read_stability_plan(r, stability_section)
     u_sts = 0.0
     if stability_section is not None:
         u_sts = r.number(stability_section, "u_short_term", "stability", default=0.0)
@@ -201,8 +206,8 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
                     if key in r.doc),
         data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
-        method_label=label, methods=plan, time_unit=time_unit, excluded=excluded + more,
-        warnings=tuple(warnings))
+        method_label=label, methods=plan, stability_plan=stability_plan,
+        time_unit=time_unit, excluded=excluded + more, warnings=tuple(warnings))
 
 
 def _format(r: _Reader, data: dict[str, Any], table: str) -> FileFormat:

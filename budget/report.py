@@ -66,10 +66,25 @@ def _budget_view(result: Result) -> dict[str, Any]:
                          for a, b, r in model.correlations],
         "output_correlation": _output_correlation(result),
         "inputs": [_input_view(i) for i in model.inputs],
+        "records": _records_view(model),
         "provenance": _provenance(describe(model, result.simulation), result),
         "certificates": _certificates_view(model, model.measured),
         "warnings": list(result.warnings),
     }
+
+
+def _records_view(model: Any) -> list[dict[str, Any]]:
+    """Each [fits.NAME] / [records.NAME] table: method, what it gives, notes, fit charts."""
+    from .fitchart import fit_chart
+
+    return [{"table": view.table, "file": view.file, "method": view.method,
+             "produces": ", ".join(view.produces), "notes": list(view.notes),
+             "charts": [{"label": f.label, "svg": fit_chart(
+                 f.fit, x_label=f.x_label, y_label=f.y_label,
+                 label=f"{view.table}: {f.label}, data, fit and residuals"),
+                 "points": len(f.fit.x), "dof": format_dof(f.fit.dof)}
+                        for f in view.fits]}
+            for view in model.records]
 
 
 def _certificates_view(model: Any, days: Any) -> list[dict[str, str]]:
@@ -226,6 +241,11 @@ def _certification_view(cert: Any) -> dict[str, Any]:
 
         view["methods"] = methods_view(cert.methods, cert.campaign.unit,
                                        cert.campaign.model.settings.digits, _budget_view)
+    if cert.stability_studies is not None:  # studies_output.py, studies.html.j2
+        from .studies_output import studies_view
+
+        view["stability_studies"] = studies_view(cert.stability_studies,
+                                                 cert.campaign.model.settings.digits)
     return view
 
 

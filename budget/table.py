@@ -213,6 +213,10 @@ def render_certification(cert: Any, digits: int = 2) -> str:
         from .methods_output import methods_lines
 
         lines += methods_lines(cert.methods, unit, digits)
+    if cert.stability_studies is not None:  # several series, short-term study
+        from .studies_output import studies_lines
+
+        lines += studies_lines(cert.stability_studies, unit, digits)
     if campaign.excluded:
         lines += ["", f"rows left out ({len(campaign.excluded)}):"]
         lines += [f"  {item}" for item in campaign.excluded]
