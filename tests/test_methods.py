@@ -13,7 +13,7 @@ import pytest
 
 from budget.campaign import load_campaign
 from budget.certification import certify
-from budget.errors import CampaignError
+from budget.errors import CampaignError, InputError
 
 from conftest import MODELS
 
@@ -275,3 +275,14 @@ def test_mass_balance_needs_impurities(tmp_path: Path) -> None:
     assert str(caught.value).replace(str(tmp_path) + "/", "") == (
         "campaign.toml:13: [method] kind: expected at least one [[method.impurity]] table, "
         "found none")
+
+
+def test_shared_inputs_stated_differently_are_refused_on_loading(tmp_path: Path) -> None:
+    path = _write(tmp_path, TWO + "\n[shared]\ns = [\"A.s\", \"B.s\"]\n")
+    (tmp_path / "b.toml").write_text(MODEL_B.replace("u = 0.010", "u = 0.020"))
+    with pytest.raises(InputError) as caught:
+        load_campaign(path)
+    assert str(caught.value).replace(str(tmp_path) + "/", "") == (
+        "campaign.toml:17: [shared] shared input 's': expected the same estimate, standard "
+        "uncertainty and distribution in every model, found 0 ± 0.01 % (normal) and 0 ± "
+        "0.02 % (normal) in 'B'")
