@@ -11,6 +11,7 @@ root only, so anything else that escapes is a bug in ``budget`` and shows as one
     ├── UnitError        (also ValueError)   unknown unit, dimension mismatch, offset misuse
     ├── InputError       (also ValueError)   missing/invalid keys and numbers, correlations
     ├── CampaignError    (also ValueError)   campaign files and their CSV data
+    │   └── DataFileError                    a data table: encoding, separators, cells
     ├── NotFoundError    (also KeyError)     a lookup by a name the result does not have
     ├── PropagationError                     the model cannot be evaluated at the estimates
     └── SimulationError                      Monte Carlo cannot give a result
@@ -27,7 +28,8 @@ from typing import Iterable
 
 __all__ = [
     "BudgetError", "ModelSyntaxError", "UnknownNameError", "UnitError", "InputError",
-    "CampaignError", "NotFoundError", "PropagationError", "SimulationError", "Location",
+    "CampaignError", "DataFileError", "NotFoundError", "PropagationError", "SimulationError",
+    "Location",
     "did_you_mean",
 ]
 
@@ -78,6 +80,10 @@ class InputError(BudgetError, ValueError):
 
 class CampaignError(BudgetError, ValueError):
     """A campaign file or its data tables break the campaign contract."""
+
+
+class DataFileError(CampaignError):
+    """A data table (CSV or workbook) that cannot be read as declared."""
 
 
 class NotFoundError(BudgetError, KeyError):
