@@ -15,9 +15,12 @@ import json
 import math
 import sys
 import time
+from pathlib import Path
 from typing import Any, Callable
 
 import click
+
+from . import __version__
 
 __all__ = ["main"]
 
@@ -172,7 +175,7 @@ def _common(function: Callable[..., Any]) -> Callable[..., Any]:
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
-@click.version_option(package_name="budget", prog_name="budget")
+@click.version_option(version=__version__, prog_name="budget")
 def main() -> None:
     """Measurement-uncertainty budgets to the GUM, cross-checked by Monte Carlo."""
 
@@ -376,6 +379,25 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
         from .difference_view import render_difference
 
         click.echo(render_difference(difference, digits), nl=False)
+
+
+@main.command()
+@click.argument("folder", metavar="DIR")
+def demo(folder: str) -> None:
+    """Copy the demo and reference models with their data into DIR."""
+    from .demo_files import copy_demo
+    from .errors import BudgetError
+
+    try:
+        written = copy_demo(folder)
+    except BudgetError as error:
+        _fail(error)
+    except OSError as error:
+        _fail(Exception(f"{folder}: expected a folder that can be written, found "
+                        f"{error.strerror or error}"))
+    _out(f"copied {len(written)} files into {folder}; try\n"
+         f"  budget certify {Path(folder) / 'vics-as-25a' / 'campaign.toml'}\n"
+         f"  budget run {Path(folder) / 'reference' / 'eurachem-a2-naoh.toml'}")
 
 
 if __name__ == "__main__":  # pragma: no cover
