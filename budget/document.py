@@ -13,6 +13,7 @@ from typing import Any
 from .analysis import Result
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
+from .chained import chain_document
 from .register import certificates_document, traceability_statement
 
 __all__ = ["result_document", "certification_document", "CAUTION", "SCHEMA_VERSION",
@@ -58,6 +59,8 @@ def result_document(result: Result) -> dict[str, Any]:
                                   for i, a in enumerate(names)},
         "warnings": list(result.warnings),
         "certificates": certificates_document(model, model.measured),
+        "chain": None if not model.chain else {
+            b.name: chain_document(model, b) for b in result.budget.measurands},
         "digits": result.digits,
         "atomic_weights": _convention(result),
         "provenance": provenance.describe(model, simulation),
@@ -145,11 +148,14 @@ def certification_document(cert: Any) -> dict[str, Any]:
             "counts": list(h.counts)},
         "stability": None if s is None else {
             "slope": s.slope, "u_slope": s.u_slope, "p_value": s.p_value, "u_lts": s.u_lts,
-            "intercept": s.intercept, "t": s.t, "dof": s.dof, "shelf_life": s.shelf_life},
+            "intercept": s.intercept, "t": s.t, "dof": s.dof, "shelf_life": s.shelf_life,
+            "time_unit": s.time_unit or None},
         "comparisons": [{"label": c.label, "E_n": c.E_n, "zeta": c.zeta, "agrees": c.agrees,
                          "value": c.estimate, "u": c.standard_uncertainty,
                          "U": c.expanded_uncertainty} for c in cert.comparisons],
         "warnings": list(cert.warnings),
+        "excluded": [{"file": e.file, "row": e.row, "column": e.column, "reason": e.reason}
+                     for e in campaign.excluded],
         "material": campaign.material,
         "coverage": cert.coverage_probability,
         "dof": dof_or_null(cert.dof),

@@ -53,6 +53,10 @@ def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None
         lines.append(model_measurand.description[:WIDTH])
     lines += ["", *_rows(b, result.digits), ""]
     lines += _summary(b, result.digits)
+    if result.model.chain:
+        from .chained import stage_lines
+
+        lines += stage_lines(result.model, b)
     if s is not None:
         lines += _monte_carlo(b, s, result.digits)
     return lines
@@ -100,6 +104,8 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
 
 
 def _fit(cell: str, width: int, right: bool) -> str:
+    if len(cell) > width and ":" in cell and not right:  # a chained name: keep its end
+        return ("…" + cell[len(cell) - width + 1:]).ljust(width)
     if len(cell) > width:
         cell = cell[:width - 1] + "…"
     return cell.rjust(width) if right else cell.ljust(width)
@@ -169,6 +175,8 @@ def _correlations(result: Result) -> list[str]:
 
 def render_certification(cert: Any, digits: int = 2) -> str:
     """Terminal summary of ``budget certify``."""
+    from .studydata import time_words
+
     campaign, char = cert.campaign, cert.characterization
     unit = terminal_unit(campaign.unit)
     value, expanded = format_pair(cert.certified_value, cert.expanded_uncertainty, digits)
@@ -201,9 +209,10 @@ def render_certification(cert: Any, digits: int = 2) -> str:
     if cert.stability:
         s = cert.stability
         lines.append(f"stability: slope {format_number(s.slope, digits)} ± "
-                     f"{format_number(s.u_slope, digits)} per time unit (p = "
-                     f"{s.p_value:.2g}), u_lts = {format_number(s.u_lts, digits)} {unit} over "
-                     f"{s.shelf_life:g}")
+                     f"{format_number(s.u_slope, digits)} {unit} per "
+                     f"{time_words(s.time_unit)} (p = {s.p_value:.2g}), u_lts = "
+                     f"{format_number(s.u_lts, digits)} {unit} over "
+                     f"{time_words(s.time_unit, s.shelf_life)}")
     for c in cert.comparisons:
         verdict = "agrees" if c.agrees else "DOES NOT AGREE"
         lines.append(f"comparison with {c.label}: E_n = {c.E_n:.2f}, ζ = {c.zeta:.2f}, "
@@ -216,4 +225,7 @@ def render_certification(cert: Any, digits: int = 2) -> str:
         from .studies_output import studies_lines
 
         lines += studies_lines(cert.stability_studies, unit, digits)
+    if campaign.excluded:
+        lines += ["", f"rows left out ({len(campaign.excluded)}):"]
+        lines += [f"  {item}" for item in campaign.excluded]
     return "\n".join(lines)
