@@ -271,11 +271,11 @@ def _characterize(campaign: Campaign, trials: int | None, seed: int | None,
         raise CampaignError(f"expected at least 2 runs, found {n}",
                             Location(file=campaign.source, table="characterization",
                                      key="runs"))
-    at_mean = _model_at_mean(campaign)
+    s = float(np.std(runs, ddof=1))
+    at_mean = _model_at_mean(campaign, s / math.sqrt(n))
     result = evaluate(at_mean, trials=trials, seed=seed, progress=progress)
     gum = result.budget.measurands[index]
     u_b = gum.combined_uncertainty * scale
-    s = float(np.std(runs, ddof=1))
     u = math.sqrt(u_b ** 2 + s * s / n)
     nu = welch_satterthwaite(u, np.array([u_b, s / math.sqrt(n)]),
                              np.array([gum.dof, n - 1.0]))
@@ -314,9 +314,10 @@ def _run_values(campaign: Campaign, index: int) -> np.ndarray:
     return y
 
 
-def _model_at_mean(campaign: Campaign) -> Model:
-    """The model at the mean run inputs, without the uncertainties the scatter covers."""
-    from .distributions import Exact
+def _model_at_mean(campaign: Campaign, repeatability: float | None = None) -> Model:
+    """The model at the mean run inputs; the inputs the scatter covers are marked so (no
+    term of their own: the Type A term s/√n = ``repeatability`` of the runs covers them)."""
+    from .distributions import CoveredByScatter
 
     inputs = []
     for item in campaign.model.inputs:
@@ -325,10 +326,17 @@ def _model_at_mean(campaign: Campaign) -> Model:
             item = replace(item, estimate=mean,
                            distribution=replace(item.distribution, estimate=mean))
         if item.name in campaign.scatter_covers:
-            item = replace(item, standard_uncertainty=0.0, dof=math.inf,
-                           distribution=Exact(item.estimate), basis="covered by the scatter")
+            item = replace(item, standard_uncertainty=0.0, dof=math.inf, type="A",
+                           distribution=CoveredByScatter(item.estimate, repeatability),
+                           basis=_covered_basis(repeatability, campaign.unit, item.basis))
         inputs.append(item)
     return replace(campaign.model, inputs=tuple(inputs))
+
+
+def _covered_basis(repeatability: float | None, unit: str, basis: str) -> str:
+    term = "s/√n" if repeatability is None else f"s/√n = {repeatability:.3g} {unit}"
+    return (f"covered by the run-to-run scatter: the Type A term {term} of the runs "
+            f"includes its variation (stated: {basis})")
 
 
 def _labels(campaign: Campaign) -> tuple[str, ...]:

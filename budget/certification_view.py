@@ -56,10 +56,18 @@ def _characterization(char: Any, covers: tuple[str, ...], unit: str,
             "n": char.n, "repeatability": format_number(char.s / math.sqrt(char.n), digits),
             "u_B": format_number(char.model_uncertainty, digits),
             "u": format_number(char.standard_uncertainty, digits),
-            "dof": format_dof(char.dof), "covers": ", ".join(covers) or "none",
+            "dof": format_dof(char.dof), "covers": _covers(char, covers, unit, digits),
             "chart": points_with_bars([(label, y, 0.0) for label, y in
                                        zip(char.labels, char.runs)], centre=char.mean,
                                       unit=unit, label="results of the determinations")}
+
+
+def _covers(char: Any, covers: tuple[str, ...], unit: str, digits: int) -> str:
+    if not covers:
+        return "none"
+    term = format_number(char.s / math.sqrt(char.n), digits)
+    return (f"{', '.join(covers)}: covered by the run-to-run scatter, their variation is "
+            f"in the Type A term s/√n = {term} {unit}")
 
 
 def _homogeneity(h: Any, unit: str, digits: int) -> dict[str, Any] | None:

@@ -27,7 +27,7 @@ import numpy as np
 
 __all__ = [
     "Distribution", "Normal", "Rectangular", "Triangular", "Arcsine", "Trapezoidal",
-    "CurvilinearTrapezoid", "StudentT", "Exact", "AtomicWeightSum",
+    "CurvilinearTrapezoid", "StudentT", "Exact", "CoveredByScatter", "AtomicWeightSum",
 ]
 
 _SQRT3, _SQRT6, _SQRT2 = math.sqrt(3.0), math.sqrt(6.0), math.sqrt(2.0)
@@ -241,6 +241,29 @@ class StudentT:
 class Exact:
     estimate: float
     name = "exact"
+    gaussian = True
+    has_ppf = True
+
+    @property
+    def standard_uncertainty(self) -> float:
+        return 0.0
+
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        return np.full(size, self.estimate)
+
+    def ppf(self, p: np.ndarray) -> np.ndarray:
+        return np.full(np.shape(p), self.estimate)
+
+
+@dataclass(frozen=True, slots=True)
+class CoveredByScatter:
+    """An input whose variation is already in the scatter of the runs of a
+    characterization (``scatter_covers``): no term of its own in u_B, because the Type A
+    term s/√n of the runs (``repeatability``) covers it; drawn at its estimate."""
+
+    estimate: float
+    repeatability: float | None  # s/√n of the runs, in the campaign's unit
+    name = "covered_by_scatter"
     gaussian = True
     has_ppf = True
 

@@ -134,6 +134,7 @@ def certification_document(cert: Any) -> dict[str, Any]:
             "labels": list(char.labels),
             "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.model_dof),
             "scatter_covers": list(campaign.scatter_covers),
+            "repeatability": char.s / math.sqrt(char.n),  # s/√n, covers scatter_covers
             "budget": result_document(char.result)},
         "homogeneity": None if h is None else {
             "ms_between": h.ms_between, "ms_within": h.ms_within, "n0": h.n0,

@@ -21,6 +21,7 @@ SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
                       "triangular": "triangular", "arcsine": "arcsine",
                       "trapezoidal": "trapezoidal", "curvilinear_trapezoid": "curv. trap.",
                       "student_t": "t", "exact": "exact",
+                      "covered_by_scatter": "in the scatter",
                       "rectangular (atomic weights)": "atomic wts"}
 _HEAD = ("input", "estimate", "unit", "u(x)", "distribution", "type", "ν", "c",
          "|c|·u(x)", "share %")
@@ -65,6 +66,8 @@ def contribution_cells(c: Any, digits: int) -> dict[str, str]:
     """One budget row as display strings (GUM 7.2.6); the table and the report share it."""
     estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
                    if c.standard_uncertainty > 0 else (f"{c.estimate:.10g}", "0"))
+    if c.distribution == "covered_by_scatter":  # never "exact": its term is s/√n of the runs
+        u = "in s/√n"
     return {"input": c.input, "estimate": estimate, "unit": c.unit, "u": u,
             "distribution": SHORT_DISTRIBUTION.get(c.distribution, c.distribution),
             "type": c.type, "dof": format_dof(c.dof),
@@ -184,6 +187,10 @@ def render_certification(cert: Any, digits: int = 2) -> str:
               f"s = {format_number(char.s, digits)}, "
               f"u_B = {format_number(char.model_uncertainty, digits)},"
               f" u_char = {format_number(char.standard_uncertainty, digits)} {unit}"]
+    if campaign.scatter_covers:
+        lines.append(f"  covered by the run-to-run scatter (Type A, s/√n = "
+                     f"{format_number(char.s / math.sqrt(char.n), digits)} {unit}), no term "
+                     f"of their own in u_B: {', '.join(campaign.scatter_covers)}")
     if cert.homogeneity:
         h = cert.homogeneity
         lines.append(f"homogeneity: {len(h.units)} units, F = {h.F:.3g} (p = {h.p_value:.2g}),"
