@@ -118,6 +118,7 @@ class Certification:
     warnings: tuple[str, ...] = ()
     run_dates: tuple[dt.date, ...] = ()  # the measurement dates of the runs, if given
     methods: Any = None  # intercomparison.MethodsResult when the campaign has several
+    stability_studies: Any = None  # stability.StabilityStudies: series, short-term study
 
     @property
     def shares(self) -> dict[str, float]:
@@ -201,8 +202,16 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
                             f"{stability.p_value:.3g} < 0.05)")
     else:
         warnings.append("no stability study: u_lts and u_sts are taken as 0")
-    cert = replace(_certified(campaign, value_from, homogeneity, stability, warnings),
-                   run_dates=days)
+    studies, stability_used, campaign_used = None, stability, campaign
+    if campaign.stability_plan is not None and stability is not None:
+        from .stability import evaluate_studies, studies_in_use
+
+        studies = evaluate_studies(campaign.stability_plan, stability, campaign.shelf_life,
+                                   campaign.unit, warnings)
+        stability_used, campaign_used = studies_in_use(studies, stability, campaign)
+    cert = replace(_certified(campaign_used, value_from, homogeneity, stability_used,
+                              warnings), run_dates=days, stability=stability,
+                   stability_studies=studies)
     return cert if methods is None else replace(cert, characterization=char, methods=methods)
 
 

@@ -243,6 +243,11 @@ def _certification_view(cert: Any) -> dict[str, Any]:
 
         view["methods"] = methods_view(cert.methods, cert.campaign.unit,
                                        cert.campaign.model.settings.digits, _budget_view)
+    if cert.stability_studies is not None:  # studies_output.py, studies.html.j2
+        from .studies_output import studies_view
+
+        view["stability_studies"] = studies_view(cert.stability_studies,
+                                                 cert.campaign.model.settings.digits)
     return view
 
 
