@@ -228,3 +228,19 @@ def test_xlsx_without_openpyxl_names_the_extra(tmp_path, monkeypatch):
         f"{path}: expected openpyxl to be installed, found none: reading and writing .xlsx "
         "workbooks needs openpyxl, the optional 'xlsx' extra: pip install openpyxl (or save "
         "the sheet as CSV)")
+
+
+def test_comments_above_the_header_only(tmp_path):
+    path = _write(tmp_path, "t.csv", "# lab notes\n# more\nlabel,value\n#7,1.5\nB,2\n")
+    table = read_table(path)
+    assert table.column("label").cells == ("#7", "B")
+    assert table.rows == (4, 5)
+
+
+def test_record_columns_read_decimal_commas(tmp_path):
+    from budget.recordfiles import read_columns
+
+    path = _write(tmp_path, "r.csv", "t [s];I / mA\n0;1,5\n1;1,25\n")
+    columns = read_columns(path, "r.csv", ["t", "I"], Location(file="m.toml"))
+    assert columns.values["I"].tolist() == [1.5, 1.25]
+    assert columns.units == {"t": "s", "I": "mA"}
