@@ -141,7 +141,7 @@ def _short_term(r: "_Reader", section: dict[str, Any]
         raise r.fail("expected either 'u_short_term' or a [stability.short_term] study, "
                      "found both", "stability", "u_short_term")
     r.known(data, "stability.short_term", _SHORT_KEYS)
-    times, values = _series(r, data, "stability.short_term", 0)
+    times, values = _series(r, data, "stability.short_term", 0, long_term=False)
     transport = r.number(data, "transport_time", "stability.short_term", positive=True)
     temperature = None
     if "temperature" in data:
@@ -154,8 +154,8 @@ def _short_term(r: "_Reader", section: dict[str, Any]
     return SeriesPlan(label=label, times=times, values=values), temperature, transport
 
 
-def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int
-            ) -> tuple[Array, Array]:
+def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int, *,
+            long_term: bool = True) -> tuple[Array, Array]:
     relative = r.text(entry, "data", table, nth)
     path = Path(r.path.parent / relative)
     if not path.is_file():
@@ -167,8 +167,9 @@ def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int
     from .datafiles import FileFormat
     from .studydata import read_stability
 
-    stability = r.doc.get("stability", {})
-    time_unit = stability.get("time_unit") if isinstance(stability, dict) else None
+    stability = r.doc.get("stability", {})  # long-term series: in the study's time_unit
+    time_unit = stability.get("time_unit") if isinstance(stability, dict) and long_term \
+        else None
     data = read_stability(path, FileFormat(), str(r.doc.get("unit", "")), None,
                           time_unit if isinstance(time_unit, str) else None, None, str(path))
     if data.excluded:  # the outputs list exclusions of the main stability table only
