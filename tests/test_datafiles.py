@@ -236,11 +236,3 @@ def test_comments_above_the_header_only(tmp_path):
     assert table.column("label").cells == ("#7", "B")
     assert table.rows == (4, 5)
 
-
-def test_record_columns_read_decimal_commas(tmp_path):
-    from budget.recordfiles import read_columns
-
-    path = _write(tmp_path, "r.csv", "t [s];I / mA\n0;1,5\n1;1,25\n")
-    columns = read_columns(path, "r.csv", ["t", "I"], Location(file="m.toml"))
-    assert columns.values["I"].tolist() == [1.5, 1.25]
-    assert columns.units == {"t": "s", "I": "mA"}
