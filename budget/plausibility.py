@@ -28,7 +28,8 @@ import numpy as np
 
 __all__ = ["AIR_DENSITY_VALIDITY", "DEFAULT_ESTIMATE_FACTOR", "CONSISTENCY",
            "model_warnings", "air_density_warnings", "mass_fraction_warning",
-           "estimate_warnings", "consistency_warning", "shelf_life_warning"]
+           "estimate_warnings", "consistency_warning", "shelf_life_warning",
+           "campaign_unit_warning"]
 
 # (argument, low, high, unit of the value as the engine holds it, range as written)
 AIR_DENSITY_VALIDITY = (
@@ -55,30 +56,33 @@ def model_warnings(model: Any) -> tuple[str, ...]:
 
 
 def _calls(model: Any) -> list[tuple[Any, ...]]:
-    calls: dict[str, tuple[Any, ...]] = {}
+    """The argument graphs of every ``air_density`` call (no sympy: the model's graphs)."""
+    from . import algebra as alg
+
+    calls: dict[int, tuple[Any, ...]] = {}
     for measurand in model.measurands:
-        opaque = measurand.opaque
-        if opaque is None or not hasattr(opaque, "atoms"):
+        graph = getattr(measurand, "opaque_graph", None)
+        if graph is None:
             continue
-        for call in opaque.atoms(__import__("sympy").Function):
-            if getattr(call.func, "__name__", "") == "air_density":
-                calls.setdefault(str(call.args), tuple(call.args))
+        for node in alg.walk(graph):
+            if node.kind == "call" and node.name == "air_density":
+                calls.setdefault(id(node), tuple(node.args))
     return list(calls.values())
 
 
 def air_density_warnings(model: Any, values: Mapping[str, Any], context: str,
                          labels: Sequence[str] | None = None) -> list[str]:
     """Every ``air_density`` argument outside the CIPM-2007 range, at the given values."""
-    import sympy
+    from . import algebra as alg
+    from .program import Program
 
     found: list[str] = []
     for args in _calls(model):
         for (label, low, high, unit, stated), arg in zip(AIR_DENSITY_VALIDITY, args):
-            names = sorted(str(s) for s in arg.free_symbols)
-            function = sympy.lambdify([sympy.Symbol(n) for n in names], arg, "numpy")
+            names = sorted(alg.symbols_in([arg]))
             with np.errstate(all="ignore"):
-                got = np.atleast_1d(np.asarray(function(*(values[n] for n in names)),
-                                               dtype=float))
+                result = Program([arg], names).evaluate([values[n] for n in names])[0]
+                got = np.atleast_1d(np.asarray(result, dtype=float))
             bad = np.flatnonzero(~((got >= low) & (got <= high)))
             if bad.size:
                 where = context if labels is None or got.size == 1 else (
@@ -98,6 +102,17 @@ def mass_fraction_warning(measurand: Any, model: Any) -> str | None:
     return (f"plausibility: measurand '{measurand.name}' is described as a mass fraction or "
             f"purity but its unit '{measurand.unit}' is not a ratio of masses; use '%', "
             "'g/g', 'mg/g' or '1'")
+
+
+def campaign_unit_warning(measurand: Any, model: Any, unit: str, title: str) -> str | None:
+    """A campaign certifying a mass fraction or purity in a unit that is no mass ratio."""
+    text = " ".join((measurand.description, title,
+                     model.title if len(model.measurands) == 1 else ""))
+    if not _MASS_FRACTION.search(text) or _is_mass_ratio(unit):
+        return None
+    return (f"plausibility: the certified value ('{measurand.name}', a mass fraction or "
+            f"purity) is given in '{unit}', which is not a ratio of masses; use '%', 'g/g', "
+            "'mg/g' or '1'")
 
 
 def _is_mass_ratio(text: str) -> bool:
