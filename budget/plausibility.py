@@ -56,30 +56,34 @@ def model_warnings(model: Any) -> tuple[str, ...]:
 
 
 def _calls(model: Any) -> list[tuple[Any, ...]]:
-    calls: dict[str, tuple[Any, ...]] = {}
+    """The arguments of every air_density() call in the measurands (expression graphs)."""
+    from .algebra import walk
+
+    calls: dict[int, tuple[Any, ...]] = {}
     for measurand in model.measurands:
-        opaque = measurand.opaque
-        if opaque is None or not hasattr(opaque, "atoms"):
+        graph = getattr(measurand, "opaque_graph", None)
+        if graph is None:
             continue
-        for call in opaque.atoms(__import__("sympy").Function):
-            if getattr(call.func, "__name__", "") == "air_density":
-                calls.setdefault(str(call.args), tuple(call.args))
+        for node in walk(graph):
+            if node.kind == "call" and node.name == "air_density":
+                calls.setdefault(id(node), node.args)
     return list(calls.values())
 
 
 def air_density_warnings(model: Any, values: Mapping[str, Any], context: str,
                          labels: Sequence[str] | None = None) -> list[str]:
     """Every ``air_density`` argument outside the CIPM-2007 range, at the given values."""
-    import sympy
+    from .algebra import symbols_in
+    from .program import Program
 
     found: list[str] = []
     for args in _calls(model):
         for (label, low, high, unit, stated), arg in zip(AIR_DENSITY_VALIDITY, args):
-            names = sorted(str(s) for s in arg.free_symbols)
-            function = sympy.lambdify([sympy.Symbol(n) for n in names], arg, "numpy")
+            names = sorted(symbols_in([arg]))
+            program = Program([arg], names)
             with np.errstate(all="ignore"):
-                got = np.atleast_1d(np.asarray(function(*(values[n] for n in names)),
-                                               dtype=float))
+                got = np.atleast_1d(np.asarray(program.evaluate(
+                    [values[n] for n in names])[0], dtype=float))
             bad = np.flatnonzero(~((got >= low) & (got <= high)))
             if bad.size:
                 where = context if labels is None or got.size == 1 else (
@@ -88,7 +92,7 @@ def air_density_warnings(model: Any, values: Mapping[str, Any], context: str,
                 found.append(f"plausibility: air_density() {label} {float(got[bad[0]]):.6g}"
                              f"{' ' + unit if unit else ''} (from {source}) {where} is outside"
                              f" the range of validity {stated} ({_SOURCE}); a unit slip?")
-    return found
+    return list(dict.fromkeys(found))  # the same call written twice warns once
 
 
 def mass_fraction_warning(measurand: Any, model: Any) -> str | None:
