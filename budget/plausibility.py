@@ -56,34 +56,33 @@ def model_warnings(model: Any) -> tuple[str, ...]:
 
 
 def _calls(model: Any) -> list[tuple[Any, ...]]:
-    """The arguments of every air_density() call in the measurands (expression graphs)."""
-    from .algebra import walk
+    """The argument graphs of every ``air_density`` call (no sympy: the model's graphs)."""
+    from . import algebra as alg
 
     calls: dict[int, tuple[Any, ...]] = {}
     for measurand in model.measurands:
         graph = getattr(measurand, "opaque_graph", None)
         if graph is None:
             continue
-        for node in walk(graph):
+        for node in alg.walk(graph):
             if node.kind == "call" and node.name == "air_density":
-                calls.setdefault(id(node), node.args)
+                calls.setdefault(id(node), tuple(node.args))
     return list(calls.values())
 
 
 def air_density_warnings(model: Any, values: Mapping[str, Any], context: str,
                          labels: Sequence[str] | None = None) -> list[str]:
     """Every ``air_density`` argument outside the CIPM-2007 range, at the given values."""
-    from .algebra import symbols_in
+    from . import algebra as alg
     from .program import Program
 
     found: list[str] = []
     for args in _calls(model):
         for (label, low, high, unit, stated), arg in zip(AIR_DENSITY_VALIDITY, args):
-            names = sorted(symbols_in([arg]))
-            program = Program([arg], names)
+            names = sorted(alg.symbols_in([arg]))
             with np.errstate(all="ignore"):
-                got = np.atleast_1d(np.asarray(program.evaluate(
-                    [values[n] for n in names])[0], dtype=float))
+                result = Program([arg], names).evaluate([values[n] for n in names])[0]
+                got = np.atleast_1d(np.asarray(result, dtype=float))
             bad = np.flatnonzero(~((got >= low) & (got <= high)))
             if bad.size:
                 where = context if labels is None or got.size == 1 else (
@@ -92,7 +91,7 @@ def air_density_warnings(model: Any, values: Mapping[str, Any], context: str,
                 found.append(f"plausibility: air_density() {label} {float(got[bad[0]]):.6g}"
                              f"{' ' + unit if unit else ''} (from {source}) {where} is outside"
                              f" the range of validity {stated} ({_SOURCE}); a unit slip?")
-    return list(dict.fromkeys(found))  # the same call written twice warns once
+    return found
 
 
 def mass_fraction_warning(measurand: Any, model: Any) -> str | None:
