@@ -15,7 +15,8 @@ from typing import Any
 import numpy as np
 
 from .errors import CampaignError, Location, did_you_mean
-from .limits import LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, check_strings
+from .limits import (LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, as_float,
+                     check_probability, check_strings, parse_number, shorten)
 from .model import LineIndex, Model, decode, load_model, read_toml
 
 __all__ = ["Campaign", "Comparison", "load_campaign", "read_table"]
@@ -68,10 +69,29 @@ class Campaign:
 
 
 class _Reader:
-    def __init__(self, path: Path, text: str, document: dict[str, Any]) -> None:
+    def __init__(self, path: Path, text: str, document: dict[str, Any],
+                 allow_outside: bool = False) -> None:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
         self.files: list[tuple[str, str, str]] = []
+        self.allow_outside = allow_outside
+
+    def confined(self, relative: str, table: str, key: str, nth: int = 0) -> Path:
+        """``relative`` resolved beside the campaign file; refused when it leads out of the
+        campaign's folder tree (absolute, '..' or a link) unless ``allow_outside``."""
+        path = self.path.parent / relative
+        if self.allow_outside:
+            return path
+        folder = self.path.parent.resolve()
+        try:
+            inside = path.resolve().is_relative_to(folder)
+        except (OSError, RuntimeError, ValueError):
+            inside = False
+        if not inside:
+            raise self.fail(f"expected a path inside the campaign's folder, found "
+                            f"'{relative}', which leads outside it (certify "
+                            f"--allow-outside-folder allows it)", table, key, nth)
+        return path
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -121,7 +141,7 @@ class _Reader:
 
     def file(self, data: dict[str, Any], key: str, table: str) -> Path:
         relative = self.text(data, key, table)
-        path = (self.path.parent / relative)
+        path = self.confined(relative, table, key)
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
@@ -139,14 +159,15 @@ class _Reader:
         return path
 
 
-def load_campaign(path: str | Path) -> Campaign:
-    """Read and check a campaign file and everything it refers to."""
+def load_campaign(path: str | Path, *, allow_outside: bool = False) -> Campaign:
+    """Read and check a campaign file and everything it refers to; the files it names
+    must lie in its folder tree unless ``allow_outside``."""
     from .files import read_input
 
     path = Path(path)
     raw = read_input(path, limit=MAX_FILE_BYTES, what="campaign file", error=CampaignError)
     text = decode(raw, str(path), "campaign")
-    reader = _Reader(path, text, read_toml(text, str(path)))
+    reader = _Reader(path, text, read_toml(text, str(path)), allow_outside)
     import hashlib
 
     return _campaign(reader, hashlib.sha256(raw).hexdigest())
@@ -208,11 +229,15 @@ def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ..
     shown = str(path)
     try:
         frame = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
+    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError,
+            OSError) as exc:
         raise CampaignError(f"expected a CSV table with a header row, found "
                             f"{type(exc).__name__}: {str(exc).strip()}",
                             Location(file=shown)) from exc
     frame.columns = [str(c).strip() for c in frame.columns]
+    for column in text_columns:  # 'A' and 'A ' name one unit: labels are stripped
+        if column in frame.columns:
+            frame[column] = frame[column].str.strip()
     for column in (*numeric, *text_columns):
         if column not in frame.columns:
             raise CampaignError(f"expected a column '{column}'"
@@ -229,21 +254,31 @@ def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ..
 def _numbers(cells: Any, column: str, shown: str) -> np.ndarray:
     values = np.empty(len(cells))
     for row, cell in enumerate(cells):
-        try:
-            values[row] = float(cell)
-        except ValueError:
-            values[row] = math.nan
+        number = parse_number(str(cell))
+        values[row] = math.nan if number is None else number
         if not math.isfinite(values[row]):
             raise CampaignError(f"column '{column}': expected a finite number, found "
                                 f"'{cell}'", Location(file=shown, line=row + 2))
     return values
 
 
-def _runs(r: _Reader, char: dict[str, Any], model: Model) -> tuple[Any, tuple[str, ...]]:
-    path = r.file(char, "runs", "characterization")
+def _header(path: Path) -> list[str]:
+    """The column names of a CSV file, every pandas failure translated."""
     import pandas as pd
 
-    header = pd.read_csv(path, nrows=0, dtype=str).columns if path.stat().st_size else []
+    try:
+        return [str(c) for c in pd.read_csv(path, nrows=0, dtype=str).columns]
+    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError,
+            OSError) as exc:
+        raise CampaignError(f"expected a CSV table with a header row, found "
+                            f"{type(exc).__name__}: {str(exc).strip()}",
+                            Location(file=str(path))) from exc
+
+
+def _runs(r: _Reader, char: dict[str, Any], model: Model) -> tuple[Any, tuple[str, ...]]:
+    path = r.file(char, "runs", "characterization")
+
+    header = _header(path) if path.stat().st_size else []
     inputs = tuple(str(c).strip() for c in header
                    if str(c).strip() in {i.name for i in model.inputs})
     if not inputs:
@@ -309,10 +344,11 @@ def _comparisons(r: _Reader) -> tuple[Comparison, ...]:
             raise r.fail(f"expected a table, found {entry!r}", "comparison", None, nth)
         r.known(entry, "comparison", _SECTIONS["comparison"], nth)
         label = r.text(entry, "label", "comparison", nth)
-        value = entry.get("value")
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise r.fail(f"expected a number 'value', found {value!r}", "comparison", "value",
-                         nth)
+        value = as_float(entry.get("value"))
+        if value is None:
+            raise r.fail(f"expected a finite number 'value', found "
+                         f"{shorten(repr(entry.get('value')))}",
+                         "comparison", "value", nth)
         if ("u" in entry) == ("expanded" in entry):
             raise r.fail("expected either 'expanded' with 'k' or 'u', found "
                          + ("both" if "u" in entry else "neither"), "comparison", None, nth)
@@ -322,7 +358,7 @@ def _comparisons(r: _Reader) -> tuple[Comparison, ...]:
         else:
             expanded = r.number(entry, "expanded", "comparison", positive=True, nth=nth)
             u = expanded / r.number(entry, "k", "comparison", positive=True, nth=nth)
-        made.append(Comparison(label=label, estimate=float(value), standard_uncertainty=u,
+        made.append(Comparison(label=label, estimate=value, standard_uncertainty=u,
                                expanded_uncertainty=expanded))
     return tuple(made)
 
@@ -337,10 +373,7 @@ def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...
     k = r.number(data, "k", "certificate", positive=True) if "k" in data else None
     coverage = None
     if "coverage" in data:
-        coverage = r.number(data, "coverage", "certificate", positive=True)
-        if coverage >= 1:
-            raise r.fail(f"expected a coverage probability in (0, 1), found {coverage:g}",
-                         "certificate", "coverage")
+        coverage = check_probability(data["coverage"], r.where("certificate", "coverage"))
     if k is None and coverage is None:
         k = 2.0
     fields = tuple((key, str(value)) for key, value in data.items()
