@@ -27,7 +27,7 @@ _KINDS = ((stat.S_ISDIR, "a directory"), (stat.S_ISCHR, "a character device"),
           (stat.S_ISSOCK, "a socket"))
 
 
-def write_atomic(path: str | Path, text: str, *,
+def write_atomic(path: str | Path, text: str | bytes, *,
                  protect: Iterable[tuple[str, str | Path]] = ()) -> None:
     """Write ``text`` to ``path``; ``protect`` lists (role, path) of files of the run."""
     target = Path(path)
@@ -41,8 +41,9 @@ def write_atomic(path: str | Path, text: str, *,
     temporary = None
     try:
         descriptor, temporary = tempfile.mkstemp(prefix=prefix, suffix=".tmp", dir=folder)
-        with os.fdopen(descriptor, "w", encoding="utf-8") as stream:
-            stream.write(text)
+        data = text if isinstance(text, bytes) else text.encode("utf-8")
+        with os.fdopen(descriptor, "wb") as stream:
+            stream.write(data)
             stream.flush()
             os.fsync(stream.fileno())
         os.chmod(temporary, mode)

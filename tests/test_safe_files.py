@@ -161,7 +161,13 @@ def test_errors_never_echo_a_file_outside_the_run(tmp_path: Path) -> None:
     assert "root:x:" not in str(caught.value) and "/bin/" not in str(caught.value)
 
 
-def test_the_demo_copy_of_the_water_model_matches_its_original() -> None:
-    # campaign-methods.toml names a copy in its own folder (campaign paths are confined)
-    original = MODELS / "velmora" / "water-coulometric-iodine.toml"
-    assert (DEMO / "water-coulometric-iodine.toml").read_bytes() == original.read_bytes()
+def test_the_demo_copies_of_shared_models_match_their_originals() -> None:
+    # campaigns name copies in their own folders (campaign paths are confined)
+    pairs = [(DEMO / "water-coulometric-iodine.toml",
+              MODELS / "velmora" / "water-coulometric-iodine.toml"),
+             (MODELS / "vics-as-25a-lab-files" / "coulometric-purity.toml",
+              DEMO / "coulometric-purity.toml"),
+             (MODELS / "vics-as-25a-lab-files" / "calibrations.toml",
+              DEMO / "calibrations.toml")]
+    for copy, original in pairs:
+        assert copy.read_bytes() == original.read_bytes()
