@@ -32,6 +32,7 @@ import numpy as np
 
 from .analysis import evaluate
 from .combination import Combined, combine
+from .errors import Location
 from .gum import coverage_factor, propagate, welch_satterthwaite
 from .joint import Member, join
 
@@ -133,7 +134,8 @@ def evaluate_methods(campaign: "Campaign", primary: "Characterization",
         results.append(result)
         rows.append(row)
         offsets.append(offset)
-    covariance, mc = _covariance(members, plan, elements, rows, trials, seed)
+    covariance, mc = _covariance(members, plan, elements, rows, trials, seed,
+                                 Location(file=campaign.source, table="shared"))
     x = np.array([m.estimate for m in results])
     pairs = _pairs(results, covariance, mc)
     for p in pairs:
@@ -249,11 +251,12 @@ def _model_part(campaign: "Campaign", method: "ModelMethod", trials: int | None,
     scale = _unit_scale(sub, method.model.measurands[index].unit)
     if method.runs is not None:
         char = _characterize(sub, trials, seed, None, warnings)
+        warnings.extend(f"method '{method.label}': {w}" for w in char.result.warnings)
         element = _from_char(method.label, sub, char)
         return char, element, Member(name=method.label, model=_at_mean(sub))
     result = evaluate(method.model, trials=trials, seed=seed)
     gum = result.budget.measurands[index]
-    warnings.extend(result.warnings)
+    warnings.extend(f"method '{method.label}': {w}" for w in result.warnings)
     element = _Element(member=method.label, measurand=method.measurand, scale=scale,
                        estimate=gum.estimate * scale,
                        variance=(gum.combined_uncertainty * scale) ** 2, repeatability=0.0,
@@ -262,9 +265,9 @@ def _model_part(campaign: "Campaign", method: "ModelMethod", trials: int | None,
 
 
 def _covariance(members: list[Member], plan: "MethodsPlan", elements: list[_Element],
-                rows: list[list[tuple[int, float]]], trials: int | None, seed: int | None
-                ) -> tuple[np.ndarray, np.ndarray | None]:
-    joint = join(members, plan.shared, title="several methods")
+                rows: list[list[tuple[int, float]]], trials: int | None, seed: int | None,
+                where: Location) -> tuple[np.ndarray, np.ndarray | None]:
+    joint = join(members, plan.shared, title="several methods", where=where)
     budget = propagate(joint.model)
     gum = np.array(budget.output_covariance)
     index = [joint.measurand_index(e.member, e.measurand) if e.member is not None else -1
