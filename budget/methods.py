@@ -203,7 +203,7 @@ def _model_method(r: _Reader, entry: dict[str, Any], label: str, table: str, nth
 
 def _file(r: _Reader, entry: dict[str, Any], key: str, table: str, nth: int) -> Path:
     relative = r.text(entry, key, table, nth)
-    path = r.path.parent / relative
+    path = r.confined(relative, table, key, nth)
     if not path.is_file():
         raise r.fail(f"expected a file '{relative}' beside the campaign file, found none",
                      table, key, nth)
