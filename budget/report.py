@@ -167,10 +167,9 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "second_order": None if b.second_order_variance is None else
         format_number(b.first_order_uncertainty, 3),
         "chart": bar_chart(chart_rows, "%", f"shares of u_c² of {name_text(b.name)}"),
-        # a chained model's equations name inputs that are now earlier models' results:
-        # the chain rule over this file's text cannot reach their base inputs
-        "sensitivity": {"chains": [], "groups": []} if result.model.chain
-        else sensitivity_view(result.model, k),
+        # a chained model's earlier models are reached through their results
+        "sensitivity": sensitivity_view(result.model, k,
+                                        {c.input: c.sensitivity for c in b.contributions}),
         "mc": _simulation_view(b, simulation, digits, unit) if simulation else None,
     }
 
