@@ -17,7 +17,8 @@ import numpy as np
 
 from .datafiles import FORMAT_KEYS, FileFormat, parse_declared_format
 from .errors import CampaignError, Location, did_you_mean
-from .limits import LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, check_strings
+from .limits import (LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, as_float,
+                     check_probability, check_strings, shorten)
 from .model import LineIndex, Model, decode, load_model, read_toml
 from .studydata import Exclusion, Runs
 
@@ -77,11 +78,30 @@ class Campaign:
 
 
 class _Reader:
-    def __init__(self, path: Path, text: str, document: dict[str, Any]) -> None:
+    def __init__(self, path: Path, text: str, document: dict[str, Any],
+                 allow_outside: bool = False) -> None:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
         self.files: list[tuple[str, str, str]] = []
         self.register: Path | None = None  # the campaign's calibration register, if any
+        self.allow_outside = allow_outside
+
+    def confined(self, relative: str, table: str | None, key: str, nth: int = 0) -> Path:
+        """``relative`` resolved beside the campaign file; refused when it leads out of the
+        campaign's folder tree (absolute, '..' or a link) unless ``allow_outside``."""
+        path = self.path.parent / relative
+        if self.allow_outside:
+            return path
+        folder = self.path.parent.resolve()
+        try:
+            inside = path.resolve().is_relative_to(folder)
+        except (OSError, RuntimeError, ValueError):
+            inside = False
+        if not inside:
+            raise self.fail(f"expected a path inside the campaign's folder, found "
+                            f"'{relative}', which leads outside it (certify "
+                            f"--allow-outside-folder allows it)", table, key, nth)
+        return path
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -131,7 +151,7 @@ class _Reader:
 
     def file(self, data: dict[str, Any], key: str, table: str) -> Path:
         relative = self.text(data, key, table)
-        path = (self.path.parent / relative)
+        path = self.confined(relative, table, key)
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
@@ -149,14 +169,15 @@ class _Reader:
         return path
 
 
-def load_campaign(path: str | Path) -> Campaign:
-    """Read and check a campaign file and everything it refers to."""
+def load_campaign(path: str | Path, *, allow_outside: bool = False) -> Campaign:
+    """Read and check a campaign file and everything it refers to; the files it names
+    must lie in its folder tree unless ``allow_outside``."""
     from .files import read_input
 
     path = Path(path)
     raw = read_input(path, limit=MAX_FILE_BYTES, what="campaign file", error=CampaignError)
     text = decode(raw, str(path), "campaign")
-    reader = _Reader(path, text, read_toml(text, str(path)))
+    reader = _Reader(path, text, read_toml(text, str(path)), allow_outside)
     import hashlib
 
     return _campaign(reader, hashlib.sha256(raw).hexdigest())
@@ -166,7 +187,7 @@ def _register(r: _Reader) -> Path | None:
     """The campaign's calibration register, for models that name none themselves."""
     if "register" not in r.doc:
         return None
-    path = r.path.parent / r.text(r.doc, "register", None)
+    path = r.confined(r.text(r.doc, "register", None), None, "register")
     if not path.is_file():
         raise r.fail(f"expected a register file '{r.doc['register']}' beside the campaign "
                      "file, found none", None, "register")
@@ -383,9 +404,13 @@ def _shelf_life(r: _Reader, section: dict[str, Any], time_unit: str) -> float:
     from .units import parse_unit
 
     unit_text = _shelf_unit(r, value)
-    number = float(value.strip()[: len(value.strip()) - len(unit_text)])
+    try:
+        number = float(value.strip()[: len(value.strip()) - len(unit_text)])
+    except ValueError:
+        raise r.fail(f"expected a shelf life as a number or as \"36 month\", found {value!r}",
+                     "stability", "shelf_life") from None
     where = r.where("stability", "shelf_life")
-    if number <= 0:
+    if not math.isfinite(number) or number <= 0:
         raise r.fail(f"expected a shelf life > 0, found {number:g}", "stability", "shelf_life")
     return float(convert(np.array([number]), parse_unit(unit_text, where),
                          parse_unit(time_unit or unit_text, where), source=r.name,
@@ -421,10 +446,11 @@ def _comparisons(r: _Reader, unit: str) -> tuple[Comparison, ...]:
             raise r.fail(f"expected a table, found {entry!r}", "comparison", None, nth)
         r.known(entry, "comparison", _SECTIONS["comparison"], nth)
         label = r.text(entry, "label", "comparison", nth)
-        value = entry.get("value")
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise r.fail(f"expected a number 'value', found {value!r}", "comparison", "value",
-                         nth)
+        value = as_float(entry.get("value"))
+        if value is None:
+            raise r.fail(f"expected a finite number 'value', found "
+                         f"{shorten(repr(entry.get('value')))}",
+                         "comparison", "value", nth)
         if ("u" in entry) == ("expanded" in entry):
             raise r.fail("expected either 'expanded' with 'k' or 'u', found "
                          + ("both" if "u" in entry else "neither"), "comparison", None, nth)
@@ -435,7 +461,7 @@ def _comparisons(r: _Reader, unit: str) -> tuple[Comparison, ...]:
             expanded = r.number(entry, "expanded", "comparison", positive=True, nth=nth)
             u = expanded / r.number(entry, "k", "comparison", positive=True, nth=nth)
         scale = _comparison_scale(r, entry, unit, nth)
-        made.append(Comparison(label=label, estimate=float(value) * scale,
+        made.append(Comparison(label=label, estimate=value * scale,
                                standard_uncertainty=u * scale,
                                expanded_uncertainty=expanded * scale))
     return tuple(made)
@@ -467,10 +493,7 @@ def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...
     k = r.number(data, "k", "certificate", positive=True) if "k" in data else None
     coverage = None
     if "coverage" in data:
-        coverage = r.number(data, "coverage", "certificate", positive=True)
-        if coverage >= 1:
-            raise r.fail(f"expected a coverage probability in (0, 1), found {coverage:g}",
-                         "certificate", "coverage")
+        coverage = check_probability(data["coverage"], r.where("certificate", "coverage"))
     if k is None and coverage is None:
         k = 2.0
     fields = tuple((key, str(value)) for key, value in data.items()

@@ -50,7 +50,7 @@ def render_report(result: Result) -> str:
 
 
 def write_report(result: Result, path: str) -> None:
-    write_atomic(path, render_report(result))
+    write_atomic(path, render_report(result), protect=files_of_model(result.model))
 
 
 def _budget_view(result: Result) -> dict[str, Any]:
@@ -241,7 +241,15 @@ def render_certification_report(cert: Any) -> str:
 
 
 def write_certification_report(cert: Any, path: str) -> None:
-    write_atomic(path, render_certification_report(cert))
+    campaign = cert.campaign
+    protect = [("campaign", campaign.source), *files_of_model(campaign.model),
+               *((role, name) for role, name, _ in campaign.data_files)]
+    write_atomic(path, render_certification_report(cert), protect=protect)
+
+
+def files_of_model(model: Any) -> list[tuple[str, str]]:
+    """(role, path) of the model file and every file that fed it: never overwritten."""
+    return [("model", model.source), *((role, name) for role, name, _ in model.files)]
 
 
 def _certification_view(cert: Any) -> dict[str, Any]:

@@ -429,3 +429,43 @@ def test_a_campaign_unit_that_is_no_mass_ratio(tmp_path, unit):
     assert (f"plausibility: the certified value ('w', a mass fraction or purity) is given in "
             f"'{unit}', which is not a ratio of masses; use '%', 'g/g', 'mg/g' or '1'"
             ) in _certified(path).warnings
+
+
+@pytest.mark.parametrize("edit, message", [
+    (("shelf_life = 36 ", 'shelf_life = "3.3.3 months" '),
+     "[stability] shelf_life: expected a shelf life as a number or as \"36 month\", found "
+     "'3.3.3 months'"),
+    (('time_unit = "month"', 'time_unit = "kg"'),
+     "stability.csv: column 'time': expected a time unit (such as month, d, year), found 'kg' "
+     "([mass])"),
+])
+def test_bad_time_declarations_are_refused(tmp_path, edit, message):
+    path = _copy(tmp_path, {"campaign.toml": lambda t: t.replace(*edit)})
+    with pytest.raises(CampaignError) as caught:
+        load_campaign(path)
+    assert str(caught.value).endswith(message)
+
+
+def test_all_dates_missing_is_refused_without_traceback(tmp_path):
+    path = _copy(tmp_path, {"stability.csv": lambda t: "time,value\n-,1\n-,2\n-,3\n",
+                            "campaign.toml": lambda t: t.replace(
+                                'data = "stability.csv"',
+                                'data = "stability.csv"\nmissing = ["-"]')})
+    with pytest.raises(CampaignError, match="expected at least 3 points at 2 or more "
+                                            "different times, found 0 at 0"):
+        load_campaign(path)
+
+
+def test_xlsx_export_without_openpyxl_writes_nothing(tmp_path, cli, monkeypatch):
+    import sys
+
+    monkeypatch.setitem(sys.modules, "openpyxl", None)
+    report = tmp_path / "r.html"
+    code, stdout, stderr = cli("run", str(MODELS / "reference" / "eurachem-a2-naoh.toml"),
+                               "--trials", "0", "--html", str(report), "--xlsx",
+                               str(tmp_path / "b.xlsx"))
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {tmp_path / 'b.xlsx'}: expected openpyxl to be installed, found "
+                      "none: reading and writing .xlsx workbooks needs openpyxl, the optional "
+                      "'xlsx' extra: pip install openpyxl (or save the sheet as CSV)\n")
+    assert not report.exists() and not (tmp_path / "b.xlsx").exists()
