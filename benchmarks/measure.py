@@ -2,9 +2,9 @@
 
 Each run of ``command`` starts a new Python process that runs the ``budget`` command line
 in process and reports, at exit, its CPU time (user + system, its worker processes
-included) and peak resident memory (the largest of the process and its workers). Wall time is measured from outside (Python start-up included). On a shared
-machine the wall time varies with the load; the CPU time varies much less, so both are
-printed.
+included) and peak resident memory (the largest of the process and its workers). Wall
+time is measured from outside (Python start-up included). On a shared machine the wall
+time varies with the load; the CPU time varies much less, so both are printed.
 """
 
 from __future__ import annotations
