@@ -281,3 +281,15 @@ def test_a_value_is_never_shown_with_more_digits_than_a_double_holds() -> None:
     # 17 significant digits: the precision of an IEEE 754 double (common practice)
     assert format_pair(1.0, 1e-200) == ("1.0000000000000000E+0", "1.0E-200")
     assert format_pair(123456.789, 1e-30)[0] == "123456.78900000000"
+
+
+@pytest.mark.parametrize("options, message", [
+    ({"coverage": math.nan}, "api.toml: coverage: expected a coverage probability in [1e-06, "
+     "1 - 1e-09] (limits: docs/limits.md), found nan"),
+    ({"digits": 1000}, "api.toml: digits: expected a whole number of significant digits from "
+     "1 to 6, found 1000"),
+])
+def test_the_python_api_checks_the_same_limits(options, message) -> None:
+    with pytest.raises(InputError) as caught:
+        evaluate(parse_model(text(), name="api.toml"), trials=0, **options)
+    assert str(caught.value) == message
