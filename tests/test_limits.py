@@ -293,3 +293,20 @@ def test_the_python_api_checks_the_same_limits(options, message) -> None:
     with pytest.raises(InputError) as caught:
         evaluate(parse_model(text(), name="api.toml"), trials=0, **options)
     assert str(caught.value) == message
+
+
+def test_unreadable_inputs_are_one_error_line(cli, tmp_path) -> None:
+    fifo = tmp_path / "model.toml"
+    os.mkfifo(fifo)  # no writer: read as empty, never a hang
+    for path, found in ((tmp_path, "expected a readable model file, found Is a directory"),
+                        (fifo, "expected a TOML model, found an empty file")):
+        code, stdout, stderr = cli("check", str(path))
+        assert (code, stdout, stderr) == (1, "", f"error: {path}: {found}\n")
+
+
+def test_a_key_with_a_control_character_is_named_in_its_table() -> None:
+    source = text() + '[inputs."b\\u001b"]\nvalue = 1\nu = 1\n'
+    with pytest.raises(BudgetError) as caught:
+        parse_model(source, name="key.toml")
+    assert str(caught.value) == ("key.toml: [inputs] b\\x1b: expected text without control "
+                                 "characters, found U+001B ESCAPE at position 2")
