@@ -1,10 +1,11 @@
 """Columns of a record file (CSV) for fits and records, with the file row of every value.
 
-One call, :func:`read_columns`, is all the fits and records use, so that the project's
-general data-file reader can take its place without touching them. It reads UTF-8 (with
-or without BOM) CSV with a header row; ``,`` ``;`` or tab separated; ``#`` starts a
-comment line. A header may carry its unit as ``name [unit]``, ``name (unit)`` or
-``name / unit``. Every value must be a finite number.
+One call, :func:`read_columns`, is all the fits and records use. It reads CSV with a
+header row, ``,`` ``;`` or tab separated, in UTF-8 (with or without BOM), UTF-16 with BOM
+or Windows-1252 (decoded as ``datafiles.py`` decodes); decimal commas in a file separated
+by ``;`` or tab that has no decimal point; ``#`` starts a comment line. A header may carry
+its unit as ``name [unit]``, ``name (unit)`` or ``name / unit``. Every value must be a
+finite number.
 """
 
 from __future__ import annotations
@@ -52,13 +53,9 @@ def _text(path: Path, shown: str, where: Location) -> str:
     except OSError as exc:
         raise InputError(f"expected a readable record file '{shown}', found "
                          f"{exc.strerror}", where) from exc
-    if b"\x00" in data:
-        raise InputError(f"expected a CSV text file, found binary data in '{shown}'", where)
-    try:
-        return data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"expected UTF-8 text in '{shown}', found an undecodable byte at "
-                         f"byte {exc.start + 1}", where) from exc
+    from .datafiles import decode_text
+
+    return decode_text(data, shown)  # UTF-8 (BOM or not), UTF-16 with BOM, Windows-1252
 
 
 def read_columns(path: Path, shown: str, names: list[str], where: Location) -> Columns:
@@ -76,10 +73,11 @@ def read_columns(path: Path, shown: str, names: list[str], where: Location) -> C
             raise InputError(f"expected a column '{name}' in '{shown}', found "
                              f"{', '.join(found)}{did_you_mean(name, found)}", where)
         index[name] = found.index(name)
-    table = _fast(lines[1:], dialect, [index[n] for n in names])
+    body = _decimal_points(lines[1:], dialect.delimiter)
+    table = _fast(body, dialect, [index[n] for n in names])
     if table is None:  # something to point at: read cell by cell for the message
-        table = np.empty((len(lines) - 1, len(names)))
-        for r, (number, line) in enumerate(zip(rows[1:], lines[1:])):
+        table = np.empty((len(body), len(names)))
+        for r, (number, line) in enumerate(zip(rows[1:], body)):
             cells = next(csv.reader(io.StringIO(line), dialect))
             for c, name in enumerate(names):
                 table[r, c] = _number(cells, index[name], name, int(number), shown, where)
@@ -97,6 +95,14 @@ def _content(text: str) -> tuple[NDArray[np.int64], list[str]]:
         return np.arange(1, len(lines) + 1, dtype=np.int64), lines
     kept = [n for n in range(len(lines)) if n not in skipped]
     return np.array(kept, dtype=np.int64) + 1, [lines[n] for n in kept]
+
+
+def _decimal_points(lines: list[str], delimiter: str) -> list[str]:
+    """Decimal commas (a ';' or tab separated file with commas and no points) as points."""
+    if delimiter == "," or not any("," in line for line in lines) \
+            or any("." in line for line in lines):
+        return lines
+    return [line.replace(",", ".") for line in lines]
 
 
 def _fast(lines: list[str], dialect: type[csv.Dialect],
