@@ -98,6 +98,7 @@ class Generated:
     together: list[tuple[tuple[str, ...], float, str]] = field(default_factory=list)
     definitions: dict[str, str] = field(default_factory=dict)
     views: list[RecordView] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
 
 
 def generate(document: dict[str, Any], base: Path,
@@ -254,9 +255,18 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
               f"coefficients of one fit of {shown} ({described})")
     made.views.append(RecordView(
         table=f"fits.{name}", file=shown, method=described, produces=names,
-        fits=(FitView(label=name, fit=fit, x_label=f"{data['x']} / {units['x']}",
-                      y_label=f"{data['y']} / {units['y']}"),),
+        fits=(FitView(label=name, fit=fit, x_label=_axis(data["x"], units["x"]),
+                      y_label=_axis(data["y"], units["y"])),),
         notes=_fit_notes(fit)))
+    if covariance == "stated" and math.isfinite(fit.chi2):
+        _chi2_warning(made, name, fit)
+
+
+def _axis(column: str, unit: str) -> str:
+    """An axis label, quantity / unit, with the unit as symbols (µA, °C)."""
+    from .unit_display import display_unit
+
+    return f"{column} / {display_unit(unit)}"
 
 
 def _degree(data: dict[str, Any], here: Where) -> int:
@@ -304,6 +314,19 @@ def _fit_method(fit: Fit, degree: int) -> str:
     return f"{shape}, ordinary least squares"
 
 
+def _chi2_warning(made: Generated, name: str, fit: Fit) -> None:
+    """ISO/TS 28037: residuals larger than the stated uncertainties explain are a warning."""
+    from .fits import chi2_limit
+
+    dof = len(fit.y) - len(fit.parameters)
+    limit = chi2_limit(dof)
+    if fit.chi2 > limit:
+        made.warnings.append(
+            f"[fits.{name}]: χ² = {fit.chi2:.4g} exceeds its 95 % limit {limit:.4g} for "
+            f"ν = {dof}: the residuals are larger than the stated uncertainties explain "
+            "(check the data, or state covariance = \"scaled\")")
+
+
 def _fit_notes(fit: Fit) -> tuple[str, ...]:
     notes = [f"ν = {fit.dof:g}" if math.isfinite(fit.dof) else
              "ν = ∞ (stated uncertainties taken as known)"]
@@ -345,7 +368,7 @@ def _one_record(name: str, data: dict[str, Any], base: Path, here: Where,
     shown, values, units, rows = _load(data, base, here, {"x": "required",
                                                           "y": "required"})
     series = checked_series(shown, values["x"], values["y"], rows, str(data["x"]))
-    labels = (f"{data['x']} / {units['x']}", f"{data['y']} / {units['y']}")
+    labels = (_axis(data["x"], units["x"]), _axis(data["y"], units["y"]))
     from .recordkinds import KINDS
 
     KINDS[kind](name, data, series, units, labels, here, made)

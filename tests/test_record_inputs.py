@@ -204,8 +204,11 @@ def test_weighted_fit_reports_chi_squared_and_scaled_covariance_sets_dof(tmp_pat
     assert stated.input("c_b0").dof == math.inf
     notes = stated.records[0].notes
     assert any("NOT consistent with the stated uncertainties" in n for n in notes), notes
+    assert any(w.startswith("[fits.c]: χ² = ") and "exceeds its 95 % limit 15.51 for ν = 8"
+               in w for w in stated.warnings), stated.warnings
     scaled = load_model(_write(tmp_path, tables + 'covariance = "scaled"\n', data))
     assert scaled.input("c_b0").dof == 8.0
+    assert not any("χ²" in w for w in scaled.warnings)
     assert scaled.input("c_b0").standard_uncertainty > stated.input("c_b0").standard_uncertainty
 
 
@@ -259,3 +262,14 @@ def test_hostile_values_in_fit_and_record_tables_give_budget_errors_only(name, t
                     propagate(load_model(path))
                 except BudgetError:
                     pass
+
+
+@pytest.mark.parametrize("low, high, ticks", [
+    (-0.0993, 2.513, [0.0, 0.5, 1.0, 1.5, 2.0, 2.5]),
+    (394.0, 1010.0, [400.0, 500.0, 600.0, 700.0, 800.0, 900.0, 1000.0]),
+    (-0.0073, 0.0073, [-0.005, 0.0, 0.005]),
+])
+def test_chart_ticks_are_round_numbers_inside_the_range(low, high, ticks):
+    from budget.fitchart import nice_ticks
+
+    assert nice_ticks(low, high) == pytest.approx(ticks)
