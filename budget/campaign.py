@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 
-from .errors import CampaignError, Location, did_you_mean
+from .errors import BudgetError, CampaignError, Location, did_you_mean
 from .model import LineIndex, Model, decode, load_model, read_toml
 
 __all__ = ["Campaign", "Comparison", "load_campaign", "read_table"]
@@ -62,6 +62,7 @@ class Campaign:
     data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
     method_label: str = "characterization"
     methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
+    reported_interval: str = "gum"  # [certificate]: which interval the certificate states
 
 
 class _Reader:
@@ -192,7 +193,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
                     if key in r.doc),
         data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
-        method_label=label, methods=plan)
+        method_label=label, methods=plan, reported_interval=_reported_interval(r))
 
 
 def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),
@@ -339,5 +340,19 @@ def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...
     if k is None and coverage is None:
         k = 2.0
     fields = tuple((key, str(value)) for key, value in data.items()
-                   if key not in ("k", "coverage"))
+                   if key not in ("k", "coverage", "reported_interval"))
     return k, coverage, fields
+
+
+def _reported_interval(r: _Reader) -> str:
+    """``[certificate] reported_interval``: gum (default), monte_carlo, monte_carlo_shortest."""
+    from .model import check_reported
+
+    data = r.doc.get("certificate", {})
+    if "reported_interval" not in data:
+        return "gum"
+    try:
+        return check_reported(data["reported_interval"],
+                              r.where("certificate", "reported_interval"))
+    except BudgetError as error:
+        raise CampaignError(error.message, error.location) from error

@@ -73,6 +73,12 @@ def _common(function: Callable[..., Any]) -> Callable[..., Any]:
     return function
 
 
+_REPORTED_OPTION = click.option(
+    "--reported-interval", type=click.Choice(["gum", "monte_carlo", "monte_carlo_shortest"]),
+    default=None, help="Which interval is the result: the GUM one (default) or the Monte "
+    "Carlo symmetric or shortest one (JCGM 101 8.2); overrides the file's setting.")
+
+
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(package_name="budget", prog_name="budget")
 def main() -> None:
@@ -86,16 +92,17 @@ def main() -> None:
               help="Also write the self-contained HTML report to FILE.")
 @click.option("--second-order", is_flag=True,
               help="Add the GUM 5.1.2 higher-order terms (uncorrelated inputs).")
+@_REPORTED_OPTION
 def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
         coverage: float | None, digits: int | None, as_json: bool, html_file: str | None,
-        second_order: bool) -> None:
+        second_order: bool, reported_interval: str | None) -> None:
     """Evaluate MODEL.toml: GUM budget and Monte Carlo cross-check."""
     from .errors import BudgetError
 
     progress = _Progress(not as_json)
     try:
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
-                           second_order, progress)
+                           second_order, progress, reported_interval)
         progress.close()
         if html_file:
             from .report import write_report
@@ -109,13 +116,14 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
 
 def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
               coverage: float | None, digits: int | None, second_order: bool,
-              progress: _Progress) -> Any:
+              progress: _Progress, reported_interval: str | None = None) -> Any:
     from .analysis import evaluate
     from .model import load_model
 
     model = load_model(model_file)
     return evaluate(model, coverage=coverage, trials=trials, adaptive=adaptive, seed=seed,
-                    digits=digits, second_order=second_order, progress=progress)
+                    digits=digits, second_order=second_order, progress=progress,
+                    reported_interval=reported_interval)
 
 
 def _print_result(result: Any, as_json: bool) -> None:
@@ -188,8 +196,9 @@ def check(model_file: str) -> None:
 @click.option("--trials", type=click.IntRange(min=0), default=None,
               help="Monte Carlo trials for the characterization model (0 = none).")
 @click.option("--seed", type=click.IntRange(min=0), default=None, help="Random seed.")
+@_REPORTED_OPTION
 def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: int | None,
-            seed: int | None) -> None:
+            seed: int | None, reported_interval: str | None) -> None:
     """Certify a batch: characterization, homogeneity, stability, comparison."""
     from .campaign import load_campaign
     from .certification import certify as run_certification
@@ -198,7 +207,8 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
     progress = _Progress(not as_json)
     try:
         campaign = load_campaign(campaign_file)
-        cert = run_certification(campaign, trials=trials, seed=seed, progress=progress)
+        cert = run_certification(campaign, trials=trials, seed=seed, progress=progress,
+                                 reported_interval=reported_interval)
         progress.close()
         if html_file:
             from .report import write_certification_report
