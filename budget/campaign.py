@@ -25,7 +25,8 @@ _TOP = ("title", "material", "unit", "description", "producer", "characterizatio
 _SECTIONS = {
     "characterization": ("model", "measurand", "runs", "scatter_covers", "label"),
     "homogeneity": ("data",),
-    "stability": ("data", "shelf_life", "u_short_term"),
+    "stability": ("data", "shelf_life", "u_short_term",
+                  "label", "evaluation", "series", "short_term"),  # the last four: stability.py
     "comparison": ("label", "value", "expanded", "k", "u"),
 }
 
@@ -62,6 +63,7 @@ class Campaign:
     data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
     method_label: str = "characterization"
     methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
+    stability_plan: Any = None  # stability.StabilityPlan: more series, short-term study
     reported_interval: str = "gum"  # [certificate]: which interval the certificate states
 
 
@@ -179,6 +181,9 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     homogeneity = _homogeneity(r)
     stability_section = r.section("stability", False)
     stability = _stability(r, stability_section)
+    from .stability import read_stability_plan
+
+    stability_plan = read_stability_plan(r, stability_section)
     shelf = u_sts = 0.0
     if stability_section is not None:
         shelf = r.number(stability_section, "shelf_life", "stability", positive=True)
@@ -193,7 +198,8 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
                     if key in r.doc),
         data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
-        method_label=label, methods=plan, reported_interval=_reported_interval(r))
+        method_label=label, methods=plan, stability_plan=stability_plan,
+        reported_interval=_reported_interval(r))
 
 
 def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),

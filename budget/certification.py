@@ -120,6 +120,7 @@ class Certification:
     warnings: tuple[str, ...] = ()
     run_dates: tuple[dt.date, ...] = ()  # the measurement dates of the runs, if given
     methods: Any = None  # intercomparison.MethodsResult when the campaign has several
+    stability_studies: Any = None  # stability.StabilityStudies: series, short-term study
     simulation: CertifiedSimulation | None = None  # Monte Carlo of the certified value
     reported: Reported | None = None  # the certificate's interval and the method behind it
 
@@ -217,19 +218,28 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
                             f"{stability.p_value:.3g} < 0.05)")
     else:
         warnings.append("no stability study: u_lts and u_sts are taken as 0")
-    cert = replace(_certified(campaign, value_from, homogeneity, stability, warnings),
-                   run_dates=days)
+    studies, stability_used, campaign_used = None, stability, campaign
+    if campaign.stability_plan is not None and stability is not None:
+        from .stability import evaluate_studies, studies_in_use
+
+        studies = evaluate_studies(campaign.stability_plan, stability, campaign.shelf_life,
+                                   campaign.unit, warnings)
+        stability_used, campaign_used = studies_in_use(studies, stability, campaign)
+    cert = replace(_certified(campaign_used, value_from, homogeneity, stability_used,
+                              warnings), run_dates=days, stability=stability,
+                   stability_studies=studies)
     cert = _with_monte_carlo(cert, char if methods is None else None,
-                             reported_interval or campaign.reported_interval)
+                             reported_interval or campaign.reported_interval,
+                             math.inf if stability_used is None else float(stability_used.dof))
     return cert if methods is None else replace(cert, characterization=char, methods=methods)
 
 
 def _with_monte_carlo(cert: Certification, char: Characterization | None,
-                      method: str) -> Certification:
+                      method: str, stability_dof: float) -> Certification:
     """Add the Monte Carlo of the certified value (``certified_mc.py``) and the result
     that the certificate reports (GUM, or a Monte Carlo interval, JCGM 101 8.2)."""
     campaign = cert.campaign
-    simulation = _simulate_certified(cert, char)
+    simulation = _simulate_certified(cert, char, stability_dof)
     if method == "gum":
         chosen = cert.reported_result
         v = simulation.validation if simulation else None
@@ -255,17 +265,18 @@ def _with_monte_carlo(cert: Certification, char: Characterization | None,
     return replace(cert, simulation=simulation, reported=chosen)
 
 
-def _simulate_certified(cert: Certification,
-                        char: Characterization | None) -> CertifiedSimulation | None:
+def _simulate_certified(cert: Certification, char: Characterization | None,
+                        stability_dof: float) -> CertifiedSimulation | None:
     sim = None if char is None else char.result.simulation
     if char is None or sim is None or not sim.trials:
         return None
     campaign, model = cert.campaign, cert.campaign.model
     index = [m.name for m in model.measurands].index(campaign.measurand)
-    h, st = cert.homogeneity, cert.stability
-    components = ((h.u_bb, float(h.dof_between)) if h else (0.0, math.inf),
-                  (st.u_lts, float(st.dof)) if st else (0.0, math.inf),
-                  (campaign.u_short_term, math.inf))
+    used = dict(cert.components)  # the u's that went into u_CRM, with their ν
+    h = cert.homogeneity
+    components = ((used["homogeneity"], float(h.dof_between) if h else math.inf),
+                  (used["long_term_stability"], stability_dof),
+                  (used["short_term_stability"], math.inf))
     stated = cert.coverage_probability
     return simulate_certified(
         model_samples=sim.measurands[index].samples,

@@ -228,5 +228,40 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
     _warn(cert.warnings)
 
 
+@main.command()
+@click.argument("before", metavar="A")
+@click.argument("after", metavar="B")
+@click.option("--json", "as_json", is_flag=True, help="Print the JSON comparison document.")
+@click.option("--html", "html_file", metavar="FILE", default=None,
+              help="Also write the comparison as an HTML page to FILE.")
+@click.option("--trials", type=click.IntRange(min=0), default=0,
+              help="Monte Carlo trials when a model is evaluated (default 0: GUM only).")
+@click.option("--digits", type=click.IntRange(1, 6), default=2,
+              help="Significant digits of the uncertainties shown.")
+def compare(before: str, after: str, as_json: bool, html_file: str | None, trials: int,
+            digits: int) -> None:
+    """What changed from budget A to budget B (model files or saved JSON results)."""
+    from .difference import compare as run_compare, load_side
+    from .errors import BudgetError
+
+    try:
+        difference = run_compare(load_side(before, trials=trials),
+                                 load_side(after, trials=trials))
+        if html_file:
+            from .report import write_difference_report
+
+            write_difference_report(difference, html_file, digits)
+    except BudgetError as error:
+        _fail(error)
+    if as_json:
+        from .difference_view import difference_document
+
+        click.echo(json.dumps(difference_document(difference), indent=2, allow_nan=False))
+    else:
+        from .difference_view import render_difference
+
+        click.echo(render_difference(difference, digits), nl=False)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

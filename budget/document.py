@@ -187,4 +187,8 @@ def certification_document(cert: Any) -> dict[str, Any]:
         from .methods_output import methods_document
 
         document["methods"] = methods_document(cert.methods)
+    if cert.stability_studies is not None:  # several series, short-term study
+        from .studies_output import studies_document
+
+        document["stability_studies"] = studies_document(cert.stability_studies)
     return document

@@ -172,7 +172,7 @@ def _model_method(r: _Reader, entry: dict[str, Any], label: str, table: str, nth
     if measurand not in names:
         raise r.fail(f"expected a measurand of {model.source} ({', '.join(names)}), found "
                      f"'{measurand}'{did_you_mean(measurand, names)}", table, "measurand", nth)
-    runs = None
+    runs: Any = None
     run_inputs: tuple[str, ...] = ()
     if runs_required or "runs" in entry:
         runs, run_inputs = _runs(r, _file(r, entry, "runs", table, nth), model, table, nth)

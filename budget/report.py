@@ -9,6 +9,7 @@ report loads nothing from the network: no scripts, fonts, images or style sheets
 
 from __future__ import annotations
 
+import math
 from importlib import resources
 from typing import Any, Callable
 
@@ -29,7 +30,8 @@ from .typeset import equation_mathml, name_html, name_text
 from .unit_display import display_unit, unit_ratio
 
 __all__ = ["render_report", "write_report", "render_certification_report",
-           "write_certification_report"]
+           "write_certification_report", "render_difference_report",
+           "write_difference_report"]
 
 
 def _environment() -> Any:
@@ -64,10 +66,25 @@ def _budget_view(result: Result) -> dict[str, Any]:
                          for a, b, r in model.correlations],
         "output_correlation": _output_correlation(result),
         "inputs": [_input_view(i) for i in model.inputs],
+        "records": _records_view(model),
         "provenance": _provenance(describe(model, result.simulation), result),
         "certificates": _certificates_view(model, model.measured),
         "warnings": list(result.warnings),
     }
+
+
+def _records_view(model: Any) -> list[dict[str, Any]]:
+    """Each [fits.NAME] / [records.NAME] table: method, what it gives, notes, fit charts."""
+    from .fitchart import fit_chart
+
+    return [{"table": view.table, "file": view.file, "method": view.method,
+             "produces": ", ".join(view.produces), "notes": list(view.notes),
+             "charts": [{"label": f.label, "svg": fit_chart(
+                 f.fit, x_label=f.x_label, y_label=f.y_label,
+                 label=f"{view.table}: {f.label}, data, fit and residuals"),
+                 "points": len(f.fit.x), "dof": format_dof(f.fit.dof)}
+                        for f in view.fits]}
+            for view in model.records]
 
 
 def _certificates_view(model: Any, days: Any) -> list[dict[str, str]]:
@@ -237,4 +254,37 @@ def _certification_view(cert: Any) -> dict[str, Any]:
 
         view["methods"] = methods_view(cert.methods, cert.campaign.unit,
                                        cert.campaign.model.settings.digits, _budget_view)
+    if cert.stability_studies is not None:  # studies_output.py, studies.html.j2
+        from .studies_output import studies_view
+
+        view["stability_studies"] = studies_view(cert.stability_studies,
+                                                 cert.campaign.model.settings.digits)
     return view
+
+
+def render_difference_report(difference: Any, digits: int = 2) -> str:
+    """The HTML page of ``budget compare --html``."""
+    from .difference_view import causes, headline
+
+    def measurand(m: Any) -> dict[str, Any]:
+        through_k = "" if math.isclose(m.before.k, m.after.k, rel_tol=1e-4) else (
+            f"U changed by {m.U_from_u:+.3g} {m.unit} through u_c and by {m.U_from_k:+.3g} "
+            f"{m.unit} through the coverage factor k.")
+        return {"name": m.name, "unit": m.unit, "headline": headline(m, digits),
+                "causes": causes(m) if m.variance_delta else [], "through_k": through_k,
+                "inputs": [{"input": c.input, "status": c.status,
+                            "share_before": format_percent(c.share_before),
+                            "share_after": format_percent(c.share_after),
+                            "delta": f"{c.delta:+.3g}", "what": "; ".join(c.what)}
+                           for c in m.inputs]}
+
+    view = {"title": f"{difference.before.title or difference.before.label} → "
+                     f"{difference.after.title or difference.after.label}",
+            "before": difference.before.label, "after": difference.after.label,
+            "caution": CAUTION, "notes": list(difference.notes),
+            "measurands": [measurand(m) for m in difference.measurands]}
+    return str(_environment().get_template("compare.html.j2").render(report=view))
+
+
+def write_difference_report(difference: Any, path: str, digits: int = 2) -> None:
+    write_atomic(path, render_difference_report(difference, digits))

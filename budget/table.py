@@ -256,4 +256,8 @@ def render_certification(cert: Any, digits: int = 2) -> str:
         from .methods_output import methods_lines
 
         lines += methods_lines(cert.methods, unit, digits)
+    if cert.stability_studies is not None:  # several series, short-term study
+        from .studies_output import studies_lines
+
+        lines += studies_lines(cert.stability_studies, unit, digits)
     return "\n".join(lines)

@@ -103,8 +103,7 @@ def _write(folder: Path, campaign: str) -> Path:
 def test_shared_input_changes_the_scores_by_the_predicted_amount(tmp_path: Path) -> None:
     # hand computation (GUM 5.2.2, ISO 13528 9.7/9.8):
     # u_A^2 = 0.001^2 (a) + 0.010^2 (s) + 0.001^2 (g = 0 ± 1e-5 = 0.001 %)
-    #         + 1e-6 (s^2/n of 99.990, 99.992)
-    #       = 1.03e-4;
+    #       + 1e-6 (s^2/n of 99.990, 99.992) = 1.03e-4;
     # u_B^2 = 0.002^2 (b) + 0.010^2 (s) + 4e-6 (s^2/n of 99.970, 99.974) = 1.08e-4;
     # the shared s gives u_AB = 0.010^2 = 1e-4; d = 99.991 - 99.972 = 0.019;
     # u^2(d) = 2.11e-4 as if independent, 2.11e-4 - 2e-4 = 1.1e-5 with the shared input
@@ -217,9 +216,11 @@ def test_one_method_campaign_unchanged_to_the_last_digit(cli) -> None:  # type: 
 
 
 def test_compared_only_methods_leave_the_certified_value_alone() -> None:
-    # the demo's three methods without their [combination]: the first method certifies
+    # the demo's three methods without their [combination] (and with the stability of
+    # campaign.toml): the first method certifies
     campaign = load_campaign(DEMO / "campaign-methods.toml")
-    compared = replace(campaign, methods=replace(campaign.methods, rule=None, combined=()))
+    compared = replace(campaign, methods=replace(campaign.methods, rule=None, combined=()),
+                       stability_plan=None, u_short_term=0.0005)  # as campaign.toml
     cert = certify(compared, trials=0)
     assert cert.certified_value == _ONE_METHOD["certified_value"]
     assert dict(cert.components) == _ONE_METHOD["components"]

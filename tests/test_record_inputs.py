@@ -104,3 +104,27 @@ def test_bad_record_gives_one_error_line(case, tmp_path, cli):
         assert lines[0].startswith(f"error: {path}{message}")
     else:
         assert lines[0] == f"error: {path}{message}"
+
+
+def test_report_shows_each_fit_with_its_residuals():
+    from budget.analysis import evaluate
+    from budget.report import render_report
+    from conftest import MODELS
+
+    model = load_model(MODELS / "vics-as-25a" / "coulometric-purity-records.toml")
+    html = render_report(evaluate(model, trials=2000, seed=1))
+    assert "Inputs from fits and records" in html
+    for label in ("records.Q_post: first segment", "records.Q_post: second segment",
+                  "records.Q_pre_ep: cubic around the steepest reading"):
+        assert f'aria-label="{label}, data, fit and residuals"' in html
+    assert html.count(">residual<") == 3  # one residual panel per fit
+
+
+def test_chart_of_a_long_record_draws_a_bounded_number_of_points():
+    from budget.fitchart import POINTS, fit_chart
+    from budget.fits import polynomial
+
+    x = np.linspace(0.0, 1.0, 100_000)
+    fit = polynomial(x, 2.0 * x + np.sin(40 * x) * 1e-3, 1)
+    svg = str(fit_chart(fit, x_label="t / s", y_label="i / mA", label="long"))
+    assert svg.count("<circle") <= 2 * (POINTS + 1)
