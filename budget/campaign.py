@@ -15,6 +15,7 @@ from typing import Any
 import numpy as np
 
 from .errors import BudgetError, CampaignError, Location, did_you_mean
+from .limits import LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, check_strings
 from .model import LineIndex, Model, decode, load_model, read_toml
 
 __all__ = ["Campaign", "Comparison", "load_campaign", "read_table"]
@@ -125,6 +126,9 @@ class _Reader:
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
+        if path.stat().st_size > MAX_DATA_BYTES:
+            raise self.fail(f"expected a data file of at most {MAX_DATA_BYTES // 2 ** 20} MiB "
+                            f"(limits: {LIMITS_PAGE}), found a larger file", table, key)
         import hashlib
 
         try:
@@ -138,15 +142,10 @@ class _Reader:
 
 def load_campaign(path: str | Path) -> Campaign:
     """Read and check a campaign file and everything it refers to."""
+    from .files import read_input
+
     path = Path(path)
-    try:
-        raw = path.read_bytes()
-    except FileNotFoundError as exc:
-        raise CampaignError("expected a campaign file, found no such file",
-                            Location(file=str(path))) from exc
-    except OSError as exc:
-        raise CampaignError(f"expected a readable campaign file, found {exc.strerror}",
-                            Location(file=str(path))) from exc
+    raw = read_input(path, limit=MAX_FILE_BYTES, what="campaign file", error=CampaignError)
     text = decode(raw, str(path), "campaign")
     reader = _Reader(path, text, read_toml(text, str(path)))
     import hashlib
@@ -159,6 +158,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         if key not in _TOP:
             raise r.fail(f"unknown top-level key '{key}'{did_you_mean(key, _TOP)}; expected "
                          f"one of {', '.join(_TOP)}", None, key)
+    check_strings(r.doc, r.where)
     title = r.text(r.doc, "title", None)
     unit = r.text(r.doc, "unit", None)
     char = r.section("characterization", True) or {}

@@ -8,7 +8,9 @@ standard error as ``warning:`` lines. The engine is imported inside the commands
 
 from __future__ import annotations
 
+import errno
 import json
+import math
 import sys
 import time
 from typing import Any, Callable
@@ -17,17 +19,80 @@ import click
 
 __all__ = ["main"]
 
-_COVERAGE = click.FloatRange(0.0, 1.0, min_open=True, max_open=True)
+class _Finite(click.ParamType):  # type: ignore[type-arg]
+    """A finite number in [low, high]: 'nan' and 'inf' are a bad command line (exit 2)."""
+
+    name = "number"
+
+    def __init__(self, low: float, high: float, what: str) -> None:
+        self.low, self.high, self.what = low, high, what
+
+    def convert(self, value: Any, param: click.Parameter | None,
+                ctx: click.Context | None) -> float:
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            self.fail(f"expected {self.what}, found {value!r}", param, ctx)
+        if not (math.isfinite(number) and self.low <= number <= self.high):
+            self.fail(f"expected {self.what}, found {value!r}", param, ctx)
+        return number
+
+
+_COVERAGE = _Finite(1e-6, 1.0 - 1e-9, "a coverage probability in [1e-6, 1 - 1e-9]")
+_TARGET = _Finite(5e-324, 1.7976931348623157e308, "a positive finite number")
 
 
 def _fail(error: Exception) -> None:
-    click.echo(f"error: {error}", err=True)
+    click.echo(f"error: {_safe(str(error))}", err=True)
     sys.exit(1)
 
 
 def _warn(warnings: Any) -> None:
     for line in warnings:
-        click.echo(f"warning: {line}", err=True)
+        click.echo(f"warning: {_safe(str(line))}", err=True)
+
+
+def _safe(text: str) -> str:
+    """One line for the terminal: control characters escaped (limits.terminal_text)."""
+    from .limits import terminal_text
+
+    return terminal_text(text)
+
+
+def _out(text: str) -> None:
+    """Standard output, or an error when it is closed (the result would be lost)."""
+    if sys.stdout is None or getattr(sys.stdout, "closed", False):
+        click.echo("error: standard output is closed; the result could not be written",
+                   err=True)
+        sys.exit(1)
+    from .limits import terminal_text
+
+    click.echo(terminal_text(text, keep="\n"))
+
+
+class _Group(click.Group):
+    """Ctrl-C exits with 130 (128 + SIGINT) and a one-line message, never a traceback;
+    numpy's floating-point RuntimeWarnings never reach standard error (every result is
+    checked for finiteness where it is computed)."""
+
+    def invoke(self, ctx: click.Context) -> Any:
+        import warnings
+
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", RuntimeWarning)
+                return super().invoke(ctx)
+        except KeyboardInterrupt:
+            click.echo("error: interrupted", err=True)
+            raise click.exceptions.Exit(130) from None
+        except BrokenPipeError:
+            raise
+        except OSError as exc:
+            if exc.errno == errno.EPIPE:
+                raise
+            click.echo(f"error: could not write the output: {exc.strerror or exc}",
+                       err=True)
+            raise click.exceptions.Exit(1) from None
 
 
 class _Progress:
@@ -56,11 +121,12 @@ class _Progress:
 
 def _common(function: Callable[..., Any]) -> Callable[..., Any]:
     options = [
-        click.option("--trials", type=click.IntRange(min=0), default=None,
+        click.option("--trials", type=click.IntRange(0, 100_000_000), default=None,
                      help="Monte Carlo trials (0 = none)."),
         click.option("--adaptive", is_flag=True,
                      help="JCGM 101 7.9 adaptive procedure instead of a fixed number."),
-        click.option("--seed", type=click.IntRange(min=0), default=None, help="Random seed."),
+        click.option("--seed", type=click.IntRange(0, 2 ** 64 - 1), default=None,
+                     help="Random seed."),
         click.option("--coverage", type=_COVERAGE, default=None,
                      help="Coverage probability, e.g. 0.95 or 0.99."),
         click.option("--digits", type=click.IntRange(1, 6), default=None,
@@ -79,7 +145,7 @@ _REPORTED_OPTION = click.option(
     "Carlo symmetric or shortest one (JCGM 101 8.2); overrides the file's setting.")
 
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(package_name="budget", prog_name="budget")
 def main() -> None:
     """Measurement-uncertainty budgets to the GUM, cross-checked by Monte Carlo."""
@@ -128,20 +194,20 @@ def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | N
 
 def _print_result(result: Any, as_json: bool) -> None:
     if as_json:
-        from .document import result_document
+        from .document import json_safe, result_document
 
-        click.echo(json.dumps(result_document(result), indent=2, allow_nan=False))
+        _out(json.dumps(json_safe(result_document(result)), indent=2, allow_nan=False))
     else:
         from .table import render
 
-        click.echo(render(result))
+        _out(render(result))
     _warn(result.warnings)
 
 
 @main.command()
 @click.argument("model_file", metavar="MODEL.toml")
 @_common
-@click.option("--target", type=click.FloatRange(min=0, min_open=True), default=None,
+@click.option("--target", type=_TARGET, default=None,
               metavar="U", help="What each leading input's u must be for this U.")
 def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
             coverage: float | None, digits: int | None, as_json: bool,
@@ -165,9 +231,11 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
         document = {"schema_version": SCHEMA_VERSION, "title": result.model.title,
                     "model_sha256": result.model.sha256,
                     **explanation_document(explanations), "warnings": list(result.warnings)}
-        click.echo(json.dumps(document, indent=2, allow_nan=False))
+        from .document import json_safe
+
+        _out(json.dumps(json_safe(document), indent=2, allow_nan=False))
     else:
-        click.echo(render(explanations, result.digits))
+        _out(render(explanations, result.digits))
     _warn(result.warnings)
 
 
@@ -182,7 +250,7 @@ def check(model_file: str) -> None:
         model = load_model(model_file)
     except BudgetError as error:
         _fail(error)
-    click.echo(f"ok: {model_file}: {len(model.inputs)} inputs, {len(model.measurands)} "
+    _out(f"ok: {model_file}: {len(model.inputs)} inputs, {len(model.measurands)} "
                f"measurand(s), {len(model.definitions)} definition(s), "
                f"{len(model.correlations)} correlation(s)")
     _warn(model.warnings)
@@ -193,9 +261,10 @@ def check(model_file: str) -> None:
 @click.option("--json", "as_json", is_flag=True, help="Print the JSON certification document.")
 @click.option("--html", "html_file", metavar="FILE", default=None,
               help="Also write the certification report to FILE.")
-@click.option("--trials", type=click.IntRange(min=0), default=None,
+@click.option("--trials", type=click.IntRange(0, 100_000_000), default=None,
               help="Monte Carlo trials for the characterization model (0 = none).")
-@click.option("--seed", type=click.IntRange(min=0), default=None, help="Random seed.")
+@click.option("--seed", type=click.IntRange(0, 2 ** 64 - 1), default=None,
+              help="Random seed.")
 @_REPORTED_OPTION
 def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: int | None,
             seed: int | None, reported_interval: str | None) -> None:
@@ -218,13 +287,13 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
         progress.close()
         _fail(error)
     if as_json:
-        from .document import certification_document
+        from .document import certification_document, json_safe
 
-        click.echo(json.dumps(certification_document(cert), indent=2, allow_nan=False))
+        _out(json.dumps(json_safe(certification_document(cert)), indent=2, allow_nan=False))
     else:
         from .table import render_certification
 
-        click.echo(render_certification(cert, campaign.model.settings.digits))
+        _out(render_certification(cert, campaign.model.settings.digits))
     _warn(cert.warnings)
 
 

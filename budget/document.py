@@ -126,6 +126,8 @@ def _simulation(s: MeasurandSimulation) -> dict[str, Any]:
         v = s.validation
         document["validation"] = {"tolerance": v.tolerance, "d_low": v.d_low,
                                   "d_high": v.d_high, "validated": v.validated}
+        if v.reason:
+            document["validation"]["reason"] = v.reason
     return document
 
 
@@ -191,4 +193,19 @@ def certification_document(cert: Any) -> dict[str, Any]:
         from .studies_output import studies_document
 
         document["stability_studies"] = studies_document(cert.stability_studies)
+    return document
+
+
+def json_safe(document: Any) -> Any:
+    """A copy of ``document`` in which every float that is not finite is ``None``.
+
+    JSON has no inf or NaN; a statistic that cannot be computed is ``null`` and its reason
+    is stated beside it where the engine knows one (``F_reason``, ``p_value_reason``).
+    """
+    if isinstance(document, float):
+        return document if math.isfinite(document) else None
+    if isinstance(document, dict):
+        return {key: json_safe(value) for key, value in document.items()}
+    if isinstance(document, (list, tuple)):
+        return [json_safe(value) for value in document]
     return document

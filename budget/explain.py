@@ -130,6 +130,8 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
     item = model.input(top.input)
     gum_width = 2 * budget.expanded_uncertainty
     mc_width = simulation.interval[1] - simulation.interval[0]
+    if v.reason:
+        return (f"Monte Carlo cannot validate the GUM result: {v.reason}",)
     if v.validated:
         return (f"Monte Carlo validates the GUM result: both interval ends agree within "
                 f"δ = {format_number(v.tolerance, 1)} {budget.unit} (JCGM 101 8.2)",)

@@ -12,6 +12,8 @@ temperatures are refused before any number is computed.
 from __future__ import annotations
 
 import ast
+import math
+import re
 from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Callable, Mapping
@@ -19,6 +21,8 @@ from typing import Any, Callable, Mapping
 import sympy
 
 from .errors import Location, ModelSyntaxError, UnitError, UnknownNameError, did_you_mean
+from .limits import (LIMITS_PAGE, MAX_EXACT_DIGITS, MAX_EXPONENT, MAX_EXPRESSION_CHARS,
+                     MAX_NESTING, MAX_NUMBER_DIGITS, character_name, shorten)
 from .units import DIMENSIONLESS, dimension_text, parse_unit
 
 __all__ = ["Term", "parse_expression", "names_in", "build", "FUNCTIONS"]
@@ -63,11 +67,18 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
         raise ModelSyntaxError(f"expected an expression string, found {text!r}", where)
     if not text.strip():
         raise ModelSyntaxError("expected an expression, found an empty string", where)
+    _check_text(text, where)
     try:
         tree = ast.parse(text.strip(), mode="eval")
     except SyntaxError as exc:
-        raise ModelSyntaxError(f"expected an arithmetic expression, found '{text.strip()}' "
-                               f"(syntax error at column {exc.offset or 0})", where) from exc
+        raise ModelSyntaxError(f"expected an arithmetic expression, found "
+                               f"'{shorten(text.strip())}' (syntax error at column "
+                               f"{exc.offset or 0})", where) from exc
+    except (RecursionError, MemoryError) as exc:
+        raise ModelSyntaxError(f"expected an expression nested at most {MAX_NESTING} deep "
+                               f"(limits: {LIMITS_PAGE}), found deeper nesting", where
+                               ) from exc
+    _check_depth(tree.body, where)
     nodes = list(ast.walk(tree))
     for node in nodes:  # constructs first, so that '(lambda: x)()' is named a lambda
         if type(node) in _FORBIDDEN:
@@ -78,7 +89,62 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
     return tree
 
 
+# Characters the grammar knows: these give their own message (a comparison, a string…);
+# everything else ('#', ';', '\\', '$', non-ASCII letters, control characters) is refused
+# before parsing, so that nothing after a '#' can be silently dropped.
+_KNOWN = frozenset("abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789_"
+                   " \t\n\r.,()+-*/^%<>=!&|~@[]{}:'\"")
+_DIGITS = re.compile(r"[0-9][0-9_]*")
+
+
+def _check_text(text: str, where: Location) -> None:
+    if len(text) > MAX_EXPRESSION_CHARS:
+        raise ModelSyntaxError(f"expected an expression of at most {MAX_EXPRESSION_CHARS:,} "
+                               f"characters (limits: {LIMITS_PAGE}), found {len(text):,}",
+                               where)
+    for column, char in enumerate(text, start=1):
+        if char not in _KNOWN:
+            hint = " (comments are not part of an expression)" if char == "#" else ""
+            raise ModelSyntaxError(f"expected only names, numbers, + - * / ** and "
+                                   f"parentheses, found {character_name(char)} at column "
+                                   f"{column}{hint}", where)
+    longest = max((len(m.group()) for m in _DIGITS.finditer(text)), default=0)
+    if longest > MAX_NUMBER_DIGITS:
+        raise ModelSyntaxError(f"expected numbers of at most {MAX_NUMBER_DIGITS} digits "
+                               f"(limits: {LIMITS_PAGE}), found one of {longest} digits",
+                               where)
+
+
+_CHAINS = ((ast.Add, ast.Sub), (ast.Mult, ast.Div))
+
+
+def _same_chain(parent: ast.AST, child: ast.AST) -> bool:
+    """A left operand continuing a sum or product chain adds no nesting level."""
+    return (isinstance(parent, ast.BinOp) and isinstance(child, ast.BinOp)
+            and any(isinstance(parent.op, c) and isinstance(child.op, c) for c in _CHAINS))
+
+
+def _check_depth(root: ast.AST, where: Location) -> None:
+    """Refuse nesting deeper than MAX_NESTING, walking without recursion."""
+    stack: list[tuple[ast.AST, int]] = [(root, 1)]
+    while stack:
+        node, depth = stack.pop()
+        if depth > MAX_NESTING:
+            raise ModelSyntaxError(f"expected an expression nested at most {MAX_NESTING} "
+                                   f"deep (brackets, powers, function calls and signs; "
+                                   f"limits: {LIMITS_PAGE}), found deeper nesting", where)
+        for child in ast.iter_child_nodes(node):
+            step = 0 if isinstance(node, ast.BinOp) and child is node.left \
+                and _same_chain(node, child) else 1
+            stack.append((child, depth + step))
+
+
 def _check_node(node: ast.AST, text: str, where: Location) -> None:
+    if isinstance(node, ast.Constant) and isinstance(node.value, float) \
+            and not math.isfinite(node.value):
+        raise ModelSyntaxError(f"expected a finite number, found "
+                               f"'{ast.get_source_segment(text.strip(), node)}' (beyond the "
+                               f"floating-point range of ±1.8e308)", where)
     if isinstance(node, ast.BinOp) and isinstance(node.op, ast.BitXor):
         raise ModelSyntaxError(f"'^' is not a power in '{text.strip()}': write '**'", where)
     if isinstance(node, ast.BinOp) and type(node.op) not in _BINARY:
@@ -282,7 +348,9 @@ class _Builder:
                 raise UnitError(f"expected a numeric exponent for a quantity in "
                                 f"{dimension_text(base.unit)} in '{self.segment(node)}', "
                                 f"found '{self.segment(node.right)}'", self.where)
-            unit = base.unit ** Fraction(str(sympy.nsimplify(exponent.expr)))
+            unit = base.unit ** _rational_exponent(exponent.expr, base.unit,
+                                                   self.segment(node.right), self.where)
+        _check_power(base.expr, exponent.expr, self.segment(node), self.where)
         return Term(base.expr ** exponent.expr, base.shown ** exponent.shown, unit,
                     opaque=base.opaque ** exponent.opaque)
 
@@ -332,3 +400,38 @@ class _Builder:
                           *(a.opaque for a in args[1:]))
         density = air_density_expression(*values)
         return Term(density, shown, unit_of("kg/m^3"), opaque=opaque)
+
+
+def _check_power(base: Any, exponent: Any, shown: str, where: Location) -> None:
+    """Refuse powers whose exact value or derivatives would be unbounded in cost."""
+    if not exponent.is_number:
+        return
+    size = abs(exponent)
+    if size.is_finite is not True or bool(size > MAX_EXPONENT):
+        raise ModelSyntaxError(f"expected an exponent of at most {MAX_EXPONENT} in size "
+                               f"(limits: {LIMITS_PAGE}), found '{shorten(shown)}' with an "
+                               f"exponent of {_magnitude(exponent)}", where)
+    if base.is_Rational and exponent.is_Rational and base not in (0, 1, -1):
+        digits = float(size) * max(math.log10(abs(base.p)), math.log10(base.q))
+        if digits > MAX_EXACT_DIGITS:
+            raise ModelSyntaxError(f"expected exact numbers of at most {MAX_EXACT_DIGITS} "
+                                   f"digits (limits: {LIMITS_PAGE}), found "
+                                   f"'{shorten(shown)}' of about {digits:.0f} digits", where)
+
+
+def _magnitude(number: Any) -> str:
+    try:
+        return f"{float(number):.3g}"
+    except (TypeError, ValueError, OverflowError):
+        return "more than 1e308"
+
+
+def _rational_exponent(exponent: Any, unit: Any, shown: str, where: Location) -> Fraction:
+    """The exponent of a dimensioned base as an exact fraction (m**(1/1001) stays 1/1001)."""
+    simple = sympy.nsimplify(exponent, rational=False) if exponent.is_finite else None
+    if simple is None or not simple.is_Rational or abs(simple) > MAX_EXPONENT \
+            or simple.q > 10 ** 6:
+        raise UnitError(f"expected a rational exponent (at most {MAX_EXPONENT} in size, "
+                        f"denominator at most 10**6) for a quantity in "
+                        f"{dimension_text(unit)}, found '{shorten(shown)}'", where)
+    return Fraction(int(simple.p), int(simple.q))

@@ -128,8 +128,9 @@ def welch_satterthwaite(combined: float, components: np.ndarray, dofs: np.ndarra
     finite = np.isfinite(dofs) & (components > 0)
     if combined <= 0.0 or not finite.any():
         return math.inf
-    denominator = float(np.sum(components[finite] ** 4 / dofs[finite]))
-    return combined ** 4 / denominator if denominator > 0 else math.inf
+    # in units of u_c, so that u ≈ 1e±100 neither overflows nor underflows in the 4th power
+    denominator = float(np.sum((components[finite] / combined) ** 4 / dofs[finite]))
+    return 1.0 / denominator if denominator > 0 else math.inf
 
 
 def propagate(model: Model, coverage: float | None = None, *,
@@ -150,11 +151,11 @@ def propagate(model: Model, coverage: float | None = None, *,
         _one(model, k, float(values[k]), jac[k], u, groups, r, coverage,
              None if extra is None else float(extra[k]), warnings)
         for k in range(len(model.measurands)))
-    covariance = jac @ (np.outer(u, u) * r) @ jac.T
-    if extra is not None:
-        covariance = covariance + np.diag(extra)
+    core, scale = _scaled_covariance(jac, u, r, extra)
+    with np.errstate(over="ignore"):
+        covariance = core * scale * scale  # entries beyond ±1.8e308 are ∞ (JSON: null)
     return Budget(model=model, measurands=budgets, output_covariance=_rows(covariance),
-                  output_correlation=_rows(_correlation(covariance)), jacobian=_rows(jac),
+                  output_correlation=_rows(_correlation(core)), jacobian=_rows(jac),
                   warnings=tuple(warnings))
 
 
@@ -162,16 +163,27 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
          groups: Grouping, r: np.ndarray, coverage: float, extra: float | None,
          warnings: list[str]) -> MeasurandBudget:
     measurand = model.measurands[k]
-    parts = c * u
-    terms = _correlation_terms(model, parts, r)
-    first = float(np.sum(parts ** 2)) + math.fsum(t[3] for t in terms)
+    parts = _parts(measurand.name, model, c, u)
+    # sums of squares in units of the largest contribution, so that contributions of
+    # 1e200 or 1e-200 give a representable u_c instead of ∞ or 0
+    scale = float(np.max(np.abs(parts), initial=0.0)) or 1.0
+    scaled = parts / scale
+    terms = _correlation_terms(model, scaled, r)
+    first = float(np.sum(scaled ** 2)) + math.fsum(t[3] for t in terms)
     if first < 0.0:
         raise PropagationError(f"the variance of '{measurand.name}' came out negative "
-                               f"({first:.3g}); check the correlations")
-    variance = first + (extra or 0.0)
-    combined = math.sqrt(variance)
-    share = (100.0 * parts ** 2 / variance) if variance > 0 else np.zeros_like(parts)
-    nu, rule, notes = effective_dof(model, measurand.name, parts, combined, groups)
+                               f"({first * scale * scale:.3g}); check the correlations")
+    variance = first + (extra or 0.0) / scale / scale
+    combined = scale * math.sqrt(variance)
+    share = (100.0 * scaled ** 2 / variance) if variance > 0 else np.zeros_like(parts)
+    if not math.isfinite(combined):
+        raise PropagationError(f"the combined standard uncertainty of '{measurand.name}' is "
+                               "beyond the floating-point range (±1.8e308)")
+    with np.errstate(over="ignore"):
+        terms = [(a, b, rho, v * scale * scale) for a, b, rho, v in terms]
+        first, variance = first * scale * scale, variance * scale * scale
+    # ν_eff does not depend on the scale: computed in units of the largest contribution
+    nu, rule, notes = effective_dof(model, measurand.name, scaled, combined / scale, groups)
     warnings.extend(notes)
     if extra:
         rule += "; the second-order terms are taken with infinite degrees of freedom"
@@ -186,14 +198,38 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
         for j, i in enumerate(model.inputs))
     correlation_terms = tuple(
         CorrelationTerm(inputs=(a, b), r=rho, variance=v,
-                        share=100.0 * v / variance if variance > 0 else 0.0)
+                        share=100.0 * (v / combined) / combined if combined > 0 else 0.0)
         for a, b, rho, v in terms)
     return MeasurandBudget(
         name=measurand.name, unit=measurand.unit, estimate=estimate,
         contributions=contributions, correlation_terms=correlation_terms,
-        combined_uncertainty=combined, first_order_uncertainty=math.sqrt(first),
+        combined_uncertainty=combined,
+        first_order_uncertainty=math.sqrt(first) if math.isfinite(first) else combined,
         second_order_variance=extra, dof=nu, dof_rule=rule, coverage_probability=coverage,
         coverage_factor=k_p, expanded_uncertainty=k_p * combined)
+
+
+def _scaled_covariance(jac: np.ndarray, u: np.ndarray, r: np.ndarray,
+                       extra: np.ndarray | None) -> tuple[np.ndarray, float]:
+    """U_y = J U_x Jᵀ as (core, scale) with U_y = core·scale², free of overflow."""
+    parts = jac * u  # each row finite: checked measurand by measurand in _one
+    scale = float(np.max(np.abs(parts), initial=0.0)) or 1.0
+    scaled = parts / scale
+    core = scaled @ r @ scaled.T
+    if extra is not None:
+        core = core + np.diag(np.asarray(extra) / scale / scale)
+    return core, scale
+
+
+def _parts(name: str, model: Model, c: np.ndarray, u: np.ndarray) -> np.ndarray:
+    """c_i·u(x_i), refused when one is beyond the floating-point range."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        parts: np.ndarray = np.asarray(c * u, dtype=float)
+    bad = np.flatnonzero(~np.isfinite(parts))
+    if bad.size:
+        raise PropagationError(f"the contribution c·u(x) of '{model.inputs[int(bad[0])].name}'"
+                               f" to '{name}' is beyond the floating-point range (±1.8e308)")
+    return parts
 
 
 def _warn(name: str, combined: float, nu: float, warnings: list[str]) -> None:
@@ -223,7 +259,14 @@ def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray
                         "for uncorrelated inputs only")
         return None
     from .evaluation import second_order_variances
+    from .limits import LIMITS_PAGE, MAX_SECOND_ORDER_INPUTS
 
+    count = sum(1 for i in model.inputs if i.standard_uncertainty > 0)
+    if count > MAX_SECOND_ORDER_INPUTS:
+        raise PropagationError(f"{model.source}: expected at most {MAX_SECOND_ORDER_INPUTS} "
+                               f"inputs with an uncertainty for --second-order (it needs "
+                               f"N² second and N³ third derivatives; limits: {LIMITS_PAGE}), "
+                               f"found {count}")
     return second_order_variances(model)
 
 

@@ -24,6 +24,8 @@ import sympy
 from .chemistry import CONVENTIONS, DEFAULT_CONVENTION
 from .errors import (InputError, Location, ModelSyntaxError, UnitError,
                      did_you_mean)
+from .limits import (LIMITS_PAGE, MAX_FILE_BYTES, check_digits, check_probability,
+                     check_seed, check_strings, check_trials, shorten)
 from .expressions import Term, build, names_in, parse_expression
 from .register import (CertificateUse, Register, agreement_warnings, date_warnings,
                        load_register, read_date)
@@ -141,17 +143,10 @@ class Model:
 
 def load_model(path: str | Path, **overrides: Any) -> Model:
     """Read a model file; every problem is a :class:`BudgetError` naming the file."""
-    path = Path(path)
-    shown = str(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError as exc:
-        raise InputError("expected a model file, found no such file", Location(file=shown)
-                         ) from exc
-    except OSError as exc:
-        raise InputError(f"expected a readable model file, found {exc.strerror}",
-                         Location(file=shown)) from exc
-    return parse_model(data, name=shown, **overrides)
+    from .files import read_input
+
+    data = read_input(path, limit=MAX_FILE_BYTES, what="model file", error=InputError)
+    return parse_model(data, name=str(path), **overrides)
 
 
 def decode(data: bytes | str, name: str, what: str = "model") -> str:
@@ -176,6 +171,10 @@ def decode(data: bytes | str, name: str, what: str = "model") -> str:
 def read_toml(text: str, name: str) -> dict[str, Any]:
     try:
         return tomllib.loads(text)
+    except RecursionError as exc:
+        raise ModelSyntaxError(f"expected TOML nested at most a few hundred levels deep "
+                               f"(limits: {LIMITS_PAGE}), found deeper nesting",
+                               Location(file=name)) from exc
     except tomllib.TOMLDecodeError as exc:
         found = re.search(r"\(at line (\d+), column (\d+)\)", str(exc))
         line = int(found.group(1)) if found else None
@@ -189,7 +188,13 @@ def parse_model(data: bytes | str, name: str = "<string>", **overrides: Any) -> 
     text = decode(data, name)
     raw = data if isinstance(data, bytes) else data.encode("utf-8")
     document = read_toml(text, name)
-    return _Reader(text, name, document).model(hashlib.sha256(raw).hexdigest(), overrides)
+    try:
+        return _Reader(text, name, document).model(hashlib.sha256(raw).hexdigest(),
+                                                   overrides)
+    except RecursionError as exc:  # a safety net: the builders walk without recursion
+        raise ModelSyntaxError(f"expected a model nested less deeply (expressions and "
+                               f"chains of definitions; limits: {LIMITS_PAGE}), found one "
+                               "too deep to evaluate", Location(file=name)) from exc
 
 
 class _Reader:
@@ -208,6 +213,7 @@ class _Reader:
                 raise InputError(f"unknown top-level key '{key}'{did_you_mean(key, _TOP_KEYS)}"
                                  f"; expected one of {', '.join(_TOP_KEYS)}",
                                  self.where(None, key))
+        check_strings(self.doc, self.where)
         title = self.doc.get("title")
         if not isinstance(title, str) or not title.strip():
             raise InputError(f"expected a 'title' string, found "
@@ -449,25 +455,19 @@ class _Reader:
 def check_settings(data: dict[str, Any], where: Any) -> Settings:
     made: dict[str, Any] = {}
     if "coverage" in data:
-        p = data["coverage"]
-        if isinstance(p, bool) or not isinstance(p, (int, float)) or not 0 < p < 1:
-            raise InputError(f"expected a coverage probability in (0, 1), found {p!r}",
-                             where("coverage"))
-        made["coverage"] = float(p)
+        made["coverage"] = check_probability(data["coverage"], where("coverage"))
     if "trials" in data:
         trials = data["trials"]
         if trials != "adaptive" and (isinstance(trials, bool) or not isinstance(trials, int)
                                      or trials < 0):
-            raise InputError(f"expected a whole number ≥ 0 or \"adaptive\", found {trials!r}",
-                             where("trials"))
-        made["trials"] = trials
-    for key, low in (("seed", 0), ("digits", 1)):
-        if key in data:
-            value = data[key]
-            if isinstance(value, bool) or not isinstance(value, int) or value < low:
-                raise InputError(f"expected a whole number ≥ {low}, found {value!r}",
-                                 where(key))
-            made[key] = value
+            raise InputError(f"expected a whole number ≥ 0 or \"adaptive\", found "
+                             f"{shorten(repr(trials))}", where("trials"))
+        made["trials"] = trials if trials == "adaptive" else check_trials(trials,
+                                                                          where("trials"))
+    if "seed" in data:
+        made["seed"] = check_seed(data["seed"], where("seed"))
+    if "digits" in data:
+        made["digits"] = check_digits(data["digits"], where("digits"))
     if "atomic_weights" in data:
         value = data["atomic_weights"]
         if value not in CONVENTIONS:

@@ -37,6 +37,7 @@ from typing import Any, Callable
 import numpy as np
 
 from .distributions import Normal
+from .limits import check_trials
 from .errors import SimulationError
 from .evaluation import compile_model
 from .formatting import decimal_exponent
@@ -60,6 +61,7 @@ class Validation:
     d_low: float
     d_high: float
     validated: bool
+    reason: str = ""  # why validation was not possible (the spread is not resolved)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -397,6 +399,9 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     if trials is None:
         adaptive = adaptive or settings.trials == "adaptive"
         trials = 0 if settings.trials == "adaptive" else int(settings.trials)
+    check_trials(trials)
+    if adaptive:
+        check_adaptive(coverage)
     sampler = _Sampler(model, seed)
     if adaptive:
         samples, warnings = _adaptive(sampler, budget, coverage, digits, workers, progress)
@@ -457,6 +462,44 @@ def _adaptive(sampler: _Sampler, budget: Budget | None, coverage: float, digits:
                 f"numerical tolerance was reached (limit {ADAPTIVE_LIMIT})"]
 
 
+def _unresolved(estimate: float, u: float, delta: float,
+                interval: tuple[float, float]) -> str:
+    """Why the Monte Carlo values cannot resolve the tolerance δ, or '' when they can.
+
+    Double-precision values near y are spaced by ε·|y|; when u_c is not a thousand such
+    spacings, or δ not ten, the drawn values are quantised and d_low, d_high say nothing.
+    """
+    spacing = float(np.spacing(max(abs(estimate), abs(interval[0]), abs(interval[1]))))
+    if u >= 1000.0 * spacing and delta >= 10.0 * spacing:
+        return ""
+    return (f"the spread is not resolved in double precision (u_c = {u:.2g} and δ = "
+            f"{delta:.2g} against a spacing of {spacing:.2g} between representable values "
+            f"near {max(abs(estimate), abs(interval[0]), abs(interval[1])):.3g})")
+
+
+def _spread(y: np.ndarray, mean: float, variance: float) -> float:
+    """The standard deviation; recomputed in scaled units when the variance over- or
+    underflows (values near 1e±200), so that a representable spread is never 0 or ∞."""
+    if 1e-280 < variance < 1e280:
+        return math.sqrt(variance)
+    finite = y[np.isfinite(y)]
+    scale = float(np.max(np.abs(finite - mean))) if finite.size else 0.0
+    if scale == 0.0 or not math.isfinite(scale):
+        return math.sqrt(variance) if math.isfinite(variance) else math.inf
+    return scale * float(np.std((finite - mean) / scale, ddof=1))
+
+
+def check_adaptive(coverage: float) -> None:
+    """Refuse a coverage whose adaptive batches (≥ 100/(1 − p) trials) pass the cap."""
+    batch = math.ceil(100.0 / (1.0 - coverage))
+    if 2 * batch > ADAPTIVE_LIMIT:
+        raise SimulationError(
+            f"expected a coverage probability whose adaptive batches fit the limit of "
+            f"{ADAPTIVE_LIMIT:,} trials (at most {1 - 200 / ADAPTIVE_LIMIT:.7g}; JCGM 101 "
+            f"7.9 asks for batches of 100/(1 - p) = {batch:,} trials here), found {coverage:g}"
+            "; give a fixed --trials instead")
+
+
 def _batch_stats(chunk: np.ndarray, coverage: float) -> np.ndarray:
     rows = []
     for y in chunk:
@@ -502,7 +545,10 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: i
                          [block[k] for block in kept] if kept and not bad else None)
                     for k in range(samples.shape[0]))
     for item in results:
-        if item.validation is not None and not item.validation.validated:
+        if item.validation is not None and item.validation.reason:
+            warnings.append(f"'{item.name}': Monte Carlo cannot validate the GUM result: "
+                            f"{item.validation.reason}")
+        elif item.validation is not None and not item.validation.validated:
             warnings.append(
                 f"'{item.name}': Monte Carlo does not validate the GUM result at "
                 f"{item.validation.tolerance:.2g} {item.unit} (d_low = "
@@ -523,7 +569,7 @@ def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: f
         raise SimulationError(f"{model.source}: too few finite Monte Carlo values for "
                               f"'{measurand.name}'")
     mean = float(moments[1])
-    sd = math.sqrt(float(moments[2]) / (moments[0] - 1))
+    sd = _spread(y, mean, float(moments[2]) / (moments[0] - 1))
     found = _from_tails(tails, y.size, coverage) if tails else None
     # the intervals partition a copy: ``samples`` keep the trial order, jointly with the
     # other measurands (issue 10: sorting row by row destroyed their correlation)
@@ -534,8 +580,10 @@ def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: f
         delta = tolerance(gum.combined_uncertainty, digits)
         d_low = abs(gum.estimate - gum.expanded_uncertainty - interval[0])
         d_high = abs(gum.estimate + gum.expanded_uncertainty - interval[1])
+        reason = _unresolved(gum.estimate, gum.combined_uncertainty, delta, interval)
         validation = Validation(tolerance=delta, d_low=d_low, d_high=d_high,
-                                validated=bool(d_low <= delta and d_high <= delta))
+                                validated=bool(d_low <= delta and d_high <= delta
+                                               and not reason), reason=reason)
     return MeasurandSimulation(name=measurand.name, unit=measurand.unit, trials=int(y.size),
                                mean=mean, standard_uncertainty=sd, interval=interval,
                                shortest_interval=shortest, validation=validation,

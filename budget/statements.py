@@ -17,6 +17,7 @@ import numpy as np
 from . import distributions as dist
 from .chemistry import CONSTANTS, molar_mass
 from .errors import InputError, Location, did_you_mean
+from .limits import LIMITS_PAGE, MIN_RELIABILITY, as_float, check_probability, shorten
 
 __all__ = ["Statement", "read_statement", "INPUT_KEYS", "SHAPES", "STATEMENT_WAYS"]
 
@@ -62,8 +63,10 @@ class _Table:
         value = self.data[key]
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             raise InputError(f"expected a number, found {_shown(value)}", self.where(key))
-        if not math.isfinite(value):
-            raise InputError(f"expected a finite number, found {value}", self.where(key))
+        if as_float(value) is None:
+            wanted = "a number within ±1.8e308" if isinstance(value, int) else \
+                "a finite number"
+            raise InputError(f"expected {wanted}, found {_shown(value)}", self.where(key))
         if positive and value <= 0:
             raise InputError(f"expected a number > 0, found {value:g}", self.where(key))
         return float(value)
@@ -79,13 +82,19 @@ class _Table:
 
 
 def _shown(value: Any) -> str:
+    if isinstance(value, int) and not isinstance(value, bool) and abs(value) >= 10 ** 24:
+        return f"an integer of {_digit_count(value)} digits"
     if isinstance(value, str):
-        return f"'{value}' (a string)"
+        return f"'{shorten(value)}' (a string)"
     if isinstance(value, bool):
         return f"{str(value).lower()} (a boolean)"
     if isinstance(value, (list, dict)):
         return f"a {'list' if isinstance(value, list) else 'table'}"
     return repr(value)
+
+
+def _digit_count(value: int) -> str:
+    return str(len(str(abs(value)))) if abs(value) < 10 ** 4000 else "over 4000"
 
 
 def read_statement(data: dict[str, Any], where: Callable[[str | None], Location],
@@ -127,6 +136,10 @@ def _dof(table: _Table) -> float:
                          table.where("reliability"))
     if table.has("reliability"):
         r = table.fraction("reliability", 0.0, 1.0)
+        if r < MIN_RELIABILITY:
+            raise InputError(f"expected a reliability of at least {MIN_RELIABILITY:g} (then "
+                             f"ν = 1/(2 r²) is a finite number; limits: {LIMITS_PAGE}), "
+                             f"found {r:g}", table.where("reliability"))
         return 1.0 / (2.0 * r * r)  # GUM G.4.2, eq. (G.3)
     return float(table.number("dof", positive=True, default=math.inf))
 
@@ -168,7 +181,8 @@ def _from_expanded(table: _Table, shape: str, dof: float, unit: Any, _: str) -> 
         k = table.number("k", positive=True)
         basis = f"expanded uncertainty, k = {k:g}"
     else:
-        level = table.fraction("level", 0.0, 1.0)
+        level = check_probability(table.number("level"), table.where("level"),
+                                  "a coverage probability 'level'")
         k = _coverage_factor(level, dof)
         basis = f"expanded uncertainty at {100 * level:g} %"
     u = expanded / k
@@ -253,23 +267,41 @@ def _from_observations(table: _Table, shape: str, dof: float, unit: Any, _: str)
                          + (f" of length {len(values)}" if isinstance(values, list) else ""),
                          where)
     for i, v in enumerate(values):
-        if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
-            raise InputError(f"expected finite numbers, found {_shown(v)} at position "
-                             f"{i + 1}", where)
+        if as_float(v) is None:
+            raise InputError(f"expected finite numbers within ±1.8e308, found {_shown(v)} "
+                             f"at position {i + 1}", where)
     _no_keys(table, ("value", "dof", "reliability", "k", "level", "beta", "inexactness"),
              "to observations (they give the estimate and ν = n − 1)")
     if table.has("distribution") and shape not in ("normal", "student_t"):
         raise InputError(f"expected no distribution with observations (Type A), found "
                          f"'{shape}'", table.where("distribution"))
-    data = np.asarray(values, dtype=float)
+    data = np.asarray([float(v) for v in values])
     n = data.size
-    s = float(np.std(data, ddof=1))
+    s = _scaled_sd(data)
+    mean = _scaled_mean(data)
     if s == 0.0:
         raise InputError(f"expected observations that are not all equal, found {n} times "
                          f"{data[0]:g}", where)
-    made = dist.StudentT(float(data.mean()), s / math.sqrt(n), float(n - 1))
+    made = dist.StudentT(mean, s / math.sqrt(n), float(n - 1))
     return Statement(distribution=made, dof=float(n - 1), type="A", unit=unit,
                      basis=f"mean of {n} observations, s = {s:.3g}")
+
+
+def _scaled_mean(data: np.ndarray) -> float:
+    """The mean without overflow: [1e308, 1e308] has the mean 1e308, not inf."""
+    scale = float(np.max(np.abs(data)))
+    return scale * float(np.mean(data / scale)) if scale > 0 else 0.0
+
+
+def _scaled_sd(data: np.ndarray) -> float:
+    """The sample standard deviation without overflow or underflow of the squares."""
+    scale = float(np.max(np.abs(data - _scaled_mean(data))))
+    if scale == 0.0 or not math.isfinite(scale):
+        scale = float(np.max(np.abs(data)))
+    if scale == 0.0:
+        return 0.0
+    scaled = data / scale
+    return scale * float(np.std(scaled, ddof=1))
 
 
 def _from_exact(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Statement:

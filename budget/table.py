@@ -164,6 +164,8 @@ def _monte_carlo(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> lis
         lines.append(f"      GUM result {verdict} (JCGM 101 8.2): d_low = "
                      f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
                      f"δ = {format_number(v.tolerance, 1)} {unit}")
+        if v.reason:
+            lines.append(f"      validation not possible: {v.reason}")
     return lines
 
 

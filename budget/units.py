@@ -17,12 +17,14 @@ needs no registry either.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from fractions import Fraction
 from functools import lru_cache
 from typing import Any
 
 from .errors import Location, UnitError
+from .limits import LIMITS_PAGE, MAX_UNIT_CHARS
 
 __all__ = ["Unit", "UnitInfo", "parse_unit", "registry", "dimension_text", "DIMENSIONLESS"]
 
@@ -84,12 +86,14 @@ class Unit:
         return Unit.make(self._combine(other, -1), self.factor / other.factor, text)
 
     def __pow__(self, power: float | Fraction) -> "Unit":
-        exponent = Fraction(power).limit_denominator(1000)
+        exponent = power if isinstance(power, Fraction) else \
+            Fraction(power).limit_denominator(1000)
         dims = {name: p * exponent for name, p in self.dims}
         power_of = self.factor ** exponent
         factor = power_of if isinstance(power_of, Fraction) else \
             Fraction(f"{float(power_of):.15g}")
-        text = "1" if self.text == "1" else f"{_bracket(self.text)}**{exponent}"
+        shown = str(exponent) if exponent.denominator == 1 else f"({exponent})"
+        text = "1" if self.text == "1" else f"{_bracket(self.text)}**{shown}"
         return Unit.make(dims, factor, text)
 
     def __format__(self, spec: str) -> str:
@@ -145,6 +149,9 @@ def parse_unit(text: Any, where: Location) -> UnitInfo:
     if not isinstance(text, str):
         raise UnitError(f"expected a unit string such as \"mg\", found {text!r}", where)
     cleaned = text.strip()
+    if len(cleaned) > MAX_UNIT_CHARS:
+        raise UnitError(f"expected a unit of at most {MAX_UNIT_CHARS} characters (limits: "
+                        f"{LIMITS_PAGE}), found one of {len(cleaned):,}", where)
     if cleaned in ("", "1"):
         return UnitInfo(text="1", unit=DIMENSIONLESS, factor=Fraction(1))
     if cleaned not in _PARSED:
@@ -166,12 +173,21 @@ def _from_table(cleaned: str) -> UnitInfo | None:
 
 
 def _parse(cleaned: str, where: Location) -> UnitInfo:
-    reg = registry()
     try:
-        parsed = reg.Unit(cleaned)
+        return _parse_with_pint(cleaned, where)
+    except UnitError:
+        raise
+    except OverflowError as exc:
+        raise UnitError(f"expected a unit whose size in SI base units is a floating-point "
+                        f"number, found '{cleaned}' (out of range)", where) from exc
     except Exception as exc:  # pint raises several unrelated types for bad strings
         raise UnitError(f"expected a unit that pint understands, found '{cleaned}' "
                         f"({type(exc).__name__})", where) from exc
+
+
+def _parse_with_pint(cleaned: str, where: Location) -> UnitInfo:
+    reg = registry()
+    parsed = reg.Unit(cleaned)
     if any(not reg._units[name].is_multiplicative for name in parsed._units
            if name in reg._units):
         if str(parsed) == "degree_Celsius":
@@ -180,7 +196,10 @@ def _parse(cleaned: str, where: Location) -> UnitInfo:
                         "(offset units other than degC are not supported; use K or degC)",
                         where)
     magnitude = float(reg.Quantity(1.0, parsed).to_base_units().magnitude)
-    dims = {name: Fraction(power).limit_denominator(1000)
+    if not math.isfinite(magnitude) or magnitude == 0.0:
+        raise UnitError(f"expected a unit whose size in SI base units is a floating-point "
+                        f"number, found '{cleaned}' (out of range)", where)
+    dims = {name: Fraction(power).limit_denominator(10 ** 6)
             for name, power in parsed.dimensionality.items()}
     unit = Unit.make(dims, Fraction(f"{magnitude:.15g}"), cleaned)
     return UnitInfo(text=cleaned, unit=unit, factor=unit.factor)

@@ -94,7 +94,7 @@ CASES = {
         ':6: [inputs.a] observations: expected a list of at least 2 numbers, found a list of length 1'),
     'setting_coverage': (
         'title = "t"\n[settings]\ncoverage = 95\n[measurands.y]\nequation = "a"\nunit = "g"\n[inputs.a]\nvalue = 2.0\nunit = "g"\nu = 0.1\n',
-        ':3: [settings] coverage: expected a coverage probability in (0, 1), found 95'),
+        ':3: [settings] coverage: expected a coverage probability in [1e-06, 1 - 1e-09] (limits: docs/limits.md), found 95'),
     'string_in_expr': (
         'title = "bad"\n[measurands.y]\nequation = "\'a\'"\nunit = "g"\n[inputs.a]\nvalue = 2.0\nunit = "g"\nu = 0.1\n',
         ':3: [measurands.y] equation: expected a number, found a string \'a\' in "\'a\'"'),
