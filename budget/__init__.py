@@ -20,6 +20,8 @@ if TYPE_CHECKING:  # the same names, eagerly, for type checkers only
     from .campaign import Campaign as Campaign, load_campaign as load_campaign
     from .certification import Certification as Certification, certify as certify
     from .chemistry import air_density as air_density, molar_mass as molar_mass
+    from .combination import Combined as Combined, combine as combine
+    from .joint import Joint as Joint, Member as Member, join as join
     from .document import (certification_document as certification_document,
                            result_document as result_document)
     from .errors import BudgetError as BudgetError, Location as Location
@@ -41,6 +43,7 @@ __all__ = [
     "MeasurandSimulation", "simulate", "Result", "evaluate", "result_document",
     "molar_mass", "air_density", "load_campaign", "Campaign", "certify", "Certification",
     "certification_document", "explain", "render_report", "render_certification_report",
+    "combine", "Combined", "join", "Joint", "Member",
     "__version__",
 ]
 
@@ -55,6 +58,8 @@ _WHERE = {
     "Certification": "certification", "certification_document": "document",
     "explain": "explain", "render_report": "report",
     "render_certification_report": "report",
+    "combine": "combination", "Combined": "combination", "join": "joint", "Joint": "joint",
+    "Member": "joint",
 }
 
 

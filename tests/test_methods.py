@@ -240,6 +240,11 @@ def test_demo_three_methods(cli) -> None:  # type: ignore[no-untyped-def]
     assert pair["u_difference"] < pair["u_difference_independent"]
     assert document["certified_value"] == methods["combination"]["value"]
     assert document["components"]["characterization"] == methods["combination"]["u"]
+    import jsonschema
+
+    schema = json.loads((Path(__file__).resolve().parent.parent / "budget" / "schemas"
+                         / "certification.schema.json").read_text(encoding="utf-8"))
+    jsonschema.validate(document, schema)
 
 
 @pytest.mark.parametrize("extra, message", [
