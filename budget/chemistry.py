@@ -29,7 +29,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, Callable
 
 from .errors import InputError, Location
 
@@ -270,21 +270,22 @@ _CIPM = dict(A=1.2378847e-5, B=-1.9121316e-2, C=33.93711047, D=-6.3431645e3,
              d=1.83e-11, e=-0.765e-8, R=8.314472, Mv=18.01528e-3)
 
 
-def air_density_expression(t: Any, p: Any, h: Any, x_co2: Any = 0.0004) -> Any:
-    """CIPM-2007 moist-air density in kg/m³ as a sympy expression.
+def air_density_expression(t: Any, p: Any, h: Any, x_co2: Any = 0.0004, *,
+                           number: Callable[[str], Any], exp: Callable[[Any], Any]) -> Any:
+    """CIPM-2007 moist-air density in kg/m³ as an expression of the arguments.
 
-    ``t`` in °C, ``p`` in Pa, ``h`` relative humidity as a fraction, ``x_co2`` mole fraction.
+    ``t`` in °C, ``p`` in Pa, ``h`` relative humidity as a fraction, ``x_co2`` mole fraction;
+    ``number`` makes a constant from its decimal text and ``exp`` the exponential, in the
+    caller's expression type (so that this module imports nothing of the engine).
     """
-    import sympy
-
-    k = {name: sympy.Float(value) for name, value in _CIPM.items()}
-    temperature = t + sympy.Float("273.15")
-    p_sv = sympy.exp(k["A"] * temperature ** 2 + k["B"] * temperature + k["C"]
-                     + k["D"] / temperature)
+    k = {name: number(repr(value)) for name, value in _CIPM.items()}
+    temperature = t + number("273.15")
+    p_sv = exp(k["A"] * temperature ** 2 + k["B"] * temperature + k["C"]
+               + k["D"] / temperature)
     enhancement = k["alpha"] + k["beta"] * p + k["gamma"] * t ** 2
     x_v = h * enhancement * p_sv / p
-    molar_air = (sympy.Float("28.96546") + sympy.Float("12.011") * (x_co2 - sympy.Float(
-        "0.0004"))) * sympy.Float("1e-3")
+    molar_air = (number("28.96546") + number("12.011") * (x_co2 - number("0.0004"))) \
+        * number("1e-3")
     z = (1 - p / temperature * (k["a0"] + k["a1"] * t + k["a2"] * t ** 2
                                 + (k["b0"] + k["b1"] * t) * x_v
                                 + (k["c0"] + k["c1"] * t) * x_v ** 2)

@@ -28,9 +28,11 @@ def read(entries: Any, names: Sequence[str],
                          where(None, "correlations"))
     pairs: list[tuple[str, str, float]] = []
     seen: set[frozenset[str]] = set()
+    known = _Names(names)
     for index, entry in enumerate(entries):
-        here: Callable[..., Location] = lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
-        pair = _one(entry, names, here, index)
+        here: Callable[..., Location] = \
+            lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
+        pair = _one(entry, known, here, index)
         key = frozenset(pair[:2])
         if key in seen:
             raise InputError(f"expected each pair once, found {pair[0]} and {pair[1]} again "
@@ -39,6 +41,17 @@ def read(entries: Any, names: Sequence[str],
         pairs.append(pair)
     _check_definite(names, pairs, where("correlations"))
     return tuple(pairs)
+
+
+class _Names(list[str]):
+    """The input names with a set for membership (a list for did-you-mean)."""
+
+    def __init__(self, names: Sequence[str]) -> None:
+        super().__init__(names)
+        self.known = set(names)
+
+    def __contains__(self, name: object) -> bool:
+        return name in self.known
 
 
 def _one(entry: Any, names: Sequence[str], here: Callable[..., Location],
@@ -84,7 +97,8 @@ def _check_definite(names: Sequence[str], pairs: Sequence[tuple[str, str, float]
                     where: Location) -> None:
     if not pairs:
         return
-    involved = sorted({n for a, b, _ in pairs for n in (a, b)}, key=list(names).index)
+    order = {name: j for j, name in enumerate(names)}
+    involved = sorted({n for a, b, _ in pairs for n in (a, b)}, key=order.__getitem__)
     sub = matrix(involved, pairs)
     values, vectors = np.linalg.eigh(sub)
     if values[0] >= -1e-10:

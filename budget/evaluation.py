@@ -14,7 +14,6 @@ from functools import lru_cache
 from typing import Any
 
 import numpy as np
-import sympy
 
 from .errors import Location, PropagationError
 from .model import Model
@@ -28,8 +27,7 @@ __all__ = ["compile_model", "jacobian_at_estimates", "symbolic_sensitivities",
 def compile_model(model: Model) -> Program:
     """The measurand expressions of ``model`` as one numeric program."""
     try:
-        return Program([m.expression for m in model.measurands],
-                       [i.symbol for i in model.inputs])
+        return Program([m.graph for m in model.measurands], [i.name for i in model.inputs])
     except (ValueError, KeyError) as exc:
         raise PropagationError(f"{model.source}: the equations cannot be compiled: {exc}"
                                ) from exc
@@ -60,12 +58,16 @@ def jacobian_at_estimates(model: Model) -> tuple[np.ndarray, np.ndarray]:
 
 def symbolic_sensitivities(model: Model, name: str) -> dict[str, Any]:
     """c_i = ∂f/∂x_i as sympy expressions (for display), keyed by input name."""
+    import sympy
+
     measurand = next(m for m in model.measurands if m.name == name)
     return {i.name: sympy.diff(measurand.expression, i.symbol) for i in model.inputs}
 
 
 def second_order_variances(model: Model) -> np.ndarray:
     """The GUM eq. (14) higher-order terms for each measurand (uncorrelated inputs)."""
+    import sympy
+
     point = {i.symbol: i.estimate for i in model.inputs}
     active = [i for i in model.inputs if i.standard_uncertainty > 0]
     result = []

@@ -2,11 +2,13 @@
 
 Method: the text is parsed by ``ast.parse(mode="eval")`` (which never runs it), every node
 is checked against a short whitelist, and the accepted tree is rebuilt node by node into a
-sympy expression from an explicit symbol table. Model text is never handed to ``eval``,
-``sympify`` or ``parse_expr``; every name is an ordinary symbol (``E``, ``I``, ``S``,
-``pi`` and ``gamma`` included). While building, the unit of each sub-expression is carried
-along so that sums of unlike dimensions, dimensioned function arguments and misused Celsius
-temperatures are refused before any number is computed.
+graph of operations (``algebra.Node``) from an explicit symbol table. Model text is never
+handed to ``eval``, ``sympify`` or ``parse_expr``; every name is an ordinary symbol
+(``E``, ``I``, ``S``, ``pi`` and ``gamma`` included). Long sums and products (thousands of
+terms) are split at their top-level operators before ``ast.parse`` sees them, so that no
+step of reading a model recurses once per term. While building, the unit of each
+sub-expression is carried along so that sums of unlike dimensions, dimensioned function
+arguments and misused Celsius temperatures are refused before any number is computed.
 """
 
 from __future__ import annotations
@@ -18,8 +20,9 @@ from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Callable, Mapping
 
-import sympy
-
+from . import algebra as alg
+from . import longparse
+from .algebra import Node
 from .errors import Location, ModelSyntaxError, UnitError, UnknownNameError, did_you_mean
 from .limits import (LIMITS_PAGE, MAX_EXACT_DIGITS, MAX_EXPONENT, MAX_EXPRESSION_CHARS,
                      MAX_NESTING, MAX_NUMBER_DIGITS, character_name, shorten)
@@ -27,12 +30,7 @@ from .units import DIMENSIONLESS, dimension_text, parse_unit
 
 __all__ = ["Term", "parse_expression", "names_in", "build", "FUNCTIONS"]
 
-_PLAIN = {
-    "sqrt": sympy.sqrt, "exp": sympy.exp, "log": sympy.log,
-    "log10": lambda x: sympy.log(x, 10), "sin": sympy.sin, "cos": sympy.cos,
-    "tan": sympy.tan, "asin": sympy.asin, "acos": sympy.acos, "atan": sympy.atan,
-    "abs": sympy.Abs,
-}
+_PLAIN = ("sqrt", "exp", "log", "log10", "sin", "cos", "tan", "asin", "acos", "atan", "abs")
 FUNCTIONS = tuple(sorted([*_PLAIN, "air_density"]))
 
 _BINARY = {ast.Add: "+", ast.Sub: "-", ast.Mult: "*", ast.Div: "/", ast.Pow: "**"}
@@ -69,7 +67,7 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
         raise ModelSyntaxError("expected an expression, found an empty string", where)
     _check_text(text, where)
     try:
-        tree = ast.parse(text.strip(), mode="eval")
+        tree = longparse.parse(text.strip())
     except SyntaxError as exc:
         raise ModelSyntaxError(f"expected an arithmetic expression, found "
                                f"'{shorten(text.strip())}' (syntax error at column "
@@ -197,7 +195,7 @@ def names_in(tree: ast.AST) -> list[str]:
 
 def build(tree: ast.Expression, table: Mapping[str, Term], text: str,
           where: Location) -> Term:
-    """Rebuild a checked tree as a sympy :class:`Term`, checking units on the way."""
+    """Rebuild a checked tree as a graph :class:`Term`, checking units on the way."""
     return _Builder(table, text.strip(), where).visit(tree.body)
 
 
@@ -242,8 +240,7 @@ class _Builder:
 
     def visit(self, node: ast.AST) -> Term:
         if isinstance(node, ast.Constant):
-            number = sympy.Integer(node.value) if isinstance(node.value, int) \
-                else sympy.Float(repr(node.value))
+            number = alg.number(node.value)  # type: ignore[arg-type]  # int or float, checked
             return Term(number, number, self.dimensionless, opaque=number)
         if isinstance(node, ast.Name):
             return self.name(node)
@@ -286,7 +283,7 @@ class _Builder:
         return self.power(node, left, right)
 
     def long_sum(self, node: ast.BinOp) -> Term:
-        """a ± b ± c ± … built as one sympy Add (linear, not quadratic, in the terms)."""
+        """a ± b ± c ± … built as one sum node (linear in the number of terms)."""
         parts = _chain(node, _SUMS)
         terms = [(sign, operand, self.visit(operand)) for sign, operand in parts]
         if any(term.offset for _, _, term in terms):  # Celsius rules: pairwise, in order
@@ -301,20 +298,24 @@ class _Builder:
                     f"expected terms of like dimension in '{self.segment(node)}', found "
                     f"'{self.segment(first_node)}' in {dimension_text(first.unit)} and "
                     f"'{self.segment(operand)}' in {dimension_text(term.unit)}", self.where)
-        pick: Callable[[str], Any] = lambda field: sympy.Add(*(getattr(t, field) if sign > 0  # noqa: E731
-                                         else -getattr(t, field) for sign, _, t in terms))
+        def pick(field: str) -> Any:
+            return alg.add(*(getattr(t, field) if sign > 0 else -getattr(t, field)
+                             for sign, _, t in terms))
+
         return Term(pick("expr"), pick("shown"), first.unit, opaque=pick("opaque"))
 
     def long_product(self, node: ast.BinOp) -> Term:
-        """a */ b */ c … built as one sympy Mul."""
+        """a */ b */ c … built as one product node."""
         factors = [(sign, operand, self.visit(operand)) for sign, operand in
                    _chain(node, _PRODUCTS)]
         unit = self.dimensionless
         for sign, _, term in factors:
             self.refuse_offset(term, node)
             unit = unit * term.unit if sign > 0 else unit / term.unit
-        pick: Callable[[str], Any] = lambda field: sympy.Mul(*(getattr(t, field) if sign > 0  # noqa: E731
-                                         else 1 / getattr(t, field) for sign, _, t in factors))
+        def pick(field: str) -> Any:
+            return alg.mul(*(getattr(t, field) if sign > 0 else 1 / getattr(t, field)
+                             for sign, _, t in factors))
+
         return Term(pick("expr"), pick("shown"), unit, opaque=pick("opaque"))
 
     def sum(self, node: ast.BinOp, left: Term, right: Term) -> Term:
@@ -375,9 +376,8 @@ class _Builder:
                             self.where)
         else:
             unit = self.dimensionless
-        function: Callable[[Any], Any] = _PLAIN[name]
-        return Term(function(arg.expr), function(arg.shown), unit,
-                    opaque=function(arg.opaque))
+        return Term(alg.call(name, arg.expr), alg.call(name, arg.shown), unit,
+                    opaque=alg.call(name, arg.opaque))
 
     def air_density(self, node: ast.Call, args: list[Term]) -> Term:
         from .chemistry import air_density_expression
@@ -391,47 +391,59 @@ class _Builder:
                 raise UnitError(f"air_density() expects its {label} in {dimension_text(unit)}"
                                 f", found '{self.segment(arg_node)}' in "
                                 f"{dimension_text(arg.unit)}", self.where)
-        kelvin = sympy.Rational(27315, 100)
+        kelvin = alg.number(Fraction(27315, 100))
         celsius = args[0].expr if args[0].offset else args[0].expr - kelvin
         values = [celsius, *(a.expr for a in args[1:])]
-        function = sympy.Function("air_density")
-        shown = function(*(a.shown for a in args))
-        opaque = function(args[0].opaque if args[0].offset else args[0].opaque - kelvin,
+        shown = alg.call("air_density", *(a.shown for a in args))
+        opaque = alg.call("air_density",
+                          args[0].opaque if args[0].offset else args[0].opaque - kelvin,
                           *(a.opaque for a in args[1:]))
-        density = air_density_expression(*values)
+        density = air_density_expression(*values, number=alg.number,
+                                         exp=lambda x: alg.call("exp", x))
         return Term(density, shown, unit_of("kg/m^3"), opaque=opaque)
 
 
-def _check_power(base: Any, exponent: Any, shown: str, where: Location) -> None:
+def _check_power(base: Node, exponent: Node, shown: str, where: Location) -> None:
     """Refuse powers whose exact value or derivatives would be unbounded in cost."""
     if not exponent.is_number:
         return
-    size = abs(exponent)
-    if size.is_finite is not True or bool(size > MAX_EXPONENT):
+    exact = alg.exact_value(exponent)
+    size = abs(float(exact)) if exact is not None else abs(alg.constant_value(exponent))
+    if not math.isfinite(size) or size > MAX_EXPONENT:
         raise ModelSyntaxError(f"expected an exponent of at most {MAX_EXPONENT} in size "
                                f"(limits: {LIMITS_PAGE}), found '{shorten(shown)}' with an "
-                               f"exponent of {_magnitude(exponent)}", where)
-    if base.is_Rational and exponent.is_Rational and base not in (0, 1, -1):
-        digits = float(size) * max(math.log10(abs(base.p)), math.log10(base.q))
+                               f"exponent of {_magnitude(exact, size)}", where)
+    number = alg.exact_value(base) if exact is not None else None
+    if number is not None and number not in (0, 1, -1):
+        digits = size * max(math.log10(abs(number.numerator)),
+                            math.log10(number.denominator))
         if digits > MAX_EXACT_DIGITS:
             raise ModelSyntaxError(f"expected exact numbers of at most {MAX_EXACT_DIGITS} "
                                    f"digits (limits: {LIMITS_PAGE}), found "
                                    f"'{shorten(shown)}' of about {digits:.0f} digits", where)
 
 
-def _magnitude(number: Any) -> str:
-    try:
-        return f"{float(number):.3g}"
-    except (TypeError, ValueError, OverflowError):
-        return "more than 1e308"
+def _magnitude(exact: Fraction | None, size: float) -> str:
+    if exact is not None:
+        try:
+            return f"{float(exact):.3g}"
+        except OverflowError:
+            return "more than 1e308"
+    return f"{size:.3g}" if math.isfinite(size) else "more than 1e308"
 
 
-def _rational_exponent(exponent: Any, unit: Any, shown: str, where: Location) -> Fraction:
-    """The exponent of a dimensioned base as an exact fraction (m**(1/1001) stays 1/1001)."""
-    simple = sympy.nsimplify(exponent, rational=False) if exponent.is_finite else None
-    if simple is None or not simple.is_Rational or abs(simple) > MAX_EXPONENT \
-            or simple.q > 10 ** 6:
+def _rational_exponent(exponent: Node, unit: Any, shown: str, where: Location) -> Fraction:
+    """The exponent of a dimensioned base as an exact fraction (m**(1/1001) stays 1/1001);
+    a decimal exponent counts when a fraction of denominator ≤ 10⁶ equals it (0.5 = 1/2)."""
+    simple = alg.exact_value(exponent)
+    if simple is None:
+        value = alg.constant_value(exponent)
+        if math.isfinite(value):
+            simple = Fraction(value).limit_denominator(10 ** 6)
+            if abs(float(simple) - value) > 1e-12 * max(1.0, abs(value)):
+                simple = None
+    if simple is None or abs(simple) > MAX_EXPONENT or simple.denominator > 10 ** 6:
         raise UnitError(f"expected a rational exponent (at most {MAX_EXPONENT} in size, "
                         f"denominator at most 10**6) for a quantity in "
                         f"{dimension_text(unit)}, found '{shorten(shown)}'", where)
-    return Fraction(int(simple.p), int(simple.q))
+    return simple

@@ -144,14 +144,14 @@ def propagate(model: Model, coverage: float | None = None, *,
     values, jac = jacobian_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
     groups = grouping(model)
-    r = model.correlation_matrix()
+    pairs = _Pairs(model)
     warnings: list[str] = list(model.warnings)
     extra = _second_order(model, second_order, warnings)
     budgets = tuple(
-        _one(model, k, float(values[k]), jac[k], u, groups, r, coverage,
+        _one(model, k, float(values[k]), jac[k], u, groups, pairs, coverage,
              None if extra is None else float(extra[k]), warnings)
         for k in range(len(model.measurands)))
-    core, scale = _scaled_covariance(jac, u, r, extra)
+    core, scale = _scaled_covariance(jac, u, pairs, extra)
     with np.errstate(over="ignore"):
         covariance = core * scale * scale  # entries beyond ±1.8e308 are ∞ (JSON: null)
     return Budget(model=model, measurands=budgets, output_covariance=_rows(covariance),
@@ -160,7 +160,7 @@ def propagate(model: Model, coverage: float | None = None, *,
 
 
 def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
-         groups: Grouping, r: np.ndarray, coverage: float, extra: float | None,
+         groups: Grouping, pairs: "_Pairs", coverage: float, extra: float | None,
          warnings: list[str]) -> MeasurandBudget:
     measurand = model.measurands[k]
     parts = _parts(measurand.name, model, c, u)
@@ -168,7 +168,7 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
     # 1e200 or 1e-200 give a representable u_c instead of ∞ or 0
     scale = float(np.max(np.abs(parts), initial=0.0)) or 1.0
     scaled = parts / scale
-    terms = _correlation_terms(model, scaled, r)
+    terms = pairs.terms(scaled)
     first = float(np.sum(scaled ** 2)) + math.fsum(t[3] for t in terms)
     if first < 0.0:
         raise PropagationError(f"the variance of '{measurand.name}' came out negative "
@@ -209,13 +209,13 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
         coverage_factor=k_p, expanded_uncertainty=k_p * combined)
 
 
-def _scaled_covariance(jac: np.ndarray, u: np.ndarray, r: np.ndarray,
+def _scaled_covariance(jac: np.ndarray, u: np.ndarray, pairs: "_Pairs",
                        extra: np.ndarray | None) -> tuple[np.ndarray, float]:
     """U_y = J U_x Jᵀ as (core, scale) with U_y = core·scale², free of overflow."""
     parts = jac * u  # each row finite: checked measurand by measurand in _one
     scale = float(np.max(np.abs(parts), initial=0.0)) or 1.0
     scaled = parts / scale
-    core = scaled @ r @ scaled.T
+    core = pairs.covariance(scaled)
     if extra is not None:
         core = core + np.diag(np.asarray(extra) / scale / scale)
     return core, scale
@@ -241,14 +241,33 @@ def _warn(name: str, combined: float, nu: float, warnings: list[str]) -> None:
                         "factor from the t-distribution is very uncertain")
 
 
-def _correlation_terms(model: Model, parts: np.ndarray,
-                       r: np.ndarray) -> list[tuple[str, str, float, float]]:
-    names = [i.name for i in model.inputs]
-    terms = []
-    for a, b, rho in model.correlations:
-        i, j = names.index(a), names.index(b)
-        terms.append((a, b, rho, float(2.0 * parts[i] * parts[j] * r[i, j])))
-    return terms
+class _Pairs:
+    """The stated correlations as index arrays: no n × n matrix for n inputs, so the
+    cost of the correlation terms grows with the number of pairs, not with n²."""
+
+    def __init__(self, model: Model) -> None:
+        index = {item.name: j for j, item in enumerate(model.inputs)}
+        self.pairs = model.correlations
+        self.first = np.array([index[a] for a, _, _ in self.pairs], dtype=np.intp)
+        self.second = np.array([index[b] for _, b, _ in self.pairs], dtype=np.intp)
+        self.r = np.array([r for _, _, r in self.pairs], dtype=float)
+
+    def terms(self, parts: np.ndarray) -> list[tuple[str, str, float, float]]:
+        """(a, b, r_ab, 2 c_a u_a c_b u_b r_ab) for each stated pair."""
+        if not self.pairs:
+            return []
+        variances = 2.0 * parts[self.first] * parts[self.second] * self.r
+        return [(a, b, rho, float(v)) for (a, b, rho), v in zip(self.pairs, variances)]
+
+    def covariance(self, scaled: np.ndarray) -> np.ndarray:
+        """J U_x Jᵀ from the columns c_i u_i of ``scaled`` (measurands × inputs)."""
+        covariance: np.ndarray = scaled @ scaled.T
+        if self.pairs:
+            left = scaled[:, self.first] * self.r
+            right = scaled[:, self.second]
+            cross = left @ right.T
+            covariance = covariance + cross + cross.T
+        return covariance
 
 
 def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray | None:

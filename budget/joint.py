@@ -26,10 +26,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
+from fractions import Fraction
 from typing import Sequence
 
-import sympy
-
+from . import algebra as alg
 from .errors import InputError, Location, did_you_mean
 from .model import Input, Measurand, Model
 from .units import parse_unit
@@ -75,7 +75,7 @@ def join(members: Sequence[Member],
     if len(by_name) != len(members):
         raise InputError("expected distinct member names, found a repeated one", where)
     rename: dict[tuple[str, str], str] = {}
-    factor: dict[tuple[str, str], sympy.Expr] = {}
+    factor: dict[tuple[str, str], Fraction] = {}
     merged: dict[str, Input] = {}
     for name, uses in shared:
         first = _shared_input(name, uses, by_name, where)
@@ -97,20 +97,19 @@ def join(members: Sequence[Member],
 
 
 def _assemble(members: Sequence[Member], merged: dict[str, Input],
-              rename: dict[tuple[str, str], str], factor: dict[tuple[str, str], sympy.Expr],
+              rename: dict[tuple[str, str], str], factor: dict[tuple[str, str], Fraction],
               shared: Sequence[tuple[str, Sequence[tuple[str, str]]]], title: str) -> Joint:
     measurands: list[Measurand] = []
     placed: list[tuple[tuple[str, str], str]] = []
     correlations: list[tuple[str, str, float]] = []
     for member in members:
-        swap = {sympy.Symbol(item.name): sympy.Symbol(rename[(member.name, item.name)])
-                * factor.get((member.name, item.name), sympy.Integer(1))
+        swap = {item.name: _scaled(rename[(member.name, item.name)],
+                                   factor.get((member.name, item.name), Fraction(1)))
                 for item in member.model.inputs}
         for m in member.model.measurands:
             name = joint_name(member.name, m.name)
-            measurands.append(replace(m, name=name, expression=m.expression.xreplace(swap),
-                                      opaque=None if m.opaque is None
-                                      else m.opaque.xreplace(swap)))
+            measurands.append(replace(m, name=name, graph=alg.substitute(m.graph, swap),
+                                      opaque_graph=alg.substitute(m.opaque_graph, swap)))
             placed.append(((member.name, m.name), name))
         correlations.extend((rename[(member.name, a)], rename[(member.name, b)], r)
                             for a, b, r in member.model.correlations)
@@ -170,11 +169,15 @@ def _same(name: str, first: Input, other: Input, member: str, where: Location) -
             f"({other.distribution.name}) in '{member}'", where)
 
 
-def _ratio(first: Input, other: Input, where: Location) -> sympy.Expr:
+def _scaled(name: str, factor: Fraction) -> alg.Node:
+    symbol = alg.symbol(name)
+    return symbol if factor == 1 else symbol * alg.number(factor)
+
+
+def _ratio(first: Input, other: Input, where: Location) -> Fraction:
     """The factor s with other's symbol = s · first's symbol (same quantity, two units)."""
     a, b = parse_unit(first.unit, where), parse_unit(other.unit, where)
     if a.dimensionality != b.dimensionality or a.offset or b.offset:
         raise InputError(f"shared input: expected one dimension, found '{first.name}' in "
                          f"'{first.unit}' and '{other.name}' in '{other.unit}'", where)
-    ratio = a.factor / b.factor
-    return sympy.Rational(ratio.numerator, ratio.denominator)
+    return Fraction(a.factor / b.factor)

@@ -15,12 +15,13 @@ import hashlib
 import re
 import tomllib
 from dataclasses import dataclass, field, replace
+from fractions import Fraction
 from pathlib import Path
 from typing import Any
 
 import numpy as np
-import sympy
 
+from . import algebra as alg
 from .chemistry import CONVENTIONS, DEFAULT_CONVENTION
 from .errors import (InputError, Location, ModelSyntaxError, UnitError,
                      did_you_mean)
@@ -65,7 +66,10 @@ class Input:
     molar_mass: Any = None
 
     @property
-    def symbol(self) -> sympy.Symbol:
+    def symbol(self) -> Any:
+        """The input's sympy symbol (loads sympy)."""
+        import sympy
+
         return sympy.Symbol(self.name)
 
 
@@ -73,22 +77,45 @@ class Input:
 class Definition:
     name: str
     text: str
-    shown: Any
+    shown_graph: alg.Node
     unit: str
+
+    @property
+    def shown(self) -> Any:
+        """The definition as written, as a sympy expression (loads sympy)."""
+        return alg.to_sympy(self.shown_graph)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Measurand:
-    """An output quantity: its expression in the inputs, in its own unit."""
+    """An output quantity: its expression in the inputs, in its own unit.
+
+    ``graph`` is the expression graph the numeric path compiles; ``expression``,
+    ``shown`` and ``opaque`` are its sympy forms for display (built on first use)."""
 
     name: str
     equation: str
     unit: str
-    expression: Any
-    shown: Any
-    opaque: Any = None
+    graph: alg.Node
+    shown_graph: alg.Node
+    opaque_graph: alg.Node
     description: str = ""
     line: int | None = None
+
+    @property
+    def expression(self) -> Any:
+        """In coherent SI with definitions substituted, in the measurand's unit (sympy)."""
+        return alg.to_sympy(self.graph)
+
+    @property
+    def shown(self) -> Any:
+        """The equation as written (sympy)."""
+        return alg.to_sympy(self.shown_graph)
+
+    @property
+    def opaque(self) -> Any:
+        """As ``expression`` with built-in formulas kept as calls (sympy)."""
+        return alg.to_sympy(self.opaque_graph)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -412,9 +439,10 @@ class _Reader:
             where = self.where("definitions", name) if name not in generated else \
                 self.where("records." + name)
             term = build(trees[name], terms, texts[name], where)
-            terms[name] = Term(term.expr, sympy.Symbol(name), term.unit, term.offset,
+            terms[name] = Term(term.expr, alg.symbol(name), term.unit, term.offset,
                                term.opaque)
-            made.append(Definition(name=name, text=texts[name].strip(), shown=term.shown,
+            made.append(Definition(name=name, text=texts[name].strip(),
+                                   shown_graph=term.shown,
                                    unit=f"{term.unit:~}"))
         return tuple(made), terms
 
@@ -445,10 +473,10 @@ class _Reader:
                      eq_where)
         unit_where = self.where("measurands." + name, "unit")
         unit = _measurand_unit(data.get("unit"), term, unit_where)
-        factor = sympy.Rational(unit.factor.numerator, unit.factor.denominator)
+        factor = alg.number(Fraction(unit.factor))
         return Measurand(name=name, equation=data["equation"].strip(), unit=unit.text,
-                         expression=term.expr / factor, shown=term.shown,
-                         opaque=term.opaque / factor,
+                         graph=term.expr / factor, shown_graph=term.shown,
+                         opaque_graph=term.opaque / factor,
                          description=str(data.get("description", "")), line=eq_where.line)
 
 
@@ -522,9 +550,9 @@ def _in_unit(statement: Any, unit: Any, where: Location) -> Any:
 
 def _input_term(item: Input, where: Location) -> Term:
     unit = parse_unit(item.unit, where)
-    symbol = item.symbol
-    factor = sympy.Rational(unit.factor.numerator, unit.factor.denominator)
-    scaled = symbol if factor == 1 else factor * symbol
+    symbol = alg.symbol(item.name)
+    factor = Fraction(unit.factor)
+    scaled = symbol if factor == 1 else alg.number(factor) * symbol
     return Term(scaled, symbol, unit.unit, unit.offset, scaled)
 
 
@@ -543,35 +571,46 @@ def _measurand_unit(declared: Any, term: Term, where: Location) -> Any:
 
 
 def _definition_order(trees: dict[str, Any], where: Location) -> list[str]:
-    """Definitions in dependency order; a cycle is an error naming its members."""
+    """Definitions in dependency order; a cycle is an error naming its members.
+
+    A depth-first search with an explicit stack, so a chain of 10⁵ definitions is fine."""
     order: list[str] = []
     state: dict[str, int] = {}
-
-    def visit(name: str, path: list[str]) -> None:
-        if state.get(name) == 2:
-            return
-        if state.get(name) == 1:
-            cycle = path[path.index(name):] + [name]
-            raise InputError(f"expected definitions without cycles, found the cycle "
-                             f"{' -> '.join(cycle)}", where)
-        state[name] = 1
-        for used in names_in(trees[name]):
-            if used in trees:
-                visit(used, path + [name])
-        state[name] = 2
-        order.append(name)
-
-    for name in trees:
-        visit(name, [])
+    uses = {name: [u for u in names_in(tree) if u in trees] for name, tree in trees.items()}
+    for start in trees:
+        if state.get(start) == 2:
+            continue
+        path: list[str] = [start]
+        pending: list[list[str]] = [list(reversed(uses[start]))]
+        state[start] = 1
+        while path:
+            if not pending[-1]:
+                done = path.pop()
+                pending.pop()
+                state[done] = 2
+                order.append(done)
+                continue
+            name = pending[-1].pop()
+            if state.get(name) == 2:
+                continue
+            if state.get(name) == 1:
+                cycle = path[path.index(name):] + [name]
+                raise InputError(f"expected definitions without cycles, found the cycle "
+                                 f"{' -> '.join(cycle)}", where)
+            state[name] = 1
+            path.append(name)
+            pending.append(list(reversed(uses[name])))
     return order
 
 
-def _unused_inputs(inputs: tuple[Input, ...], measurands: tuple[Measurand, ...]) -> tuple[Any, ...]:
-    used = set().union(*(m.expression.free_symbols for m in measurands))
+def _unused_inputs(inputs: tuple[Input, ...],
+                   measurands: tuple[Measurand, ...]) -> tuple[str, ...]:
+    used = alg.symbols_in(m.graph for m in measurands)
     return tuple(f"input '{i.name}' appears in no measurand equation" for i in inputs
-                 if i.symbol not in used and i.standard_uncertainty > 0)
+                 if i.name not in used and i.standard_uncertainty > 0)
 
 
+_KEY = re.compile(r"\s*(?:[\"']([^\"']*)[\"']|([A-Za-z0-9_-]+))\s*=")
 _HEADER = re.compile(r"\s*\[\[?([^\]]+)\]\]?\s*(#.*)?$")
 
 
@@ -582,6 +621,7 @@ class LineIndex:
         self.lines = lines
         self.headers: list[tuple[int, str]] = []
         self.positions: dict[str, list[int]] = {}
+        self.tables: dict[int, dict[str, int]] = {}
         for number, line in enumerate(lines):
             found = _HEADER.match(line)
             if found:
@@ -616,8 +656,23 @@ class LineIndex:
         return None
 
     def _key(self, key: str, start: int, end: int) -> int | None:
+        if end - start > 64:  # a long table: index its keys once
+            found = self._keys(start, end).get(key)
+            return None if found is None else found + 1
         pattern = re.compile(r"\s*[\"']?" + re.escape(key) + r"[\"']?\s*=")
         for number in range(start, end):
             if pattern.match(self.lines[number]):
                 return number + 1
         return None
+
+    def _keys(self, start: int, end: int) -> dict[str, int]:
+        """The first line of each plain key in lines start … end-1 (cached)."""
+        cached = self.tables.get(start)
+        if cached is None:
+            cached = {}
+            for number in range(start, end):
+                found = _KEY.match(self.lines[number])
+                if found:
+                    cached.setdefault(found.group(1) or found.group(2), number)
+            self.tables[start] = cached
+        return cached

@@ -223,11 +223,13 @@ def _slice(value: Any, start: int, stop: int) -> Any:
 
 def _groups(model: Model) -> list[list[int]]:
     """Inputs joined by correlations (connected components), in model order."""
-    names = [i.name for i in model.inputs]
+    index = {item.name: j for j, item in enumerate(model.inputs)}
+    names = list(index)
     parent = list(range(len(names)))
 
     def root(i: int) -> int:
         while parent[i] != i:
+            parent[i] = parent[parent[i]]
             i = parent[i]
         return i
 

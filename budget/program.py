@@ -1,56 +1,71 @@
 """A measurement model compiled once into a straight-line numeric program.
 
-Method: the sympy expressions of all measurands are flattened into one list of unique
-operations in dependency order (sympy's structural hashing shares every common
-sub-expression). ``evaluate`` runs the list on float64 scalars or whole arrays (the Monte
-Carlo method evaluates it on chunks of M values, never per trial); ``gradient`` adds one
+Method: the expression graphs of all measurands (``algebra.Node``, shared sub-expressions
+and definitions included once) are laid out as one list of operations in dependency
+order. ``evaluate`` runs the list on float64 scalars or whole arrays (the Monte Carlo
+method evaluates it on chunks of M values, never per trial); ``gradient`` adds one
 reverse sweep (reverse accumulation, "adjoint" differentiation) that gives every ∂f/∂x_i
 of one output in a single pass, so the cost of the sensitivity coefficients grows with the
-size of the expression, not with the number of inputs times that size. The symbolic
-coefficients that a report prints come from ``sympy.diff`` and agree with these to
-rounding (tested).
+size of the expression, not with the number of inputs times that size. Compiling,
+evaluating and differentiating use explicit stacks and loops, so a sum of 10⁵ terms or a
+chain of 10⁵ definitions costs time in proportion to its size and never recurses. The
+symbolic coefficients that a report prints come from ``sympy.diff`` and agree with these
+to rounding (tested).
 
-To add a function: map its sympy class in ``_FORWARD`` and its derivative in ``_DERIV``.
+To add a function: map its name in ``_FORWARD`` and its derivative in ``_DERIV``.
 """
 
 from __future__ import annotations
 
+import math
+from fractions import Fraction
 from typing import Any, Callable, Sequence
 
 import numpy as np
-import sympy
+
+from .algebra import Node
 
 __all__ = ["Program"]
 
-_FORWARD: dict[Any, Callable[[Any], Any]] = {
-    sympy.exp: np.exp, sympy.log: np.log, sympy.sin: np.sin, sympy.cos: np.cos,
-    sympy.tan: np.tan, sympy.asin: np.arcsin, sympy.acos: np.arccos, sympy.atan: np.arctan,
-    sympy.Abs: np.abs,
+_FORWARD: dict[str, Callable[[Any], Any]] = {
+    "exp": np.exp, "log": np.log, "log10": np.log10, "sqrt": np.sqrt, "sin": np.sin,
+    "cos": np.cos, "tan": np.tan, "asin": np.arcsin, "acos": np.arccos, "atan": np.arctan,
+    "abs": np.abs,
 }
 # d f(x) / dx given x and f(x)
-_DERIV: dict[Any, Callable[[Any, Any], Any]] = {
-    sympy.exp: lambda x, fx: fx,
-    sympy.log: lambda x, fx: 1.0 / x,
-    sympy.sin: lambda x, fx: np.cos(x),
-    sympy.cos: lambda x, fx: -np.sin(x),
-    sympy.tan: lambda x, fx: 1.0 + fx * fx,
-    sympy.asin: lambda x, fx: 1.0 / np.sqrt(1.0 - x * x),
-    sympy.acos: lambda x, fx: -1.0 / np.sqrt(1.0 - x * x),
-    sympy.atan: lambda x, fx: 1.0 / (1.0 + x * x),
-    sympy.Abs: lambda x, fx: np.sign(x),
+_DERIV: dict[str, Callable[[Any, Any], Any]] = {
+    "exp": lambda x, fx: fx,
+    "log": lambda x, fx: 1.0 / x,
+    "log10": lambda x, fx: 1.0 / (x * np.log(10.0)),
+    "sqrt": lambda x, fx: 0.5 / fx,
+    "sin": lambda x, fx: np.cos(x),
+    "cos": lambda x, fx: -np.sin(x),
+    "tan": lambda x, fx: 1.0 + fx * fx,
+    "asin": lambda x, fx: 1.0 / np.sqrt(1.0 - x * x),
+    "acos": lambda x, fx: -1.0 / np.sqrt(1.0 - x * x),
+    "atan": lambda x, fx: 1.0 / (1.0 + x * x),
+    "abs": lambda x, fx: np.sign(x),
 }
 
 
 class Program:
-    """Operations ``(kind, argument slots, payload)`` over slots; inputs fill slots first."""
+    """Operations ``(kind, argument slots, payload)`` over slots; inputs fill slots first.
 
-    def __init__(self, outputs: Sequence[Any], symbols: Sequence[sympy.Symbol]) -> None:
-        self.symbols = tuple(symbols)
-        self.slot: dict[Any, int] = {s: i for i, s in enumerate(self.symbols)}
+    While compiling, a sum (product) used once inside another sum (product) is merged into
+    it, numbers are folded (exactly where they are integers or fractions), and anything
+    without an input is computed once; the loops keep explicit stacks, never recursion."""
+
+    def __init__(self, outputs: Sequence[Node], symbols: Sequence[str]) -> None:
+        self.symbols = tuple(str(s) for s in symbols)
         self.ops: list[tuple[str, tuple[int, ...], Any]] = []
         self.constants: dict[int, float] = {}
-        self.outputs = tuple(self._compile(expr) for expr in outputs)
+        self._index = {name: i for i, name in enumerate(self.symbols)}
+        self._slot: dict[int, int] = {}
+        self._operands: dict[int, list[Node]] = {}
+        self._uses = _use_counts(outputs)
+        self.outputs = tuple(self._compile(root) for root in outputs)
         self.release = self._last_uses()
+        del self._slot, self._operands, self._uses
 
     def _last_uses(self) -> list[tuple[int, ...]]:
         """For each operation, the slots no longer needed once it has run."""
@@ -69,45 +84,93 @@ class Program:
     def size(self) -> int:
         return len(self.symbols) + len(self.ops)
 
-    def _compile(self, root: Any) -> int:
-        stack: list[tuple[Any, bool]] = [(root, False)]
+    def _compile(self, root: Node) -> int:
+        stack: list[tuple[Node, bool]] = [(root, False)]
         while stack:
             node, ready = stack.pop()
-            if node in self.slot:
+            if id(node) in self._slot:
                 continue
-            if node.is_Number or not node.free_symbols and not node.args:
-                self._emit(node, "const", (), _number(node))
+            if node.kind == "symbol":
+                if node.name not in self._index:
+                    raise KeyError(f"symbol {node.name} is not an input")
+                self._slot[id(node)] = self._index[node.name]
                 continue
-            if node.is_Symbol:
-                raise KeyError(f"symbol {node} is not an input")
+            if node.kind == "number":
+                self._slot[id(node)] = self._emit("const", (), node.value)
+                continue
+            operands = self._merged(node)
             if not ready:
                 stack.append((node, True))
-                stack.extend((arg, False) for arg in node.args if arg not in self.slot)
+                stack.extend((a, False) for a in operands if id(a) not in self._slot)
                 continue
-            self._emit_operation(node)
-        return self.slot[root]
+            self._slot[id(node)] = self._emit_operation(node, operands)
+        return self._slot[id(root)]
 
-    def _emit(self, node: Any, kind: str, args: tuple[int, ...], payload: Any) -> None:
+    def _merged(self, node: Node) -> list[Node]:
+        """The operands of ``node``, with sums (products) used only here merged in."""
+        if id(node) in self._operands:
+            return self._operands[id(node)]
+        if node.kind not in ("add", "mul"):
+            return list(node.args)
+        merged: list[Node] = []
+        pending = list(reversed(node.args))
+        while pending:
+            arg = pending.pop()
+            if arg.kind == node.kind and self._uses.get(id(arg), 0) == 1:
+                pending.extend(reversed(arg.args))
+            else:
+                merged.append(arg)
+        self._operands[id(node)] = merged
+        return merged
+
+    def _emit(self, kind: str, args: tuple[int, ...], payload: Any) -> int:
         slot = len(self.symbols) + len(self.ops)
         self.ops.append((kind, args, payload))
-        self.slot[node] = slot
         if kind == "const":
             self.constants[slot] = payload
+        return slot
 
-    def _emit_operation(self, node: Any) -> None:
-        args = tuple(self.slot[a] for a in node.args)
-        if node.is_Add:
-            self._emit(node, "add", args, None)
-        elif node.is_Mul:
-            self._emit(node, "mul", args, None)
-        elif node.is_Pow:
-            exponent = node.args[1]
-            fixed = float(exponent) if exponent.is_Number else None
-            self._emit(node, "pow", args, fixed)
-        elif node.func in _FORWARD:
-            self._emit(node, "call", args, node.func)
-        else:
-            raise ValueError(f"no numeric rule for {node.func.__name__}")
+    def _emit_operation(self, node: Node, operands: list[Node]) -> int:
+        if node.kind in ("add", "mul"):
+            return self._emit_folded(node.kind, operands)
+        args = tuple(self._slot[id(a)] for a in operands)
+        if all(a in self.constants for a in args):
+            kind = "pow" if node.kind == "pow" else "call"
+            payload = node.name if kind == "call" else None
+            with np.errstate(all="ignore"):
+                value = _apply(kind, [self.constants[a] for a in args], payload)
+            return self._emit("const", (), float(value))
+        if node.kind == "pow":
+            exponent = self.constants.get(args[1])
+            return self._emit("pow", args, exponent)
+        if node.name not in _FORWARD:
+            raise ValueError(f"no numeric rule for {node.name}")
+        return self._emit("call", args, node.name)
+
+    def _emit_folded(self, kind: str, operands: list[Node]) -> int:
+        """A sum or product with its numbers folded into one constant."""
+        exact: Fraction = Fraction(1 if kind == "mul" else 0)
+        inexact = 1.0 if kind == "mul" else 0.0
+        args: list[int] = []
+        for operand in operands:
+            slot = self._slot[id(operand)]
+            if operand.kind == "number" and not isinstance(operand.exact, str):
+                exact = exact * Fraction(operand.exact) if kind == "mul" else \
+                    exact + Fraction(operand.exact)
+            elif slot in self.constants:
+                value = self.constants[slot]
+                inexact = inexact * value if kind == "mul" else inexact + value
+            else:
+                args.append(slot)
+        constant = float(exact) * inexact if kind == "mul" else float(exact) + inexact
+        neutral = 1.0 if kind == "mul" else 0.0
+        if not args:
+            return self._emit("const", (), constant)
+        if constant != neutral or math.isnan(constant):
+            args.insert(0, self._emit("const", (), constant))
+        if len(args) == 1:
+            return args[0] if kind == "add" or constant == neutral else args[0]
+        return self._emit(kind, tuple(args), None)
 
     def evaluate(self, values: Sequence[Any]) -> list[Any]:
         """The outputs for input values (scalars, or equal-length float64 arrays).
@@ -163,11 +226,22 @@ class Program:
             adjoint[args[0]] += bar * _DERIV[payload](slots[args[0]], slots[index])
 
 
-def _number(node: Any) -> float:
-    try:
-        return float(node)
-    except (TypeError, ValueError):  # zoo, nan or a complex constant such as sqrt(-1)
-        return float("nan")
+def _use_counts(outputs: Sequence[Node]) -> dict[int, int]:
+    """How many operations (or outputs) use each node, counted without recursion."""
+    uses: dict[int, int] = {}
+    seen: set[int] = set()
+    stack = list(outputs)
+    for root in outputs:
+        uses[id(root)] = uses.get(id(root), 0) + 1
+    while stack:
+        node = stack.pop()
+        if id(node) in seen:
+            continue
+        seen.add(id(node))
+        for arg in node.args:
+            uses[id(arg)] = uses.get(id(arg), 0) + 1
+            stack.append(arg)
+    return uses
 
 
 def _apply(kind: str, operands: list[Any], payload: Any) -> Any:

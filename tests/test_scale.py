@@ -1,0 +1,112 @@
+"""Large models: long sums, products and definition chains read, evaluate and
+differentiate without recursion, and agree with closed forms (no timings here: speed is
+measured by benchmarks/growth.py)."""
+
+from __future__ import annotations
+
+import ast
+import math
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from budget.algebra import symbol, to_sympy
+from budget.gum import propagate
+from budget.longparse import parse
+from budget.model import parse_model
+from budget.montecarlo import simulate
+from budget.program import Program
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "benchmarks"))
+
+from generate import defined_mean, product_model, sum_model  # noqa: E402
+
+
+def test_a_sum_of_4000_inputs_gives_the_root_sum_of_squares():
+    # closed form (GUM 5.1.2 with c_i = 1): u_c = sqrt(n) * u
+    n = 4000
+    budget = propagate(parse_model(sum_model(n))).measurands[0]
+    assert budget.estimate == pytest.approx(sum(1.0 + 0.001 * i for i in range(n)),
+                                            rel=1e-12)
+    assert budget.combined_uncertainty == pytest.approx(math.sqrt(n) * 0.001, rel=1e-12)
+    assert all(c.sensitivity == 1.0 for c in budget.contributions)
+
+
+def test_a_product_of_4000_inputs_has_the_relative_law():
+    # closed form for a product (GUM 5.1.6): (u_c/y)² = Σ (u_i/x_i)²
+    n = 4000
+    model = parse_model(product_model(n))
+    budget = propagate(model).measurands[0]
+    values = np.array([i.estimate for i in model.inputs])
+    assert budget.estimate == pytest.approx(np.prod(values), rel=1e-10)
+    relative = math.sqrt(float(np.sum((0.001 / values) ** 2)))
+    assert budget.combined_uncertainty / budget.estimate == pytest.approx(relative,
+                                                                          rel=1e-10)
+
+
+def test_a_chain_of_definitions_equals_the_same_model_in_one_equation():
+    # the mean of 1000 determinations through 2000 definitions against the same mean
+    # written as one equation (generate.mean_of_determinations): same estimate and u_c
+    from generate import mean_of_determinations
+
+    n = 1000
+    chained = propagate(parse_model(defined_mean(n))).measurands[0]
+    direct = propagate(parse_model(mean_of_determinations(n))).measurands[0]
+    assert chained.estimate == pytest.approx(direct.estimate, rel=1e-12)
+    assert chained.combined_uncertainty == pytest.approx(direct.combined_uncertainty,
+                                                         rel=1e-9)
+
+
+def test_monte_carlo_of_a_3000_input_sum_matches_the_root_sum_of_squares():
+    n, trials = 3000, 10_000
+    model = parse_model(sum_model(n))
+    result = simulate(model, trials=trials, seed=3).measurands[0]
+    expected = math.sqrt(n) * 0.001
+    # the sample standard deviation has a relative standard error of about 1/sqrt(2M)
+    assert result.standard_uncertainty == pytest.approx(expected,
+                                                        rel=5 / math.sqrt(2 * trials))
+
+
+@pytest.mark.parametrize("text", [
+    " + ".join(f"x{i} * y{i}" for i in range(450)),
+    " * ".join(f"x{i}" for i in range(450)),
+    "M * (" + " + ".join(f"x{i} / z" for i in range(450)) + ") / (R * F * 3)",
+    "-a + " + " - ".join(f"x{i}" for i in range(450)),
+    "(\n" + " + ".join(f"x{i}*y{i}" for i in range(450)) + "\n) * ü",
+    "sqrt(" + " + ".join(f"x{i} ** 2" for i in range(450)) + ")",
+])
+def test_long_texts_parse_to_the_tree_python_builds(text):
+    # Python's own parser still manages 450 terms: the split parse must equal it,
+    # positions included (messages quote the text by them)
+    expected = ast.dump(ast.parse(text, mode="eval"), include_attributes=True)
+    assert ast.dump(parse(text), include_attributes=True) == expected
+
+
+def test_a_long_text_with_a_forbidden_construct_is_still_refused():
+    from budget.errors import ModelSyntaxError
+    from budget.expressions import parse_expression
+    from budget.errors import Location
+
+    text = " + ".join(f"x{i}" for i in range(5000)) + " + (lambda: 1)()"
+    with pytest.raises(ModelSyntaxError, match="found a lambda"):
+        parse_expression(text, Location(file="m.toml"))
+
+
+def test_the_graph_replayed_in_sympy_is_what_sympy_builds():
+    import sympy
+
+    x, y = symbol("x"), symbol("y")
+    built = to_sympy((x * 2 - y / 3) ** 2 / (1 + x))
+    sx, sy = sympy.symbols("x y")
+    assert built == (sx * 2 - sy / 3) ** 2 / (1 + sx)
+
+
+def test_the_program_folds_numbers_and_merges_single_use_sums():
+    x, y = symbol("x"), symbol("y")
+    program = Program([(x + y + 2) + 3 * (x * 4)], ["x", "y"])
+    kinds = [kind for kind, _, _ in program.ops if kind != "const"]
+    assert kinds == ["mul", "add"]
+    value, jacobian = program.gradient([1.0, 2.0])
+    assert value[0] == 17.0 and list(jacobian[0]) == [13.0, 1.0]
