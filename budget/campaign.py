@@ -1,8 +1,9 @@
-"""Campaign files (shared/spec/certification.md) and their CSV tables → a :class:`Campaign`.
+"""Campaign files (shared/spec/certification.md) and their data tables → a :class:`Campaign`.
 
 Every problem is a :class:`CampaignError` that names the file, the table and key or the
-CSV row and column, what was expected and what was found. CSV tables are read with
-pandas as text and converted column by column, so a bad cell is reported by its line.
+data row and column, what was expected and what was found. Data tables (CSV in any
+common locale, or ``.xlsx``) are read by ``datafiles.py`` and converted into the units
+the computation needs by ``studydata.py``.
 """
 
 from __future__ import annotations
@@ -14,21 +15,25 @@ from typing import Any
 
 import numpy as np
 
+from .datafiles import FORMAT_KEYS, FileFormat, parse_declared_format
 from .errors import BudgetError, CampaignError, Location, did_you_mean
 from .limits import LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, check_strings
 from .model import LineIndex, Model, decode, load_model, read_toml
+from .studydata import Exclusion, Runs
 
-__all__ = ["Campaign", "Comparison", "load_campaign", "read_table"]
+__all__ = ["Campaign", "Comparison", "load_campaign", "read_runs_file"]
 
 _TOP = ("title", "material", "unit", "description", "producer", "characterization",
         "homogeneity", "stability", "comparison", "certificate",
         "method", "shared", "combination")  # the last three: methods.py
 _SECTIONS = {
-    "characterization": ("model", "measurand", "runs", "scatter_covers", "label"),
-    "homogeneity": ("data",),
-    "stability": ("data", "shelf_life", "u_short_term",
+    "characterization": ("model", "measurand", "runs", "scatter_covers", "label",
+                         "estimate_factor", *FORMAT_KEYS),
+    "homogeneity": ("data", "value_unit", *FORMAT_KEYS),
+    "stability": ("data", "shelf_life", "u_short_term", "value_unit", "time_unit",
+                  "time_origin", *FORMAT_KEYS,
                   "label", "evaluation", "series", "short_term"),  # the last four: stability.py
-    "comparison": ("label", "value", "expanded", "k", "u"),
+    "comparison": ("label", "value", "expanded", "k", "u", "unit"),
 }
 
 
@@ -49,7 +54,7 @@ class Campaign:
     sha256: str
     model: Model
     measurand: str
-    runs: Any  # pandas DataFrame: labels and input columns
+    runs: Runs
     run_inputs: tuple[str, ...]
     scatter_covers: tuple[str, ...]
     homogeneity: tuple[tuple[str, np.ndarray], ...] | None
@@ -65,6 +70,9 @@ class Campaign:
     method_label: str = "characterization"
     methods: Any = None  # methods.MethodsPlan: further methods, shared inputs, combination
     stability_plan: Any = None  # stability.StabilityPlan: more series, short-term study
+    time_unit: str = ""
+    excluded: tuple[Exclusion, ...] = field(default=())
+    warnings: tuple[str, ...] = field(default=())
     reported_interval: str = "gum"  # [certificate]: which interval the certificate states
 
 
@@ -169,8 +177,10 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         raise r.fail(f"expected a measurand of {model.source} ({', '.join(names)}), found "
                      f"'{measurand}'{did_you_mean(measurand, names)}", "characterization",
                      "measurand")
-    runs, run_inputs = _runs(r, char, model)
+    runs = _runs(r, char, model)
+    run_inputs = runs.names
     covers = _covers(r, char, model)
+    warnings = _run_warnings(r, char, model, runs)
     from .methods import check_primary_references, read_methods
 
     label = r.text(char, "label", "characterization") if "label" in char \
@@ -178,84 +188,89 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     plan = read_methods(r, label)
     if plan is not None:
         check_primary_references(r, plan, model, run_inputs)
-    homogeneity = _homogeneity(r)
+    homogeneity, excluded = _homogeneity(r, unit)
     stability_section = r.section("stability", False)
-    stability = _stability(r, stability_section)
+    stability, time_unit, shelf, more = _stability(r, stability_section, unit, warnings)
     from .stability import read_stability_plan
 
     stability_plan = read_stability_plan(r, stability_section)
-    shelf = u_sts = 0.0
+    u_sts = 0.0
     if stability_section is not None:
-        shelf = r.number(stability_section, "shelf_life", "stability", positive=True)
         u_sts = r.number(stability_section, "u_short_term", "stability", default=0.0)
     k, coverage, fields = _certificate(r)
     return Campaign(
         title=title, material=str(r.doc.get("material", "")), unit=unit, source=r.name,
         sha256=sha256, model=model, measurand=measurand, runs=runs, run_inputs=run_inputs,
         scatter_covers=covers, homogeneity=homogeneity, stability=stability,
-        shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r), k=k,
+        shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r, unit), k=k,
         coverage=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
                     if key in r.doc),
         data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
         method_label=label, methods=plan, stability_plan=stability_plan,
+        time_unit=time_unit, excluded=excluded + more, warnings=tuple(warnings),
         reported_interval=_reported_interval(r))
 
 
-def read_table(path: Path, numeric: tuple[str, ...], text_columns: tuple[str, ...] = (),
-               at_least: int = 2) -> Any:
-    """A CSV table with the named columns; numeric columns converted cell by cell."""
-    import pandas as pd
-
-    shown = str(path)
-    try:
-        frame = pd.read_csv(path, dtype=str, keep_default_na=False, skipinitialspace=True)
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError) as exc:
-        raise CampaignError(f"expected a CSV table with a header row, found "
-                            f"{type(exc).__name__}: {str(exc).strip()}",
-                            Location(file=shown)) from exc
-    frame.columns = [str(c).strip() for c in frame.columns]
-    for column in (*numeric, *text_columns):
-        if column not in frame.columns:
-            raise CampaignError(f"expected a column '{column}'"
-                                f"{did_you_mean(column, frame.columns)}, found the columns "
-                                f"{', '.join(frame.columns)}", Location(file=shown))
-    if len(frame) < at_least:
-        raise CampaignError(f"expected at least {at_least} data rows, found {len(frame)}",
-                            Location(file=shown))
-    for column in numeric:
-        frame[column] = _numbers(frame[column], column, shown)
-    return frame
+def _format(r: _Reader, data: dict[str, Any], table: str) -> FileFormat:
+    return parse_declared_format(data, lambda message, key: r.fail(message, table, key))
 
 
-def _numbers(cells: Any, column: str, shown: str) -> np.ndarray:
-    values = np.empty(len(cells))
-    for row, cell in enumerate(cells):
-        try:
-            values[row] = float(cell)
-        except ValueError:
-            values[row] = math.nan
-        if not math.isfinite(values[row]):
-            raise CampaignError(f"column '{column}': expected a finite number, found "
-                                f"'{cell}'", Location(file=shown, line=row + 2))
-    return values
-
-
-def _runs(r: _Reader, char: dict[str, Any], model: Model) -> tuple[Any, tuple[str, ...]]:
+def _runs(r: _Reader, char: dict[str, Any], model: Model) -> Runs:
     path = r.file(char, "runs", "characterization")
-    import pandas as pd
+    return read_runs_file(r, path, _format(r, char, "characterization"), model,
+                          "characterization")
 
-    header = pd.read_csv(path, nrows=0, dtype=str).columns if path.stat().st_size else []
-    inputs = tuple(str(c).strip() for c in header
-                   if str(c).strip() in {i.name for i in model.inputs})
-    if not inputs:
+
+def read_runs_file(r: _Reader, path: Path, fmt: FileFormat, model: Model, table: str,
+                   nth: int = 0) -> Runs:
+    """A runs table whose input columns are converted into the model inputs' units."""
+    from .studydata import read_runs
+
+    runs = read_runs(path, fmt, model, str(path))
+    if not runs.inputs:
         raise r.fail(f"expected columns named like inputs of the model in '{path.name}', "
-                     "found none", "characterization", "runs")
-    for name in inputs:
+                     "found none", table, "runs", nth)
+    for name in runs.names:
         if model.input(name).molar_mass is not None:
             raise r.fail(f"expected run columns for measured inputs, found '{name}', which "
-                         "a formula gives", "characterization", "runs")
-    return read_table(path, inputs), inputs
+                         "a formula gives", table, "runs", nth)
+    return runs
+
+
+def _run_warnings(r: _Reader, char: dict[str, Any], model: Model, runs: Runs) -> list[str]:
+    """Plausibility of each run: input estimates near the model's, air density in range."""
+    from .plausibility import DEFAULT_ESTIMATE_FACTOR, air_density_warnings, estimate_warnings
+
+    factors = _estimate_factors(r, char, runs.names, DEFAULT_ESTIMATE_FACTOR)
+    found: list[str] = []
+    for name in runs.names:
+        item = model.input(name)
+        found += estimate_warnings(name, runs.values(name), item.estimate, item.unit,
+                                   factors.get(name, factors["default"]), runs.source,
+                                   runs.rows)
+    values: dict[str, Any] = {i.name: i.estimate for i in model.inputs}
+    values.update({name: runs.values(name) for name in runs.names})
+    labels = [f"row {row}" for row in runs.rows]
+    found += air_density_warnings(model, values, f"in {runs.source}", labels)
+    return found
+
+
+def _estimate_factors(r: _Reader, char: dict[str, Any], names: tuple[str, ...], default: float
+                      ) -> dict[str, float]:
+    given = char.get("estimate_factor", default)
+    table = given if isinstance(given, dict) else {"default": given}
+    factors = {"default": default}
+    for key in table:
+        if key != "default" and key not in names:
+            raise r.fail(f"expected a run column or 'default', found '{key}'"
+                         f"{did_you_mean(key, names)}", "characterization", "estimate_factor")
+        number = r.number(table, key, "characterization", positive=True)
+        if number <= 1:
+            raise r.fail(f"expected a factor > 1, found {number:g}", "characterization",
+                         "estimate_factor")
+        factors[key] = number
+    return factors
 
 
 def _covers(r: _Reader, char: dict[str, Any], model: Model) -> tuple[str, ...]:
@@ -271,37 +286,115 @@ def _covers(r: _Reader, char: dict[str, Any], model: Model) -> tuple[str, ...]:
     return tuple(covers)
 
 
-def _homogeneity(r: _Reader) -> tuple[tuple[str, np.ndarray], ...] | None:
+def _optional_unit(r: _Reader, data: dict[str, Any], key: str, table: str) -> str | None:
+    if key not in data:
+        return None
+    from .units import parse_unit
+
+    text = r.text(data, key, table)
+    parse_unit(text, r.where(table, key))
+    return text
+
+
+def _homogeneity(r: _Reader, unit: str) -> tuple[tuple[tuple[str, np.ndarray], ...] | None,
+                                                 tuple[Exclusion, ...]]:
+    from .studydata import read_homogeneity
+
     section = r.section("homogeneity", False)
     if section is None:
-        return None
+        return None, ()
     path = r.file(section, "data", "homogeneity")
-    frame = read_table(path, ("value",), ("unit",), at_least=4)
-    groups = tuple((str(unit), group["value"].to_numpy(dtype=float))
-                   for unit, group in frame.groupby("unit", sort=False))
+    value_unit = _optional_unit(r, section, "value_unit", "homogeneity")
+    groups, excluded = read_homogeneity(path, _format(r, section, "homogeneity"), unit,
+                                        value_unit, str(path))
+    shown = Location(file=str(path))
     if len(groups) < 2:
-        raise CampaignError(f"expected at least 2 units, found {len(groups)}",
-                            Location(file=str(path)))
-    few = [unit for unit, values in groups if values.size < 2]
-    if few:
-        raise CampaignError(f"expected at least 2 replicates per unit, found 1 for "
-                            f"{', '.join(few)}", Location(file=str(path)))
-    return groups
+        raise CampaignError(f"expected at least 2 units with a value, found {len(groups)}",
+                            shown)
+    if all(values.size < 2 for _, values in groups):
+        raise CampaignError("expected at least one unit with 2 or more replicates, found a "
+                            "single replicate for every unit: the within-unit variance "
+                            "cannot be estimated", shown)
+    return groups, excluded
 
 
-def _stability(r: _Reader, section: dict[str, Any] | None) -> tuple[np.ndarray, np.ndarray] | None:
+def _stability(r: _Reader, section: dict[str, Any] | None, unit: str, warnings: list[str]
+               ) -> tuple[tuple[np.ndarray, np.ndarray] | None, str, float,
+                          tuple[Exclusion, ...]]:
+    from .plausibility import shelf_life_warning
+    from .studydata import read_stability
+
     if section is None:
-        return None
+        return None, "", 0.0, ()
     path = r.file(section, "data", "stability")
-    frame = read_table(path, ("time", "value"), at_least=3)
-    times = frame["time"].to_numpy(dtype=float)
-    if np.unique(times).size < 2:
-        raise CampaignError(f"expected at least 2 different time points, found "
-                            f"{np.unique(times).size}", Location(file=str(path)))
-    return times, frame["value"].to_numpy(dtype=float)
+    time_unit = _optional_unit(r, section, "time_unit", "stability")
+    shelf_text = section.get("shelf_life")
+    shelf_unit = _shelf_unit(r, shelf_text) if isinstance(shelf_text, str) else None
+    data = read_stability(path, _format(r, section, "stability"), unit,
+                          _optional_unit(r, section, "value_unit", "stability"), time_unit,
+                          _origin(r, section), str(path), date_unit=time_unit or shelf_unit)
+    shelf = _shelf_life(r, section, data.time_unit)
+    if data.times.size < 3 or np.unique(data.times).size < 2:
+        raise CampaignError(f"expected at least 3 points at 2 or more different times, found "
+                            f"{data.times.size} at {np.unique(data.times).size}",
+                            Location(file=str(path)))
+    if not data.time_unit:
+        warnings.append(f"plausibility: {path}: no time unit stated for the stability study "
+                        "(times and shelf life are taken in the same, unnamed unit); declare "
+                        "time_unit = \"month\" or write it in the header, 'time / month'")
+    found = shelf_life_warning(data.times, shelf, data.time_unit, str(path))
+    if found:
+        warnings.append(found)
+    return (data.times, data.values), data.time_unit, shelf, data.excluded
 
 
-def _comparisons(r: _Reader) -> tuple[Comparison, ...]:
+def _shelf_unit(r: _Reader, text: str) -> str:
+    import re
+
+    found = re.match(r"^\s*[-+0-9.eE]+\s*(\S.*)$", text)
+    if not found:
+        raise r.fail(f"expected a shelf life as a number or as \"36 month\", found {text!r}",
+                     "stability", "shelf_life")
+    return found.group(1).strip()
+
+
+def _shelf_life(r: _Reader, section: dict[str, Any], time_unit: str) -> float:
+    value = section.get("shelf_life")
+    if not isinstance(value, str):
+        return r.number(section, "shelf_life", "stability", positive=True)
+    from .datafiles import convert
+    from .units import parse_unit
+
+    unit_text = _shelf_unit(r, value)
+    number = float(value.strip()[: len(value.strip()) - len(unit_text)])
+    where = r.where("stability", "shelf_life")
+    if number <= 0:
+        raise r.fail(f"expected a shelf life > 0, found {number:g}", "stability", "shelf_life")
+    return float(convert(np.array([number]), parse_unit(unit_text, where),
+                         parse_unit(time_unit or unit_text, where), source=r.name,
+                         column="shelf_life")[0])
+
+
+def _origin(r: _Reader, section: dict[str, Any]) -> Any:
+    from datetime import date, datetime
+
+    value = section.get("time_origin")
+    if value is None:
+        return None
+    if isinstance(value, datetime):
+        return value.replace(tzinfo=None)
+    if isinstance(value, date):
+        return datetime(value.year, value.month, value.day)
+    if isinstance(value, str):
+        try:
+            return datetime.fromisoformat(value.strip())
+        except ValueError:
+            pass
+    raise r.fail(f"expected an ISO 8601 date such as 2025-06-30, found {value!r}",
+                 "stability", "time_origin")
+
+
+def _comparisons(r: _Reader, unit: str) -> tuple[Comparison, ...]:
     entries = r.doc.get("comparison", [])
     if not isinstance(entries, list):
         raise r.fail("expected [[comparison]] tables, found a single value", None, "comparison")
@@ -324,9 +417,27 @@ def _comparisons(r: _Reader) -> tuple[Comparison, ...]:
         else:
             expanded = r.number(entry, "expanded", "comparison", positive=True, nth=nth)
             u = expanded / r.number(entry, "k", "comparison", positive=True, nth=nth)
-        made.append(Comparison(label=label, estimate=float(value), standard_uncertainty=u,
-                               expanded_uncertainty=expanded))
+        scale = _comparison_scale(r, entry, unit, nth)
+        made.append(Comparison(label=label, estimate=float(value) * scale,
+                               standard_uncertainty=u * scale,
+                               expanded_uncertainty=expanded * scale))
     return tuple(made)
+
+
+def _comparison_scale(r: _Reader, entry: dict[str, Any], unit: str, nth: int) -> float:
+    """The factor from the comparison's declared unit to the certified value's unit."""
+    if "unit" not in entry:
+        return 1.0
+    from .units import parse_unit
+
+    where = r.where("comparison", "unit", nth)
+    given, wanted = parse_unit(r.text(entry, "unit", "comparison", nth), where), \
+        parse_unit(unit, where)
+    if given.offset or wanted.offset or given.unit.dims != wanted.unit.dims:
+        raise r.fail(f"expected a unit of the certified value's kind ('{unit}', "
+                     f"{wanted.describe()}), found '{given.text}' ({given.describe()})",
+                     "comparison", "unit", nth)
+    return float(given.factor / wanted.factor)
 
 
 def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...]]:

@@ -40,6 +40,7 @@ from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
 from .model import Model
 from .register import date_warnings, read_date
+from .studydata import time_words
 from .units import parse_unit
 
 __all__ = ["Homogeneity", "Stability", "Characterization", "ComparisonScore",
@@ -76,6 +77,7 @@ class Stability:
     dof: int
     shelf_life: float
     u_lts: float
+    time_unit: str = ""
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -163,7 +165,8 @@ def anova(groups: list[np.ndarray], labels: list[str] | None = None) -> Homogene
                        p_value=p_value, dof_between=dof_b, dof_within=dof_w)
 
 
-def trend(times: np.ndarray, values: np.ndarray, shelf_life: float) -> Stability:
+def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
+          time_unit: str = "") -> Stability:
     """Least-squares line, t-test of its slope and u_lts = s(b₁)·shelf life."""
     from .special import t_two_sided_p
 
@@ -180,7 +183,8 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float) -> Stability
     return Stability(times=tuple(float(x) for x in times),
                      values=tuple(float(v) for v in values), intercept=intercept,
                      slope=slope, u_slope=u_slope, residual_sd=s, t=t, p_value=p_value,
-                     dof=n - 2, shelf_life=shelf_life, u_lts=u_slope * shelf_life)
+                     dof=n - 2, shelf_life=shelf_life, u_lts=u_slope * shelf_life,
+                     time_unit=time_unit)
 
 
 def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None = None,
@@ -211,13 +215,17 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
         warnings.append("no homogeneity study: u_bb is taken as 0")
     stability = None
     if campaign.stability is not None:
-        stability = trend(*campaign.stability, campaign.shelf_life)
+        stability = trend(*campaign.stability, campaign.shelf_life,
+                          time_unit=campaign.time_unit)
         if stability.p_value < 0.05:
             warnings.append(f"stability: the trend is significant (slope "
-                            f"{stability.slope:.3g} {campaign.unit} per time unit, p = "
+                            f"{stability.slope:.3g} {campaign.unit} per "
+                            f"{time_words(campaign.time_unit)}, p = "
                             f"{stability.p_value:.3g} < 0.05)")
     else:
         warnings.append("no stability study: u_lts and u_sts are taken as 0")
+    warnings.extend(campaign.warnings)
+    warnings.extend(study_warnings(campaign, value_from, homogeneity, stability))
     studies, stability_used, campaign_used = None, stability, campaign
     if campaign.stability_plan is not None and stability is not None:
         from .stability import evaluate_studies, studies_in_use
@@ -291,11 +299,11 @@ def _simulate_certified(cert: Certification, char: Characterization | None,
 
 def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:
     """The dates in the runs table's ``date`` column (ISO 8601), if it has one."""
-    frame = campaign.runs
-    if "date" not in frame.columns:
+    labels = dict(campaign.runs.labels)
+    if "date" not in labels:
         return campaign.model.measured
     days = []
-    for row, cell in enumerate(frame["date"]):
+    for row, cell in zip(campaign.runs.rows, labels["date"]):
         where = Location(file=campaign.source, table="characterization", key="runs")
         try:
             days.append(read_date(str(cell), where))
@@ -303,7 +311,7 @@ def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:
             path = next((p for role, p, _ in campaign.data_files
                          if role == "characterization.runs"), campaign.source)
             raise CampaignError(f"column 'date': expected a date such as 2025-05-06, found "
-                                f"'{cell}'", Location(file=path, line=row + 2)) from exc
+                                f"'{cell}'", Location(file=path, line=row)) from exc
     return tuple(days)
 
 
@@ -384,7 +392,7 @@ def _run_values(campaign: Campaign, index: int) -> np.ndarray:
     values: list[object] = [i.estimate for i in model.inputs]
     names = [i.name for i in model.inputs]
     for name in campaign.run_inputs:
-        values[names.index(name)] = campaign.runs[name].to_numpy(dtype=float)
+        values[names.index(name)] = campaign.runs.values(name)
     with np.errstate(all="ignore"):
         y = np.broadcast_to(compile_model(model).evaluate(values)[index],
                             (len(campaign.runs),)).astype(float)
@@ -405,7 +413,7 @@ def _model_at_mean(campaign: Campaign, repeatability: float | None = None) -> Mo
     inputs = []
     for item in campaign.model.inputs:
         if item.name in campaign.run_inputs:
-            mean = float(campaign.runs[item.name].to_numpy(dtype=float).mean())
+            mean = float(campaign.runs.values(item.name).mean())
             item = replace(item, estimate=mean,
                            distribution=replace(item.distribution, estimate=mean))
         if item.name in campaign.scatter_covers:
@@ -423,8 +431,26 @@ def _covered_basis(repeatability: float | None, unit: str, basis: str) -> str:
 
 
 def _labels(campaign: Campaign) -> tuple[str, ...]:
-    frame = campaign.runs
-    label_columns = [c for c in frame.columns if c not in campaign.run_inputs]
-    if not label_columns:
-        return tuple(str(i + 1) for i in range(len(frame)))
-    return tuple(str(v) for v in frame[label_columns[0]])
+    return campaign.runs.label_column()
+
+
+def study_warnings(campaign: Campaign, char: Characterization,
+                   homogeneity: Homogeneity | None, stability: Stability | None) -> list[str]:
+    """Homogeneity and stability means consistent with the characterization value."""
+    from .plausibility import consistency_warning
+
+    found = []
+    if homogeneity is not None:
+        total = sum(homogeneity.counts)
+        mean = sum(m * c for m, c in zip(homogeneity.means, homogeneity.counts)) / total
+        found.append(consistency_warning("homogeneity", mean,
+                                         math.sqrt(homogeneity.ms_between / total),
+                                         char.mean, char.standard_uncertainty, campaign.unit,
+                                         "homogeneity"))
+    if stability is not None:
+        values = np.array(stability.values)
+        found.append(consistency_warning("stability", float(values.mean()),
+                                         stability.residual_sd / math.sqrt(values.size),
+                                         char.mean, char.standard_uncertainty, campaign.unit,
+                                         "stability"))
+    return [w for w in found if w is not None]

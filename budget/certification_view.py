@@ -45,6 +45,7 @@ def certification_view(cert: Any) -> dict[str, Any]:
         "stability": _stability(cert.stability, unit, digits),
         "comparisons": _comparisons(cert, unit, digits),
         "warnings": list(cert.warnings),
+        "excluded": [str(item) for item in campaign.excluded],
     }
 
 
@@ -125,12 +126,16 @@ def _stability(s: Any, unit: str, digits: int) -> dict[str, Any] | None:
         half = t_q * s.residual_sd * math.sqrt(1 / times.size + (t - t_mean) ** 2 / sxx)
         fit = s.intercept + s.slope * t
         band.append((float(t), fit - half, fit + half))
+    from .studydata import time_words
+
     return {"slope": format_number(s.slope, digits), "u_slope": format_number(s.u_slope, digits),
             "t": f"{s.t:.3g}", "p": f"{s.p_value:.2g}", "significant": s.p_value < 0.05,
-            "dof": s.dof, "shelf_life": f"{s.shelf_life:g}",
+            "dof": s.dof, "shelf_life": time_words(s.time_unit, s.shelf_life),
+            "per": time_words(s.time_unit),
             "u_lts": format_number(s.u_lts, digits),
             "chart": trend_plot(s.times, s.values, intercept=s.intercept, slope=s.slope,
-                                band=band, unit=unit, time_label="time",
+                                band=band, unit=unit,
+                                time_label=f"time / {s.time_unit}" if s.time_unit else "time",
                                 label="stability: values against time")}
 
 

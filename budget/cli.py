@@ -1,8 +1,10 @@
 """The ``budget`` command: a thin shell over the Python API.
 
 Exit status: 0 success; 1 a model or input error (one ``error:`` line naming the file and
-where in it, no traceback); 2 a bad command line (click's usage errors). Warnings go to
-standard error as ``warning:`` lines. The engine is imported inside the commands, so
+where in it, no traceback); 2 a bad command line (click's usage errors); 3 with
+``--strict``, when there is any warning (nothing is printed on standard output and no
+file is written). Warnings go to standard error as ``warning:`` lines. The engine is
+imported inside the commands, so
 ``budget --help`` starts without loading sympy, scipy, pint or pandas.
 """
 
@@ -95,6 +97,36 @@ class _Group(click.Group):
             raise click.exceptions.Exit(1) from None
 
 
+STRICT_EXIT = 3
+
+
+def _strict(enabled: bool, warnings: Any) -> None:
+    """With ``--strict``, any warning ends the command with exit status 3, no output."""
+    if not enabled or not warnings:
+        return
+    _warn(warnings)
+    count = len(warnings)
+    click.echo(f"error: --strict: {count} warning{'s' if count > 1 else ''}; no output "
+               "written", err=True)
+    sys.exit(STRICT_EXIT)
+
+
+def _export_options(function: Callable[..., Any]) -> Callable[..., Any]:
+    options = [
+        click.option("--csv", "csv_file", metavar="FILE", default=None,
+                     help="Also write the table (JSON names, unrounded) as CSV to FILE."),
+        click.option("--xlsx", "xlsx_file", metavar="FILE", default=None,
+                     help="Also write the tables to an .xlsx workbook (needs openpyxl)."),
+    ]
+    for option in reversed(options):
+        function = option(function)
+    return function
+
+
+_STRICT = click.option("--strict", is_flag=True,
+                       help="Exit with status 3, writing nothing, when there is a warning.")
+
+
 class _Progress:
     """A one-line progress indication on a terminal, shown only after about a second."""
 
@@ -158,10 +190,13 @@ def main() -> None:
               help="Also write the self-contained HTML report to FILE.")
 @click.option("--second-order", is_flag=True,
               help="Add the GUM 5.1.2 higher-order terms (uncorrelated inputs).")
+@_export_options
+@_STRICT
 @_REPORTED_OPTION
 def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
         coverage: float | None, digits: int | None, as_json: bool, html_file: str | None,
-        second_order: bool, reported_interval: str | None) -> None:
+        second_order: bool, csv_file: str | None, xlsx_file: str | None,
+        strict: bool, reported_interval: str | None) -> None:
     """Evaluate MODEL.toml: GUM budget and Monte Carlo cross-check."""
     from .errors import BudgetError
 
@@ -170,10 +205,16 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
                            second_order, progress, reported_interval)
         progress.close()
+        _strict(strict, result.warnings)
         if html_file:
             from .report import write_report
 
             write_report(result, html_file)
+        if csv_file or xlsx_file:
+            from .document import result_document
+            from .export import budget_tables, write_tables
+
+            write_tables(budget_tables(result_document(result)), csv_file, xlsx_file)
     except BudgetError as error:
         progress.close()
         _fail(error)
@@ -209,9 +250,10 @@ def _print_result(result: Any, as_json: bool) -> None:
 @_common
 @click.option("--target", type=_TARGET, default=None,
               metavar="U", help="What each leading input's u must be for this U.")
+@_STRICT
 def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
             coverage: float | None, digits: int | None, as_json: bool,
-            target: float | None) -> None:
+            target: float | None, strict: bool) -> None:
     """What dominates the uncertainty of MODEL.toml, why, and what would reduce it."""
     from .errors import BudgetError
     from .explain import explain as run_explain, explanation_document, render
@@ -221,6 +263,7 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits, False,
                            progress)
         progress.close()
+        _strict(strict, result.warnings)
         explanations = run_explain(result, target=target)
     except BudgetError as error:
         progress.close()
@@ -241,7 +284,8 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
 
 @main.command()
 @click.argument("model_file", metavar="MODEL.toml")
-def check(model_file: str) -> None:
+@_STRICT
+def check(model_file: str, strict: bool) -> None:
     """Validate MODEL.toml (syntax, names, units, distributions, correlations)."""
     from .errors import BudgetError
     from .model import load_model
@@ -250,6 +294,7 @@ def check(model_file: str) -> None:
         model = load_model(model_file)
     except BudgetError as error:
         _fail(error)
+    _strict(strict, model.warnings)
     _out(f"ok: {model_file}: {len(model.inputs)} inputs, {len(model.measurands)} "
                f"measurand(s), {len(model.definitions)} definition(s), "
                f"{len(model.correlations)} correlation(s)")
@@ -265,9 +310,12 @@ def check(model_file: str) -> None:
               help="Monte Carlo trials for the characterization model (0 = none).")
 @click.option("--seed", type=click.IntRange(0, 2 ** 64 - 1), default=None,
               help="Random seed.")
+@_export_options
+@_STRICT
 @_REPORTED_OPTION
 def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: int | None,
-            seed: int | None, reported_interval: str | None) -> None:
+            seed: int | None, csv_file: str | None, xlsx_file: str | None,
+            strict: bool, reported_interval: str | None) -> None:
     """Certify a batch: characterization, homogeneity, stability, comparison."""
     from .campaign import load_campaign
     from .certification import certify as run_certification
@@ -279,10 +327,17 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
         cert = run_certification(campaign, trials=trials, seed=seed, progress=progress,
                                  reported_interval=reported_interval)
         progress.close()
+        _strict(strict, cert.warnings)
         if html_file:
             from .report import write_certification_report
 
             write_certification_report(cert, html_file)
+        if csv_file or xlsx_file:
+            from .document import certification_document
+            from .export import certification_tables, write_tables
+
+            write_tables(certification_tables(certification_document(cert)), csv_file,
+                         xlsx_file)
     except BudgetError as error:
         progress.close()
         _fail(error)

@@ -164,11 +164,14 @@ def certification_document(cert: Any) -> dict[str, Any]:
             "counts": list(h.counts)},
         "stability": None if s is None else {
             "slope": s.slope, "u_slope": s.u_slope, "p_value": s.p_value, "u_lts": s.u_lts,
-            "intercept": s.intercept, "t": s.t, "dof": s.dof, "shelf_life": s.shelf_life},
+            "intercept": s.intercept, "t": s.t, "dof": s.dof, "shelf_life": s.shelf_life,
+            "time_unit": s.time_unit or None},
         "comparisons": [{"label": c.label, "E_n": c.E_n, "zeta": c.zeta, "agrees": c.agrees,
                          "value": c.estimate, "u": c.standard_uncertainty,
                          "U": c.expanded_uncertainty} for c in cert.comparisons],
         "warnings": list(cert.warnings),
+        "excluded": [{"file": e.file, "row": e.row, "column": e.column, "reason": e.reason}
+                     for e in campaign.excluded],
         "material": campaign.material,
         "coverage": cert.coverage_probability,
         "dof": dof_or_null(cert.dof),

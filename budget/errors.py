@@ -11,6 +11,7 @@ root only, so anything else that escapes is a bug in ``budget`` and shows as one
     ├── UnitError        (also ValueError)   unknown unit, dimension mismatch, offset misuse
     ├── InputError       (also ValueError)   missing/invalid keys and numbers, correlations
     ├── CampaignError    (also ValueError)   campaign files and their CSV data
+    │   └── DataFileError                    a data table: encoding, separators, cells
     ├── PropagationError                     the model cannot be evaluated at the estimates
     └── SimulationError                      Monte Carlo cannot give a result
 
@@ -26,7 +27,8 @@ from typing import Iterable
 
 __all__ = [
     "BudgetError", "ModelSyntaxError", "UnknownNameError", "UnitError", "InputError",
-    "CampaignError", "PropagationError", "SimulationError", "Location", "did_you_mean",
+    "CampaignError", "DataFileError", "PropagationError", "SimulationError", "Location",
+    "did_you_mean",
 ]
 
 
@@ -76,6 +78,10 @@ class InputError(BudgetError, ValueError):
 
 class CampaignError(BudgetError, ValueError):
     """A campaign file or its data tables break the campaign contract."""
+
+
+class DataFileError(CampaignError):
+    """A data table (CSV or workbook) that cannot be read as declared."""
 
 
 class PropagationError(BudgetError):

@@ -32,6 +32,7 @@ from typing import Sequence
 from . import algebra as alg
 from .errors import InputError, Location, did_you_mean
 from .model import Input, Measurand, Model
+from .together import Together
 from .units import parse_unit
 
 __all__ = ["Member", "Joint", "join", "joint_name"]
@@ -114,13 +115,31 @@ def _assemble(members: Sequence[Member], merged: dict[str, Input],
         correlations.extend((rename[(member.name, a)], rename[(member.name, b)], r)
                             for a, b, r in member.model.correlations)
     first = members[0].model
+    sets = _sets(members, rename)
     model = Model(title=title or "joint evaluation of " + ", ".join(m.name for m in members),
                   description="", inputs=tuple(merged.values()), definitions=(),
                   measurands=tuple(measurands), correlations=_distinct(correlations),
-                  settings=first.settings, source="joint evaluation of " + ", ".join(
-                      m.model.source for m in members))
+                  settings=first.settings, estimated_together=sets,
+                  source="joint evaluation of " + ", ".join(m.model.source for m in members))
     return Joint(model=model, inputs=tuple(rename.items()), measurands=tuple(placed),
                  shared=tuple((n, tuple(u)) for n, u in shared))
+
+
+def _sets(members: Sequence[Member],
+          rename: dict[tuple[str, str], str]) -> tuple[Together, ...]:
+    """The members' [[estimated_together]] sets under the joint names, each once."""
+    found: dict[frozenset[str], Together] = {}
+    owner: dict[str, frozenset[str]] = {}
+    for member in members:
+        for item in member.model.estimated_together:
+            names = tuple(rename[(member.name, n)] for n in item.inputs)
+            key = frozenset(names)
+            for name in names:
+                if owner.setdefault(name, key) != key:
+                    raise InputError("expected each input in one [[estimated_together]] set "
+                                     f"at most, found the shared input '{name}' in two")
+            found.setdefault(key, replace(item, inputs=names))
+    return tuple(found.values())
 
 
 def _distinct(pairs: list[tuple[str, str, float]]) -> tuple[tuple[str, str, float], ...]:

@@ -22,7 +22,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from .campaign import _Reader, read_table
+from .campaign import _Reader
 from .combination import RULES
 from .errors import did_you_mean
 from .model import Model, load_model
@@ -44,7 +44,7 @@ class ModelMethod:
     label: str
     model: Model
     measurand: str
-    runs: Any  # pandas DataFrame or None
+    runs: Any  # studydata.Runs or None
     run_inputs: tuple[str, ...]
     scatter_covers: tuple[str, ...]
 
@@ -211,19 +211,11 @@ def _file(r: _Reader, entry: dict[str, Any], key: str, table: str, nth: int) -> 
 
 def _runs(r: _Reader, path: Path, model: Model, table: str, nth: int
           ) -> tuple[Any, tuple[str, ...]]:
-    import pandas as pd
+    from .campaign import read_runs_file
+    from .datafiles import FileFormat
 
-    header = pd.read_csv(path, nrows=0, dtype=str).columns if path.stat().st_size else []
-    names = {i.name for i in model.inputs}
-    inputs = tuple(str(c).strip() for c in header if str(c).strip() in names)
-    if not inputs:
-        raise r.fail(f"expected columns named like inputs of the model in '{path.name}', "
-                     "found none", table, "runs", nth)
-    for name in inputs:
-        if model.input(name).molar_mass is not None:
-            raise r.fail(f"expected run columns for measured inputs, found '{name}', which "
-                         "a formula gives", table, "runs", nth)
-    return read_table(path, inputs), inputs
+    runs = read_runs_file(r, path, FileFormat(), model, table, nth)
+    return runs, runs.names
 
 
 def _combination(r: _Reader, labels: list[str]) -> tuple[str | None, tuple[str, ...]]:

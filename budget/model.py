@@ -272,11 +272,14 @@ class _Reader:
         files: tuple[tuple[str, str, str], ...] = (("model", self.name, sha256),)
         if self.register is not None:
             files += (("register", self.register.source, self.register.sha256),)
-        return Model(title=title.strip(), description=str(self.doc.get("description", "")),
+        made = Model(title=title.strip(), description=str(self.doc.get("description", "")),
                      inputs=inputs, definitions=definitions, measurands=measurands,
                      correlations=pairs, settings=settings, estimated_together=sets,
                      source=self.name, sha256=sha256, warnings=warnings, certificates=uses,
                      measured=measured, files=files, records=tuple(generated.views))
+        from .plausibility import model_warnings
+
+        return replace(made, warnings=warnings + model_warnings(made))
 
     def read_register(self, convention: str) -> Register | None:
         if "register" not in self.doc:

@@ -15,7 +15,7 @@ from .errors import InputError, Location
 __all__ = ["write_atomic"]
 
 
-def write_atomic(path: str | Path, text: str) -> None:
+def write_atomic(path: str | Path, text: str | bytes) -> None:
     target = Path(path)
     folder = target.parent if str(target.parent) else Path(".")
     if not folder.is_dir():
@@ -24,8 +24,12 @@ def write_atomic(path: str | Path, text: str) -> None:
     descriptor, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp",
                                              dir=folder)
     try:
-        with os.fdopen(descriptor, "w", encoding="utf-8") as stream:
-            stream.write(text)
+        if isinstance(text, bytes):
+            with os.fdopen(descriptor, "wb") as binary:
+                binary.write(text)
+        else:
+            with os.fdopen(descriptor, "w", encoding="utf-8") as stream:
+                stream.write(text)
         mask = os.umask(0)
         os.umask(mask)
         os.chmod(temporary, 0o666 & ~mask)

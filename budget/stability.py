@@ -101,7 +101,6 @@ def read_stability_plan(r: "_Reader", section: dict[str, Any] | None) -> Stabili
     if section is None or not any(k in section for k in ("series", "short_term",
                                                            "evaluation")):
         return None
-    from .campaign import read_table
 
     evaluation = section.get("evaluation", "separately")
     if evaluation not in EVALUATIONS:
@@ -117,9 +116,9 @@ def read_stability_plan(r: "_Reader", section: dict[str, Any] | None) -> Stabili
             raise r.fail(f"expected a table, found {entry!r}", "stability.series", None, nth)
         r.known(entry, "stability.series", _SERIES_KEYS, nth)
         label = r.text(entry, "label", "stability.series", nth)
-        times, values = _series(r, entry, "stability.series", nth, read_table)
+        times, values = _series(r, entry, "stability.series", nth)
         series.append(SeriesPlan(label=label, times=times, values=values))
-    short, temperature, transport = _short_term(r, section, read_table)
+    short, temperature, transport = _short_term(r, section)
     label = str(section.get("label", "data"))
     labels = [label, *(s.label for s in series)]
     if len(set(labels)) < len(labels):
@@ -130,7 +129,7 @@ def read_stability_plan(r: "_Reader", section: dict[str, Any] | None) -> Stabili
                          transport_time=transport)
 
 
-def _short_term(r: "_Reader", section: dict[str, Any], read_table: Any
+def _short_term(r: "_Reader", section: dict[str, Any]
                 ) -> tuple[SeriesPlan | None, float | None, float]:
     data = section.get("short_term")
     if data is None:
@@ -142,7 +141,7 @@ def _short_term(r: "_Reader", section: dict[str, Any], read_table: Any
         raise r.fail("expected either 'u_short_term' or a [stability.short_term] study, "
                      "found both", "stability", "u_short_term")
     r.known(data, "stability.short_term", _SHORT_KEYS)
-    times, values = _series(r, data, "stability.short_term", 0, read_table)
+    times, values = _series(r, data, "stability.short_term", 0)
     transport = r.number(data, "transport_time", "stability.short_term", positive=True)
     temperature = None
     if "temperature" in data:
@@ -155,7 +154,7 @@ def _short_term(r: "_Reader", section: dict[str, Any], read_table: Any
     return SeriesPlan(label=label, times=times, values=values), temperature, transport
 
 
-def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int, read_table: Any
+def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int
             ) -> tuple[Array, Array]:
     relative = r.text(entry, "data", table, nth)
     path = Path(r.path.parent / relative)
@@ -165,12 +164,22 @@ def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int, read_tabl
     import hashlib
 
     r.files.append((f"{table}.data", str(path), hashlib.sha256(path.read_bytes()).hexdigest()))
-    frame = read_table(path, ("time", "value"), at_least=3)
-    times = frame["time"].to_numpy(dtype=float)
-    if np.unique(times).size < 2:
-        raise CampaignError(f"expected at least 2 different time points, found "
-                            f"{np.unique(times).size}", Location(file=str(path)))
-    return times, frame["value"].to_numpy(dtype=float)
+    from .datafiles import FileFormat
+    from .studydata import read_stability
+
+    stability = r.doc.get("stability", {})
+    time_unit = stability.get("time_unit") if isinstance(stability, dict) else None
+    data = read_stability(path, FileFormat(), str(r.doc.get("unit", "")), None,
+                          time_unit if isinstance(time_unit, str) else None, None, str(path))
+    if data.excluded:  # the outputs list exclusions of the main stability table only
+        raise CampaignError(f"expected a value in every row, found {data.excluded[0].reason}",
+                            Location(file=str(path), line=data.excluded[0].row))
+    times = data.times
+    if times.size < 3 or np.unique(times).size < 2:
+        raise CampaignError(f"expected at least 3 points at 2 or more different times, found "
+                            f"{times.size} at {np.unique(times).size}",
+                            Location(file=str(path)))
+    return times, data.values
 
 
 def pooled_trend(series: list[tuple[Array, Array]], period: float) -> PooledTrend:

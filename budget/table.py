@@ -208,6 +208,8 @@ def _certified_monte_carlo(cert: Any, unit: str, digits: int) -> list[str]:
 
 def render_certification(cert: Any, digits: int = 2) -> str:
     """Terminal summary of ``budget certify``."""
+    from .studydata import time_words
+
     campaign, char = cert.campaign, cert.characterization
     unit = terminal_unit(campaign.unit)
     value, expanded = format_pair(cert.certified_value, cert.expanded_uncertainty, digits)
@@ -247,9 +249,10 @@ def render_certification(cert: Any, digits: int = 2) -> str:
     if cert.stability:
         s = cert.stability
         lines.append(f"stability: slope {format_number(s.slope, digits)} ± "
-                     f"{format_number(s.u_slope, digits)} per time unit (p = "
-                     f"{s.p_value:.2g}), u_lts = {format_number(s.u_lts, digits)} {unit} over "
-                     f"{s.shelf_life:g}")
+                     f"{format_number(s.u_slope, digits)} {unit} per "
+                     f"{time_words(s.time_unit)} (p = {s.p_value:.2g}), u_lts = "
+                     f"{format_number(s.u_lts, digits)} {unit} over "
+                     f"{time_words(s.time_unit, s.shelf_life)}")
     for c in cert.comparisons:
         verdict = "agrees" if c.agrees else "DOES NOT AGREE"
         lines.append(f"comparison with {c.label}: E_n = {c.E_n:.2f}, ζ = {c.zeta:.2f}, "
@@ -262,4 +265,7 @@ def render_certification(cert: Any, digits: int = 2) -> str:
         from .studies_output import studies_lines
 
         lines += studies_lines(cert.stability_studies, unit, digits)
+    if campaign.excluded:
+        lines += ["", f"rows left out ({len(campaign.excluded)}):"]
+        lines += [f"  {item}" for item in campaign.excluded]
     return "\n".join(lines)

@@ -18,6 +18,7 @@ needs no registry either.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
 from fractions import Fraction
 from functools import lru_cache
@@ -172,7 +173,25 @@ def _from_table(cleaned: str) -> UnitInfo | None:
     return UnitInfo(text=cleaned, unit=unit, factor=unit.factor)
 
 
+_SIDE_BY_SIDE = re.compile(r"[^\s*/^(]\s+[^\s*/^)]")
+
+
+def _refuse_side_by_side(cleaned: str, where: Location) -> None:
+    """pint reads ``mass %`` as milliarcsecond·percent: two names side by side are refused."""
+    if not _SIDE_BY_SIDE.search(cleaned):
+        return
+    if "%" in cleaned:
+        hint = "'%' (or 'g/g', 'mg/g' for a mass fraction)"
+    else:
+        joined = re.sub(r"\s+", "*", cleaned)
+        hint = f"'{joined}' for a product, or one unit name"
+    raise UnitError(f"expected one unit, or units joined by '*' or '/', found '{cleaned}': two "
+                    f"names side by side, which pint would read as their product; write "
+                    f"{hint}", where)
+
+
 def _parse(cleaned: str, where: Location) -> UnitInfo:
+    _refuse_side_by_side(cleaned, where)
     try:
         return _parse_with_pint(cleaned, where)
     except UnitError:

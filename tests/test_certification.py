@@ -158,15 +158,16 @@ def test_scatter_covers_removes_an_input_from_u_b(tmp_path):
      "homogeneity.csv: expected a column 'value' (did you mean 'valu'?), found the columns "
      "unit, replicate, valu"),
     (None, ("homogeneity.csv", "unit,replicate,value\nA,1,1\nA,2,x2\nB,1,1\nB,2,3\n"),
-     "homogeneity.csv:3: column 'value': expected a finite number, found 'x2'"),
+     "homogeneity.csv:3: column 'value': expected a finite number with a decimal point, "
+     "found 'x2'"),
     (None, ("homogeneity.csv", "unit,replicate,value\nA,1,1\nA,2,2\nA,3,1\nA,4,3\n"),
-     "homogeneity.csv: expected at least 2 units, found 1"),
+     "homogeneity.csv: expected at least 2 units with a value, found 1"),
     (None, ("stability.csv", "time,value\n0,1\n0,2\n0,1.5\n"),
-     "stability.csv: expected at least 2 different time points, found 1"),
+     "stability.csv: expected at least 3 points at 2 or more different times, found 3 at 1"),
     (("shelf_life = 36", "shelf_life = -36"), None,
      "campaign.toml:23: [stability] shelf_life: expected a number > 0, found -36"),
     (("[certificate]", "[certificat]"), None,
-     "campaign.toml:32: certificat: unknown top-level key 'certificat' (did you mean "
+     "campaign.toml:33: certificat: unknown top-level key 'certificat' (did you mean "
      "'certificate'?); expected one of title, material, unit, description, producer, "
      "characterization, homogeneity, stability, comparison, certificate, method, shared, "
      "combination"),

@@ -11,7 +11,9 @@ How a block is run depends on its language:
 * ``text`` preceded by ``<!-- output of: COMMAND -->``: COMMAND runs and its standard
   output must equal the block;
 * ``json`` preceded by ``<!-- shortened from: COMMAND -->``: every key and value shown
-  must be in COMMAND's document (numbers to 1e-12 relative).
+  must be in COMMAND's document (numbers to 1e-12 relative);
+* ``csv`` preceded by ``<!-- file: PATH -->``: the block must be the first lines of the
+  shipped data file PATH (relative to the repository).
 
 Also: every JSON document validates against its schema in ``budget/schemas``.
 """
@@ -35,7 +37,7 @@ from budget.model import parse_model
 
 ROOT = Path(__file__).resolve().parent.parent
 PAGES = [ROOT / "README.md", *sorted((ROOT / "docs").glob("*.md"))]
-_BLOCK = re.compile(r"(?:<!-- (?P<how>output of|shortened from): (?P<command>.*?) -->\n)?"
+_BLOCK = re.compile(r"(?:<!-- (?P<how>output of|shortened from|file): (?P<command>.*?) -->\n)?"
                     r"^```(?P<info>[^\n]*)\n(?P<body>.*?)^```", re.S | re.M)
 _CI_ONLY = ("pip install", "python -m pytest", "python benchmarks/")
 
@@ -81,6 +83,9 @@ def test_code_block_runs(match: re.Match[str], scratch: Path) -> None:
         code, stdout, _ = _budget(match["command"])
         assert code == 0
         _assert_within(json.loads(body), json.loads(stdout), "")
+    elif info == "csv" and match["how"] == "file":
+        shipped = (ROOT / match["command"]).read_text(encoding="utf-8")
+        assert shipped.startswith(body), match["command"]
     else:
         pytest.fail(f"a ```{info} block that the tests do not know how to run")
 
