@@ -13,6 +13,7 @@ from typing import Any
 from .analysis import Result
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
+from .chained import chain_document
 from .register import certificates_document, traceability_statement
 
 __all__ = ["result_document", "certification_document", "CAUTION", "SCHEMA_VERSION",
@@ -60,6 +61,8 @@ def result_document(result: Result) -> dict[str, Any]:
                                   for i, a in enumerate(names)},
         "warnings": list(result.warnings),
         "certificates": certificates_document(model, model.measured),
+        "chain": None if not model.chain else {
+            b.name: chain_document(model, b) for b in result.budget.measurands},
         "digits": result.digits,
         "atomic_weights": _convention(result),
         "provenance": provenance.describe(model, simulation),

@@ -32,6 +32,7 @@ import numpy as np
 
 from .analysis import evaluate
 from .combination import Combined, combine
+from .errors import Location
 from .gum import coverage_factor, propagate, welch_satterthwaite
 from .joint import Member, join
 
@@ -133,7 +134,8 @@ def evaluate_methods(campaign: "Campaign", primary: "Characterization",
         results.append(result)
         rows.append(row)
         offsets.append(offset)
-    covariance, mc = _covariance(members, plan, elements, rows, trials, seed)
+    covariance, mc = _covariance(members, plan, elements, rows, trials, seed,
+                                 Location(file=campaign.source, table="shared"))
     x = np.array([m.estimate for m in results])
     pairs = _pairs(results, covariance, mc)
     for p in pairs:
@@ -262,9 +264,9 @@ def _model_part(campaign: "Campaign", method: "ModelMethod", trials: int | None,
 
 
 def _covariance(members: list[Member], plan: "MethodsPlan", elements: list[_Element],
-                rows: list[list[tuple[int, float]]], trials: int | None, seed: int | None
-                ) -> tuple[np.ndarray, np.ndarray | None]:
-    joint = join(members, plan.shared, title="several methods")
+                rows: list[list[tuple[int, float]]], trials: int | None, seed: int | None,
+                where: Location) -> tuple[np.ndarray, np.ndarray | None]:
+    joint = join(members, plan.shared, title="several methods", where=where)
     budget = propagate(joint.model)
     gum = np.array(budget.output_covariance)
     index = [joint.measurand_index(e.member, e.measurand) if e.member is not None else -1

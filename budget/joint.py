@@ -103,6 +103,7 @@ def _assemble(members: Sequence[Member], merged: dict[str, Input],
     measurands: list[Measurand] = []
     placed: list[tuple[tuple[str, str], str]] = []
     correlations: list[tuple[str, str, float]] = []
+    sets: list[Together] = []
     for member in members:
         swap = {item.name: _scaled(rename[(member.name, item.name)],
                                    factor.get((member.name, item.name), Fraction(1)))
@@ -114,32 +115,31 @@ def _assemble(members: Sequence[Member], merged: dict[str, Input],
             placed.append(((member.name, m.name), name))
         correlations.extend((rename[(member.name, a)], rename[(member.name, b)], r)
                             for a, b, r in member.model.correlations)
+        sets.extend(replace(s, inputs=tuple(rename[(member.name, n)] for n in s.inputs))
+                    for s in member.model.estimated_together)
     first = members[0].model
-    sets = _sets(members, rename)
-    model = Model(title=title or "joint evaluation of " + ", ".join(m.name for m in members),
-                  description="", inputs=tuple(merged.values()), definitions=(),
+    names = ", ".join(m.name for m in members)
+    model = Model(title=title or "joint evaluation of " + names, description="",
+                  inputs=tuple(merged.values()), definitions=(),
                   measurands=tuple(measurands), correlations=_distinct(correlations),
-                  settings=first.settings, estimated_together=sets,
+                  estimated_together=_sets(sets), settings=first.settings,
                   source="joint evaluation of " + ", ".join(m.model.source for m in members))
     return Joint(model=model, inputs=tuple(rename.items()), measurands=tuple(placed),
                  shared=tuple((n, tuple(u)) for n, u in shared))
 
 
-def _sets(members: Sequence[Member],
-          rename: dict[tuple[str, str], str]) -> tuple[Together, ...]:
-    """The members' [[estimated_together]] sets under the joint names, each once."""
-    found: dict[frozenset[str], Together] = {}
+def _sets(sets: list[Together]) -> tuple[Together, ...]:
+    """The members' ``[[estimated_together]]`` sets, renamed; one set per input."""
+    made: dict[frozenset[str], Together] = {}
     owner: dict[str, frozenset[str]] = {}
-    for member in members:
-        for item in member.model.estimated_together:
-            names = tuple(rename[(member.name, n)] for n in item.inputs)
-            key = frozenset(names)
-            for name in names:
-                if owner.setdefault(name, key) != key:
-                    raise InputError("expected each input in one [[estimated_together]] set "
-                                     f"at most, found the shared input '{name}' in two")
-            found.setdefault(key, replace(item, inputs=names))
-    return tuple(found.values())
+    for item in sets:
+        key = frozenset(item.inputs)
+        for name in item.inputs:
+            if owner.setdefault(name, key) != key:
+                raise InputError(f"expected a shared input in one set of inputs estimated "
+                                 f"together, found '{name}' in two different sets")
+        made.setdefault(key, item)
+    return tuple(made.values())
 
 
 def _distinct(pairs: list[tuple[str, str, float]]) -> tuple[tuple[str, str, float], ...]:

@@ -305,4 +305,11 @@ def check_primary_references(r: _Reader, plan: MethodsPlan, model: Model,
             if input_name in run_inputs:
                 raise r.fail(f"expected an input common to all runs, found '{input_name}', "
                              "a column of the runs", "shared", name)
+    if plan.shared:  # the statements must agree: checked now, before anything is computed
+        from .joint import Member, join
+
+        members = [Member(name=plan.primary_label, model=model)]
+        members += [Member(name=label, model=method.model)
+                    for label, method in _members(plan).items() if method is not None]
+        join(members, plan.shared, where=r.where("shared"))
 

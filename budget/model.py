@@ -150,6 +150,7 @@ class Model:
         """A what-if copy: new inputs, the change recorded, the file's digest dropped."""
         return replace(self, inputs=inputs, changes=self.changes + (change,), sha256="")
     records: tuple[Any, ...] = field(default=())  # RecordView of each [fits]/[records] table
+    chain: tuple[Any, ...] = field(default=())  # chained.Link: results of earlier models
 
     def input(self, name: str) -> Input:
         for item in self.inputs:
@@ -174,6 +175,18 @@ def load_model(path: str | Path, **overrides: Any) -> Model:
 
     data = read_input(path, limit=MAX_FILE_BYTES, what="model file", error=InputError)
     return parse_model(data, name=str(path), **overrides)
+
+
+def load_model_in_chain(path: Path, loading: tuple[str, ...], where: Location) -> Model:
+    """An earlier model of a chain (``result_of``); ``loading`` guards against cycles."""
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        reason = "no such file" if isinstance(exc, FileNotFoundError) else exc.strerror
+        raise InputError(f"expected a model file '{path}', found {reason}", where) from exc
+    text = decode(data, str(path))
+    reader = _Reader(text, str(path), read_toml(text, str(path)), loading)
+    return reader.model(hashlib.sha256(data).hexdigest(), {})
 
 
 def decode(data: bytes | str, name: str, what: str = "model") -> str:
@@ -227,8 +240,11 @@ def parse_model(data: bytes | str, name: str = "<string>", **overrides: Any) -> 
 class _Reader:
     """Walks one parsed TOML document; knows how to point at a key's line."""
 
-    def __init__(self, text: str, name: str, document: dict[str, Any]) -> None:
+    def __init__(self, text: str, name: str, document: dict[str, Any],
+                 loading: tuple[str, ...] = ()) -> None:
         self.index, self.name, self.doc = LineIndex(text.splitlines()), name, document
+        self.loading = loading or ((str(Path(name).resolve()),) if name != "<string>" else ())
+        self.links: list[Any] = []
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -279,7 +295,12 @@ class _Reader:
                      measured=measured, files=files, records=tuple(generated.views))
         from .plausibility import model_warnings
 
-        return replace(made, warnings=warnings + model_warnings(made))
+        model = replace(made, warnings=warnings + model_warnings(made))
+        if self.links:
+            from .chained import resolve
+
+            return resolve(model, tuple(self.links))
+        return model
 
     def read_register(self, convention: str) -> Register | None:
         if "register" not in self.doc:
@@ -355,6 +376,14 @@ class _Reader:
         _check_name(name, where)
         if not isinstance(data, dict):
             raise InputError(f"expected a table [inputs.{name}], found {data!r}", where)
+        if "result_of" in data:
+            from .chained import read_link
+
+            link, placeholder = read_link(name, data, _base(self.name),
+                                          lambda key: self.where("inputs." + name, key),
+                                          self.loading)
+            self.links.append(link)
+            return placeholder
         use = self.certificate_use(name, data)
         if use is not None and not any(key in data for key in STATEMENT_WAYS):
             data = self.from_certificate(name, data, use)

@@ -69,8 +69,27 @@ def _budget_view(result: Result) -> dict[str, Any]:
         "records": _records_view(model),
         "provenance": _provenance(describe(model, result.simulation), result),
         "certificates": _certificates_view(model, model.measured),
+        "chain": _chain_view(result),
         "warnings": list(result.warnings),
     }
+
+
+def _chain_view(result: Result) -> dict[str, Any] | None:
+    """Which earlier model fed which input, and each measurand's u_c² by stage."""
+    from .chained import stages
+
+    model = result.model
+    if not model.chain:
+        return None
+    links = [{"input": link.input, "measurand": link.measurand, "source": link.source,
+              "value": f"{format_number(link.estimate, 8)} {link.unit}",
+              "shares": ", ".join(f"{a} = {b}" for a, b in link.shares) or "none"}
+             for link in model.chain]
+    folded = [{"name": b.name, "stages": [
+        {"stage": s.label or "this model", "source": s.source,
+         "share": format_percent(s.share)} for s in stages(model, b)]}
+        for b in result.budget.measurands]
+    return {"links": links, "folded": folded}
 
 
 def _records_view(model: Any) -> list[dict[str, Any]]:
@@ -160,7 +179,10 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "second_order": None if b.second_order_variance is None else
         format_number(b.first_order_uncertainty, 3),
         "chart": bar_chart(chart_rows, "%", f"shares of u_c² of {name_text(b.name)}"),
-        "sensitivity": sensitivity_view(result.model, k),
+        # a chained model's equations name inputs that are now earlier models' results:
+        # the chain rule over this file's text cannot reach their base inputs
+        "sensitivity": {"chains": [], "groups": []} if result.model.chain
+        else sensitivity_view(result.model, k),
         "mc": _simulation_view(b, simulation, digits, unit) if simulation else None,
     }
 

@@ -54,6 +54,10 @@ def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None
         lines.append(model_measurand.description[:WIDTH])
     lines += ["", *_rows(b, result.digits), ""]
     lines += _summary(b, result.digits)
+    if result.model.chain:
+        from .chained import stage_lines
+
+        lines += stage_lines(result.model, b)
     if s is not None:
         lines += _monte_carlo(b, s, result.digits)
     chosen = result.reported_for(b.name)
@@ -116,6 +120,8 @@ def _rows(b: MeasurandBudget, digits: int) -> list[str]:
 
 
 def _fit(cell: str, width: int, right: bool) -> str:
+    if len(cell) > width and ":" in cell and not right:  # a chained name: keep its end
+        return ("…" + cell[len(cell) - width + 1:]).ljust(width)
     if len(cell) > width:
         cell = cell[:width - 1] + "…"
     return cell.rjust(width) if right else cell.ljust(width)

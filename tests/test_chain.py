@@ -19,6 +19,9 @@ from test_typeset import MODEL_FILES
 @pytest.mark.parametrize("path", MODEL_FILES, ids=lambda p: p.name)
 def test_products_of_local_derivatives_equal_the_engines_coefficients(path):
     loaded = load_model(path)
+    if loaded.chain:  # its equations name earlier models' results (tests/test_chained.py)
+        pytest.skip("a chained model: the chain rule over its own text cannot reach the "
+                    "earlier models' base inputs")
     budget = propagate(loaded)
     for k, b in enumerate(budget.measurands):
         rule = chain_rule(loaded, k)

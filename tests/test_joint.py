@@ -98,3 +98,26 @@ def test_unknown_member_and_input_are_named() -> None:
         join(members, [("s", [("one", "s"), ("tow", "s")])])
     with pytest.raises(InputError, match="found 'ss' \\(did you mean 's'\\?\\)"):
         join(members, [("s", [("one", "s"), ("two", "ss")])])
+
+
+def test_sets_estimated_together_are_carried_and_merged() -> None:
+    # JCGM 100 H.3: the intercept and slope of one line are one set (nu = 9); two models
+    # that share both keep ONE set, two that share neither keep two renamed sets
+    from conftest import MODELS
+
+    from budget.model import load_model
+
+    model = load_model(MODELS / "reference" / "gum-h3-thermometer.toml")
+    members = [Member(name="one", model=model), Member(name="two", model=model)]
+    apart = join(members)
+    assert sorted(s.inputs for s in apart.model.estimated_together) == [
+        ("one:y1", "one:y2"), ("two:y1", "two:y2")]
+    shared = join(members, [("y1", [("one", "y1"), ("two", "y1")]),
+                            ("y2", [("one", "y2"), ("two", "y2")])])
+    assert [s.inputs for s in shared.model.estimated_together] == [("y1", "y2")]
+    assert [s.dof for s in shared.model.estimated_together] == [9]
+    # every other input is exact: the two corrections are one quantity, cov = variance,
+    # and the correlation y1-y2 stated in both models is kept once
+    assert shared.model.correlations == (("y1", "y2", -0.93),)
+    cov = np.array(propagate(shared.model).output_covariance)
+    assert cov[0, 1] == pytest.approx(cov[0, 0], rel=1e-12)

@@ -10,10 +10,12 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from budget.campaign import load_campaign
 from budget.certification import certify
-from budget.errors import CampaignError
+from budget.errors import BudgetError, CampaignError, InputError
 
 from conftest import MODELS
 
@@ -277,3 +279,67 @@ def test_mass_balance_needs_impurities(tmp_path: Path) -> None:
     assert str(caught.value).replace(str(tmp_path) + "/", "") == (
         "campaign.toml:13: [method] kind: expected at least one [[method.impurity]] table, "
         "found none")
+
+
+def test_shared_inputs_stated_differently_are_refused_on_loading(tmp_path: Path) -> None:
+    path = _write(tmp_path, TWO + "\n[shared]\ns = [\"A.s\", \"B.s\"]\n")
+    (tmp_path / "b.toml").write_text(MODEL_B.replace("u = 0.010", "u = 0.020"))
+    with pytest.raises(InputError) as caught:
+        load_campaign(path)
+    assert str(caught.value).replace(str(tmp_path) + "/", "") == (
+        "campaign.toml:17: [shared] shared input 's': expected the same estimate, standard "
+        "uncertainty and distribution in every model, found 0 ± 0.01 % (normal) and 0 ± "
+        "0.02 % (normal) in 'B'")
+
+
+_FUZZ = int(__import__("os").environ.get("BUDGET_FUZZ_EXAMPLES", "25"))
+
+
+@settings(max_examples=_FUZZ, deadline=None,
+          derandomize=not __import__("os").environ.get("BUDGET_FUZZ_RANDOM"),
+          suppress_health_check=list(HealthCheck))
+@given(st.data())
+def test_mutated_three_method_campaigns_fail_only_with_budget_errors(
+        tmp_path_factory: pytest.TempPathFactory, data: st.DataObject) -> None:
+    # robustness: a mutated line of the campaign or of a method's data gives a BudgetError
+    # or a result, never another exception
+    import shutil
+
+    root = tmp_path_factory.mktemp("methods")
+    shutil.copytree(MODELS, root / "models")
+    folder = root / "models" / "vics-as-25a"
+    name = data.draw(st.sampled_from(["campaign-methods.toml", "titrations.csv", "water.csv",
+                                      "short-term-50C.csv", "stability-25C.csv"]))
+    lines = (folder / name).read_text().splitlines()
+    i = data.draw(st.integers(0, len(lines) - 1))
+    lines[i] = data.draw(st.sampled_from([
+        "", "x,y", "T1,2025-05-12,0,0,0,0", "W1,2025-05-20,0,-1", "0,1,nan",
+        "rule = \"paule-mandel\"", "rule = \"mean\"", "kind = \"mass_balance\"",
+        "methods = [\"coulometry\"]", "value = -5", "u = 0", "transport_time = 0",
+        "evaluation = \"together\"", "M_KHP = [\"coulometry.M\", \"weight titration.w_CRM\"]",
+        "rho_KHP = [\"coulometry.rho_s\"]", "unit = \"mg\"", "[[method]]",
+        "[[method.impurity]]", "label = \"coulometry\"", "runs = \"water.csv\"",
+        "measurand = \"w\"", "[stability.short_term]", "model = \"water.csv\""]))
+    (folder / name).write_text("\n".join(lines) + "\n")
+    try:
+        certify(load_campaign(folder / "campaign-methods.toml"), trials=0)
+    except BudgetError:
+        pass
+
+
+@pytest.mark.parametrize("rule", ["mean", "dersimonian-laird", "paule-mandel"])
+def test_declared_rule_reaches_the_certified_value(tmp_path: Path, rule: str) -> None:
+    # the campaign's rule gives the same value as budget.combination on the method
+    # covariance matrix (itself checked against published and independent computations)
+    from budget.combination import combine
+
+    cert = certify(load_campaign(_write(tmp_path, TWO + f"""
+[combination]
+rule = "{rule}"
+""")), trials=0)
+    v = np.array(cert.methods.covariance)
+    x = [m.estimate for m in cert.methods.methods]
+    expected = combine(x, v, rule)
+    assert cert.certified_value == expected.value
+    assert dict(cert.components)["characterization"] == expected.standard_uncertainty
+    assert cert.methods.combined.tau == expected.tau
