@@ -29,10 +29,9 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
-import sympy
-
 from .errors import InputError, Location
-from .joint import Member, join
+from . import algebra as alg
+from .joint import Member, join, joint_name
 from .model import Input, Model
 from .units import parse_unit
 
@@ -168,22 +167,19 @@ def _one(model: Model, link: PendingLink) -> Model:
                                                           model=link.upstream)],
                  shared, title=model.title, where=link.where)
     final = {joint_name: _plain(joint_name) for _, joint_name in joint.inputs}
-    swap = {sympy.Symbol(a): sympy.Symbol(b) for a, b in final.items() if a != b}
+    swap = {a: alg.symbol(b) for a, b in final.items() if a != b}
     result = joint.model.measurands[joint.measurand_index(link.input, link.measurand)]
     placeholder = model.input(link.input)
-    theirs = parse_unit(result.unit, link.where)
-    ratio = theirs.factor / parse_unit(placeholder.unit, link.where).factor
-    value = result.expression.xreplace(swap) * sympy.Rational(ratio.numerator,
-                                                              ratio.denominator)
-    opaque = (result.opaque if result.opaque is not None else result.expression)
-    opaque_value = opaque.xreplace(swap) * sympy.Rational(ratio.numerator, ratio.denominator)
-    stand_in = {sympy.Symbol(link.input): value}
-    stand_in_opaque = {sympy.Symbol(link.input): opaque_value}
+    ratio = parse_unit(result.unit, link.where).factor / parse_unit(
+        placeholder.unit, link.where).factor
+    scale = alg.number(ratio)
+    stand_in = {**swap, joint_name(_THIS, link.input):
+                alg.substitute(result.graph, swap) * scale}
+    stand_in_opaque = {**swap, joint_name(_THIS, link.input):
+                       alg.substitute(result.opaque_graph, swap) * scale}
     measurands = tuple(
-        replace(m, name=_plain(m.name), expression=m.expression.xreplace(swap)
-                .xreplace(stand_in),
-                opaque=None if m.opaque is None else m.opaque.xreplace(swap)
-                .xreplace(stand_in_opaque))
+        replace(m, name=_plain(m.name), graph=alg.substitute(m.graph, stand_in),
+                opaque_graph=alg.substitute(m.opaque_graph, stand_in_opaque))
         for m in joint.model.measurands if m.name.startswith(_THIS + ":"))
     inputs = _ordered(model, joint.model, final, link.input)
     upstream_names = tuple(final[j] for (member, _), j in joint.inputs
@@ -191,9 +187,8 @@ def _one(model: Model, link: PendingLink) -> Model:
     return replace(
         model, inputs=inputs, measurands=measurands,
         correlations=tuple((final[a], final[b], r) for a, b, r in joint.model.correlations),
-        estimated_together=model.estimated_together + tuple(
-            replace(s, inputs=tuple(_upstream_name(link, n, dict(link.shares)) for n in
-                                    s.inputs)) for s in link.upstream.estimated_together),
+        estimated_together=tuple(replace(t, inputs=tuple(final[n] for n in t.inputs))
+                                 for t in joint.model.estimated_together),
         certificates=model.certificates + tuple(
             replace(u, input=_upstream_name(link, u.input, dict(link.shares)))
             for u in link.upstream.certificates),
@@ -271,23 +266,24 @@ def _linear_model(document: dict[str, Any], source: str) -> Model:
     measurands = []
     warnings: list[str] = []
     for m in document["measurands"]:
-        expression: Any = sympy.Float(float(m["value"]))
+        terms = [alg.number(float(m["value"]))]
         for c in m.get("contributions", []):
             name = str(c["input"])
             if name not in inputs:
                 inputs[name] = _saved_input(c, warnings)
-            expression += sympy.Float(float(c["sensitivity"])) * (
-                sympy.Symbol(name) - sympy.Float(float(c["estimate"])))
+            terms.append(alg.number(float(c["sensitivity"])) * (
+                alg.symbol(name) - alg.number(float(c["estimate"]))))
+        graph = alg.add(*terms)
         if not m.get("contributions"):
             name = f"{m['name']}_result"
             inputs[name] = _saved_input({"input": name, "estimate": m["value"],
                                          "unit": m["unit"], "u": m["u"],
                                          "dof": m["dof"], "distribution": "normal"},
                                         warnings)
-            expression = sympy.Symbol(name)
+            graph = alg.symbol(name)
         measurands.append(Measurand(name=str(m["name"]), equation="(saved result)",
-                                    unit=str(m["unit"]), expression=expression,
-                                    shown=expression, opaque=expression))
+                                    unit=str(m["unit"]), graph=graph, shown_graph=graph,
+                                    opaque_graph=graph))
     pairs = {}
     for m in document["measurands"]:
         for t in m.get("correlation_terms", []):

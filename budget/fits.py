@@ -15,9 +15,12 @@ Method:
   Delgado, "Unified equations for the slope, intercept, and standard errors of the best
   straight line", Am. J. Phys. 72 (2004) 367–375, section III (steps 1–7) with the
   standard errors of its eq. (13);
-* the exponential decay with an offset, i(t) = i₀·exp(−(t − t₀)/τ) + i_b, by
-  Levenberg–Marquardt (``scipy.optimize.curve_fit``); covariance from the Jacobian at the
-  solution scaled by s², ν = n − 3; starting values from a log-linear fit.
+* the exponential decay with an offset, i(t) = i₀·exp(−(t − t₀)/τ) + i_b, by variable
+  projection (for a fixed τ the model is linear in i₀ and i_b; τ is found by a
+  golden-section search of the residual sum of squares over log τ, then all three are
+  polished by Gauss–Newton steps); covariance s²(JᵀJ)⁻¹ from the Jacobian at the solution,
+  ν = n − 3 (the covariance ``scipy.optimize.curve_fit`` gives; the tests compare).
+  The search starts from a log-linear fit, so the currents must be > 0.
 
 Every fit is a frozen :class:`Fit`; problems are :class:`FitError` messages that say what
 was expected and what was found (the caller adds the file and the table).
@@ -26,7 +29,7 @@ was expected and what was found (the caller adds the file and the table).
 from __future__ import annotations
 
 import math
-import warnings
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -205,30 +208,100 @@ def decay(t: Array, amplitude: float, tau: float, offset: float, t0: float) -> A
 
 def exponential(t: Array, i: Array, *, names: tuple[str, ...] = ("i0", "tau", "i_b"),
                 t0: float | None = None) -> Fit:
-    """i(t) = i₀·exp(−(t − t₀)/τ) + i_b by Levenberg–Marquardt; t₀ = first time."""
+    """i(t) = i₀·exp(−(t − t₀)/τ) + i_b by variable projection; t₀ = first time."""
     t, i = np.asarray(t, dtype=float), np.asarray(i, dtype=float)
     _checked(t, i, 3, "an exponential decay with an offset")
     start = float(t[0]) if t0 is None else t0
-    guess = _decay_guess(t, i, start)
-    from scipy.optimize import OptimizeWarning, curve_fit
+    dt = t - start
+    guess = _decay_guess(t, i, start)[1]
+    low, high = math.log(guess / 50.0), math.log(guess * 50.0)
+    log_tau = _golden(lambda v: _profile(dt, i, math.exp(v))[0], low, high)
+    if min(log_tau - low, high - log_tau) < 1e-3:
+        raise FitError(f"expected the exponential fit to converge, found the best decay "
+                       f"constant at the edge of its search range (τ = {math.exp(log_tau):.4g}"
+                       "): the readings do not decay exponentially")
+    estimates = _gauss_newton(dt, i, math.exp(log_tau))
+    jacobian = _decay_jacobian(dt, estimates)
+    fitted = decay(t, estimates[0], estimates[1], estimates[2], start)
+    dof = len(t) - 3
+    s2 = float(np.sum((i - fitted) ** 2)) / dof
+    covariance = s2 * _inverse_normal(jacobian)
+    u_tau = math.sqrt(covariance[1, 1]) if covariance[1, 1] >= 0 else math.inf
+    if not np.all(np.isfinite(covariance)) or not u_tau < estimates[1]:
+        raise FitError(f"expected the exponential fit to converge, found a decay constant "
+                       f"τ = {estimates[1]:.4g} that the readings do not determine "
+                       f"(u(τ) = {u_tau:.3g})")
+    return Fit(method="exponential", parameters=names, estimates=estimates,
+               covariance=covariance, dof=float(dof), x=t, y=i, fitted=fitted,
+               chi2=math.nan, x0=start)
 
-    def model(tt: Array, amplitude: float, tau: float, offset: float) -> Array:
-        return decay(tt, amplitude, tau, offset, start)
 
-    with warnings.catch_warnings():
-        warnings.simplefilter("error", OptimizeWarning)
-        try:
-            estimates, covariance = curve_fit(model, t, i, p0=guess, maxfev=5000)
-        except (RuntimeError, OptimizeWarning, ValueError) as exc:
-            raise FitError(f"expected the exponential fit to converge, found: {exc}") from exc
-    if not np.all(np.isfinite(covariance)) or estimates[1] <= 0:
-        raise FitError("expected the exponential fit to converge, found a decay constant "
-                       f"τ = {estimates[1]:.4g} with no finite covariance (is the record "
-                       "decaying?)")
-    fitted = model(t, *estimates)
-    return Fit(method="exponential", parameters=names, estimates=np.asarray(estimates),
-               covariance=np.asarray(covariance), dof=float(len(t) - 3), x=t, y=i,
-               fitted=fitted, chi2=math.nan, x0=start)
+def _profile(dt: Array, i: Array, tau: float) -> tuple[float, float, float]:
+    """For a fixed τ the model is linear in i₀ and i_b: their least squares and the RSS."""
+    e = np.exp(np.maximum(-dt / tau, -300.0))  # no subnormal numbers: they are slow
+    # einsum, not the BLAS dot: threaded BLAS is slow for one vector on a busy machine
+    n, se, see = float(len(dt)), float(e.sum()), float(np.einsum("i,i->", e, e))
+    sy, sey = float(i.sum()), float(np.einsum("i,i->", e, i))
+    det = n * see - se * se
+    if det <= 0.0:
+        return math.inf, 0.0, 0.0
+    amplitude = (n * sey - se * sy) / det
+    offset = (sy - amplitude * se) / n
+    residual = i - amplitude * e - offset
+    return float(np.einsum("i,i->", residual, residual)), amplitude, offset
+
+
+def _golden(f: Callable[[float], float], low: float, high: float) -> float:
+    """Minimum of a unimodal f on [low, high] by golden-section search."""
+    ratio = (math.sqrt(5.0) - 1.0) / 2.0
+    a, b = low, high
+    c, d = b - ratio * (b - a), a + ratio * (b - a)
+    fc, fd = f(c), f(d)
+    for _ in range(90):
+        if fc <= fd:
+            b, d, fd = d, c, fc
+            c = b - ratio * (b - a)
+            fc = f(c)
+        else:
+            a, c, fc = c, d, fd
+            d = a + ratio * (b - a)
+            fd = f(d)
+    return (a + b) / 2.0
+
+
+def _decay_jacobian(dt: Array, p: Array) -> Array:
+    e = np.exp(-dt / p[1])
+    return np.column_stack([e, p[0] * dt / p[1] ** 2 * e, np.ones_like(dt)])
+
+
+def _inverse_normal(jacobian: Array) -> Array:
+    scale = np.sqrt(np.sum(jacobian ** 2, axis=0))
+    if np.any(scale == 0.0):
+        return np.full((3, 3), np.inf)
+    q, r = np.linalg.qr(jacobian / scale)
+    if np.abs(np.diag(r)).min() < 1e-10:
+        return np.full((3, 3), np.inf)
+    r_inv = np.linalg.inv(r)
+    return (r_inv @ r_inv.T) / np.outer(scale, scale)
+
+
+def _gauss_newton(dt: Array, i: Array, tau: float) -> Array:
+    """Polish the profiled solution with a few Gauss–Newton steps on all three parameters."""
+    _, amplitude, offset = _profile(dt, i, tau)
+    p = np.array([amplitude, tau, offset])
+    best = float(np.sum((i - decay(dt, p[0], p[1], p[2], 0.0)) ** 2))
+    for _ in range(5):
+        jacobian = _decay_jacobian(dt, p)
+        residual = i - decay(dt, p[0], p[1], p[2], 0.0)
+        step, *_ = np.linalg.lstsq(jacobian, residual, rcond=None)
+        trial = p + step
+        if trial[1] <= 0.0:
+            break
+        rss = float(np.sum((i - decay(dt, trial[0], trial[1], trial[2], 0.0)) ** 2))
+        if rss > best:
+            break
+        p, best = trial, rss
+    return p
 
 
 def _decay_guess(t: Array, i: Array, t0: float) -> list[float]:

@@ -251,11 +251,12 @@ def _model_part(campaign: "Campaign", method: "ModelMethod", trials: int | None,
     scale = _unit_scale(sub, method.model.measurands[index].unit)
     if method.runs is not None:
         char = _characterize(sub, trials, seed, None, warnings)
+        warnings.extend(f"method '{method.label}': {w}" for w in char.result.warnings)
         element = _from_char(method.label, sub, char)
         return char, element, Member(name=method.label, model=_at_mean(sub))
     result = evaluate(method.model, trials=trials, seed=seed)
     gum = result.budget.measurands[index]
-    warnings.extend(result.warnings)
+    warnings.extend(f"method '{method.label}': {w}" for w in result.warnings)
     element = _Element(member=method.label, measurand=method.measurand, scale=scale,
                        estimate=gum.estimate * scale,
                        variance=(gum.combined_uncertainty * scale) ** 2, repeatability=0.0,

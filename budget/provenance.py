@@ -32,6 +32,16 @@ def files(model: Any) -> list[dict[str, str]]:
             for role, path, digest in model.files]
 
 
+def _generator(simulation: Any) -> str | None:
+    """How the Monte Carlo numbers were drawn (None without Monte Carlo)."""
+    if not simulation or not simulation.trials:
+        return None
+    from .montecarlo import BLOCK, GENERATOR
+
+    return (f"numpy {GENERATOR}, one stream per block of at most {BLOCK} trials seeded "
+            f"by SeedSequence(seed, spawn_key=(block,))")
+
+
 def describe(model: Any, simulation: Any = None) -> dict[str, Any]:
     used = any(i.molar_mass is not None for i in model.inputs)
     changed = bool(model.changes)
@@ -44,6 +54,7 @@ def describe(model: Any, simulation: Any = None) -> dict[str, Any]:
         "seed": simulation.seed if simulation else model.settings.seed,
         "trials": simulation.trials if simulation else 0,
         "adaptive": bool(simulation and simulation.adaptive),
+        "random_generator": _generator(simulation),
         "date": _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M UTC"),
         "atomic_weights": model.settings.atomic_weights if used else None,
         "machine": f"{platform.system()} {platform.machine()}",

@@ -39,7 +39,7 @@ class Columns:
 def _split_header(cell: str) -> tuple[str, str | None]:
     found = _UNIT.match(cell)
     if found and found.group(1):
-        return found.group(1), next(g for g in found.group(2, 3, 4) if g)
+        return found.group(1), next(g for g in found.group(2, 3, 4) if g).strip()
     return cell.strip(), None
 
 
@@ -63,13 +63,12 @@ def _text(path: Path, shown: str, where: Location) -> str:
 
 def read_columns(path: Path, shown: str, names: list[str], where: Location) -> Columns:
     """Read ``names`` from the CSV at ``path`` (``shown`` is how messages name it)."""
-    lines = [(n + 1, line) for n, line in enumerate(_text(path, shown, where).splitlines())
-             if line.strip() and not line.lstrip().startswith("#")]
+    rows, lines = _content(_text(path, shown, where))
     if not lines:
         raise InputError(f"expected a header row and data in '{shown}', found an empty file",
                          where)
-    dialect = _dialect(lines[0][1])
-    header = [_split_header(c) for c in next(csv.reader([lines[0][1]], dialect))]
+    dialect = _dialect(lines[0])
+    header = [_split_header(c) for c in next(csv.reader([lines[0]], dialect))]
     found = [h[0] for h in header]
     index = {}
     for name in names:
@@ -77,14 +76,42 @@ def read_columns(path: Path, shown: str, names: list[str], where: Location) -> C
             raise InputError(f"expected a column '{name}' in '{shown}', found "
                              f"{', '.join(found)}{did_you_mean(name, found)}", where)
         index[name] = found.index(name)
-    table = np.empty((len(lines) - 1, len(names)))
-    for r, (number, line) in enumerate(lines[1:]):
-        cells = next(csv.reader(io.StringIO(line), dialect))
-        for c, name in enumerate(names):
-            table[r, c] = _number(cells, index[name], name, number, shown, where)
+    table = _fast(lines[1:], dialect, [index[n] for n in names])
+    if table is None:  # something to point at: read cell by cell for the message
+        table = np.empty((len(lines) - 1, len(names)))
+        for r, (number, line) in enumerate(zip(rows[1:], lines[1:])):
+            cells = next(csv.reader(io.StringIO(line), dialect))
+            for c, name in enumerate(names):
+                table[r, c] = _number(cells, index[name], name, int(number), shown, where)
     return Columns(path=shown, values={n: table[:, c].copy() for c, n in enumerate(names)},
-                   units={n: header[index[n]][1] for n in names},
-                   rows=np.array([n for n, _ in lines[1:]], dtype=np.int64))
+                   units={n: header[index[n]][1] for n in names}, rows=rows[1:])
+
+
+def _content(text: str) -> tuple[NDArray[np.int64], list[str]]:
+    """The lines that are neither blank nor comments, with their 1-based line numbers."""
+    lines = text.splitlines()
+    # only lines starting with a blank, '#' or nothing can be skipped: test those alone
+    maybe = [n for n, line in enumerate(lines) if not line or line[0] in "# \t\f\v"]
+    skipped = {n for n in maybe if not lines[n].strip() or lines[n].lstrip()[0] == "#"}
+    if not skipped:
+        return np.arange(1, len(lines) + 1, dtype=np.int64), lines
+    kept = [n for n in range(len(lines)) if n not in skipped]
+    return np.array(kept, dtype=np.int64) + 1, [lines[n] for n in kept]
+
+
+def _fast(lines: list[str], dialect: type[csv.Dialect],
+          columns: list[int]) -> NDArray[np.float64] | None:
+    """All values at C speed, or None when a cell is empty, not a number or not finite."""
+    if not lines:
+        return np.empty((0, len(columns)))
+    try:
+        table = np.loadtxt(io.StringIO("\n".join(lines)), delimiter=dialect.delimiter,
+                           quotechar='"', usecols=columns, ndmin=2, dtype=float)
+    except ValueError:
+        return None
+    if table.shape[0] != len(lines) or not np.isfinite(table).all():
+        return None
+    return table
 
 
 def _dialect(line: str) -> type[csv.Dialect]:

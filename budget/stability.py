@@ -93,7 +93,7 @@ class StabilityStudies:
 
 
 _SERIES_KEYS = ("label", "data")
-_SHORT_KEYS = ("data", "temperature", "transport_time", "label")
+_SHORT_KEYS = ("data", "temperature", "transport_time", "label", "time_unit")
 
 
 def read_stability_plan(r: "_Reader", section: dict[str, Any] | None) -> StabilityPlan | None:
@@ -116,7 +116,8 @@ def read_stability_plan(r: "_Reader", section: dict[str, Any] | None) -> Stabili
             raise r.fail(f"expected a table, found {entry!r}", "stability.series", None, nth)
         r.known(entry, "stability.series", _SERIES_KEYS, nth)
         label = r.text(entry, "label", "stability.series", nth)
-        times, values = _series(r, entry, "stability.series", nth)
+        times, values = _series(r, entry, "stability.series", nth,
+                                section.get("time_unit"))
         series.append(SeriesPlan(label=label, times=times, values=values))
     short, temperature, transport = _short_term(r, section)
     label = str(section.get("label", "data"))
@@ -141,7 +142,7 @@ def _short_term(r: "_Reader", section: dict[str, Any]
         raise r.fail("expected either 'u_short_term' or a [stability.short_term] study, "
                      "found both", "stability", "u_short_term")
     r.known(data, "stability.short_term", _SHORT_KEYS)
-    times, values = _series(r, data, "stability.short_term", 0)
+    times, values = _series(r, data, "stability.short_term", 0, data.get("time_unit"))
     transport = r.number(data, "transport_time", "stability.short_term", positive=True)
     temperature = None
     if "temperature" in data:
@@ -154,8 +155,9 @@ def _short_term(r: "_Reader", section: dict[str, Any]
     return SeriesPlan(label=label, times=times, values=values), temperature, transport
 
 
-def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int
-            ) -> tuple[Array, Array]:
+def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int,
+            time_unit: Any = None) -> tuple[Array, Array]:
+    """A study's times and values; ``time_unit`` as declared (else the header's)."""
     relative = r.text(entry, "data", table, nth)
     path = Path(r.path.parent / relative)
     if not path.is_file():
@@ -167,8 +169,6 @@ def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int
     from .datafiles import FileFormat
     from .studydata import read_stability
 
-    stability = r.doc.get("stability", {})
-    time_unit = stability.get("time_unit") if isinstance(stability, dict) else None
     data = read_stability(path, FileFormat(), str(r.doc.get("unit", "")), None,
                           time_unit if isinstance(time_unit, str) else None, None, str(path))
     if data.excluded:  # the outputs list exclusions of the main stability table only

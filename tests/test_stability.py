@@ -130,3 +130,18 @@ def test_json_has_the_studies(cli) -> None:  # type: ignore[no-untyped-def]
     studies = json.loads(stdout)["stability_studies"]
     assert [s["label"] for s in studies["series"]] == ["20 °C", "25 °C (upper storage limit)"]
     assert studies["short_term"]["temperature"] == 50
+
+
+def test_short_term_study_has_its_own_time_unit(tmp_path: Path) -> None:
+    # the demo's 50 °C study written in days (0, 7, 14, 28) with time_unit = "week"
+    # gives the same u_sts as the study in weeks (1 week = 7 days, exact)
+    lines = (DEMO / "short-term-50C.csv").read_text().splitlines()
+    rows = [line.split(",") for line in lines[1:]]
+    (tmp_path / "days.csv").write_text("time / day,replicate,value\n" + "\n".join(
+        f"{int(t) * 7},{r},{v}" for t, r, v in rows) + "\n")
+    path = _campaign(tmp_path, '[stability]\ndata = "stability.csv"\nshelf_life = 36\n'
+                     'time_unit = "month"\n[stability.short_term]\ndata = "days.csv"\n'
+                     'time_unit = "week"\ntransport_time = 2\n')
+    found = certify(load_campaign(path), trials=0).stability_studies.u_sts
+    demo = certify(load_campaign(DEMO / "campaign-methods.toml"), trials=0)
+    assert found == pytest.approx(demo.stability_studies.u_sts, rel=1e-12)

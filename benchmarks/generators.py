@@ -1,0 +1,63 @@
+"""Which of numpy's bit generators draws normal numbers fastest here (issue 18, item 3).
+
+Side by side in one process, in turns (so that a change of machine load touches all
+alike): each generator fills the same preallocated array with standard normal numbers,
+block by block as the Monte Carlo engine draws them (65,536 per call), and the uniform
+doubles behind them. Prints min and median over the rounds and the ratio to PCG64, the
+default of ``numpy.random.default_rng``.
+
+Run: python benchmarks/generators.py [numbers] [rounds]
+"""
+
+from __future__ import annotations
+
+import os
+import platform
+import statistics
+import sys
+import time
+
+import numpy as np
+
+sys.path.insert(0, os.path.dirname(__file__))
+
+from measure import load  # noqa: E402
+
+GENERATORS = ("PCG64", "PCG64DXSM", "SFC64", "Philox", "MT19937")
+BLOCK = 1 << 16
+
+
+def one_round(name: str, numbers: int, kind: str) -> float:
+    rng = np.random.Generator(getattr(np.random, name)(np.random.SeedSequence(1)))
+    out = np.empty(BLOCK)
+    start = time.perf_counter()
+    for _ in range(numbers // BLOCK):
+        if kind == "normal":
+            rng.standard_normal(out=out)
+        else:
+            rng.random(out=out)
+    return time.perf_counter() - start
+
+
+def main() -> None:
+    numbers = int(sys.argv[1]) if len(sys.argv) > 1 else 40_000_000
+    rounds = int(sys.argv[2]) if len(sys.argv) > 2 else 7
+    print(f"machine: {platform.platform()}, {os.cpu_count()} cores, numpy {np.__version__};"
+          f" load average {load()}")
+    print(f"{numbers:,} numbers per round, {rounds} rounds, generators in turns")
+    for kind in ("normal", "uniform"):
+        times: dict[str, list[float]] = {name: [] for name in GENERATORS}
+        for _ in range(rounds):
+            for name in GENERATORS:
+                times[name].append(one_round(name, numbers, kind))
+        base = min(times["PCG64"])
+        print(f"\n{kind} doubles: generator   min s   median s   min / PCG64 min"
+              "   median of per-round ratios")
+        for name in GENERATORS:
+            ratios = [t / p for t, p in zip(times[name], times["PCG64"])]
+            print(f"  {name:10s} {min(times[name]):8.3f} {statistics.median(times[name]):9.3f}"
+                  f" {min(times[name]) / base:12.2f} {statistics.median(ratios):18.2f}")
+
+
+if __name__ == "__main__":
+    main()
