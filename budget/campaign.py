@@ -181,6 +181,11 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     run_inputs = runs.names
     covers = _covers(r, char, model)
     warnings = _run_warnings(r, char, model, runs)
+    from .plausibility import campaign_unit_warning
+
+    found = campaign_unit_warning(model.measurands[names.index(measurand)], model, unit,
+                                  title)
+    warnings += [found] if found else []
     from .methods import check_primary_references, read_methods
 
     label = r.text(char, "label", "characterization") if "label" in char \

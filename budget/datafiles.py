@@ -11,6 +11,7 @@ is asked for, so a label column may hold anything). The reader accepts
   (detected when the file is not UTF-8; declare ``encoding`` to be explicit);
 * a unit in the column header: ``m_c / mg``, ``m_c [mg]`` or ``m_c (mg)``;
 * missing values as empty cells or declared markers (``missing = ["NA", "-"]``);
+* comment lines starting with ``#`` above the header (below it, a row is data);
 * dates (ISO 8601, and day-first or month-first forms when the file makes the order
   unambiguous or ``dates`` declares it), turned into elapsed time from an origin;
 * ``.xlsx`` workbooks through openpyxl (the optional ``xlsx`` extra), a sheet by name.
@@ -297,8 +298,8 @@ def _split(text: str, declared: str | None, shown: str) -> tuple[list[list[str]]
     reader = csv.reader(io.StringIO(text), delimiter=separator, skipinitialspace=True)
     try:
         for fields in reader:
-            if not any(f.strip() for f in fields):
-                continue
+            if not any(f.strip() for f in fields) or not grid and fields[0].startswith("#"):
+                continue  # blank lines anywhere, comment lines above the header
             if not grid and fields:
                 fields[0] = fields[0].lstrip("\ufeff")
             grid.append(fields)

@@ -288,6 +288,8 @@ class _Reader:
         files: tuple[tuple[str, str, str], ...] = (("model", self.name, sha256),)
         if self.register is not None:
             files += (("register", self.register.source, self.register.sha256),)
+        files += tuple((view.table, str(_base(self.name) / view.file),
+                        _digest(_base(self.name) / view.file)) for view in generated.views)
         made = Model(title=title.strip(), description=str(self.doc.get("description", "")),
                      inputs=inputs, definitions=definitions, measurands=measurands,
                      correlations=pairs, settings=settings, estimated_together=sets,
@@ -547,6 +549,14 @@ def check_reported(value: Any, where: Location) -> str:
         raise InputError(f"expected one of {', '.join(REPORTED_INTERVALS)}, found {value!r}"
                          f"{did_you_mean(str(value), REPORTED_INTERVALS)}", where)
     return str(value)
+
+
+def _digest(path: Path) -> str:
+    """The SHA-256 of a data file that fed the model (read again for the digest)."""
+    try:
+        return hashlib.sha256(Path(path).read_bytes()).hexdigest()
+    except OSError:
+        return "unreadable"
 
 
 def _base(name: str) -> Path:

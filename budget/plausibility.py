@@ -28,7 +28,8 @@ import numpy as np
 
 __all__ = ["AIR_DENSITY_VALIDITY", "DEFAULT_ESTIMATE_FACTOR", "CONSISTENCY",
            "model_warnings", "air_density_warnings", "mass_fraction_warning",
-           "estimate_warnings", "consistency_warning", "shelf_life_warning"]
+           "estimate_warnings", "consistency_warning", "shelf_life_warning",
+           "campaign_unit_warning"]
 
 # (argument, low, high, unit of the value as the engine holds it, range as written)
 AIR_DENSITY_VALIDITY = (
@@ -98,6 +99,17 @@ def mass_fraction_warning(measurand: Any, model: Any) -> str | None:
     return (f"plausibility: measurand '{measurand.name}' is described as a mass fraction or "
             f"purity but its unit '{measurand.unit}' is not a ratio of masses; use '%', "
             "'g/g', 'mg/g' or '1'")
+
+
+def campaign_unit_warning(measurand: Any, model: Any, unit: str, title: str) -> str | None:
+    """A campaign certifying a mass fraction or purity in a unit that is no mass ratio."""
+    text = " ".join((measurand.description, title,
+                     model.title if len(model.measurands) == 1 else ""))
+    if not _MASS_FRACTION.search(text) or _is_mass_ratio(unit):
+        return None
+    return (f"plausibility: the certified value ('{measurand.name}', a mass fraction or "
+            f"purity) is given in '{unit}', which is not a ratio of masses; use '%', 'g/g', "
+            "'mg/g' or '1'")
 
 
 def _is_mass_ratio(text: str) -> bool:

@@ -23,6 +23,7 @@ from .montecarlo import MeasurandSimulation
 from .output import write_atomic
 from .provenance import describe
 from .audit_view import audit_view
+from .certificate_page import certificate_page
 from .equations_view import model_view, sensitivity_view
 from .svg import bar_chart, histogram
 from .table import contribution_cells, result_statement
@@ -267,6 +268,7 @@ def _certification_view(cert: Any) -> dict[str, Any]:
                                      cert.characterization.result) + [
         ("campaign file", cert.campaign.source), ("campaign SHA-256", cert.campaign.sha256)]
     view["caution"] = CAUTION
+    view["page"] = certificate_page(cert)
     view["certificates"] = _certificates_view(cert.campaign.model, cert.run_dates)
     from .register import traceability_statement
 

@@ -51,6 +51,7 @@ class SeriesPlan:
     label: str
     times: Array
     values: Array
+    time_unit: str = ""
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -87,6 +88,7 @@ class StabilityStudies:
     u_lts: float
     governing: str
     short_term: Any  # certification.Stability of the short-term study (shelf_life = t)
+    short_term_unit: str
     temperature: float | None
     transport_time: float
     u_sts: float
@@ -143,6 +145,7 @@ def _short_term(r: "_Reader", section: dict[str, Any]
                      "found both", "stability", "u_short_term")
     r.known(data, "stability.short_term", _SHORT_KEYS)
     times, values = _series(r, data, "stability.short_term", 0, data.get("time_unit"))
+    unit = data.get("time_unit") if isinstance(data.get("time_unit"), str) else ""
     transport = r.number(data, "transport_time", "stability.short_term", positive=True)
     temperature = None
     if "temperature" in data:
@@ -152,7 +155,8 @@ def _short_term(r: "_Reader", section: dict[str, Any]
                          "stability.short_term", "temperature")
         temperature = float(value)
     label = str(data.get("label", "short term"))
-    return SeriesPlan(label=label, times=times, values=values), temperature, transport
+    return (SeriesPlan(label=label, times=times, values=values, time_unit=unit or ""),
+            temperature, transport)
 
 
 def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int,
@@ -230,7 +234,9 @@ def evaluate_studies(plan: StabilityPlan, main: "Stability", shelf_life: float, 
     return StabilityStudies(labels=labels, series=tuple(series), evaluation=plan.evaluation,
                             pooled=pooled, u_lts=u_lts, governing=governing,
                             short_term=short, temperature=plan.temperature,
-                            transport_time=plan.transport_time, u_sts=u_sts)
+                            transport_time=plan.transport_time, u_sts=u_sts,
+                            short_term_unit="" if plan.short_term is None
+                            else plan.short_term.time_unit)
 
 
 def _significance(what: str, slope: float, p_value: float, period: float, unit: str,

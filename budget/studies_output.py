@@ -6,6 +6,7 @@ import math
 from typing import Any
 
 from .formatting import format_number
+from .studydata import time_words
 
 __all__ = ["studies_document", "studies_lines", "studies_view"]
 
@@ -51,7 +52,8 @@ def studies_lines(s: Any, unit: str, digits: int) -> list[str]:
         where = "" if s.temperature is None else f" at {s.temperature:g} °C"
         lines.append(f"short-term study{where}: slope {format_number(f.slope, digits)} ± "
                      f"{format_number(f.u_slope, digits)} (p = {f.p_value:.2g}), u_sts = "
-                     f"{format_number(s.u_sts, digits)} {unit} for {s.transport_time:g}")
+                     f"{format_number(s.u_sts, digits)} {unit} for "
+                     f"{time_words(s.short_term_unit, s.transport_time)}")
     return lines
 
 

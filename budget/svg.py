@@ -26,7 +26,8 @@ _NEG = "#4d7f8c"
 def _svg(width: float, height: float, body: list[str], label: str) -> Markup:
     return Markup(f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width:.0f} '
                   f'{height:.0f}" width="100%" role="img" aria-label="{escape(label)}" '
-                  f'font-size="{_FONT}" font-family="inherit">' + "".join(body) + "</svg>")
+                  f'font-size="{_FONT}" font-family="inherit"><title>{escape(label)}</title>'
+                  + "".join(body) + "</svg>")
 
 
 def _text(x: float, y: float, text: str, anchor: str = "start", extra: str = "") -> str:

@@ -228,3 +228,11 @@ def test_xlsx_without_openpyxl_names_the_extra(tmp_path, monkeypatch):
         f"{path}: expected openpyxl to be installed, found none: reading and writing .xlsx "
         "workbooks needs openpyxl, the optional 'xlsx' extra: pip install openpyxl (or save "
         "the sheet as CSV)")
+
+
+def test_comments_above_the_header_only(tmp_path):
+    path = _write(tmp_path, "t.csv", "# lab notes\n# more\nlabel,value\n#7,1.5\nB,2\n")
+    table = read_table(path)
+    assert table.column("label").cells == ("#7", "B")
+    assert table.rows == (4, 5)
+

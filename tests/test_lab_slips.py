@@ -420,3 +420,12 @@ def test_strict_turns_a_warning_into_exit_status_3_and_writes_nothing(tmp_path, 
     assert stderr.endswith("error: --strict: 1 warning; no output written\n")
     assert "warning: plausibility:" in stderr
     assert not report.exists()
+
+
+@pytest.mark.parametrize("unit", ["cmol/mol", "deg"])
+def test_a_campaign_unit_that_is_no_mass_ratio(tmp_path, unit):
+    path = _copy(tmp_path, {"campaign.toml": lambda t: t.replace('unit = "%"',
+                                                                  f'unit = "{unit}"', 1)})
+    assert (f"plausibility: the certified value ('w', a mass fraction or purity) is given in "
+            f"'{unit}', which is not a ratio of masses; use '%', 'g/g', 'mg/g' or '1'"
+            ) in _certified(path).warnings

@@ -317,3 +317,23 @@ def test_reports_list_the_certificates_and_the_generated_traceability():
     assert "valid on each of the 3 measurement dates" in page
     assert "SHA-256 " + hashlib.sha256((DEMO / "calibrations.toml").read_bytes()).hexdigest() \
         in page
+
+
+def test_record_files_have_their_digest_too(cli):
+    path = DEMO / "coulometric-purity-records.toml"
+    code, stdout, stderr = cli("run", str(path), "--json", "--trials", "0")
+    assert code == 0, stderr
+    files = [f for f in json.loads(stdout)["provenance"]["files"]
+             if f["role"].startswith("records.")]
+    assert files
+    for entry in files:
+        with open(entry["path"], "rb") as handle:  # hashlib over the bytes on disk
+            assert entry["sha256"] == hashlib.sha256(handle.read()).hexdigest()
+
+
+def test_strict_turns_an_expired_certificate_into_a_failure(folder, cli):
+    path = folder / "model.toml"
+    path.write_text(_model(_R_WHOLE + _U_READ, measured="2027-01-01"))
+    code, stdout, stderr = cli("run", str(path), "--trials", "0", "--strict")
+    assert code == 3 and stdout == ""
+    assert "expired on 2027-01-01" in stderr
