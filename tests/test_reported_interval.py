@@ -187,7 +187,8 @@ def test_certified_value_reported_from_monte_carlo(campaign_dir, cli):
     assert all(key not in dict(cert.campaign.certificate) for key in ("reported_interval",))
     html = render_certification_report(cert)
     assert "Reported interval: Monte Carlo, probabilistically symmetric" in html
-    assert "The GUM result for comparison" in html
+    assert "The GUM result, for comparison" in html
+    assert "The interval is the Monte Carlo one" in html
     code, stdout, stderr = cli("certify", str(path), "--trials", "20000", "--json",
                                "--reported-interval", "gum")
     assert code == 0, stderr
