@@ -93,7 +93,8 @@ def methods_lines(m: Any, unit: str, digits: int) -> list[str]:
     value, u = format_pair(c.value, c.standard_uncertainty, digits)
     shares = ", ".join(f"{label} {format_percent(s)} %" for label, s in m.shares)
     check = c.consistency
-    lines += [f"  combined ({c.rule}): {value} {unit}, u = {u}; shares of u²: {shares}",
+    lines += [f"  combined ({c.rule}): {value} {unit}, u = {u} (the characterization "
+              f"component); shares of u²: {shares}",
               f"  consistency: χ² = {check.chi2:.3g}, ν = {check.dof}, p = "
               f"{check.p_value:.2g}, Birge ratio {check.birge_ratio:.3g}"
               + (f"; τ = {format_number(c.tau, digits)} {unit}" if c.tau > 0 else "")]
