@@ -387,5 +387,50 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
         click.echo(render_difference(difference, digits), nl=False)
 
 
+@main.command("certify-all")
+@click.argument("folder", metavar="FOLDER")
+@click.option("--json", "as_json", is_flag=True, help="Print the JSON summary document.")
+@click.option("--csv", "csv_file", metavar="FILE", default=None,
+              help="Also write one row per campaign to FILE (CSV).")
+@click.option("--html", "html_file", metavar="FILE", default=None,
+              help="Also write the summary with a trend chart to FILE.")
+@click.option("--trials", type=click.IntRange(0, 100_000_000), default=0, show_default=True,
+              help="Monte Carlo trials per campaign (0 = the linear budget only).")
+@click.option("--seed", type=click.IntRange(0, 2 ** 64 - 1), default=None,
+              help="Random seed.")
+@click.option("--workers", type=click.IntRange(1, 256), default=None,
+              help="Worker processes (default: one per core).")
+def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str | None,
+                trials: int, seed: int | None, workers: int | None) -> None:
+    """Certify every campaign under FOLDER; summary of certified values and U over time."""
+    from .batch import BATCH_COLUMNS, batch_document, batch_rows, certify_folder, render_batch
+    from .errors import BudgetError
+
+    try:
+        batch = certify_folder(folder, trials=trials, seed=seed, workers=workers)
+        if csv_file:
+            from .export import csv_text
+            from .output import write_atomic
+
+            rows = [[row[c] for c in BATCH_COLUMNS] for row in batch_rows(batch)]
+            write_atomic(csv_file, csv_text(BATCH_COLUMNS, rows))
+        if html_file:
+            from .report import write_batch_report
+
+            write_batch_report(batch, html_file)
+    except BudgetError as error:
+        _fail(error)
+    if as_json:
+        from .document import json_safe
+
+        _out(json.dumps(json_safe(batch_document(batch)), indent=2, allow_nan=False))
+    else:
+        _out(render_batch(batch))
+    failed = [e for e in batch.entries if e.error is not None]
+    _warn(f"{e.path}: not certified: {e.error}" for e in failed)
+    if failed:  # the summary is complete; the status tells a script that some failed
+        sys.exit(1)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

@@ -32,7 +32,7 @@ from .unit_display import display_unit, unit_ratio
 
 __all__ = ["render_report", "write_report", "render_certification_report",
            "write_certification_report", "render_difference_report",
-           "write_difference_report"]
+           "write_difference_report", "render_batch_report", "write_batch_report"]
 
 
 def _environment() -> Any:
@@ -312,3 +312,16 @@ def render_difference_report(difference: Any, digits: int = 2) -> str:
 
 def write_difference_report(difference: Any, path: str, digits: int = 2) -> None:
     write_atomic(path, render_difference_report(difference, digits))
+
+
+def render_batch_report(batch: Any, digits: int = 2) -> str:
+    """The HTML page of ``budget certify-all --html``: a trend chart and the table."""
+    from .batch_view import batch_view
+
+    view = batch_view(batch, digits)
+    view["caution"] = CAUTION
+    return str(_environment().get_template("batch.html.j2").render(report=view))
+
+
+def write_batch_report(batch: Any, path: str, digits: int = 2) -> None:
+    write_atomic(path, render_batch_report(batch, digits))
