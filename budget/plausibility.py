@@ -56,30 +56,33 @@ def model_warnings(model: Any) -> tuple[str, ...]:
 
 
 def _calls(model: Any) -> list[tuple[Any, ...]]:
-    calls: dict[str, tuple[Any, ...]] = {}
+    """The argument graphs of every ``air_density`` call (no sympy: the model's graphs)."""
+    from . import algebra as alg
+
+    calls: dict[int, tuple[Any, ...]] = {}
     for measurand in model.measurands:
-        opaque = measurand.opaque
-        if opaque is None or not hasattr(opaque, "atoms"):
+        graph = getattr(measurand, "opaque_graph", None)
+        if graph is None:
             continue
-        for call in opaque.atoms(__import__("sympy").Function):
-            if getattr(call.func, "__name__", "") == "air_density":
-                calls.setdefault(str(call.args), tuple(call.args))
+        for node in alg.walk(graph):
+            if node.kind == "call" and node.name == "air_density":
+                calls.setdefault(id(node), tuple(node.args))
     return list(calls.values())
 
 
 def air_density_warnings(model: Any, values: Mapping[str, Any], context: str,
                          labels: Sequence[str] | None = None) -> list[str]:
     """Every ``air_density`` argument outside the CIPM-2007 range, at the given values."""
-    import sympy
+    from . import algebra as alg
+    from .program import Program
 
     found: list[str] = []
     for args in _calls(model):
         for (label, low, high, unit, stated), arg in zip(AIR_DENSITY_VALIDITY, args):
-            names = sorted(str(s) for s in arg.free_symbols)
-            function = sympy.lambdify([sympy.Symbol(n) for n in names], arg, "numpy")
+            names = sorted(alg.symbols_in([arg]))
             with np.errstate(all="ignore"):
-                got = np.atleast_1d(np.asarray(function(*(values[n] for n in names)),
-                                               dtype=float))
+                result = Program([arg], names).evaluate([values[n] for n in names])[0]
+                got = np.atleast_1d(np.asarray(result, dtype=float))
             bad = np.flatnonzero(~((got >= low) & (got <= high)))
             if bad.size:
                 where = context if labels is None or got.size == 1 else (
