@@ -25,7 +25,8 @@ __all__ = ["Campaign", "Comparison", "load_campaign", "read_runs_file"]
 
 _TOP = ("title", "material", "unit", "description", "producer", "characterization",
         "homogeneity", "stability", "comparison", "certificate",
-        "method", "shared", "combination")  # the last three: methods.py
+        "method", "shared", "combination",  # these three: methods.py
+        "register")
 _SECTIONS = {
     "characterization": ("model", "measurand", "runs", "scatter_covers", "label",
                          "estimate_factor", *FORMAT_KEYS),
@@ -81,6 +82,7 @@ class _Reader:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
         self.files: list[tuple[str, str, str]] = []
+        self.register: Path | None = None  # the campaign's calibration register, if any
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -161,6 +163,17 @@ def load_campaign(path: str | Path) -> Campaign:
     return _campaign(reader, hashlib.sha256(raw).hexdigest())
 
 
+def _register(r: _Reader) -> Path | None:
+    """The campaign's calibration register, for models that name none themselves."""
+    if "register" not in r.doc:
+        return None
+    path = r.path.parent / r.text(r.doc, "register", None)
+    if not path.is_file():
+        raise r.fail(f"expected a register file '{r.doc['register']}' beside the campaign "
+                     "file, found none", None, "register")
+    return path
+
+
 def _campaign(r: _Reader, sha256: str) -> Campaign:
     for key in r.doc:
         if key not in _TOP:
@@ -170,7 +183,8 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     title = r.text(r.doc, "title", None)
     unit = r.text(r.doc, "unit", None)
     char = r.section("characterization", True) or {}
-    model = load_model(r.file(char, "model", "characterization"))
+    r.register = _register(r)
+    model = load_model(r.file(char, "model", "characterization"), register=r.register)
     measurand = r.text(char, "measurand", "characterization")
     names = [m.name for m in model.measurands]
     if measurand not in names:

@@ -10,6 +10,7 @@ from typing import Any, Callable
 import numpy as np
 
 from .formatting import format_dof, format_number, format_pair, format_percent
+from .unit_display import display_unit
 from .svg import bar_chart, points_with_bars, trend_plot
 
 __all__ = ["certification_view"]
@@ -22,7 +23,7 @@ _LABELS = {"characterization": "characterization (u_char)", "homogeneity": "betw
 def certification_view(cert: Any) -> dict[str, Any]:
     campaign, char = cert.campaign, cert.characterization
     digits = campaign.model.settings.digits
-    unit = campaign.unit
+    unit = display_unit(campaign.unit)
     value, expanded = format_pair(cert.certified_value, cert.expanded_uncertainty, digits)
     rounded: Callable[[float], str] = lambda x: format_number(x, digits)  # noqa: E731
     return {

@@ -31,7 +31,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .analysis import evaluate
-from .combination import Combined, combine
+from .combination import Combined, Consistency, combine, consistency
 from .errors import Location
 from .gum import coverage_factor, propagate, welch_satterthwaite
 from .joint import Member, join
@@ -96,6 +96,7 @@ class MethodsResult:
     combined: Combined | None
     combined_dof: float
     shares: tuple[tuple[str, float], ...]
+    consistency: Consistency | None = None  # of all the methods, combined or not
 
     def method(self, label: str) -> MethodResult:
         return next(m for m in self.methods if m.label == label)
@@ -143,12 +144,13 @@ def evaluate_methods(campaign: "Campaign", primary: "Characterization",
             warnings.append(f"methods '{p.first}' and '{p.second}' do not agree (E_n = "
                             f"{p.E_n:.2f}, ζ = {p.zeta:.2f}, with the shared inputs)")
     combined, nu, shares = _combined(plan, results, x, covariance, warnings)
+    check = _all_consistent(x, covariance)
     return MethodsResult(methods=tuple(results), covariance=_rows(covariance),
                          correlation=_rows(_correlation(covariance)),
                          monte_carlo_covariance=None if mc is None else _rows(mc),
                          pairs=pairs, shared=plan.shared, rule=plan.rule,
                          combined_methods=plan.combined, combined=combined, combined_dof=nu,
-                         shares=shares)
+                         shares=shares, consistency=check)
 
 
 def _k(campaign: "Campaign") -> Any:
@@ -329,6 +331,16 @@ def _pairs(results: list[MethodResult], v: np.ndarray, mc: np.ndarray | None
                 E_n_independent=_ratio(d, big_alone), u_difference_monte_carlo=u_mc,
                 agrees=bool(abs(e_n) <= 1.0 and abs(zeta) <= 2.0)))
     return tuple(made)
+
+
+def _all_consistent(x: np.ndarray, v: np.ndarray) -> Consistency | None:
+    """χ² of every method about their weighted mean; None when V has no inverse."""
+    from .errors import PropagationError
+
+    try:
+        return consistency(x, v)
+    except PropagationError:
+        return None
 
 
 def _ratio(difference: float, variance: float) -> float:

@@ -166,7 +166,8 @@ def _impurity(r: _Reader, item: Any, method: str, nth: int) -> Impurity:
 
 def _model_method(r: _Reader, entry: dict[str, Any], label: str, table: str, nth: int, *,
                   runs_required: bool) -> ModelMethod:
-    model = load_model(_file(r, entry, "model", table, nth))
+    model = load_model(_file(r, entry, "model", table, nth),
+                       register=r.register)
     measurand = r.text(entry, "measurand", table, nth)
     names = [m.name for m in model.measurands]
     if measurand not in names:

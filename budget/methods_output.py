@@ -31,6 +31,11 @@ def methods_document(m: Any) -> dict[str, Any]:
         else [list(row) for row in m.monte_carlo_covariance],
         "shared": {name: [f"{member}.{item}" for member, item in refs]
                    for name, refs in m.shared},
+        "consistency": None if m.consistency is None else {
+            "chi2": m.consistency.chi2, "dof": m.consistency.dof,
+            "p_value": m.consistency.p_value,
+            "birge_ratio": None if math.isnan(m.consistency.birge_ratio)
+            else m.consistency.birge_ratio},
         "pairs": [{"methods": [p.first, p.second], "difference": p.difference,
                    "covariance": p.covariance, "u_difference": p.u_difference,
                    "u_difference_independent": p.u_difference_independent,
@@ -87,6 +92,11 @@ def methods_lines(m: Any, unit: str, digits: int) -> list[str]:
                      + ("" if p.agrees else "  DOES NOT AGREE"))
     c = m.combined
     if c is None:
+        check = m.consistency
+        if check is not None:
+            lines.append(f"  consistency of all methods: χ² = {check.chi2:.3g}, ν = "
+                         f"{check.dof}, p = {check.p_value:.2g}, Birge ratio "
+                         f"{check.birge_ratio:.3g}")
         lines.append(f"  certified value from '{m.methods[0].label}'; the others are "
                      "compared only")
         return lines
@@ -130,6 +140,10 @@ def methods_view(m: Any, unit: str, digits: int,
             "rows": [{"label": label, "weight": f"{w:.4f}", "share": format_percent(s)}
                      for label, w, (_, s) in zip(m.combined_methods, c.weights, m.shares)]},
         "first": labels[0],
+        "consistency": None if m.consistency is None else {
+            "chi2": f"{m.consistency.chi2:.3g}", "dof": m.consistency.dof,
+            "p": f"{m.consistency.p_value:.2g}",
+            "birge": f"{m.consistency.birge_ratio:.3g}"},
     }
 
 

@@ -169,12 +169,16 @@ class Model:
         return self.changed(inputs, f"u({name}) × {factor:g}")
 
 
-def load_model(path: str | Path, **overrides: Any) -> Model:
-    """Read a model file; every problem is a :class:`BudgetError` naming the file."""
+def load_model(path: str | Path, *, register: Path | None = None, **overrides: Any
+               ) -> Model:
+    """Read a model file; every problem is a :class:`BudgetError` naming the file.
+
+    ``register``: the calibration register to use when the file names none (a campaign's).
+    """
     from .files import read_input
 
     data = read_input(path, limit=MAX_FILE_BYTES, what="model file", error=InputError)
-    return parse_model(data, name=str(path), **overrides)
+    return parse_model(data, name=str(path), register=register, **overrides)
 
 
 def load_model_in_chain(path: Path, loading: tuple[str, ...], where: Location) -> Model:
@@ -223,14 +227,16 @@ def read_toml(text: str, name: str) -> dict[str, Any]:
                                Location(file=name, line=line)) from exc
 
 
-def parse_model(data: bytes | str, name: str = "<string>", **overrides: Any) -> Model:
+def parse_model(data: bytes | str, name: str = "<string>", *, register: Path | None = None,
+                **overrides: Any) -> Model:
     """Parse model text (or bytes); ``overrides`` replace ``[settings]`` values."""
     text = decode(data, name)
     raw = data if isinstance(data, bytes) else data.encode("utf-8")
     document = read_toml(text, name)
     try:
-        return _Reader(text, name, document).model(hashlib.sha256(raw).hexdigest(),
-                                                   overrides)
+        reader = _Reader(text, name, document)
+        reader.default_register = register
+        return reader.model(hashlib.sha256(raw).hexdigest(), overrides)
     except RecursionError as exc:  # a safety net: the builders walk without recursion
         raise ModelSyntaxError(f"expected a model nested less deeply (expressions and "
                                f"chains of definitions; limits: {LIMITS_PAGE}), found one "
@@ -245,6 +251,7 @@ class _Reader:
         self.index, self.name, self.doc = LineIndex(text.splitlines()), name, document
         self.loading = loading or ((str(Path(name).resolve()),) if name != "<string>" else ())
         self.links: list[Any] = []
+        self.default_register: Path | None = None
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -306,7 +313,9 @@ class _Reader:
 
     def read_register(self, convention: str) -> Register | None:
         if "register" not in self.doc:
-            return None
+            if self.default_register is None:
+                return None
+            return load_register(self.default_register, self.where(None), convention)
         relative = self.doc["register"]
         where = self.where(None, "register")
         if not isinstance(relative, str) or not relative.strip():

@@ -210,17 +210,18 @@ def evaluate_studies(plan: StabilityPlan, main: "Stability", shelf_life: float, 
     """Every long-term series, their u_lts as declared, and the short-term study."""
     from .certification import trend
 
-    series = [main, *(trend(s.times, s.values, shelf_life) for s in plan.series)]
+    series = [main, *(trend(s.times, s.values, shelf_life, time_unit=main.time_unit)
+                      for s in plan.series)]
     labels = (plan.label, *(s.label for s in plan.series))
     for label, fit in zip(labels[1:], series[1:]):
         _significance(f"stability series '{label}'", fit.slope, fit.p_value, shelf_life,
-                      unit, warnings)
+                      unit, warnings, main.time_unit)
     pooled = None
     if plan.evaluation == "together" and len(series) > 1:
         pooled = pooled_trend([(np.array(f.times), np.array(f.values)) for f in series],
                               shelf_life)
         _significance("stability (series together)", pooled.slope, pooled.p_value,
-                      shelf_life, unit, warnings)
+                      shelf_life, unit, warnings, main.time_unit)
         u_lts, governing = pooled.u_lts, "together"
     else:
         position = int(np.argmax([f.u_lts for f in series]))
@@ -230,7 +231,7 @@ def evaluate_studies(plan: StabilityPlan, main: "Stability", shelf_life: float, 
         short = trend(plan.short_term.times, plan.short_term.values, plan.transport_time)
         u_sts = short.u_lts
         _significance("short-term stability", short.slope, short.p_value,
-                      plan.transport_time, unit, warnings)
+                      plan.transport_time, unit, warnings, plan.short_term.time_unit)
     return StabilityStudies(labels=labels, series=tuple(series), evaluation=plan.evaluation,
                             pooled=pooled, u_lts=u_lts, governing=governing,
                             short_term=short, temperature=plan.temperature,
@@ -240,13 +241,17 @@ def evaluate_studies(plan: StabilityPlan, main: "Stability", shelf_life: float, 
 
 
 def _significance(what: str, slope: float, p_value: float, period: float, unit: str,
-                  warnings: list[str]) -> None:
+                  warnings: list[str], time_unit: str = "") -> None:
+    from .studydata import time_words
+
+    over = time_words(time_unit, period) if time_unit else f"{period:g}"
     if p_value < SIGNIFICANCE:
         warnings.append(
-            f"{what}: the trend is significant (slope {slope:.3g} {unit} per time unit, p = "
-            f"{p_value:.3g} < 0.05): it predicts a change of {abs(slope) * period:.3g} {unit} "
-            f"over {period:g}, which the uncertainty s(b₁)·t does not cover (ISO Guide 35: "
-            "shorten the period, change the conditions or correct for the change)")
+            f"{what}: the trend is significant (slope {slope:.3g} {unit} per "
+            f"{time_words(time_unit)}, p = {p_value:.3g} < 0.05): it predicts a change of "
+            f"{abs(slope) * period:.3g} {unit} over {over}, which the uncertainty s(b₁)·t "
+            "does not cover (ISO Guide 35: shorten the period, change the conditions or "
+            "correct for the change)")
 
 
 def studies_in_use(studies: StabilityStudies, main: "Stability", campaign: Any

@@ -23,9 +23,12 @@ _BAR = "#b8612c"
 _NEG = "#4d7f8c"
 
 
-def _svg(width: float, height: float, body: list[str], label: str) -> Markup:
+def _svg(width: float, height: float, body: list[str], label: str,
+         kind: str = "plot") -> Markup:
+    """``kind``: "plot" (drawn to a fixed height, capped on paper) or "bars" (one row each)."""
     return Markup(f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width:.0f} '
-                  f'{height:.0f}" width="100%" role="img" aria-label="{escape(label)}" '
+                  f'{height:.0f}" width="100%" class="chart {kind}" role="img" '
+                  f'aria-label="{escape(label)}" '
                   f'font-size="{_FONT}" font-family="inherit"><title>{escape(label)}</title>'
                   + "".join(body) + "</svg>")
 
@@ -60,7 +63,7 @@ def bar_chart(rows: Sequence[tuple[str, float]], unit: str = "%",
                           "start" if value >= 0 else "end"))
     body.append(f'<line x1="{zero:.1f}" y1="6" x2="{zero:.1f}" y2="{height - 20:.1f}" '
                 f'stroke="{_AXIS}"/>')
-    return _svg(_W, height, body, label)
+    return _svg(_W, height, body, label, "bars")
 
 
 def histogram(samples: np.ndarray, *, estimate: float, u: float, dof: float,

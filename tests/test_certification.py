@@ -170,7 +170,7 @@ def test_scatter_covers_removes_an_input_from_u_b(tmp_path):
      "campaign.toml:33: certificat: unknown top-level key 'certificat' (did you mean "
      "'certificate'?); expected one of title, material, unit, description, producer, "
      "characterization, homogeneity, stability, comparison, certificate, method, shared, "
-     "combination"),
+     "combination, register"),
 ])
 def test_campaign_errors(edit, csv, message, tmp_path, cli, monkeypatch):
     for name in ("coulometric-purity.toml", "calibrations.toml", "determinations.csv",

@@ -343,3 +343,13 @@ rule = "{rule}"
     assert cert.certified_value == expected.value
     assert dict(cert.components)["characterization"] == expected.standard_uncertainty
     assert cert.methods.combined.tau == expected.tau
+
+
+def test_compare_only_still_reports_the_consistency(tmp_path: Path) -> None:
+    # chi2 of two results about their GLS mean = d^2 / u^2(d) (with the covariance):
+    # 0.019^2 / 1.1e-5 (hand computation above)
+    cert = certify(load_campaign(_write(tmp_path, TWO + "\n[shared]\ns = [\"A.s\", \"B.s\"]\n")),
+                   trials=0)
+    assert cert.methods.combined is None
+    assert cert.methods.consistency.chi2 == pytest.approx(0.019 ** 2 / 1.1e-5, rel=1e-6)
+    assert cert.methods.consistency.dof == 1

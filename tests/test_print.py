@@ -114,6 +114,15 @@ def test_no_heading_is_left_alone_at_a_page_foot(printed, name):
                 or foot in titles]
 
 
+def test_the_printed_pages_carry_the_assessors_answer_and_the_safety_section(printed):
+    text = {name: subprocess.run(["pdftotext", str(pdf), "-"], capture_output=True, text=True,
+                                 check=True).stdout for name, (_, pdf) in printed.items()}
+    assert "What dominates the uncertainty" in text["budget"] and "dominates:" in text["budget"]
+    for heading in ("Intended use", "Instructions for handling and use",
+                    "Health and safety information", "safety data sheet"):
+        assert heading in text["certificate"]
+
+
 def test_the_fill_measure_sees_a_half_empty_page(tmp_path):
     # the control: a page that forces a break after a short paragraph must fail the bound
     page = tmp_path / "half.html"

@@ -337,3 +337,21 @@ def test_strict_turns_an_expired_certificate_into_a_failure(folder, cli):
     code, stdout, stderr = cli("run", str(path), "--trials", "0", "--strict")
     assert code == 3 and stdout == ""
     assert "expired on 2027-01-01" in stderr
+
+
+def test_a_campaign_names_the_register_for_a_model_that_names_none(tmp_path):
+    for name in ("campaign.toml", "determinations.csv", "homogeneity.csv", "stability.csv",
+                 "calibrations.toml"):
+        (tmp_path / name).write_bytes((DEMO / name).read_bytes())
+    (tmp_path / "coulometric-purity.toml").write_text(
+        (DEMO / "coulometric-purity.toml").read_text().replace(
+            'register = "calibrations.toml"', ""))
+    with pytest.raises(BudgetError):  # alone, the model has no register
+        load_model(tmp_path / "coulometric-purity.toml")
+    text = (tmp_path / "campaign.toml").read_text()
+    (tmp_path / "campaign.toml").write_text('register = "calibrations.toml"\n' + text)
+    cert = certify(load_campaign(tmp_path / "campaign.toml"), trials=0)
+    expected = certify(load_campaign(DEMO / "campaign.toml"), trials=0)
+    assert cert.expanded_uncertainty == expected.expanded_uncertainty
+    assert {u.input for u in cert.campaign.model.certificates} == {"U_m", "R_s", "m_c",
+                                                                    "rho_ref"}

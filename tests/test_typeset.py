@@ -126,6 +126,18 @@ def test_no_internal_object_reaches_any_report(reports, path):
         assert internal not in text, internal
 
 
+def test_no_internal_object_reaches_the_certification_report():
+    from budget.campaign import load_campaign
+    from budget.certification import certify
+    from budget.report import render_certification_report
+
+    text = render_certification_report(certify(load_campaign(
+        MODELS / "vics-as-25a" / "campaign.toml"), trials=2000, seed=1))
+    for internal in ("subs(", "Subs(", "Derivative", "ξ", "_Dummy", "Symbol(", "degC",
+                     "kg/m^3"):
+        assert internal not in text, internal
+
+
 @pytest.mark.parametrize("path", MODEL_FILES, ids=lambda p: p.name)
 def test_units_render_as_symbols_in_reports(reports, path):
     text = reports[path.name]
