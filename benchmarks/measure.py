@@ -48,8 +48,8 @@ def command(args: list[str], repeats: int = 3) -> Runs:
     walls, cpus, peak = [], [], 0.0
     for _ in range(repeats):
         start = time.perf_counter()
-        done = subprocess.run([sys.executable, "-c", _CHILD, *args], capture_output=True,
-                              text=True, check=False)
+        done = subprocess.run([sys.executable, "-c", _CHILD, *args], stdout=subprocess.DEVNULL,
+                              stderr=subprocess.PIPE, text=True, check=False)
         walls.append(time.perf_counter() - start)
         if done.returncode != 0 or "MEASURED " not in done.stderr:
             raise SystemExit(f"budget {' '.join(args)} failed: {done.stderr[-2000:]}")

@@ -17,7 +17,8 @@ import numpy as np
 
 from .datafiles import FORMAT_KEYS, FileFormat, parse_declared_format
 from .errors import BudgetError, CampaignError, Location, did_you_mean
-from .limits import LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, check_strings
+from .limits import (LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, as_float,
+                     check_probability, check_strings, shorten)
 from .model import LineIndex, Model, decode, load_model, read_toml
 from .studydata import Exclusion, Runs
 
@@ -78,11 +79,30 @@ class Campaign:
 
 
 class _Reader:
-    def __init__(self, path: Path, text: str, document: dict[str, Any]) -> None:
+    def __init__(self, path: Path, text: str, document: dict[str, Any],
+                 allow_outside: bool = False) -> None:
         self.path, self.index, self.doc = path, LineIndex(text.splitlines()), document
         self.name = str(path)
         self.files: list[tuple[str, str, str]] = []
         self.register: Path | None = None  # the campaign's calibration register, if any
+        self.allow_outside = allow_outside
+
+    def confined(self, relative: str, table: str | None, key: str, nth: int = 0) -> Path:
+        """``relative`` resolved beside the campaign file; refused when it leads out of the
+        campaign's folder tree (absolute, '..' or a link) unless ``allow_outside``."""
+        path = self.path.parent / relative
+        if self.allow_outside:
+            return path
+        folder = self.path.parent.resolve()
+        try:
+            inside = path.resolve().is_relative_to(folder)
+        except (OSError, RuntimeError, ValueError):
+            inside = False
+        if not inside:
+            raise self.fail(f"expected a path inside the campaign's folder, found "
+                            f"'{relative}', which leads outside it (certify "
+                            f"--allow-outside-folder allows it)", table, key, nth)
+        return path
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
         return Location(file=self.name, table=table, key=key,
@@ -132,7 +152,7 @@ class _Reader:
 
     def file(self, data: dict[str, Any], key: str, table: str) -> Path:
         relative = self.text(data, key, table)
-        path = (self.path.parent / relative)
+        path = self.confined(relative, table, key)
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
@@ -150,14 +170,15 @@ class _Reader:
         return path
 
 
-def load_campaign(path: str | Path) -> Campaign:
-    """Read and check a campaign file and everything it refers to."""
+def load_campaign(path: str | Path, *, allow_outside: bool = False) -> Campaign:
+    """Read and check a campaign file and everything it refers to; the files it names
+    must lie in its folder tree unless ``allow_outside``."""
     from .files import read_input
 
     path = Path(path)
     raw = read_input(path, limit=MAX_FILE_BYTES, what="campaign file", error=CampaignError)
     text = decode(raw, str(path), "campaign")
-    reader = _Reader(path, text, read_toml(text, str(path)))
+    reader = _Reader(path, text, read_toml(text, str(path)), allow_outside)
     import hashlib
 
     return _campaign(reader, hashlib.sha256(raw).hexdigest())
@@ -167,7 +188,7 @@ def _register(r: _Reader) -> Path | None:
     """The campaign's calibration register, for models that name none themselves."""
     if "register" not in r.doc:
         return None
-    path = r.path.parent / r.text(r.doc, "register", None)
+    path = r.confined(r.text(r.doc, "register", None), None, "register")
     if not path.is_file():
         raise r.fail(f"expected a register file '{r.doc['register']}' beside the campaign "
                      "file, found none", None, "register")
@@ -423,10 +444,11 @@ def _comparisons(r: _Reader, unit: str) -> tuple[Comparison, ...]:
             raise r.fail(f"expected a table, found {entry!r}", "comparison", None, nth)
         r.known(entry, "comparison", _SECTIONS["comparison"], nth)
         label = r.text(entry, "label", "comparison", nth)
-        value = entry.get("value")
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise r.fail(f"expected a number 'value', found {value!r}", "comparison", "value",
-                         nth)
+        value = as_float(entry.get("value"))
+        if value is None:
+            raise r.fail(f"expected a finite number 'value', found "
+                         f"{shorten(repr(entry.get('value')))}",
+                         "comparison", "value", nth)
         if ("u" in entry) == ("expanded" in entry):
             raise r.fail("expected either 'expanded' with 'k' or 'u', found "
                          + ("both" if "u" in entry else "neither"), "comparison", None, nth)
@@ -437,7 +459,7 @@ def _comparisons(r: _Reader, unit: str) -> tuple[Comparison, ...]:
             expanded = r.number(entry, "expanded", "comparison", positive=True, nth=nth)
             u = expanded / r.number(entry, "k", "comparison", positive=True, nth=nth)
         scale = _comparison_scale(r, entry, unit, nth)
-        made.append(Comparison(label=label, estimate=float(value) * scale,
+        made.append(Comparison(label=label, estimate=value * scale,
                                standard_uncertainty=u * scale,
                                expanded_uncertainty=expanded * scale))
     return tuple(made)
@@ -469,10 +491,7 @@ def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...
     k = r.number(data, "k", "certificate", positive=True) if "k" in data else None
     coverage = None
     if "coverage" in data:
-        coverage = r.number(data, "coverage", "certificate", positive=True)
-        if coverage >= 1:
-            raise r.fail(f"expected a coverage probability in (0, 1), found {coverage:g}",
-                         "certificate", "coverage")
+        coverage = check_probability(data["coverage"], r.where("certificate", "coverage"))
     if k is None and coverage is None:
         k = 2.0
     fields = tuple((key, str(value)) for key, value in data.items()

@@ -44,7 +44,7 @@ from .studydata import time_words
 from .units import parse_unit
 
 __all__ = ["Homogeneity", "Stability", "Characterization", "ComparisonScore",
-           "Certification", "anova", "trend", "certify"]
+           "Certification", "anova", "trend", "certify", "zero_residual"]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -62,6 +62,7 @@ class Homogeneity:
     p_value: float
     dof_between: int
     dof_within: int
+    reason: str = ""  # why F and p are not computable (NaN), else ""
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -77,6 +78,7 @@ class Stability:
     dof: int
     shelf_life: float
     u_lts: float
+    reason: str = ""  # why t and p are not computable (NaN), else ""
     time_unit: str = ""
 
 
@@ -156,13 +158,41 @@ def anova(groups: list[np.ndarray], labels: list[str] | None = None) -> Homogene
     n0 = (total - float(np.sum(counts ** 2)) / total) / dof_b
     s_bb = math.sqrt(max(0.0, ms_b - ms_w) / n0)
     u_star = math.sqrt(ms_w / n0) * (2.0 / dof_w) ** 0.25
-    f = ms_b / ms_w if ms_w > 0 else math.inf
-    p_value = f_sf(f, dof_b, dof_w) if math.isfinite(f) else 0.0
-    return Homogeneity(units=tuple(labels or (str(i + 1) for i in range(p))),
+    reason = _zero_within(ms_w, ms_b, groups)
+    f = math.nan if reason else ms_b / ms_w
+    p_value = math.nan if reason else f_sf(f, dof_b, dof_w)
+    return Homogeneity(reason=reason, units=tuple(labels or (str(i + 1) for i in range(p))),
                        means=tuple(float(m) for m in means),
                        counts=tuple(int(c) for c in counts), ms_between=ms_b, ms_within=ms_w,
                        n0=n0, s_bb=s_bb, u_bb_star=u_star, u_bb=max(s_bb, u_star), F=f,
                        p_value=p_value, dof_between=dof_b, dof_within=dof_w)
+
+
+def _noise(values: np.ndarray) -> float:
+    """A spread below rounding noise: 1000 ε of the largest value counts as zero."""
+    return 1000.0 * float(np.finfo(float).eps) * float(np.max(np.abs(values), initial=0.0))
+
+
+def _zero_within(ms_w: float, ms_b: float, groups: list[np.ndarray]) -> str:
+    """Why F = MS_between/MS_within is not defined, or '' when it is."""
+    noise = _noise(np.concatenate(groups))
+    if math.sqrt(max(ms_w, 0.0)) > noise:
+        return ""
+    if math.sqrt(max(ms_b, 0.0)) <= noise:
+        return ("every value is the same (zero between- and within-unit variance): F = 0/0 "
+                "and its p-value are not defined")
+    return ("the replicates of each unit agree exactly (zero within-unit variance): "
+            "F = MS_between/0 and its p-value are not defined; significance cannot be "
+            "judged (s_bb is still computed)")
+
+
+def zero_residual(residual_sd: float, values: np.ndarray) -> str:
+    """Why the t-test of a slope is not defined (the points lie on the line), or ''."""
+    if residual_sd > _noise(values):
+        return ""
+    return ("the points lie exactly on the fitted line (zero residual): s(b₁) = 0, so "
+            "t = b₁/s(b₁) and its p-value are not defined and u_lts = 0; significance "
+            "cannot be judged")
 
 
 def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
@@ -178,9 +208,10 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
     residuals = values - (intercept + slope * times)
     s = math.sqrt(float(np.sum(residuals ** 2)) / (n - 2))
     u_slope = s / math.sqrt(sxx)
-    t = slope / u_slope if u_slope > 0 else math.inf
-    p_value = t_two_sided_p(t, n - 2) if math.isfinite(t) else 0.0
-    return Stability(times=tuple(float(x) for x in times),
+    reason = zero_residual(s, values)
+    t = math.nan if reason else slope / u_slope
+    p_value = math.nan if reason else t_two_sided_p(t, n - 2)
+    return Stability(reason=reason, times=tuple(float(x) for x in times),
                      values=tuple(float(v) for v in values), intercept=intercept,
                      slope=slope, u_slope=u_slope, residual_sd=s, t=t, p_value=p_value,
                      dof=n - 2, shelf_life=shelf_life, u_lts=u_slope * shelf_life,
@@ -208,7 +239,9 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     if campaign.homogeneity is not None:
         homogeneity = anova([v for _, v in campaign.homogeneity],
                             [u for u, _ in campaign.homogeneity])
-        if homogeneity.p_value < 0.05:
+        if homogeneity.reason:
+            warnings.append(f"homogeneity: F and p not computable: {homogeneity.reason}")
+        elif homogeneity.p_value < 0.05:
             warnings.append(f"homogeneity: the between-unit effect is significant (F = "
                             f"{homogeneity.F:.3g}, p = {homogeneity.p_value:.3g} < 0.05)")
     else:
@@ -217,7 +250,9 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     if campaign.stability is not None:
         stability = trend(*campaign.stability, campaign.shelf_life,
                           time_unit=campaign.time_unit)
-        if stability.p_value < 0.05:
+        if stability.reason:
+            warnings.append(f"stability: t and p not computable: {stability.reason}")
+        elif stability.p_value < 0.05:
             warnings.append(f"stability: the trend is significant (slope "
                             f"{stability.slope:.3g} {campaign.unit} per "
                             f"{time_words(campaign.time_unit)}, p = "

@@ -9,7 +9,8 @@ from typing import Any, Callable
 
 import numpy as np
 
-from .formatting import format_dof, format_number, format_pair, format_percent
+from .formatting import (format_dof, format_number, format_pair, format_percent,
+                         format_statistic)
 from .unit_display import display_unit
 from .svg import bar_chart, points_with_bars, trend_plot
 
@@ -107,8 +108,8 @@ def _homogeneity(h: Any, unit: str, digits: int) -> dict[str, Any] | None:
     return {"units": len(h.units), "ms_between": format_number(h.ms_between, 3),
             "ms_within": format_number(h.ms_within, 3), "n0": format_number(h.n0, 3),
             "s_bb": format_number(h.s_bb, digits), "u_bb_star": format_number(h.u_bb_star, digits),
-            "u_bb": format_number(h.u_bb, digits), "F": f"{h.F:.3g}",
-            "p": f"{h.p_value:.2g}", "significant": h.p_value < 0.05,
+            "u_bb": format_number(h.u_bb, digits), "F": format_statistic(h.F, ".3g"),
+            "p": format_statistic(h.p_value, ".2g"), "significant": h.p_value < 0.05,
             "dof": f"{h.dof_between}, {h.dof_within}",
             "chart": points_with_bars(rows, centre=float(np.average(h.means, weights=h.counts)),
                                       unit=unit, label="unit means with ± s_wb/√n")}
@@ -130,7 +131,8 @@ def _stability(s: Any, unit: str, digits: int) -> dict[str, Any] | None:
     from .studydata import time_words
 
     return {"slope": format_number(s.slope, digits), "u_slope": format_number(s.u_slope, digits),
-            "t": f"{s.t:.3g}", "p": f"{s.p_value:.2g}", "significant": s.p_value < 0.05,
+            "t": format_statistic(s.t, ".3g"), "p": format_statistic(s.p_value, ".2g"),
+            "significant": s.p_value < 0.05,
             "dof": s.dof, "shelf_life": time_words(s.time_unit, s.shelf_life),
             "per": time_words(s.time_unit),
             "u_lts": format_number(s.u_lts, digits),

@@ -50,13 +50,21 @@ class Partial:
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Chain:
-    """The sensitivity coefficient of ``input`` as a sum over paths of local products."""
+    """The sensitivity coefficient of ``input`` as a sum over paths of local products.
+
+    For an input that (also) acts through the result of an earlier model of a chain,
+    ``through`` names that result and ``upstream`` is ∂result/∂input, the part the earlier
+    model contributes (the engine's coefficient less the paths of this file, divided by
+    the local derivative with respect to the result)."""
 
     input: str
     paths: tuple[tuple[str, ...], ...]
     path_count: int
     value: float
     unit: str
+    through: str | None = None
+    upstream: float | None = None
+    upstream_unit: str = ""
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -78,10 +86,19 @@ class _Quantity:
     shown: str            # display unit
 
 
-def chain_rule(model: Any, index: int) -> ChainRule:
-    """The local derivatives and the chain of every uncertain input of measurand ``index``."""
+def chain_rule(model: Any, index: int,
+               engine: dict[str, float] | None = None) -> ChainRule:
+    """The local derivatives and the chain of every uncertain input of measurand ``index``.
+
+    ``engine``: the budget's coefficients, needed only for a chained model, whose earlier
+    models' inputs are reached through their results (``model.chain``)."""
     measurand = model.measurands[index]
     known = {item.name: _input_quantity(item) for item in model.inputs}
+    links = {link.input: link for link in getattr(model, "chain", ()) if ":" not in link.input}
+    for name, link in links.items():
+        info = parse_unit(link.unit, Location(file="<report>"))
+        known[name] = _Quantity(link.estimate * float(info.factor), info.unit, info.factor,
+                                display_unit(link.unit))
     trees = {d.name: ast.parse(d.text, mode="eval").body for d in model.definitions}
     local: dict[str, dict[str, float]] = {}
     for d in model.definitions:
@@ -93,15 +110,52 @@ def chain_rule(model: Any, index: int) -> ChainRule:
     _, local[measurand.name], unit = _sweep(top, known)
     info = parse_unit(measurand.unit, Location(file="<report>"))
     known[measurand.name] = _Quantity(0.0, unit, info.factor, display_unit(measurand.unit))
-    uncertain = {i.name for i in model.inputs if i.standard_uncertainty > 0}
+    uncertain = {i.name for i in model.inputs if i.standard_uncertainty > 0} | set(links)
     reach = _reach(local, uncertain)
     partials = _partials(measurand.name, local, known, trees, reach, uncertain)
-    chains = tuple(_chain(measurand.name, x, local, known, partials)
-                   for x in (i.name for i in model.inputs) if x in uncertain
-                   and x in reach.get(measurand.name, set()))
+    chains = []
+    for item in model.inputs:
+        x = item.name
+        if item.standard_uncertainty <= 0:
+            continue
+        own = _chain(measurand.name, x, local, known, partials) \
+            if x in reach.get(measurand.name, set()) else None
+        stage = _stage(x, links, model)
+        if stage is None or engine is None:
+            if own is not None:
+                chains.append(own)
+            continue
+        chains.append(_through(measurand.name, x, stage, own, local, known, partials, engine))
     units = tuple((name, q.shown) for name, q in known.items())
     return ChainRule(measurand=measurand.name, partials=tuple(partials.values()),
-                     chains=chains, units=units)
+                     chains=tuple(chains), units=units)
+
+
+def _stage(x: str, links: dict[str, Any], model: Any) -> str | None:
+    """The earlier model's result through which input ``x`` acts, if any."""
+    head = x.split(":", 1)[0]
+    if ":" in x and head in links:
+        return head
+    for name, link in links.items():
+        if x in link.inputs:  # an input shared with the earlier model
+            return name
+    return None
+
+
+def _through(top: str, x: str, stage: str, own: Chain | None,
+             local: dict[str, dict[str, float]], known: dict[str, _Quantity],
+             partials: dict[tuple[str, str], Partial], engine: dict[str, float]) -> Chain:
+    """An input acting through an earlier model's result (and perhaps directly too)."""
+    to_stage = _chain(top, stage, local, known, partials)
+    direct = own.value if own is not None else 0.0
+    total = engine.get(x, direct)
+    upstream = (total - direct) / to_stage.value if to_stage.value else None
+    shown = known[x].shown if x in known else ""
+    return Chain(input=x, paths=(own.paths if own else ()) + tuple(
+                     (*p, x) for p in to_stage.paths),
+                 path_count=(own.path_count if own else 0) + to_stage.path_count,
+                 value=total, unit=unit_ratio(known[top].shown, shown), through=stage,
+                 upstream=upstream, upstream_unit=unit_ratio(known[stage].shown, shown))
 
 
 def _input_quantity(item: Any) -> _Quantity:

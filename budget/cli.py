@@ -54,6 +54,16 @@ def _warn(warnings: Any) -> None:
         click.echo(f"warning: {_safe(str(line))}", err=True)
 
 
+def _check_output(path: str | None) -> None:
+    """Refuse an impossible output target before the work starts (output.check_target)."""
+    if path:
+        from pathlib import Path
+
+        from .output import check_target
+
+        check_target(Path(path))
+
+
 def _safe(text: str) -> str:
     """One line for the terminal: control characters escaped (limits.terminal_text)."""
     from .limits import terminal_text
@@ -202,6 +212,7 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
 
     progress = _Progress(not as_json)
     try:
+        _check_output(html_file)
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
                            second_order, progress, reported_interval)
         progress.close()
@@ -310,12 +321,15 @@ def check(model_file: str, strict: bool) -> None:
               help="Monte Carlo trials for the characterization model (0 = none).")
 @click.option("--seed", type=click.IntRange(0, 2 ** 64 - 1), default=None,
               help="Random seed.")
+@click.option("--allow-outside-folder", is_flag=True,
+              help="Allow files named in the campaign outside its folder tree.")
 @_export_options
 @_STRICT
 @_REPORTED_OPTION
 def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: int | None,
-            seed: int | None, csv_file: str | None, xlsx_file: str | None,
-            strict: bool, reported_interval: str | None) -> None:
+            seed: int | None, allow_outside_folder: bool, csv_file: str | None,
+            xlsx_file: str | None, strict: bool,
+            reported_interval: str | None) -> None:
     """Certify a batch: characterization, homogeneity, stability, comparison."""
     from .campaign import load_campaign
     from .certification import certify as run_certification
@@ -323,7 +337,8 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
 
     progress = _Progress(not as_json)
     try:
-        campaign = load_campaign(campaign_file)
+        _check_output(html_file)
+        campaign = load_campaign(campaign_file, allow_outside=allow_outside_folder)
         cert = run_certification(campaign, trials=trials, seed=seed, progress=progress,
                                  reported_interval=reported_interval)
         progress.close()

@@ -128,12 +128,10 @@ class Table:
         wrong = "." if self.decimal == "," else ","
         if wrong in text:
             raise self._not_a_number(column, index, text)
-        text = text.replace(",", ".")
-        try:
-            value = float(text)
-        except ValueError:
-            raise self._not_a_number(column, index, text) from None
-        if not math.isfinite(value):
+        from .limits import parse_number
+
+        value = parse_number(text.replace(",", "."))  # strict: no '9_9.99', 'nan', 'inf'
+        if value is None:
             raise self._not_a_number(column, index, text)
         return value
 

@@ -163,12 +163,13 @@ def certification_document(cert: Any) -> dict[str, Any]:
         "homogeneity": None if h is None else {
             "ms_between": h.ms_between, "ms_within": h.ms_within, "n0": h.n0,
             "s_bb": h.s_bb, "u_bb_star": h.u_bb_star, "u_bb": h.u_bb, "F": h.F,
-            "p_value": h.p_value, "units": list(h.units), "means": list(h.means),
+            "p_value": h.p_value, **_reason("F", h.reason), "units": list(h.units),
+            "means": list(h.means),
             "counts": list(h.counts)},
         "stability": None if s is None else {
             "slope": s.slope, "u_slope": s.u_slope, "p_value": s.p_value, "u_lts": s.u_lts,
             "intercept": s.intercept, "t": s.t, "dof": s.dof, "shelf_life": s.shelf_life,
-            "time_unit": s.time_unit or None},
+            "time_unit": s.time_unit or None, **_reason("t", s.reason)},
         "comparisons": [{"label": c.label, "E_n": c.E_n, "zeta": c.zeta, "agrees": c.agrees,
                          "value": c.estimate, "u": c.standard_uncertainty,
                          "U": c.expanded_uncertainty} for c in cert.comparisons],
@@ -200,6 +201,11 @@ def certification_document(cert: Any) -> dict[str, Any]:
 
         document["stability_studies"] = studies_document(cert.stability_studies)
     return document
+
+
+def _reason(statistic: str, reason: str) -> dict[str, str]:
+    """``{"F_reason": …, "p_value_reason": …}`` beside statistics that are null."""
+    return {f"{statistic}_reason": reason, "p_value_reason": reason} if reason else {}
 
 
 def json_safe(document: Any) -> Any:

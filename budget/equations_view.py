@@ -16,7 +16,7 @@ from markupsafe import Markup
 from .chain import Chain, ChainRule, Partial, chain_rule
 from .formatting import format_number
 from .typeset import (equation_mathml, expression_mathml, math_block, name_html,
-                      name_mathml, partial_mathml, width)
+                      name_mathml, name_text, partial_mathml, width)
 from .unit_display import display_unit
 
 __all__ = ["model_view", "sensitivity_view", "FOLD_WIDTH"]
@@ -37,9 +37,11 @@ def model_view(model: Any) -> dict[str, Any]:
     }
 
 
-def sensitivity_view(model: Any, k: int) -> dict[str, Any]:
-    """The chain of every uncertain input and the local derivatives it is made of."""
-    rule = chain_rule(model, k)
+def sensitivity_view(model: Any, k: int,
+                     engine: dict[str, float] | None = None) -> dict[str, Any]:
+    """The chain of every uncertain input and the local derivatives it is made of;
+    ``engine``: the budget's coefficients (used for the earlier models of a chain)."""
+    rule = chain_rule(model, k, engine)
     equations = {d.name: d.text for d in model.definitions}
     equations[rule.measurand] = model.measurands[k].equation
     groups = []
@@ -107,9 +109,12 @@ def _chain_row(rule: ChainRule, c: Chain) -> dict[str, Any]:
     rhs = "<mo>+</mo>".join(products)
     if c.path_count > len(c.paths):
         rhs += f"<mo>+</mo><mtext>… ({c.path_count} paths in all)</mtext>"
-    direct = all(len(p) == 2 for p in c.paths) and c.path_count == 1
+    direct = all(len(p) == 2 for p in c.paths) and c.path_count == 1 and c.through is None
     body = f"<mrow>{head}</mrow>" if direct else f"<mrow>{head}<mo>=</mo>{rhs}</mrow>"
-    return {"input": c.input, "name": Markup(name_html(c.input)),
+    upstream = "" if c.upstream is None or c.through is None else (
+        f"∂{name_text(c.through)}/∂{name_text(c.input.rsplit(':', 1)[-1])} = "
+        f"{format_number(c.upstream, 4)} {c.upstream_unit}, from the earlier model")
+    return {"input": c.input, "name": Markup(name_html(c.input)), "upstream": upstream,
             "symbol": Markup(name_mathml(c.input)),
             "math": Markup(math_block(body, f"d{rule.measurand}/d{c.input}")),
             "inline": Markup(math_block(body, f"d{rule.measurand}/d{c.input}", "inline")),

@@ -14,7 +14,7 @@ import math
 from decimal import ROUND_HALF_UP, Decimal, localcontext
 
 __all__ = ["decimal_exponent", "round_pair", "format_pair", "format_number",
-           "format_dof", "format_percent"]
+           "format_dof", "format_percent", "format_statistic"]
 
 
 def decimal_exponent(u: float, digits: int = 2) -> int:
@@ -75,6 +75,11 @@ def format_dof(dof: float) -> str:
     if dof >= 1000:
         return f"{dof:.3g}" if dof < 1e6 else "> 10⁶"
     return f"{dof:.0f}" if abs(dof - round(dof)) < 1e-9 else f"{dof:.1f}"
+
+
+def format_statistic(x: float, spec: str) -> str:
+    """A test statistic or p-value; 'not computable' when it is not defined (NaN)."""
+    return "not computable" if math.isnan(x) else format(x, spec)
 
 
 def format_percent(share: float) -> str:

@@ -21,7 +21,7 @@ __all__ = ["MAX_FILE_BYTES", "MAX_DATA_BYTES", "MAX_EXPRESSION_CHARS", "MAX_NEST
            "MAX_TRIALS", "MAX_SECOND_ORDER_INPUTS", "DIGITS", "PROBABILITY",
            "MIN_RELIABILITY", "MAX_SEED", "LIMITS_PAGE", "check_seed", "check_probability",
            "check_digits", "check_trials", "as_float", "terminal_text", "control_character",
-           "shorten", "check_strings", "character_name"]
+           "shorten", "check_strings", "character_name", "parse_number"]
 
 LIMITS_PAGE = "docs/limits.md"
 MAX_FILE_BYTES = 16 * 2 ** 20  # a model or campaign file
@@ -73,6 +73,20 @@ def check_trials(trials: int, where: Location | None = None) -> int:
                          f"--adaptive to stop when the results are stable), found "
                          f"{_count(trials)}", where)
     return trials
+
+
+_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")
+
+
+def parse_number(text: str) -> float | None:
+    """A number written in a data file as a finite float, or None. Stricter than
+    ``float()``: no '_' digit separators (``9_9.9983``), no 'nan' or 'inf', at most
+    MAX_NUMBER_DIGITS digits."""
+    cleaned = text.strip()
+    if not _NUMBER.fullmatch(cleaned) or len(cleaned) > MAX_NUMBER_DIGITS + 8:
+        return None
+    number = float(cleaned)
+    return number if math.isfinite(number) else None
 
 
 def as_float(value: Any) -> float | None:

@@ -150,6 +150,10 @@ def _impurity(r: _Reader, item: Any, method: str, nth: int) -> Impurity:
                              "beside 'model'", table, key, nth)
         source = _model_method(r, item, f"{method}/{label}", table, nth, runs_required=False)
         return Impurity(label=label, source=source)
+    for key in ("measurand", "runs", "scatter_covers"):
+        if key in item:
+            raise r.fail(f"expected '{key}' only with a 'model', found it with a stated value",
+                         table, key, nth)
     value = r.number(item, "value", table, nth=nth)
     if ("u" in item) == ("expanded" in item):
         raise r.fail("expected either 'u' or 'expanded' with 'k', found "
@@ -195,7 +199,7 @@ def _model_method(r: _Reader, entry: dict[str, Any], label: str, table: str, nth
 
 def _file(r: _Reader, entry: dict[str, Any], key: str, table: str, nth: int) -> Path:
     relative = r.text(entry, key, table, nth)
-    path = r.path.parent / relative
+    path = r.confined(relative, table, key, nth)
     if not path.is_file():
         raise r.fail(f"expected a file '{relative}' beside the campaign file, found none",
                      table, key, nth)

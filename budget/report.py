@@ -50,7 +50,7 @@ def render_report(result: Result) -> str:
 
 
 def write_report(result: Result, path: str) -> None:
-    write_atomic(path, render_report(result))
+    write_atomic(path, render_report(result), protect=files_of_model(result.model))
 
 
 def _budget_view(result: Result) -> dict[str, Any]:
@@ -180,10 +180,9 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "second_order": None if b.second_order_variance is None else
         format_number(b.first_order_uncertainty, 3),
         "chart": bar_chart(chart_rows, "%", f"shares of u_c² of {name_text(b.name)}"),
-        # a chained model's equations name inputs that are now earlier models' results:
-        # the chain rule over this file's text cannot reach their base inputs
-        "sensitivity": {"chains": [], "groups": []} if result.model.chain
-        else sensitivity_view(result.model, k),
+        # a chained model's earlier models are reached through their results
+        "sensitivity": sensitivity_view(result.model, k,
+                                        {c.input: c.sensitivity for c in b.contributions}),
         "mc": _simulation_view(b, simulation, digits, unit) if simulation else None,
     }
 
@@ -255,7 +254,15 @@ def render_certification_report(cert: Any) -> str:
 
 
 def write_certification_report(cert: Any, path: str) -> None:
-    write_atomic(path, render_certification_report(cert))
+    campaign = cert.campaign
+    protect = [("campaign", campaign.source), *files_of_model(campaign.model),
+               *((role, name) for role, name, _ in campaign.data_files)]
+    write_atomic(path, render_certification_report(cert), protect=protect)
+
+
+def files_of_model(model: Any) -> list[tuple[str, str]]:
+    """(role, path) of the model file and every file that fed it: never overwritten."""
+    return [("model", model.source), *((role, name) for role, name, _ in model.files)]
 
 
 def _certification_view(cert: Any) -> dict[str, Any]:

@@ -26,7 +26,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -163,7 +162,7 @@ def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int,
             time_unit: Any = None) -> tuple[Array, Array]:
     """A study's times and values; ``time_unit`` as declared (else the header's)."""
     relative = r.text(entry, "data", table, nth)
-    path = Path(r.path.parent / relative)
+    path = r.confined(relative, table, "data", nth)
     if not path.is_file():
         raise r.fail(f"expected a file '{relative}' beside the campaign file, found none",
                      table, "data", nth)
@@ -199,8 +198,11 @@ def pooled_trend(series: list[tuple[Array, Array]], period: float) -> PooledTren
     dof = sum(t.size for t, _ in series) - len(series) - 1
     s = math.sqrt(residual / dof)
     u_slope = s / math.sqrt(sxx)
-    t_value = slope / u_slope if u_slope > 0 else math.inf
-    p = t_two_sided_p(t_value, dof) if math.isfinite(t_value) else 0.0
+    from .certification import zero_residual
+
+    flat = zero_residual(s, np.concatenate([y for _, y in series]))
+    t_value = math.nan if flat else slope / u_slope  # not defined: no significance
+    p = math.nan if flat else t_two_sided_p(t_value, dof)
     return PooledTrend(slope=slope, u_slope=u_slope, t=t_value, p_value=p, dof=dof,
                        intercepts=intercepts, u_lts=u_slope * period)
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from .formatting import format_number
+from .formatting import format_number, format_statistic
 from .studydata import time_words
 
 __all__ = ["studies_document", "studies_lines", "studies_view"]
@@ -41,17 +41,20 @@ def studies_lines(s: Any, unit: str, digits: int) -> list[str]:
              f"{unit} from {s.governing}"]
     for label, fit in zip(s.labels, s.series):
         lines.append(f"  {label:28} slope {format_number(fit.slope, digits)} ± "
-                     f"{format_number(fit.u_slope, digits)} (p = {fit.p_value:.2g}), "
+                     f"{format_number(fit.u_slope, digits)} (p = "
+                     f"{format_statistic(fit.p_value, '.2g')}), "
                      f"s(b1)·t = {format_number(fit.u_lts, digits)}")
     if s.pooled is not None:
         p = s.pooled
         lines.append(f"  {'together (common slope)':28} slope {format_number(p.slope, digits)}"
-                     f" ± {format_number(p.u_slope, digits)} (p = {p.p_value:.2g})")
+                     f" ± {format_number(p.u_slope, digits)} (p = "
+                     f"{format_statistic(p.p_value, '.2g')})")
     if s.short_term is not None:
         f = s.short_term
         where = "" if s.temperature is None else f" at {s.temperature:g} °C"
         lines.append(f"short-term study{where}: slope {format_number(f.slope, digits)} ± "
-                     f"{format_number(f.u_slope, digits)} (p = {f.p_value:.2g}), u_sts = "
+                     f"{format_number(f.u_slope, digits)} (p = "
+                     f"{format_statistic(f.p_value, '.2g')}), u_sts = "
                      f"{format_number(s.u_sts, digits)} {unit} for "
                      f"{time_words(s.short_term_unit, s.transport_time)}")
     return lines
@@ -60,7 +63,8 @@ def studies_lines(s: Any, unit: str, digits: int) -> list[str]:
 def studies_view(s: Any, digits: int) -> dict[str, Any]:
     def row(label: str, fit: Any, period: float) -> dict[str, Any]:
         return {"label": label, "slope": format_number(fit.slope, digits),
-                "u_slope": format_number(fit.u_slope, digits), "p": f"{fit.p_value:.2g}",
+                "u_slope": format_number(fit.u_slope, digits),
+                "p": format_statistic(fit.p_value, ".2g"),
                 "dof": str(fit.dof), "period": f"{period:g}",
                 "u": format_number(fit.u_lts, digits), "significant": fit.p_value < 0.05}
 
@@ -69,7 +73,8 @@ def studies_view(s: Any, digits: int) -> dict[str, Any]:
         p = s.pooled
         rows.append({"label": "together (common slope)",
                      "slope": format_number(p.slope, digits),
-                     "u_slope": format_number(p.u_slope, digits), "p": f"{p.p_value:.2g}",
+                     "u_slope": format_number(p.u_slope, digits),
+                     "p": format_statistic(p.p_value, ".2g"),
                      "dof": str(p.dof), "period": f"{s.series[0].shelf_life:g}",
                      "u": format_number(p.u_lts, digits), "significant": p.p_value < 0.05})
     short = None

@@ -8,7 +8,8 @@ import textwrap
 from typing import Any
 
 from .analysis import Result
-from .formatting import format_dof, format_number, format_pair, format_percent
+from .formatting import (format_dof, format_number, format_pair, format_percent,
+                         format_statistic)
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
 from .unit_display import display_unit
@@ -249,14 +250,16 @@ def render_certification(cert: Any, digits: int = 2) -> str:
                      f"of their own in u_B: {', '.join(campaign.scatter_covers)}")
     if cert.homogeneity:
         h = cert.homogeneity
-        lines.append(f"homogeneity: {len(h.units)} units, F = {h.F:.3g} (p = {h.p_value:.2g}),"
+        lines.append(f"homogeneity: {len(h.units)} units, F = {format_statistic(h.F, '.3g')} (p = "
+                     f"{format_statistic(h.p_value, '.2g')}),"
                      f" s_bb = {format_number(h.s_bb, digits)}, u*_bb = "
                      f"{format_number(h.u_bb_star, digits)} {unit}")
     if cert.stability:
         s = cert.stability
         lines.append(f"stability: slope {format_number(s.slope, digits)} ± "
                      f"{format_number(s.u_slope, digits)} {unit} per "
-                     f"{time_words(s.time_unit)} (p = {s.p_value:.2g}), u_lts = "
+                     f"{time_words(s.time_unit)} (p = "
+                     f"{format_statistic(s.p_value, '.2g')}), u_lts = "
                      f"{format_number(s.u_lts, digits)} {unit} over "
                      f"{time_words(s.time_unit, s.shelf_life)}")
     for c in cert.comparisons:

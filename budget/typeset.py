@@ -16,7 +16,9 @@ Names follow the rules documented in ``docs/reports.md``:
   become the prefix δ or Δ (δρ_a); ``delta_x`` and ``Delta_T`` always do (δx, ΔT);
   ``d_m`` stays d with subscript m, since a d alone may be a quantity of its own;
 * one letter followed by digits takes the digits as a subscript (``b0`` → b_0);
-* a name with an empty part (``a__b``, ``a_``) is shown exactly as written.
+* a name with an empty part (``a__b``, ``a_``) is shown exactly as written;
+* an input of an earlier model of a chain, ``c_NaOH:m_KHP``, is shown by its own name
+  (m_KHP) followed by the stage it belongs to, (of c_NaOH).
 
 Long chains of ``+``/``-`` and of ``*``/``/`` are flattened while walking, so a model with
 thousands of terms is typeset without deep recursion.
@@ -80,6 +82,7 @@ def _mi(text: str, upright: bool = False) -> str:
 
 def name_mathml(name: str) -> str:
     """A model name as a MathML identifier (with its subscript, if any)."""
+    name = name.rsplit(":", 1)[-1]
     base, sub = name_parts(name)
     if len(base) == 2 and base[0] in "δΔ":  # prefix operator and a one-letter quantity
         core = f"<mrow><mi mathvariant=\"normal\">{base[0]}</mi>{_mi(base[1])}</mrow>"
@@ -92,6 +95,10 @@ def name_mathml(name: str) -> str:
 
 def name_html(name: str) -> str:
     """A model name as HTML text (``ρ<sub>ref</sub>``), for tables and headings."""
+    if ":" in name:
+        *stages, own = name.split(":")
+        path = " › ".join(name_html(stage) for stage in stages)
+        return f'{name_html(own)} <span class="stage">(of {path})</span>'
     base, sub = name_parts(name)
     shown = f'<var>{html.escape(base)}</var>'
     return shown if sub is None else f"{shown}<sub>{html.escape(sub)}</sub>"
@@ -99,6 +106,9 @@ def name_html(name: str) -> str:
 
 def name_text(name: str) -> str:
     """A model name as plain text with the same letters (``ρ_ref``), for chart labels."""
+    if ":" in name:
+        *stages, own = name.split(":")
+        return f"{name_text(own)} ({' › '.join(name_text(s) for s in stages)})"
     base, sub = name_parts(name)
     return base if sub is None else f"{base}_{sub}"
 

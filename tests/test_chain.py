@@ -19,17 +19,37 @@ from test_typeset import MODEL_FILES
 @pytest.mark.parametrize("path", MODEL_FILES, ids=lambda p: p.name)
 def test_products_of_local_derivatives_equal_the_engines_coefficients(path):
     loaded = load_model(path)
-    if loaded.chain:  # its equations name earlier models' results (tests/test_chained.py)
-        pytest.skip("a chained model: the chain rule over its own text cannot reach the "
-                    "earlier models' base inputs")
     budget = propagate(loaded)
     for k, b in enumerate(budget.measurands):
-        rule = chain_rule(loaded, k)
         engine = {c.input: c.sensitivity for c in b.contributions}
+        # a chained model's earlier stages are reached through their results: only the
+        # paths within this file are independent of the engine (tests/test_chained.py)
+        rule = chain_rule(loaded, k, engine if loaded.chain else None)
         assert rule.chains, path
         for chain in rule.chains:
+            if chain.through is not None:
+                continue
             assert math.isclose(chain.value, engine[chain.input], rel_tol=1e-6,
                                 abs_tol=1e-12 * max(1.0, abs(b.estimate))), chain.input
+
+
+def test_a_chained_model_reaches_the_earlier_models_inputs():
+    # stage 3 of the chain demo: the burette factor f_bur enters the titrant's
+    # standardisation and the assay and cancels (docs: chained budgets)
+    loaded = load_model(MODEL_FILES[[p.name for p in MODEL_FILES].index("acid-assay.toml")])
+    engine = {c.input: c.sensitivity for c in propagate(loaded).measurands[0].contributions}
+    chains = {c.input: c for c in chain_rule(loaded, 0, engine).chains}
+    assert set(chains) == {i.name for i in loaded.inputs if i.standard_uncertainty > 0}
+    burette = chains["f_bur"]
+    assert burette.through == "c_NaOH" and burette.path_count == 2
+    direct = next(p for p in chain_rule(loaded, 0).chains if p.input == "f_bur").value
+    local = chain_rule(loaded, 0).partial("w_X", "c_NaOH").value
+    # the two paths cancel: direct + ∂w/∂c_NaOH · ∂c_NaOH/∂f_bur = engine's c ≈ 0
+    assert direct + local * burette.upstream == pytest.approx(engine["f_bur"], abs=1e-9)
+    assert abs(engine["f_bur"]) < 1e-9 * abs(direct)
+    mass = chains["c_NaOH:m_KHP"]
+    assert mass.paths == (("w_X", "c_NaOH", "c_NaOH:m_KHP"),)
+    assert mass.value == engine["c_NaOH:m_KHP"]
 
 
 def test_demo_chain_goes_through_the_sample_mass():

@@ -353,3 +353,13 @@ def test_compare_only_still_reports_the_consistency(tmp_path: Path) -> None:
     assert cert.methods.combined is None
     assert cert.methods.consistency.chi2 == pytest.approx(0.019 ** 2 / 1.1e-5, rel=1e-6)
     assert cert.methods.consistency.dof == 1
+
+
+def test_a_stated_impurity_refuses_model_keys(tmp_path: Path) -> None:
+    with pytest.raises(CampaignError) as caught:
+        load_campaign(_write(tmp_path, HEAD + "\n[[method]]\nlabel = \"mb\"\n"
+                             "kind = \"mass_balance\"\n[[method.impurity]]\nlabel = \"x\"\n"
+                             "value = 0.01\nu = 0.001\nruns = \"a.csv\"\n"))
+    assert str(caught.value).replace(str(tmp_path) + "/", "") == (
+        "campaign.toml:18: [method.impurity] runs: expected 'runs' only with a 'model', found "
+        "it with a stated value")
