@@ -406,9 +406,13 @@ def _shelf_life(r: _Reader, section: dict[str, Any], time_unit: str) -> float:
     from .units import parse_unit
 
     unit_text = _shelf_unit(r, value)
-    number = float(value.strip()[: len(value.strip()) - len(unit_text)])
+    try:
+        number = float(value.strip()[: len(value.strip()) - len(unit_text)])
+    except ValueError:
+        raise r.fail(f"expected a shelf life as a number or as \"36 month\", found {value!r}",
+                     "stability", "shelf_life") from None
     where = r.where("stability", "shelf_life")
-    if number <= 0:
+    if not math.isfinite(number) or number <= 0:
         raise r.fail(f"expected a shelf life > 0, found {number:g}", "stability", "shelf_life")
     return float(convert(np.array([number]), parse_unit(unit_text, where),
                          parse_unit(time_unit or unit_text, where), source=r.name,

@@ -95,6 +95,8 @@ def elapsed(dates: Sequence[datetime | None], origin: datetime | None, unit: Uni
             ) -> np.ndarray:
     """Time since ``origin`` (default: the earliest date) in ``unit``; NaN where missing."""
     present = [d for d in dates if d is not None]
+    if origin is None and not present:
+        return np.full(len(dates), np.nan)
     start = origin if origin is not None else min(present)
     day = 86400.0 / float(unit.factor)
     return np.array([np.nan if d is None else (d - start).total_seconds() / 86400.0 * day

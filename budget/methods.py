@@ -130,9 +130,13 @@ def _method(r: _Reader, entry: Any, nth: int, counter: list[int]) -> ModelMethod
     if not isinstance(items, list) or not items:
         raise r.fail("expected at least one [[method.impurity]] table, found none", "method",
                      "kind", nth)
-    impurities = []
+    impurities: list[Impurity] = []
     for item in items:
-        impurities.append(_impurity(r, item, label, counter[0]))
+        impurity = _impurity(r, item, label, counter[0])
+        if impurity.label in [i.label for i in impurities]:
+            raise r.fail(f"expected distinct impurity labels, found '{impurity.label}' twice",
+                         "method.impurity", "label", counter[0])
+        impurities.append(impurity)
         counter[0] += 1
     return MassBalance(label=label, impurities=tuple(impurities))
 

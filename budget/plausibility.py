@@ -152,6 +152,8 @@ def estimate_warnings(name: str, values: np.ndarray, estimate: float, unit: str,
 def _slip(ratio: float) -> str:
     if ratio <= 0:
         return "opposite sign"
+    if not math.isfinite(ratio):
+        return "an estimate of 0 to working precision"
     power = math.log10(ratio)
     near = round(power)
     if near != 0 and abs(power - near) < 0.05:

@@ -167,18 +167,23 @@ def _times(table: Table, name: str, time_unit: str | None, origin: datetime | No
                                 "\"month\") to turn dates into elapsed time, found none",
                                 Location(file=table.source))
         dates = table.dates_of(name, allow_missing=True)
-        return elapsed(dates, origin, _unit(date_unit, table, name)), date_unit, True
+        return elapsed(dates, origin, _time_unit(date_unit, table, name)), date_unit, True
     if origin is not None:
         raise DataFileError(f"column '{name}': expected dates when time_origin is declared, "
                             "found numbers", Location(file=table.source))
     wanted = time_unit or column.unit or ""
     if wanted:
-        unit = _unit(wanted, table, name)
-        if unit.unit.dims != parse_unit("s", Location()).unit.dims:
-            raise DataFileError(f"column '{name}': expected a time unit, found '{wanted}' "
-                                f"({unit.describe()})", Location(file=table.source))
+        _time_unit(wanted, table, name)
         return column_in(table, name, wanted, allow_missing=True), wanted, False
     return table.numbers(name, allow_missing=True), "", False
+
+
+def _time_unit(text: str, table: Table, name: str) -> UnitInfo:
+    unit = _unit(text, table, name)
+    if unit.offset or unit.unit.dims != parse_unit("s", Location()).unit.dims:
+        raise DataFileError(f"column '{name}': expected a time unit (such as month, d, year), "
+                            f"found '{text}' ({unit.describe()})", Location(file=table.source))
+    return unit
 
 
 _WORDS = {"d": "day", "day": "day", "days": "day", "month": "month", "months": "month",

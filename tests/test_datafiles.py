@@ -12,10 +12,12 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from budget.datadates import elapsed, parse_dates
 from budget.datafiles import FileFormat, convert, read_table, split_header
-from budget.errors import DataFileError, Location, UnitError
+from budget.errors import BudgetError, DataFileError, Location, UnitError
 from budget.units import parse_unit
 
 
@@ -236,3 +238,33 @@ def test_comments_above_the_header_only(tmp_path):
     assert table.column("label").cells == ("#7", "B")
     assert table.rows == (4, 5)
 
+
+
+_CELLS = st.sampled_from(["1", "2,5", "3.25", "", "NA", "-", "x", "2025-06-30", "31.12.2025",
+                          "01/02/2026", "1e999", "nan", "µ", '"a;b"', "m / mg", "t [d]",
+                          "w / mass %", "#", " ", "\t"])
+_SEPARATORS = st.sampled_from([",", ";", "\t", "|"])
+
+
+@settings(max_examples=150, deadline=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+@given(rows=st.lists(st.lists(_CELLS, min_size=1, max_size=4), min_size=0, max_size=6),
+       separator=_SEPARATORS, encoding=st.sampled_from(["utf-8", "utf-16", "cp1252"]),
+       junk=st.binary(max_size=8))
+def test_any_table_reads_or_fails_with_a_budget_error(tmp_path, rows, separator, encoding,
+                                                      junk):
+    text = "\n".join(separator.join(row) for row in rows)
+    try:
+        data = text.encode(encoding) + junk
+    except UnicodeEncodeError:
+        data = text.encode("utf-8") + junk
+    path = tmp_path / "t.csv"
+    path.write_bytes(data)
+    try:
+        table = read_table(path, FileFormat(missing=("NA", "-")))
+        for name in table.names:
+            table.numbers(name, allow_missing=True)
+            if table.looks_like_dates(name):
+                table.dates_of(name, allow_missing=True)
+    except BudgetError:
+        pass

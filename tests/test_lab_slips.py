@@ -429,3 +429,28 @@ def test_a_campaign_unit_that_is_no_mass_ratio(tmp_path, unit):
     assert (f"plausibility: the certified value ('w', a mass fraction or purity) is given in "
             f"'{unit}', which is not a ratio of masses; use '%', 'g/g', 'mg/g' or '1'"
             ) in _certified(path).warnings
+
+
+@pytest.mark.parametrize("edit, message", [
+    (("shelf_life = 36 ", 'shelf_life = "3.3.3 months" '),
+     "[stability] shelf_life: expected a shelf life as a number or as \"36 month\", found "
+     "'3.3.3 months'"),
+    (('time_unit = "month"', 'time_unit = "kg"'),
+     "stability.csv: column 'time': expected a time unit (such as month, d, year), found 'kg' "
+     "([mass])"),
+])
+def test_bad_time_declarations_are_refused(tmp_path, edit, message):
+    path = _copy(tmp_path, {"campaign.toml": lambda t: t.replace(*edit)})
+    with pytest.raises(CampaignError) as caught:
+        load_campaign(path)
+    assert str(caught.value).endswith(message)
+
+
+def test_all_dates_missing_is_refused_without_traceback(tmp_path):
+    path = _copy(tmp_path, {"stability.csv": lambda t: "time,value\n-,1\n-,2\n-,3\n",
+                            "campaign.toml": lambda t: t.replace(
+                                'data = "stability.csv"',
+                                'data = "stability.csv"\nmissing = ["-"]')})
+    with pytest.raises(CampaignError, match="expected at least 3 points at 2 or more "
+                                            "different times, found 0 at 0"):
+        load_campaign(path)

@@ -363,3 +363,13 @@ def test_a_stated_impurity_refuses_model_keys(tmp_path: Path) -> None:
     assert str(caught.value).replace(str(tmp_path) + "/", "") == (
         "campaign.toml:18: [method.impurity] runs: expected 'runs' only with a 'model', found "
         "it with a stated value")
+
+
+def test_impurity_labels_are_distinct(tmp_path: Path) -> None:
+    twice = "[[method.impurity]]\nlabel = \"x\"\nvalue = 0.01\nu = 0.001\n"
+    with pytest.raises(CampaignError) as caught:
+        load_campaign(_write(tmp_path, HEAD + "\n[[method]]\nlabel = \"mb\"\n"
+                             "kind = \"mass_balance\"\n" + twice + twice))
+    assert str(caught.value).replace(str(tmp_path) + "/", "") == (
+        "campaign.toml:19: [method.impurity] label: expected distinct impurity labels, found "
+        "'x' twice")

@@ -172,3 +172,25 @@ def test_unit_of_a_derivative(top, bottom, shown):
 
 def test_name_text():
     assert name_text("d_rho_a") == "δρ_a" and name_text("eta") == "η"
+
+
+def test_terminal_units_follow_the_encoding_of_standard_output(monkeypatch):
+    import sys
+
+    from budget.table import terminal_unit
+
+    class Narrow:
+        encoding = "ascii"
+
+    monkeypatch.setattr(sys, "stdout", Narrow())
+    assert terminal_unit("degC") == "degC" and terminal_unit("kg/m^3") == "kg/m^3"
+    Narrow.encoding = "utf-8"
+    assert terminal_unit("degC") == "°C" and terminal_unit("ohm") == "Ω"
+
+
+def test_the_terminal_table_shows_unit_symbols(cli):
+    code, stdout, _ = cli("run", str(MODELS / "vics-as-25a" / "coulometric-purity.toml"),
+                          "--trials", "0")
+    assert code == 0
+    assert "kg/m³" in stdout and "°C" in stdout and "Ω" in stdout
+    assert "kg/m^3" not in stdout and "degC" not in stdout
