@@ -133,6 +133,14 @@ def _export_options(function: Callable[..., Any]) -> Callable[..., Any]:
     return function
 
 
+def _can_export(xlsx_file: str | None) -> None:
+    """Refuse ``--xlsx`` without openpyxl before any file is written."""
+    if xlsx_file:
+        from .workbooks import require_openpyxl
+
+        require_openpyxl(xlsx_file)
+
+
 _STRICT = click.option("--strict", is_flag=True,
                        help="Exit with status 3, writing nothing, when there is a warning.")
 
@@ -217,6 +225,7 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
                            second_order, progress, reported_interval)
         progress.close()
         _strict(strict, result.warnings)
+        _can_export(xlsx_file)
         if html_file:
             from .report import write_report
 
@@ -343,6 +352,7 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
                                  reported_interval=reported_interval)
         progress.close()
         _strict(strict, cert.warnings)
+        _can_export(xlsx_file)
         if html_file:
             from .report import write_certification_report
 

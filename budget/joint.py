@@ -155,6 +155,9 @@ def _distinct(pairs: list[tuple[str, str, float]]) -> tuple[tuple[str, str, floa
 
 def _shared_input(name: str, uses: Sequence[tuple[str, str]], by_name: dict[str, Member],
                   where: Location) -> Input:
+    if not name.isidentifier():
+        raise InputError(f"expected a shared name of letters, digits and '_', found "
+                         f"'{name}'", where)
     if len(uses) < 2:
         raise InputError(f"shared input '{name}': expected at least two members' inputs, "
                          f"found {len(uses)}", where)

@@ -113,6 +113,9 @@ def generate(document: dict[str, Any], base: Path,
             if not isinstance(data, dict):
                 raise InputError(f"expected a table [{group}.{name}], found {data!r}",
                                  here(None))
+            if "description" in data and not isinstance(data["description"], str):
+                raise InputError(f"expected a string, found {data['description']!r}",
+                                 here("description"))
             first = len(made.inputs)
             try:
                 reader(name, data, base, here, made)
@@ -120,6 +123,9 @@ def generate(document: dict[str, Any], base: Path,
                 raise InputError(str(exc), here(_blamed(data, str(exc)))) from exc
             made.inputs[first:] = [replace(m, table=f"{group}.{name}")
                                    for m in made.inputs[first:]]
+            if isinstance(data.get("description"), str) and made.views:
+                view = made.views[-1]
+                made.views[-1] = replace(view, notes=(data["description"],) + view.notes)
     return made
 
 

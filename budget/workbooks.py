@@ -13,7 +13,7 @@ from typing import Any, Sequence
 
 from .errors import DataFileError, Location
 
-__all__ = ["read_sheet", "write_workbook", "MISSING_EXTRA"]
+__all__ = ["read_sheet", "write_workbook", "require_openpyxl", "MISSING_EXTRA"]
 
 MISSING_EXTRA = ("reading and writing .xlsx workbooks needs openpyxl, the optional "
                  "'xlsx' extra: pip install openpyxl (or save the sheet as CSV)")
@@ -26,6 +26,11 @@ def _openpyxl(shown: str) -> Any:
         raise DataFileError(f"expected openpyxl to be installed, found none: {MISSING_EXTRA}",
                             Location(file=shown)) from exc
     return openpyxl
+
+
+def require_openpyxl(shown: str) -> None:
+    """Raise the missing-extra error now, before anything is written."""
+    _openpyxl(shown)
 
 
 def _text(value: Any) -> str:

@@ -121,3 +121,13 @@ def test_sets_estimated_together_are_carried_and_merged() -> None:
     assert shared.model.correlations == (("y1", "y2", -0.93),)
     cov = np.array(propagate(shared.model).output_covariance)
     assert cov[0, 1] == pytest.approx(cov[0, 0], rel=1e-12)
+
+
+def test_a_shared_name_is_a_plain_name() -> None:
+    # a name like 'one:a' would collide with the namespaced inputs
+    members = [Member(name="one", model=parse_model(FIRST)),
+               Member(name="two", model=parse_model(SECOND))]
+    with pytest.raises(InputError) as caught:
+        join(members, [("one:a", [("one", "s"), ("two", "s")])])
+    assert str(caught.value) == ("<joint>: expected a shared name of letters, digits and '_', "
+                                 "found 'one:a'")

@@ -454,3 +454,18 @@ def test_all_dates_missing_is_refused_without_traceback(tmp_path):
     with pytest.raises(CampaignError, match="expected at least 3 points at 2 or more "
                                             "different times, found 0 at 0"):
         load_campaign(path)
+
+
+def test_xlsx_export_without_openpyxl_writes_nothing(tmp_path, cli, monkeypatch):
+    import sys
+
+    monkeypatch.setitem(sys.modules, "openpyxl", None)
+    report = tmp_path / "r.html"
+    code, stdout, stderr = cli("run", str(MODELS / "reference" / "eurachem-a2-naoh.toml"),
+                               "--trials", "0", "--html", str(report), "--xlsx",
+                               str(tmp_path / "b.xlsx"))
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {tmp_path / 'b.xlsx'}: expected openpyxl to be installed, found "
+                      "none: reading and writing .xlsx workbooks needs openpyxl, the optional "
+                      "'xlsx' extra: pip install openpyxl (or save the sheet as CSV)\n")
+    assert not report.exists() and not (tmp_path / "b.xlsx").exists()

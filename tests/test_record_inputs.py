@@ -6,6 +6,8 @@ record file and its row where there is one; exit status 1; no traceback.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pytest
 
@@ -162,3 +164,96 @@ def test_the_fast_and_the_careful_reader_agree_on_a_long_record(tmp_path, monkey
     careful = read_columns(path, "long.csv", ["x", "y"], Location())
     assert np.array_equal(careful.values["x"], fast.values["x"])
     assert np.array_equal(careful.rows, fast.rows)
+
+
+def test_charge_with_line_background_and_calibrations_as_separate_inputs(tmp_path):
+    # Q = cal·time·(∫i dt − ∫(b0 + b1 t) dt) + rule; reference: scipy trapezoid and numpy
+    # polyfit (the background line integrated over the window by hand)
+    from scipy.integrate import trapezoid
+
+    t = np.arange(0.0, 101.0)
+    i = np.where(t < 60, 2.0, 0.0) + 0.01 + 1e-4 * t + 1e-4 * np.cos(3 * t)
+    data = "t [s],i [mA]\n" + "".join(f"{a:g},{float(b)!r}\n" for a, b in zip(t, i))
+    path = _write(tmp_path, '[records.Q]\nkind = "charge"\nfile = "data.csv"\nx = "t"\n'
+                  'y = "i"\nwindow = [0, 70]\nbackground = "line"\n'
+                  'background_window = [70, 100]\ncurrent_u_relative = 1e-4\n'
+                  'time_u_relative = 1e-6\n', data, "Q")
+    model = load_model(path)
+    names = {item.name for item in model.inputs}
+    assert names == {"Q_int", "Q_bg", "Q_cal", "Q_time", "Q_rule"}
+    assert model.input("Q_int").estimate == pytest.approx(trapezoid(i[:71], t[:71]))
+    b1, b0 = np.polyfit(t[70:], i[70:], 1)
+    assert model.input("Q_bg").estimate == pytest.approx(b0 * 70 + b1 * 70 ** 2 / 2,
+                                                         rel=1e-9)
+    assert (model.input("Q_bg").dof, model.input("Q_bg").type) == (29.0, "A")
+    assert model.input("Q_int").unit == "mA*s"
+    budget = propagate(model).measurand("y")
+    assert budget.estimate == pytest.approx(model.input("Q_int").estimate
+                                            - model.input("Q_bg").estimate
+                                            + model.input("Q_rule").estimate, rel=1e-12)
+    assert model.input("Q_rule").distribution.name == "rectangular"
+
+
+def test_weighted_fit_reports_chi_squared_and_scaled_covariance_sets_dof(tmp_path):
+    data = "x,y,u\n" + "".join(f"{x},{2 + 0.3 * x + 0.05 * (-1) ** x},0.01\n"
+                              for x in range(10))
+    tables = '[fits.c]\nfile = "data.csv"\nx = "x"\ny = "y"\nu_y = "u"\n'
+    stated = load_model(_write(tmp_path, tables, data))
+    assert stated.input("c_b0").dof == math.inf
+    notes = stated.records[0].notes
+    assert any("NOT consistent with the stated uncertainties" in n for n in notes), notes
+    scaled = load_model(_write(tmp_path, tables + 'covariance = "scaled"\n', data))
+    assert scaled.input("c_b0").dof == 8.0
+    assert scaled.input("c_b0").standard_uncertainty > stated.input("c_b0").standard_uncertainty
+
+
+def test_drift_correction_is_rate_times_titration_time(tmp_path):
+    t = np.concatenate([np.arange(0.0, 100.0, 10.0), np.arange(200.0, 300.0, 10.0)])
+    q = np.where(t < 150, 1.0, 3.0) + 0.002 * t + 0.001 * np.sin(t)
+    data = "t [s],q [mC]\n" + "".join(f"{a:g},{float(b)!r}\n" for a, b in zip(t, q))
+    tables = ('[records.D]\nkind = "drift"\nfile = "data.csv"\nx = "t"\ny = "q"\n'
+              'before = [0, 90]\nafter = [200, 290]\ntitration_time = 120\n')
+    model = load_model(_write(tmp_path, tables, data, "D"))
+    rate = load_model(_write(tmp_path, tables.replace("titration_time = 120\n",
+                                                      'give = "rate"\n'), data, "D"))
+    assert model.input("D").unit == "mC" and rate.input("D").unit == "mC/s"
+    assert model.input("D").estimate == pytest.approx(120 * rate.input("D").estimate)
+    assert model.input("D").standard_uncertainty == pytest.approx(
+        120 * rate.input("D").standard_uncertainty)
+    assert model.input("D").dof == len(t) - 3
+
+
+_HOSTILE = ['"x"', "-1", "0", "1e308", "[1]", "[2, 1]", "[[0, 1]]", "true", "{}", "nan",
+            "[nan, 1]", '["a", "b"]', "[-1e308, 1e308]", '""', "[[0, 1], [1]]"]
+
+
+@pytest.mark.parametrize("name", ["vics-as-25a/coulometric-purity-records.toml",
+                                  "velmora/controlled-potential-dichromate-record.toml",
+                                  "velmora/water-coulometric-iodine-drift-record.toml",
+                                  "reference/gum-h3-thermometer-fit.toml",
+                                  "reference/york-pearson-line.toml"])
+def test_hostile_values_in_fit_and_record_tables_give_budget_errors_only(name, tmp_path):
+    # every key of every [fits]/[records] table replaced by hostile values: a BudgetError
+    # or a result, never another exception (robustness, in the spirit of tests/test_fuzz.py)
+    import re
+    import shutil
+
+    from budget.errors import BudgetError
+    from conftest import MODELS
+
+    source = MODELS / name
+    shutil.copytree(source.parent, tmp_path / "m")
+    text = source.read_text(encoding="utf-8")
+    regions = [m.span() for m in re.finditer(r"^\[(?:records|fits)\.[^\]]+\]\n(?:(?!\[).*\n)*",
+                                             text, re.M)]
+    for start, end in regions:
+        for key in re.findall(r"^(\w+) = ", text[start:end], re.M):
+            for value in _HOSTILE:
+                table = re.sub(rf"^{key} = .*$", f"{key} = {value}", text[start:end],
+                               count=1, flags=re.M)
+                path = tmp_path / "m" / "hostile.toml"
+                path.write_text(text[:start] + table + text[end:], encoding="utf-8")
+                try:
+                    propagate(load_model(path))
+                except BudgetError:
+                    pass
