@@ -18,7 +18,7 @@ from typing import Any
 
 from markupsafe import Markup
 
-from .errors import Location
+from .errors import BudgetError, Location
 from .formatting import format_number
 from .special import t_cdf
 from .unit_display import display_unit
@@ -121,35 +121,31 @@ def _method(cert: Any) -> str:
 
 
 def certificate_warnings(cert: Any) -> list[str]:
-    """Every warning, with the characterization model's restated in the certificate unit."""
+    """Every warning, a Monte Carlo validation stated in another unit of the same dimension
+    (a model in g/g or mg/kg, a certificate in %) restated in the certificate's unit."""
     campaign = cert.campaign
-    result = cert.characterization.result
-    index = [m.name for m in result.model.measurands].index(campaign.measurand)
-    model_unit = result.model.measurands[index].unit
-    where = Location(file=campaign.source, key="unit")
-    scale = float(parse_unit(model_unit, where).factor / parse_unit(campaign.unit, where).factor)
-    own = set(result.warnings)
-    unit = display_unit(campaign.unit)
-    out = []
-    for warning in cert.warnings:
-        if warning not in own or model_unit == campaign.unit:
-            out.append(warning)
-            continue
-        converted = _validation_warning(result, index, scale, unit)
-        if converted and "validate" in warning and f"'{campaign.measurand}'" in warning:
-            out.append(converted)
-        else:
-            out.append(f"characterization model (in {display_unit(model_unit)}): {warning}")
-    return out
+    return [_restate(w, campaign.unit, campaign.source) for w in cert.warnings]
 
 
-def _validation_warning(result: Any, index: int, scale: float, unit: str) -> str | None:
-    simulation = result.simulation
-    if simulation is None or simulation.measurands[index].validation is None:
-        return None
-    v = simulation.measurands[index].validation
-    name = result.model.measurands[index].name
-    return (f"'{name}': Monte Carlo does not validate the GUM result at "
-            f"{format_number(v.tolerance * scale, 1)} {unit} (d_low = "
-            f"{format_number(v.d_low * scale, 2)}, d_high = {format_number(v.d_high * scale, 2)}"
-            f" {unit}, JCGM 101 8.2)")
+_VALIDATION = re.compile(r"(?P<head>.*Monte Carlo does not validate the GUM result at )"
+                         r"(?P<tol>\S+) (?P<unit>\S+) \(d_low = (?P<low>\S+), "
+                         r"d_high = (?P<high>[^,\s]+)(?P<tail>.*)", re.S)
+
+
+def _restate(warning: str, unit: str, source: str) -> str:
+    match = _VALIDATION.fullmatch(warning)
+    if match is None or match["unit"] == unit:
+        return warning
+    where = Location(file=source, key="unit")
+    try:
+        given, wanted = parse_unit(match["unit"], where), parse_unit(unit, where)
+        numbers = [float(match[k]) for k in ("tol", "low", "high")]
+    except (BudgetError, ValueError):
+        return warning
+    if given.unit.dims != wanted.unit.dims or given.offset or wanted.offset:
+        return warning
+    scale = float(given.factor / wanted.factor)
+    tol, low, high = (format_number(x * scale, 2) for x in numbers)
+    shown = display_unit(unit)
+    return (f"{match['head']}{tol} {shown} (d_low = {low}, d_high = {high} {shown}"
+            f"{match['tail']}")

@@ -149,6 +149,7 @@ def parse_formula(formula: str, where: Location | None = None) -> dict[str, int]
     if not isinstance(formula, str) or not formula.strip():
         raise InputError(f"expected a chemical formula such as \"C8H5KO4\", found {formula!r}",
                          where)
+    _check_size(formula, where)
     counts: dict[str, int] = {}
     for part_index, part in enumerate(re.split(r"[·*.•]", formula.strip())):
         match = re.match(r"\s*(\d+)", part) if part_index else None
@@ -157,6 +158,20 @@ def parse_formula(formula: str, where: Location | None = None) -> dict[str, int]
         for element, n in _parse_group(body, formula, where).items():
             counts[element] = counts.get(element, 0) + factor * n
     return counts
+
+
+_MAX_FORMULA_CHARS = 1000  # docs/limits.md
+_MAX_COUNT_DIGITS = 9  # a count of up to 10⁹ atoms of one element in one group
+
+
+def _check_size(formula: str, where: Location) -> None:
+    if len(formula) > _MAX_FORMULA_CHARS:
+        raise InputError(f"expected a formula of at most {_MAX_FORMULA_CHARS} characters "
+                         f"(limits: docs/limits.md), found {len(formula)}", where)
+    longest = max((len(m) for m in re.findall(r"\d+", formula)), default=0)
+    if longest > _MAX_COUNT_DIGITS:
+        raise InputError(f"expected counts of at most {_MAX_COUNT_DIGITS} digits in a formula "
+                         f"(limits: docs/limits.md), found one of {longest} digits", where)
 
 
 def _parse_group(text: str, formula: str, where: Location) -> dict[str, int]:

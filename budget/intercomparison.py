@@ -97,6 +97,7 @@ class MethodsResult:
     combined_dof: float
     shares: tuple[tuple[str, float], ...]
     consistency: Consistency | None = None  # of all the methods, combined or not
+    combined_monte_carlo: Any = None  # combined_montecarlo.CombinedSimulation
 
     def method(self, label: str) -> MethodResult:
         return next(m for m in self.methods if m.label == label)
@@ -113,6 +114,7 @@ class _Element:
     variance: float
     repeatability: float  # s²/n, independent of every other element
     dof: float
+    runs: int = 0
 
 
 def evaluate_methods(campaign: "Campaign", primary: "Characterization",
@@ -135,8 +137,9 @@ def evaluate_methods(campaign: "Campaign", primary: "Characterization",
         results.append(result)
         rows.append(row)
         offsets.append(offset)
-    covariance, mc = _covariance(members, plan, elements, rows, trials, seed,
-                                 Location(file=campaign.source, table="shared"))
+    found = _covariance(members, plan, elements, rows, trials, seed,
+                        Location(file=campaign.source, table="shared"))
+    covariance, mc = found.covariance, found.monte_carlo
     x = np.array([m.estimate for m in results])
     pairs = _pairs(results, covariance, mc)
     for p in pairs:
@@ -145,12 +148,16 @@ def evaluate_methods(campaign: "Campaign", primary: "Characterization",
                             f"{p.E_n:.2f}, ζ = {p.zeta:.2f}, with the shared inputs)")
     combined, nu, shares = _combined(plan, results, x, covariance, warnings)
     check = _all_consistent(x, covariance)
+    simulation = None
+    if combined is not None and found.samples is not None:
+        simulation = _combined_mc(campaign, plan, results, combined, nu, found,
+                                  np.array(offsets), seed)
     return MethodsResult(methods=tuple(results), covariance=_rows(covariance),
                          correlation=_rows(_correlation(covariance)),
                          monte_carlo_covariance=None if mc is None else _rows(mc),
                          pairs=pairs, shared=plan.shared, rule=plan.rule,
                          combined_methods=plan.combined, combined=combined, combined_dof=nu,
-                         shares=shares, consistency=check)
+                         shares=shares, consistency=check, combined_monte_carlo=simulation)
 
 
 def _k(campaign: "Campaign") -> Any:
@@ -187,7 +194,7 @@ def _from_char(member: str, campaign: "Campaign", char: "Characterization") -> _
     return _Element(member=member, measurand=campaign.measurand,
                     scale=_unit_scale(campaign, unit), estimate=char.mean,
                     variance=char.standard_uncertainty ** 2,
-                    repeatability=char.s ** 2 / char.n, dof=char.dof)
+                    repeatability=char.s ** 2 / char.n, dof=char.dof, runs=char.n)
 
 
 def _one_method(campaign: "Campaign", method: "ModelMethod | MassBalance",
@@ -266,16 +273,28 @@ def _model_part(campaign: "Campaign", method: "ModelMethod", trials: int | None,
     return result, element, Member(name=method.label, model=method.model)
 
 
+@dataclass(frozen=True, slots=True, kw_only=True)
+class _Found:
+    """The covariance of the method results (GUM, Monte Carlo) and what the draws need."""
+
+    covariance: np.ndarray
+    monte_carlo: np.ndarray | None
+    a: np.ndarray
+    parts: list[Any]
+    samples: np.ndarray | None
+    seed: int
+
+
 def _covariance(members: list[Member], plan: "MethodsPlan", elements: list[_Element],
                 rows: list[list[tuple[int, float]]], trials: int | None, seed: int | None,
-                where: Location) -> tuple[np.ndarray, np.ndarray | None]:
+                where: Location) -> _Found:
     joint = join(members, plan.shared, title="several methods", where=where)
     budget = propagate(joint.model)
     gum = np.array(budget.output_covariance)
     index = [joint.measurand_index(e.member, e.measurand) if e.member is not None else -1
              for e in elements]
     c = _element_covariance(elements, index, gum)
-    mc = None
+    mc, samples = None, None
     if trials != 0 and (trials is not None or joint.model.settings.trials != 0):
         from .montecarlo import simulate
 
@@ -283,11 +302,36 @@ def _covariance(members: list[Member], plan: "MethodsPlan", elements: list[_Elem
         sd = np.array([m.standard_uncertainty for m in simulation.measurands])
         covariance = np.array(simulation.output_correlation) * np.outer(sd, sd)
         mc = _element_covariance(elements, index, covariance, keep_diagonal=False)
+        samples = np.array([m.samples for m in simulation.measurands])
     a = np.zeros((len(rows), len(elements)))
     for i, row in enumerate(rows):
         for j, weight in row:
             a[i, j] = weight
-    return a @ c @ a.T, None if mc is None else a @ mc @ a.T
+    from .combined_montecarlo import parts_for
+
+    values = np.array([m.estimate for m in budget.measurands])
+    return _Found(covariance=a @ c @ a.T, monte_carlo=None if mc is None else a @ mc @ a.T,
+                  a=a, parts=parts_for(elements, index, values), samples=samples,
+                  seed=joint.model.settings.seed if seed is None else seed)
+
+
+def _combined_mc(campaign: "Campaign", plan: "MethodsPlan", results: list[MethodResult],
+                 combined: Combined, nu: float, found: _Found, offsets: np.ndarray,
+                 seed: int | None) -> Any:
+    """The combined value drawn from the joint Monte Carlo trials (combined_montecarlo)."""
+    from .combined_montecarlo import combined_simulation
+
+    labels = [m.label for m in results]
+    weights = np.zeros(len(results))
+    for label, w in zip(plan.combined, combined.weights):
+        weights[labels.index(label)] = w
+    coverage = float(campaign.coverage or 0.95)
+    k = coverage_factor(coverage, nu)
+    samples = found.samples if found.samples is not None else np.empty((0, 0))
+    return combined_simulation(samples, found.parts, found.a, offsets, weights,
+                               combined.tau, found.seed, coverage,
+                               (combined.value, combined.standard_uncertainty, k),
+                               campaign.model.settings.digits)
 
 
 def _element_covariance(elements: list[_Element], index: list[int], model_cov: np.ndarray,

@@ -52,8 +52,19 @@ def methods_document(m: Any) -> dict[str, Any]:
             "chi2": combined.consistency.chi2, "chi2_dof": combined.consistency.dof,
             "p_value": combined.consistency.p_value,
             "birge_ratio": None if math.isnan(combined.consistency.birge_ratio)
-            else combined.consistency.birge_ratio},
+            else combined.consistency.birge_ratio,
+            "monte_carlo": _combined_mc(m.combined_monte_carlo)},
     }
+
+
+def _combined_mc(s: Any) -> dict[str, Any] | None:
+    if s is None:
+        return None
+    v = s.validation
+    return {"trials": s.trials, "mean": s.mean, "u": s.standard_uncertainty,
+            "interval": list(s.interval), "coverage": s.coverage_probability,
+            "validation": {"tolerance": v.tolerance, "d_low": v.d_low, "d_high": v.d_high,
+                           "validated": v.validated}}
 
 
 def _method_document(x: Any, result_document: Callable[[Any], Any]) -> dict[str, Any]:
@@ -108,6 +119,15 @@ def methods_lines(m: Any, unit: str, digits: int) -> list[str]:
               f"  consistency: χ² = {check.chi2:.3g}, ν = {check.dof}, p = "
               f"{check.p_value:.2g}, Birge ratio {check.birge_ratio:.3g}"
               + (f"; τ = {format_number(c.tau, digits)} {unit}" if c.tau > 0 else "")]
+    s = m.combined_monte_carlo
+    if s is not None:
+        low, high = (format_pair(x, s.standard_uncertainty, digits + 1)[0]
+                     for x in s.interval)
+        verdict = "validates" if s.validation.validated else "does NOT validate"
+        lines.append(f"  Monte Carlo of the combined value: {s.trials:,} trials, u = "
+                     f"{format_number(s.standard_uncertainty, digits)}, "
+                     f"{100 * s.coverage_probability:g} % interval [{low}, {high}]; "
+                     f"{verdict} the GUM interval (JCGM 101 8.2)")
     return lines
 
 
@@ -138,13 +158,25 @@ def methods_view(m: Any, unit: str, digits: int,
             "p": f"{c.consistency.p_value:.2g}",
             "birge": f"{c.consistency.birge_ratio:.3g}",
             "rows": [{"label": label, "weight": f"{w:.4f}", "share": format_percent(s)}
-                     for label, w, (_, s) in zip(m.combined_methods, c.weights, m.shares)]},
+                     for label, w, (_, s) in zip(m.combined_methods, c.weights, m.shares)],
+            "mc": _mc_view(m.combined_monte_carlo, digits)},
         "first": labels[0],
         "consistency": None if m.consistency is None else {
             "chi2": f"{m.consistency.chi2:.3g}", "dof": m.consistency.dof,
             "p": f"{m.consistency.p_value:.2g}",
             "birge": f"{m.consistency.birge_ratio:.3g}"},
     }
+
+
+def _mc_view(s: Any, digits: int) -> dict[str, Any] | None:
+    if s is None:
+        return None
+    return {"trials": f"{s.trials:,}", "u": format_number(s.standard_uncertainty, digits),
+            "low": format_pair(s.interval[0], s.standard_uncertainty, digits + 1)[0],
+            "high": format_pair(s.interval[1], s.standard_uncertainty, digits + 1)[0],
+            "p": f"{100 * s.coverage_probability:g}", "validated": s.validation.validated,
+            "delta": f"{s.validation.tolerance:.2g}", "d_low": f"{s.validation.d_low:.2g}",
+            "d_high": f"{s.validation.d_high:.2g}"}
 
 
 def _method_view(x: Any, unit: str, digits: int,

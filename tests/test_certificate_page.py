@@ -116,3 +116,17 @@ def test_warnings_are_restated_in_the_certificates_unit(tmp_path):
     assert float(tolerance) == pytest.approx(100 * validation.tolerance, rel=0.05)
     assert all("g/g" not in w or w.startswith("characterization model (in g/g)")
                for w in warnings)
+
+
+def test_a_further_methods_warning_in_mg_per_kg_is_restated_in_percent():
+    from budget.certificate_page import _restate
+
+    # 1 mg/kg = 1e-6 = 1e-4 % (SI prefixes; common practice)
+    text = ("method 'mass balance/water': 'w_H2O': Monte Carlo does not validate the GUM "
+            "result at 0.005 mg/kg (d_low = 0.0099, d_high = 0.0028, JCGM 101 8.2)")
+    assert _restate(text, "%", "c.toml") == (
+        "method 'mass balance/water': 'w_H2O': Monte Carlo does not validate the GUM result "
+        "at 5.0e-07 % (d_low = 9.9e-07, d_high = 2.8e-07 %, JCGM 101 8.2)")
+    same = text.replace("mg/kg", "%")
+    assert _restate(same, "%", "c.toml") == same
+    assert _restate("something else in mg/kg", "%", "c.toml") == "something else in mg/kg"

@@ -225,3 +225,51 @@ def test_second_order_beyond_the_limit_is_refused_before_differentiating() -> No
     assert str(caught.value) == (
         "product.toml: expected at most 20 inputs with an uncertainty for --second-order (it "
         "needs N² second and N³ third derivatives; limits: docs/limits.md), found 60")
+
+
+def test_formula_counts_are_bounded() -> None:
+    source = 'title = "t"\n[measurands.y]\nequation = "M"\n[inputs.M]\nformula = "C' + \
+        "9" * 5000 + '"\n'
+    with pytest.raises(BudgetError) as caught:
+        parse_model(source, name="formula.toml")
+    assert str(caught.value) == ("formula.toml:5: [inputs.M] formula: expected a formula of "
+                                 "at most 1000 characters (limits: docs/limits.md), found 5001")
+    source = source.replace("9" * 5000, "9" * 50)
+    with pytest.raises(BudgetError) as caught:
+        parse_model(source, name="formula.toml")
+    assert str(caught.value) == ("formula.toml:5: [inputs.M] formula: expected counts of at "
+                                 "most 9 digits in a formula (limits: docs/limits.md), found "
+                                 "one of 50 digits")
+
+
+def test_a_full_device_on_standard_output_is_an_error() -> None:
+    model = ROOT / "models/reference/eurachem-a2-naoh.toml"
+    with open("/dev/full", "w") as full:
+        done = subprocess.run([sys.executable, "-m", "budget", "run", "--json", "--trials",
+                               "0", str(model)], stdout=full, stderr=subprocess.PIPE,
+                              text=True, timeout=60)
+    assert done.returncode == 1
+    assert done.stderr == "error: could not write the output: No space left on device\n"
+
+
+def test_numpy_runtime_warnings_never_reach_standard_error(cli, tmp_path) -> None:
+    # log of an input whose distribution reaches below zero in a few trials: numpy warns
+    # "invalid value encountered in log"; the non-finite trials are counted and reported
+    model = tmp_path / "log.toml"
+    model.write_text('title = "t"\n[measurands.y]\nequation = "log(a)"\n[inputs.a]\n'
+                     'value = 1\nu = 0.33\n', encoding="utf-8")
+    code, stdout, stderr = cli("run", "--trials", "100000", str(model))
+    assert code in (0, 1) and "RuntimeWarning" not in stderr
+    assert all(line.startswith(("warning:", "error:")) for line in stderr.splitlines())
+
+
+def test_control_characters_from_data_are_escaped_on_the_terminal(cli, tmp_path) -> None:
+    import shutil
+
+    folder = tmp_path / "batch"
+    shutil.copytree(ROOT / "models" / "vics-as-25a", folder)
+    (folder / "homogeneity.csv").write_text(
+        "unit,value\nA\x1b[31m,99.98\nA\x1b[31m,99.99\nB\x07,99.98\nB\x07,99.97\n",
+        encoding="utf-8")
+    code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
+    assert "\x1b" not in stdout + stderr and "\x07" not in stdout + stderr

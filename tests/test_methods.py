@@ -373,3 +373,29 @@ def test_impurity_labels_are_distinct(tmp_path: Path) -> None:
     assert str(caught.value).replace(str(tmp_path) + "/", "") == (
         "campaign.toml:19: [method.impurity] label: expected distinct impurity labels, found "
         "'x' twice")
+
+
+def test_monte_carlo_of_the_combined_value(tmp_path: Path) -> None:
+    # linear models: the Monte Carlo variance of mu = w^T x is w^T V' w, where V' is the
+    # GUM covariance with each repeatability s^2/n drawn as a t with nu = n - 1 = 5, whose
+    # variance is s^2/n * nu/(nu - 2) (JCGM 101 6.4.9). Tolerance: five standard errors of
+    # a standard deviation from 200,000 trials, allowing for the t's excess kurtosis 6:
+    # 5 * 0.5 * sqrt((2 + 6) / 200,000) = 1.6 % (common practice)
+    path = _write(tmp_path, TWO + "\n[shared]\ns = [\"A.s\", \"B.s\"]\n[combination]\n"
+                  "rule = \"weighted\"\n")
+    (tmp_path / "a.csv").write_text("id,a\n" + "\n".join(
+        f"{i},{99.990 + 0.001 * (i % 3)}" for i in range(6)) + "\n")
+    (tmp_path / "b.csv").write_text("id,b\n" + "\n".join(
+        f"{i},{99.970 + 0.002 * (i % 2)}" for i in range(6)) + "\n")
+    cert = certify(load_campaign(path), trials=200_000, seed=11)
+    methods = cert.methods
+    w = np.array(methods.combined.weights)
+    v = np.array(methods.covariance)
+    extra = np.diag([m.characterization.s ** 2 / m.characterization.n * (5 / 3 - 1)
+                     for m in methods.methods])
+    expected = math.sqrt(w @ (v + extra) @ w)
+    simulation = methods.combined_monte_carlo
+    assert simulation.standard_uncertainty == pytest.approx(expected, rel=0.016)
+    assert simulation.mean == pytest.approx(methods.combined.value,
+                                            abs=5 * expected / math.sqrt(200_000))
+    assert simulation.samples.size == 200_000
