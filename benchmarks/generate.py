@@ -88,3 +88,22 @@ def correlated_block(n: int, r: float = 0.3) -> str:
         for j in range(i + 1, n):
             lines += ["[[correlations]]", f'between = ["x_{i}", "x_{j}"]', f"r = {r}"]
     return "\n".join(lines) + "\n"
+
+
+def correlated_block_stated(n: int, r: float = 0.3, form: str = "matrix") -> str:
+    """The sum of n inputs in one correlated block stated in one [[correlations]] table:
+    ``form = "matrix"`` writes the full n × n matrix, ``"r"`` one r for every pair."""
+    terms = " + ".join(f"x_{i}" for i in range(n))
+    lines = [f'title = "{n} inputs in one correlated block (synthetic benchmark)"',
+             "[measurands.y]", f'equation = "{terms}"']
+    for i in range(n):
+        lines += [f"[inputs.x_{i}]", f"value = {1.0 + 0.001 * i}", "u = 0.001"]
+    names = ", ".join(f'"x_{i}"' for i in range(n))
+    lines += ["[[correlations]]", f"between = [{names}]"]
+    if form == "r":
+        lines.append(f"r = {r}")
+    else:
+        rows = ", ".join("[" + ", ".join("1.0" if i == j else str(r) for j in range(n)) + "]"
+                         for i in range(n))
+        lines.append(f"matrix = [{rows}]")
+    return "\n".join(lines) + "\n"

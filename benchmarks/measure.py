@@ -1,10 +1,10 @@
 """Shared helpers of the benchmarks: whole commands in fresh processes, min and median.
 
 Each run of ``command`` starts a new Python process that runs the ``budget`` command line
-in process and reports, at exit, its own CPU time (user + system) and peak resident
-memory. Wall time is measured from outside (Python start-up included). On a shared
-machine the wall time varies with the load; the CPU time varies much less, so both are
-printed.
+in process and reports, at exit, its CPU time (user + system, its worker processes
+included) and peak resident memory (the largest of the process and its workers). Wall
+time is measured from outside (Python start-up included). On a shared machine the wall
+time varies with the load; the CPU time varies much less, so both are printed.
 """
 
 from __future__ import annotations
@@ -25,7 +25,9 @@ try:
 except SystemExit as stop:
     code = stop.code
 usage = resource.getrusage(resource.RUSAGE_SELF)
-sys.stderr.write(f"\\nMEASURED {usage.ru_maxrss} {usage.ru_utime + usage.ru_stime}\\n")
+children = resource.getrusage(resource.RUSAGE_CHILDREN)  # worker processes, if any
+cpu = usage.ru_utime + usage.ru_stime + children.ru_utime + children.ru_stime
+sys.stderr.write(f"\\nMEASURED {max(usage.ru_maxrss, children.ru_maxrss)} {cpu}\\n")
 sys.stderr.flush()
 os._exit(code or 0)
 """

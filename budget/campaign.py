@@ -228,6 +228,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     plan = read_methods(r, label)
     if plan is not None:
         check_primary_references(r, plan, model, run_inputs)
+        warnings += _method_run_warnings(plan)
     homogeneity, excluded = _homogeneity(r, unit)
     stability_section = r.section("stability", False)
     stability, time_unit, shelf, more = _stability(r, stability_section, unit, warnings)
@@ -280,9 +281,16 @@ def read_runs_file(r: _Reader, path: Path, fmt: FileFormat, model: Model, table:
 
 def _run_warnings(r: _Reader, char: dict[str, Any], model: Model, runs: Runs) -> list[str]:
     """Plausibility of each run: input estimates near the model's, air density in range."""
-    from .plausibility import DEFAULT_ESTIMATE_FACTOR, air_density_warnings, estimate_warnings
+    from .plausibility import DEFAULT_ESTIMATE_FACTOR
 
     factors = _estimate_factors(r, char, runs.names, DEFAULT_ESTIMATE_FACTOR)
+    return run_guards(model, runs, factors)
+
+
+def run_guards(model: Model, runs: Runs, factors: dict[str, float]) -> list[str]:
+    """The run guards with a factor per column (``factors["default"]`` for the rest)."""
+    from .plausibility import air_density_warnings, estimate_warnings
+
     found: list[str] = []
     for name in runs.names:
         item = model.input(name)
@@ -293,6 +301,24 @@ def _run_warnings(r: _Reader, char: dict[str, Any], model: Model, runs: Runs) ->
     values.update({name: runs.values(name) for name in runs.names})
     labels = [f"row {row}" for row in runs.rows]
     found += air_density_warnings(model, values, f"in {runs.source}", labels)
+    return found
+
+
+def _method_run_warnings(plan: Any) -> list[str]:
+    """The air-density guard for the runs of further methods and mass-balance impurities
+    (their models' estimates may describe another sample, so no estimate factor)."""
+    from .methods import MassBalance
+
+    sources = []
+    for method in plan.methods:
+        if isinstance(method, MassBalance):
+            sources += [i.source for i in method.impurities if i.source is not None]
+        else:
+            sources.append(method)
+    found: list[str] = []
+    for source in sources:
+        if source.runs is not None:
+            found += run_guards(source.model, source.runs, {"default": math.inf})
     return found
 
 

@@ -54,14 +54,16 @@ def _warn(warnings: Any) -> None:
         click.echo(f"warning: {_safe(str(line))}", err=True)
 
 
-def _check_output(path: str | None) -> None:
-    """Refuse an impossible output target before the work starts (output.check_target)."""
-    if path:
-        from pathlib import Path
+def _check_outputs(*paths: str | None, protect: Any = ()) -> None:
+    """Refuse impossible output targets (output.check_target): before the work starts,
+    and with the files of the run as ``protect`` once they are known."""
+    from pathlib import Path
 
-        from .output import check_target
+    from .output import check_target
 
-        check_target(Path(path))
+    for path in paths:
+        if path:
+            check_target(Path(path), protect)
 
 
 def _safe(text: str) -> str:
@@ -220,7 +222,7 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
 
     progress = _Progress(not as_json)
     try:
-        _check_output(html_file)
+        _check_outputs(html_file, csv_file, xlsx_file)
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
                            second_order, progress, reported_interval)
         progress.close()
@@ -233,7 +235,9 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
         if csv_file or xlsx_file:
             from .document import result_document
             from .export import budget_tables, write_tables
+            from .output import files_of_model
 
+            _check_outputs(csv_file, xlsx_file, protect=files_of_model(result.model))
             write_tables(budget_tables(result_document(result)), csv_file, xlsx_file)
     except BudgetError as error:
         progress.close()
@@ -346,7 +350,7 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
 
     progress = _Progress(not as_json)
     try:
-        _check_output(html_file)
+        _check_outputs(html_file, csv_file, xlsx_file)
         campaign = load_campaign(campaign_file, allow_outside=allow_outside_folder)
         cert = run_certification(campaign, trials=trials, seed=seed, progress=progress,
                                  reported_interval=reported_interval)
@@ -360,7 +364,9 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
         if csv_file or xlsx_file:
             from .document import certification_document
             from .export import certification_tables, write_tables
+            from .output import files_of_campaign
 
+            _check_outputs(csv_file, xlsx_file, protect=files_of_campaign(campaign))
             write_tables(certification_tables(certification_document(cert)), csv_file,
                          xlsx_file)
     except BudgetError as error:

@@ -17,7 +17,7 @@ from .errors import InputError, Location, did_you_mean
 
 __all__ = ["read", "matrix"]
 
-_KEYS = ("between", "r")
+_KEYS = ("between", "r", "matrix")
 
 
 def read(entries: Any, names: Sequence[str],
@@ -32,13 +32,17 @@ def read(entries: Any, names: Sequence[str],
     for index, entry in enumerate(entries):
         here: Callable[..., Location] = \
             lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
-        pair = _one(entry, known, here, index)
-        key = frozenset(pair[:2])
-        if key in seen:
-            raise InputError(f"expected each pair once, found {pair[0]} and {pair[1]} again "
-                             f"in correlation {index + 1}", here("between"))
-        seen.add(key)
-        pairs.append(pair)
+        block = isinstance(entry, dict) and (
+            "matrix" in entry or (isinstance(entry.get("between"), list)
+                                  and len(entry["between"]) > 2))
+        for pair in (_block(entry, known, here, index) if block
+                     else [_one(entry, known, here, index)]):
+            key = frozenset(pair[:2])
+            if key in seen:
+                raise InputError(f"expected each pair once, found {pair[0]} and {pair[1]} "
+                                 f"again in correlation {index + 1}", here("between"))
+            seen.add(key)
+            pairs.append(pair)
     _check_definite(names, pairs, where("correlations"))
     return tuple(pairs)
 
@@ -85,11 +89,78 @@ def _one(entry: Any, names: Sequence[str], here: Callable[..., Location],
     return between[0], between[1], float(r)
 
 
+def _block(entry: dict[str, Any], names: Sequence[str], here: Callable[..., Location],
+           index: int) -> list[tuple[str, str, float]]:
+    """A block of inputs estimated with one correlation matrix: ``between`` n names and
+    either ``r`` (every pair) or ``matrix`` (n × n, symmetric, unit diagonal)."""
+    for key in entry:
+        if key not in _KEYS:
+            raise InputError(f"unknown key '{key}'{did_you_mean(key, _KEYS)} in correlation "
+                             f"{index + 1}; expected between and r or matrix", here(key))
+    between = entry.get("between")
+    if (not isinstance(between, list) or len(between) < 2
+            or not all(isinstance(n, str) for n in between)):
+        raise InputError(f"expected between = [\"name\", \"name\", …] in correlation "
+                         f"{index + 1}, found {between!r}", here("between"))
+    for name in between:
+        if name not in names:
+            raise InputError(f"unknown input '{name}' in correlation {index + 1}"
+                             f"{did_you_mean(name, names)}", here("between"))
+    if len(set(between)) != len(between):
+        twice = next(n for n in between if between.count(n) > 1)
+        raise InputError(f"expected different inputs in correlation {index + 1}, found "
+                         f"'{twice}' twice", here("between"))
+    if ("r" in entry) == ("matrix" in entry):
+        raise InputError(f"expected either r (one value for every pair) or matrix in "
+                         f"correlation {index + 1} of {len(between)} inputs, found "
+                         f"{'both' if 'r' in entry else 'neither'}", here("between"))
+    values = _block_matrix(entry, len(between), here, index)
+    rows, columns = np.triu_indices(len(between), 1)
+    keep = values[rows, columns] != 0.0
+    return [(between[i], between[j], float(values[i, j]))
+            for i, j in zip(rows[keep].tolist(), columns[keep].tolist())]
+
+
+def _block_matrix(entry: dict[str, Any], n: int, here: Callable[..., Location],
+                  index: int) -> np.ndarray:
+    if "r" in entry:
+        r = entry["r"]
+        if isinstance(r, bool) or not isinstance(r, (int, float)) or not -1 <= r <= 1:
+            raise InputError(f"expected a number r in [-1, 1] in correlation {index + 1}, "
+                             f"found {r!r}", here("r"))
+        values = np.full((n, n), float(r))
+        np.fill_diagonal(values, 1.0)
+        return values
+    rows = entry["matrix"]
+    shape_ok = isinstance(rows, list) and len(rows) == n and all(
+        isinstance(row, list) and len(row) == n for row in rows)
+    numbers_ok = shape_ok and not any(isinstance(x, bool) or not isinstance(x, (int, float))
+                                      for row in rows for x in row)
+    if not numbers_ok:
+        raise InputError(f"expected matrix = {n} rows of {n} numbers (one per input of "
+                         f"between) in correlation {index + 1}, found another shape or a "
+                         "value that is not a number", here("matrix"))
+    values = np.array(rows, dtype=float)
+    bad = np.argwhere(~np.isfinite(values) | (np.abs(values) > 1.0)
+                      | (np.abs(values - values.T) > 1e-12))
+    if bad.size or not np.all(np.diag(values) == 1.0):
+        i, j = (int(bad[0][0]), int(bad[0][1])) if bad.size else 2 * (int(np.flatnonzero(
+            np.diag(values) != 1.0)[0]),)
+        raise InputError(f"expected a symmetric matrix with 1 on the diagonal and entries in "
+                         f"[-1, 1] in correlation {index + 1}, found {values[i, j]:g} in row "
+                         f"{i + 1}, column {j + 1}", here("matrix"))
+    return values
+
+
 def matrix(names: Sequence[str], pairs: Sequence[tuple[str, str, float]]) -> np.ndarray:
     index = {name: i for i, name in enumerate(names)}
     result = np.eye(len(names))
-    for a, b, r in pairs:
-        result[index[a], index[b]] = result[index[b], index[a]] = r
+    if pairs:
+        first = np.array([index[a] for a, _, _ in pairs], dtype=np.intp)
+        second = np.array([index[b] for _, b, _ in pairs], dtype=np.intp)
+        r = np.array([r for _, _, r in pairs], dtype=float)
+        result[first, second] = r
+        result[second, first] = r
     return result
 
 
@@ -100,6 +171,11 @@ def _check_definite(names: Sequence[str], pairs: Sequence[tuple[str, str, float]
     order = {name: j for j, name in enumerate(names)}
     involved = sorted({n for a, b, _ in pairs for n in (a, b)}, key=order.__getitem__)
     sub = matrix(involved, pairs)
+    try:  # positive definite (the usual case): one Cholesky factorization says so
+        np.linalg.cholesky(sub)
+        return
+    except np.linalg.LinAlgError:
+        pass
     values, vectors = np.linalg.eigh(sub)
     if values[0] >= -1e-10:
         return

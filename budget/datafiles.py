@@ -275,7 +275,8 @@ def _decode_as(raw: bytes, codec: str, shown: str) -> str:
 def _separator(text: str, declared: str | None, shown: str) -> str:
     if declared is not None:
         return SEPARATORS[declared]
-    header = next((line for line in text.splitlines() if line.strip()), "")
+    header = next((line for line in text.splitlines()  # comment lines above it skipped
+                   if line.strip() and not line.lstrip().startswith("#")), "")
     present = [s for s in ("\t", ";", ",") if s in _outside_quotes(header)]
     if len(present) > 1:
         names = " and ".join({"\t": "tab", ";": "';'", ",": "','"}[s] for s in present)

@@ -185,12 +185,14 @@ def _op_text(op: ast.AST) -> str:
 
 def names_in(tree: ast.AST) -> list[str]:
     """Names used as quantities (not function names), in order of first appearance."""
-    called = {id(n.func) for n in ast.walk(tree) if isinstance(n, ast.Call)}
-    seen: dict[str, None] = {}
-    for node in ast.walk(tree):
-        if isinstance(node, ast.Name) and id(node) not in called:
-            seen.setdefault(node.id, None)
-    return list(seen)
+    called: set[int] = set()
+    names: list[ast.Name] = []
+    for node in ast.walk(tree):  # one walk: it is run on every definition
+        if isinstance(node, ast.Call):
+            called.add(id(node.func))
+        elif isinstance(node, ast.Name):
+            names.append(node)
+    return list(dict.fromkeys(n.id for n in names if id(n) not in called))
 
 
 def build(tree: ast.Expression, table: Mapping[str, Term], text: str,

@@ -31,10 +31,15 @@ def round_pair(value: float, u: float, digits: int = 2) -> tuple[Decimal, Decima
     """Value and uncertainty rounded to the uncertainty's last significant digit."""
     if not math.isfinite(u) or u <= 0.0 or not math.isfinite(value):
         return Decimal(repr(value)), Decimal(0)
-    quantum = Decimal(1).scaleb(decimal_exponent(u, digits))
+    exponent = decimal_exponent(u, digits)
+    quantum = Decimal(1).scaleb(exponent)
+    # a double holds 17 significant digits: a value is never shown with more, however
+    # small its uncertainty (y = 1 with u = 1e-200 is 1.0000000000000000, not 200 zeros)
+    if value != 0.0:
+        exponent = max(exponent, math.floor(math.log10(abs(value))) - 16)
     with localcontext() as context:  # room for a value far larger than its uncertainty
         context.prec = 800
-        return (Decimal(repr(value)).quantize(quantum, ROUND_HALF_UP),
+        return (Decimal(repr(value)).quantize(Decimal(1).scaleb(exponent), ROUND_HALF_UP),
                 Decimal(repr(u)).quantize(quantum, ROUND_HALF_UP))
 
 

@@ -16,11 +16,11 @@ import os
 import stat
 import tempfile
 from pathlib import Path
-from typing import Iterable
+from typing import Any, Iterable
 
 from .errors import InputError, Location
 
-__all__ = ["write_atomic", "check_target"]
+__all__ = ["write_atomic", "check_target", "files_of_model", "files_of_campaign"]
 
 _KINDS = ((stat.S_ISDIR, "a directory"), (stat.S_ISCHR, "a character device"),
           (stat.S_ISBLK, "a block device"), (stat.S_ISFIFO, "a FIFO"),
@@ -85,6 +85,17 @@ def check_target(target: Path, protect: Iterable[tuple[str, str | Path]] = ()) -
             raise InputError(f"expected an output file other than the files of the run, "
                              f"found the {role} file itself", where)
     return stat.S_IMODE(info.st_mode)
+
+
+def files_of_model(model: Any) -> list[tuple[str, str]]:
+    """(role, path) of the model file and every file that fed it: never overwritten."""
+    return [("model", model.source), *((role, name) for role, name, _ in model.files)]
+
+
+def files_of_campaign(campaign: Any) -> list[tuple[str, str]]:
+    """(role, path) of the campaign file, its model's files and its data files."""
+    return [("campaign", campaign.source), *files_of_model(campaign.model),
+            *((role, name) for role, name, _ in campaign.data_files)]
 
 
 def _prefix(target: Path) -> str:

@@ -149,14 +149,14 @@ class Program:
 
     def _emit_folded(self, kind: str, operands: list[Node]) -> int:
         """A sum or product with its numbers folded into one constant."""
-        exact: Fraction = Fraction(1 if kind == "mul" else 0)
+        exact: int | Fraction = 1 if kind == "mul" else 0
         inexact = 1.0 if kind == "mul" else 0.0
         args: list[int] = []
         for operand in operands:
             slot = self._slot[id(operand)]
             if operand.kind == "number" and not isinstance(operand.exact, str):
-                exact = exact * Fraction(operand.exact) if kind == "mul" else \
-                    exact + Fraction(operand.exact)
+                number = operand.exact  # int or Fraction: folded exactly
+                exact = exact * number if kind == "mul" else exact + number
             elif slot in self.constants:
                 value = self.constants[slot]
                 inexact = inexact * value if kind == "mul" else inexact + value

@@ -20,6 +20,7 @@ from typing import Any
 
 import numpy as np
 
+from .datafiles import FORMAT_KEYS, parse_declared_format
 from .errors import InputError, Location, did_you_mean
 from .fits import Fit, FitError, polynomial, york
 from .recordfiles import read_columns
@@ -39,8 +40,8 @@ __all__ = [
 ]
 
 FIT_KEYS = ("file", "x", "y", "u_x", "u_y", "x_unit", "y_unit", "method", "degree", "x0",
-            "coefficients", "covariance", "window", "description")
-_COMMON = ("file", "kind", "x", "y", "x_unit", "y_unit", "description")
+            "coefficients", "covariance", "window", "description") + FORMAT_KEYS
+_COMMON = ("file", "kind", "x", "y", "x_unit", "y_unit", "description") + FORMAT_KEYS
 _KIND_KEYS = {
     "charge": ("window", "background", "background_window", "residual", "current_u",
                "current_u_relative", "time_u_relative"),
@@ -196,7 +197,11 @@ def _load(data: dict[str, Any], base: Path, here: Where, names: dict[str, str]
     shown = _text(data, "file", here)
     columns = {role: _text(data, role, here) for role in names if role in data
                or names[role] == "required"}
-    table = read_columns(base / shown, shown, list(columns.values()), here("file"))
+    def fail(message: str, key: str) -> InputError:
+        return InputError(message, here(key))
+
+    fmt = parse_declared_format(data, fail)
+    table = read_columns(base / shown, shown, list(columns.values()), here("file"), fmt)
     units = {}
     for role in ("x", "y"):
         stated = data.get(f"{role}_unit")

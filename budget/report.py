@@ -20,7 +20,7 @@ from .document import CAUTION
 from .formatting import format_dof, format_number, format_pair, format_percent
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
-from .output import write_atomic
+from .output import files_of_campaign, files_of_model, write_atomic
 from .provenance import describe
 from .audit_view import audit_view
 from .certificate_page import certificate_page
@@ -254,15 +254,9 @@ def render_certification_report(cert: Any) -> str:
 
 
 def write_certification_report(cert: Any, path: str) -> None:
-    campaign = cert.campaign
-    protect = [("campaign", campaign.source), *files_of_model(campaign.model),
-               *((role, name) for role, name, _ in campaign.data_files)]
-    write_atomic(path, render_certification_report(cert), protect=protect)
+    write_atomic(path, render_certification_report(cert),
+                 protect=files_of_campaign(cert.campaign))
 
-
-def files_of_model(model: Any) -> list[tuple[str, str]]:
-    """(role, path) of the model file and every file that fed it: never overwritten."""
-    return [("model", model.source), *((role, name) for role, name, _ in model.files)]
 
 
 def _certification_view(cert: Any) -> dict[str, Any]:

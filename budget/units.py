@@ -78,13 +78,10 @@ class Unit:
         return dims
 
     def __mul__(self, other: "Unit") -> "Unit":
-        text = other.text if self.text == "1" else self.text if other.text == "1" else \
-            f"{_bracket(self.text)}*{_bracket(other.text)}"
-        return Unit.make(self._combine(other, 1), self.factor * other.factor, text)
+        return _product(self, other)
 
     def __truediv__(self, other: "Unit") -> "Unit":
-        text = self.text if other.text == "1" else f"{_bracket(self.text)}/{_bracket(other.text)}"
-        return Unit.make(self._combine(other, -1), self.factor / other.factor, text)
+        return _quotient(self, other)
 
     def __pow__(self, power: float | Fraction) -> "Unit":
         exponent = power if isinstance(power, Fraction) else \
@@ -102,6 +99,19 @@ class Unit:
 
 
 DIMENSIONLESS = Unit((), Fraction(1), "1")
+
+
+@lru_cache(maxsize=4096)  # a model multiplies the same few units thousands of times
+def _product(a: Unit, b: Unit) -> Unit:
+    text = b.text if a.text == "1" else a.text if b.text == "1" else \
+        f"{_bracket(a.text)}*{_bracket(b.text)}"
+    return Unit.make(a._combine(b, 1), a.factor * b.factor, text)
+
+
+@lru_cache(maxsize=4096)
+def _quotient(a: Unit, b: Unit) -> Unit:
+    text = a.text if b.text == "1" else f"{_bracket(a.text)}/{_bracket(b.text)}"
+    return Unit.make(a._combine(b, -1), a.factor / b.factor, text)
 
 
 def dimension_text(unit: Unit) -> str:

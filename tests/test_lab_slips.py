@@ -469,3 +469,18 @@ def test_xlsx_export_without_openpyxl_writes_nothing(tmp_path, cli, monkeypatch)
                       "none: reading and writing .xlsx workbooks needs openpyxl, the optional "
                       "'xlsx' extra: pip install openpyxl (or save the sheet as CSV)\n")
     assert not report.exists() and not (tmp_path / "b.xlsx").exists()
+
+
+def test_air_density_guard_covers_the_runs_of_further_methods(tmp_path):
+    # a second coulometric series whose runs file has the humidity in % (a slip)
+    second = _column((DEMO / "determinations.csv").read_text(), "h_air",
+                     lambda c: f"{100 * float(c):g}")
+    path = _copy(tmp_path, {"campaign.toml": lambda t: t.replace(
+        "[homogeneity]", '[[method]]\nlabel = "second series"\n'
+        'model = "coulometric-purity.toml"\nmeasurand = "w"\nruns = "second.csv"\n\n'
+        "[homogeneity]", 1)})
+    (tmp_path / "second.csv").write_text(second)
+    warnings = load_campaign(path).warnings
+    assert any(w.startswith("plausibility: air_density() relative humidity 34 (from h_air) "
+                            f"in {tmp_path / 'second.csv'}, row 2 is outside") for w in warnings)
+    assert not any("column 'h_air'" in w for w in warnings)  # no factor for further methods

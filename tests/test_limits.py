@@ -273,3 +273,11 @@ def test_control_characters_from_data_are_escaped_on_the_terminal(cli, tmp_path)
         encoding="utf-8")
     code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
     assert "\x1b" not in stdout + stderr and "\x07" not in stdout + stderr
+
+
+def test_a_value_is_never_shown_with_more_digits_than_a_double_holds() -> None:
+    from budget.formatting import format_pair
+
+    # 17 significant digits: the precision of an IEEE 754 double (common practice)
+    assert format_pair(1.0, 1e-200) == ("1.0000000000000000E+0", "1.0E-200")
+    assert format_pair(123456.789, 1e-30)[0] == "123456.78900000000"

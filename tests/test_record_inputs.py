@@ -50,12 +50,12 @@ _BAD = {
                        "(did you mean 'x'?)"),
     "not a number": ('[fits.c]\nfile = "data.csv"\nx = "x"\ny = "y"\n',
                      "x,y\n0,1\n1,2\n2,abc\n3,4\n",
-                     ":5: [fits.c] file: expected a number in column 'y' of 'data.csv' row "
-                     "4, found 'abc'"),
+                     ":5: [fits.c] file: data.csv:4: column 'y': expected a finite number "
+                     "with a decimal point, found 'abc'"),
     "not finite": ('[fits.c]\nfile = "data.csv"\nx = "x"\ny = "y"\n',
                    "x,y\n0,1\n1,nan\n2,3\n3,4\n",
-                   ":5: [fits.c] file: expected a finite number in column 'y' of 'data.csv' "
-                   "row 3, found 'nan'"),
+                   ":5: [fits.c] file: data.csv:3: column 'y': expected a finite number "
+                   "with a decimal point, found 'nan'"),
     "too few points": ('[fits.c]\nfile = "data.csv"\nx = "x"\ny = "y"\n', "x,y\n0,1\n1,2\n",
                        ":5: [fits.c] file: expected at least 3 points for a straight line (2 "
                        "coefficients and at least one degree of freedom), found 2"),
@@ -87,8 +87,9 @@ _BAD = {
     "unknown key": ('[records.c]\nkind = "drift"\nfile = "data.csv"\nx = "x"\ny = "y"\n'
                     'befor = [0, 3]\n', _LINE,
                     ":9: [records.c] befor: unknown key 'befor' (did you mean 'before'?); "
-                    "expected one of file, kind, x, y, x_unit, y_unit, description, before, "
-                    "after, titration_time, give"),
+                    "expected one of file, kind, x, y, x_unit, y_unit, description, "
+                    "separator, decimal, encoding, sheet, missing, dates, before, after, "
+                    "titration_time, give"),
     "unit slip": ('[fits.c]\nfile = "data.csv"\nx = "t"\ny = "y"\nx_unit = "s"\n',
                   "t [min],y\n0,1\n1,2\n2,3.1\n",
                   ":8: [fits.c] x_unit: expected column 't' of 'data.csv' in x_unit 's', "
@@ -135,13 +136,14 @@ def test_csv_reader_keeps_file_rows_through_comments_blanks_and_separators(tmp_p
     from budget.errors import Location
     from budget.recordfiles import read_columns
 
-    text = "# a comment\n\n t / s ;\"i (mA)\";note\n0;1,5e0;a\n# inside\n\n1;2;b\n2;\"3\";c\n"
+    text = "# a comment\n\n t / s ;\"i (mA)\";note\n0;1.5e0;a\n\n1;2;b\n2;\"3\";c\n"
     path = tmp_path / "r.csv"
-    path.write_text(text.replace("1,5e0", "1.5e0"), encoding="utf-8")
-    columns = read_columns(path, "r.csv", ["t", "i"], Location(file="m.toml"))
-    assert columns.units == {"t": "s", "i": "mA"}
-    assert columns.values["i"].tolist() == [1.5, 2.0, 3.0]
-    assert columns.rows.tolist() == [4, 7, 8]
+    for content in (text, text.replace(".", ",")):  # decimal commas: the careful reader
+        path.write_text(content, encoding="utf-8")
+        columns = read_columns(path, "r.csv", ["t", "i"], Location(file="m.toml"))
+        assert columns.units == {"t": "s", "i": "mA"}
+        assert columns.values["i"].tolist() == [1.5, 2.0, 3.0]
+        assert columns.rows.tolist() == [4, 6, 7]
 
 
 def test_the_fast_and_the_careful_reader_agree_on_a_long_record(tmp_path, monkeypatch):

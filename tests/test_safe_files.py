@@ -171,3 +171,21 @@ def test_the_demo_copies_of_shared_models_match_their_originals() -> None:
               DEMO / "calibrations.toml")]
     for copy, original in pairs:
         assert copy.read_bytes() == original.read_bytes()
+
+
+@pytest.mark.parametrize("option", ["--csv", "--xlsx", "--html"])
+def test_exports_onto_the_model_file_are_refused(cli, model_copy: Path, option: str) -> None:
+    before = model_copy.read_bytes()
+    code, stdout, stderr = cli("run", "--trials", "0", option, str(model_copy),
+                               str(model_copy))
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {model_copy}: expected an output file other than the files "
+                      "of the run, found the model file itself\n")
+    assert model_copy.read_bytes() == before
+
+
+def test_exports_onto_a_device_are_refused_before_the_work(cli) -> None:
+    code, stdout, stderr = cli("run", "--csv", "/dev/full", str(NAOH))
+    assert (code, stdout) == (1, "")
+    assert stderr == ("error: /dev/full: expected a regular file or a new name for the "
+                      "output, found a character device\n")

@@ -110,3 +110,70 @@ def test_the_program_folds_numbers_and_merges_single_use_sums():
     assert kinds == ["mul", "add"]
     value, jacobian = program.gradient([1.0, 2.0])
     assert value[0] == 17.0 and list(jacobian[0]) == [13.0, 1.0]
+
+
+_BLOCK = """
+title = "three correlated masses"
+[measurands.y]
+equation = "m_1 + 2 * m_2 - m_3"
+[inputs.m_1]
+value = 1.0
+u = 0.1
+[inputs.m_2]
+value = 2.0
+u = 0.2
+[inputs.m_3]
+value = 3.0
+u = 0.3
+"""
+_PAIRS = "".join(f'[[correlations]]\nbetween = ["{a}", "{b}"]\nr = {r}\n'
+                 for a, b, r in [("m_1", "m_2", 0.5), ("m_1", "m_3", 0.2), ("m_2", "m_3", 0.5)])
+
+
+def test_a_correlation_block_as_a_matrix_equals_its_pairs():
+    matrix = ('[[correlations]]\nbetween = ["m_1", "m_2", "m_3"]\n'
+              "matrix = [[1, 0.5, 0.2], [0.5, 1, 0.5], [0.2, 0.5, 1]]\n")
+    as_pairs = propagate(parse_model(_BLOCK + _PAIRS)).measurands[0]
+    as_block = propagate(parse_model(_BLOCK + matrix)).measurands[0]
+    assert as_block.combined_uncertainty == as_pairs.combined_uncertainty
+    assert [(t.inputs, t.r) for t in as_block.correlation_terms] == \
+        [(t.inputs, t.r) for t in as_pairs.correlation_terms]
+    # GUM 5.2.2 by hand: c = (1, 2, -1), u = (0.1, 0.2, 0.3)
+    c_u = np.array([0.1, 0.4, -0.3])
+    r = np.array([[1, 0.5, 0.2], [0.5, 1, 0.5], [0.2, 0.5, 1]])
+    assert as_block.combined_uncertainty == pytest.approx(math.sqrt(c_u @ r @ c_u), rel=1e-14)
+
+
+def test_a_correlation_block_with_one_r_for_every_pair():
+    block = '[[correlations]]\nbetween = ["m_1", "m_2", "m_3"]\nr = 0.25\n'
+    budget = propagate(parse_model(_BLOCK + block)).measurands[0]
+    c_u = np.array([0.1, 0.4, -0.3])
+    r = np.full((3, 3), 0.25) + 0.75 * np.eye(3)
+    assert budget.combined_uncertainty == pytest.approx(math.sqrt(c_u @ r @ c_u), rel=1e-14)
+    assert len(budget.correlation_terms) == 3
+
+
+@pytest.mark.parametrize("table, message", [
+    ('between = ["m_1", "m_2", "m_3"]\nmatrix = [[1, 0.5], [0.5, 1]]',
+     "[correlations] matrix: expected matrix = 3 rows of 3 numbers (one per input of between)"
+     " in correlation 1, found another shape or a value that is not a number"),
+    ('between = ["m_1", "m_2", "m_3"]\nmatrix = [[1, 0.5, 0], [0.4, 1, 0], [0, 0, 1]]',
+     "[correlations] matrix: expected a symmetric matrix with 1 on the diagonal and entries "
+     "in [-1, 1] in correlation 1, found 0.5 in row 1, column 2"),
+    ('between = ["m_1", "m_2", "m_3"]\nr = 0.5\nmatrix = [[1, 0, 0], [0, 1, 0], [0, 0, 1]]',
+     "[correlations] between: expected either r (one value for every pair) or matrix in "
+     "correlation 1 of 3 inputs, found both"),
+    ('between = ["m_1", "m_2", "m_1"]\nr = 0.5',
+     "[correlations] between: expected different inputs in correlation 1, found 'm_1' twice"),
+    ('between = ["m_1", "m_2", "m_3"]\nr = -0.9',
+     "[correlations] expected a positive semi-definite correlation matrix, found the "
+     "smallest eigenvalue -0.8; the pairs m_1-m_2 (-0.9), m_1-m_3 (-0.9), m_2-m_3 (-0.9) "
+     "cannot hold together"),
+])
+def test_a_bad_correlation_block_is_one_clean_error(table, message):
+    from budget.errors import BudgetError
+
+    with pytest.raises(BudgetError) as caught:
+        parse_model(_BLOCK + "[[correlations]]\n" + table + "\n", name="b.toml")
+    text = str(caught.value)
+    assert text.startswith("b.toml:") and text.split(" ", 1)[1] == message
