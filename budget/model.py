@@ -291,7 +291,7 @@ class _Reader:
                       for names, dof, note in generated.together)
         uses = tuple(self.uses)
         warnings = (_unused_inputs(inputs, measurands) + tuple(self.checks)
-                    + date_warnings(uses, measured))
+                    + date_warnings(uses, measured) + tuple(generated.warnings))
         files: tuple[tuple[str, str, str], ...] = (("model", self.name, sha256),)
         if self.register is not None:
             files += (("register", self.register.source, self.register.sha256),)

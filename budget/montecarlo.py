@@ -17,9 +17,10 @@ Method:
   draws per block), so that memory stays bounded whatever the number of trials.
 * 7.7: the probabilistically symmetric interval (quantile indices by selection, not a
   full sort) and the shortest interval (searched in the sorted tails only).
-* 7.9: the adaptive procedure, batches of ``BLOCK`` trials (≥ max(J, 10⁴)) until twice
-  the standard deviation of the batch means, standard deviations and interval ends is
-  within the numerical tolerance δ.
+* 7.9: the adaptive procedure, batches of at least two blocks (≥ max(J, 10⁴) trials,
+  drawn on both workers) until twice the standard deviation of the batch means, standard
+  deviations and interval ends is within the numerical tolerance δ; the statistics run
+  batch by batch (no pass over all values so far at each step).
 * 8.2: validation of the GUM result: d_low = |y − U_p − y_low|, d_high = |y + U_p −
   y_high|, validated when both are ≤ δ.
 
@@ -445,22 +446,29 @@ def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
 def _adaptive(sampler: _Sampler, budget: Budget | None, coverage: float, digits: int,
               workers: int, progress: Callable[[int, int], None] | None
               ) -> tuple[np.ndarray, list[str]]:
-    """JCGM 101 7.9 with batches of whole blocks (≥ max(J, 10⁴) trials each)."""
+    """JCGM 101 7.9 with batches of whole blocks (≥ max(J, 10⁴) trials each), on all
+    workers. Running statistics: each batch leaves its moments and its four results
+    (mean, sd, interval ends), so a convergence check costs one batch, never all the
+    values so far; the batches are joined once, at the end."""
     j = math.ceil(100.0 / (1.0 - coverage))
-    per_batch = -(-max(j, 10_000) // sampler.size)
+    # at least two blocks per batch, so that both workers draw (the same on any number
+    # of cores: the batch size never depends on the workers)
+    per_batch = max(2, -(-max(j, 10_000) // sampler.size))
     size = per_batch * sampler.size
     n_out = len(sampler.model.measurands)
     batches: list[np.ndarray] = []
     stats: list[np.ndarray] = []  # per batch: (n_out, 4) mean, sd, low, high
+    moments: np.ndarray | None = None  # (n_out, 3): count, mean, M2 of all batches
     while True:
         h = len(batches)
         chunk = np.empty((n_out, size))
         ticker = (lambda n, total=size * (h + 1): progress(n, total)) if progress else None
-        _run_blocks(sampler, h * per_batch, per_batch, (h + 1) * size, chunk, ticker,
-                    workers)  # moments and tails are recomputed over all batches below
+        done, _ = _run_blocks(sampler, h * per_batch, per_batch, (h + 1) * size, chunk,
+                              ticker, workers)
+        moments = done if moments is None else _combine([moments, done])
         batches.append(chunk)
         stats.append(_batch_stats(chunk, coverage))
-        if h >= 1 and _converged(np.concatenate(batches, axis=1), np.array(stats), digits):
+        if h >= 1 and _converged(moments, np.array(stats), digits):
             return np.concatenate(batches, axis=1), []
         if (h + 2) * size > ADAPTIVE_LIMIT:
             return np.concatenate(batches, axis=1), [
@@ -518,11 +526,15 @@ def _batch_stats(chunk: np.ndarray, coverage: float) -> np.ndarray:
     return np.array(rows)
 
 
-def _converged(all_values: np.ndarray, stats: np.ndarray, digits: int) -> bool:
+def _converged(moments: np.ndarray, stats: np.ndarray, digits: int) -> bool:
+    """JCGM 101 7.9.4: twice the standard deviation of the h batch results over √h
+    within δ, δ from the standard deviation of all values so far (running moments)."""
     h = stats.shape[0]
     spread = 2.0 * stats.std(axis=0, ddof=1) / math.sqrt(h)  # (n_out, 4)
-    for k, y in enumerate(all_values):
-        delta = tolerance(float(np.std(y[np.isfinite(y)], ddof=1)), digits)
+    for k in range(moments.shape[0]):
+        count, m2 = moments[k, 0], moments[k, 2]
+        sd = math.sqrt(m2 / (count - 1)) if count > 1 else math.nan
+        delta = tolerance(sd, digits)
         if not np.all(spread[k] <= delta):
             return False
     return True

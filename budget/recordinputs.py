@@ -98,6 +98,7 @@ class Generated:
     together: list[tuple[tuple[str, ...], float, str]] = field(default_factory=list)
     definitions: dict[str, str] = field(default_factory=dict)
     views: list[RecordView] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
 
 
 def generate(document: dict[str, Any], base: Path,
@@ -257,6 +258,8 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
         fits=(FitView(label=name, fit=fit, x_label=f"{data['x']} / {units['x']}",
                       y_label=f"{data['y']} / {units['y']}"),),
         notes=_fit_notes(fit)))
+    if covariance == "stated" and math.isfinite(fit.chi2):
+        _chi2_warning(made, name, fit)
 
 
 def _degree(data: dict[str, Any], here: Where) -> int:
@@ -302,6 +305,19 @@ def _fit_method(fit: Fit, degree: int) -> str:
     if fit.method == "wls":
         return f"{shape}, weighted least squares"
     return f"{shape}, ordinary least squares"
+
+
+def _chi2_warning(made: Generated, name: str, fit: Fit) -> None:
+    """ISO/TS 28037: residuals larger than the stated uncertainties explain are a warning."""
+    from .fits import chi2_limit
+
+    dof = len(fit.y) - len(fit.parameters)
+    limit = chi2_limit(dof)
+    if fit.chi2 > limit:
+        made.warnings.append(
+            f"[fits.{name}]: χ² = {fit.chi2:.4g} exceeds its 95 % limit {limit:.4g} for "
+            f"ν = {dof}: the residuals are larger than the stated uncertainties explain "
+            "(check the data, or state covariance = \"scaled\")")
 
 
 def _fit_notes(fit: Fit) -> tuple[str, ...]:

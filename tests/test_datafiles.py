@@ -268,3 +268,13 @@ def test_any_table_reads_or_fails_with_a_budget_error(tmp_path, rows, separator,
                 table.dates_of(name, allow_missing=True)
     except BudgetError:
         pass
+
+
+def test_record_files_read_decimal_commas_and_windows_1252(tmp_path):
+    from budget.recordfiles import read_columns
+
+    path = tmp_path / "r.csv"
+    path.write_bytes("# Strom über die Zeit\nt [s];I / mA\n0;1,5\n1;1,25\n".encode("cp1252"))
+    columns = read_columns(path, "r.csv", ["t", "I"], Location(file="m.toml"))
+    assert columns.values["I"].tolist() == [1.5, 1.25]
+    assert columns.units == {"t": "s", "I": "mA"}

@@ -204,8 +204,11 @@ def test_weighted_fit_reports_chi_squared_and_scaled_covariance_sets_dof(tmp_pat
     assert stated.input("c_b0").dof == math.inf
     notes = stated.records[0].notes
     assert any("NOT consistent with the stated uncertainties" in n for n in notes), notes
+    assert any(w.startswith("[fits.c]: χ² = ") and "exceeds its 95 % limit 15.51 for ν = 8"
+               in w for w in stated.warnings), stated.warnings
     scaled = load_model(_write(tmp_path, tables + 'covariance = "scaled"\n', data))
     assert scaled.input("c_b0").dof == 8.0
+    assert not any("χ²" in w for w in scaled.warnings)
     assert scaled.input("c_b0").standard_uncertainty > stated.input("c_b0").standard_uncertainty
 
 

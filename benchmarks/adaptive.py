@@ -1,0 +1,55 @@
+"""The adaptive procedure (JCGM 101 7.9) against a fixed run of the trials it needed
+(issue 18, item 7), side by side in one process: the EURACHEM A2 model at --digits 3.
+
+Prints the trials the adaptive run took, both times (min and median of the rounds) and
+the median of the per-round ratios adaptive / fixed. Run:
+
+    python benchmarks/adaptive.py [rounds] [digits]
+"""
+
+from __future__ import annotations
+
+import os
+import platform
+import statistics
+import sys
+import time
+from pathlib import Path
+
+sys.path.insert(0, os.path.dirname(__file__))
+
+from measure import load  # noqa: E402
+
+from budget.gum import propagate  # noqa: E402
+from budget.model import load_model  # noqa: E402
+from budget.montecarlo import simulate  # noqa: E402
+
+MODEL = Path(__file__).resolve().parent.parent / "models" / "reference" / "eurachem-a2-naoh.toml"
+
+
+def main() -> None:
+    rounds = int(sys.argv[1]) if len(sys.argv) > 1 else 3
+    digits = int(sys.argv[2]) if len(sys.argv) > 2 else 3
+    model = load_model(MODEL)
+    budget = propagate(model)
+    simulate(model, budget, trials=100_000, seed=1)  # warm up
+    print(f"machine: {platform.platform()}, {os.cpu_count()} cores; load average {load()}")
+    adaptive, fixed, trials = [], [], 0
+    for _ in range(rounds):
+        start = time.perf_counter()
+        result = simulate(model, budget, adaptive=True, digits=digits, seed=1)
+        adaptive.append(time.perf_counter() - start)
+        trials = result.trials
+        start = time.perf_counter()
+        simulate(model, budget, trials=trials, digits=digits, seed=1)
+        fixed.append(time.perf_counter() - start)
+    ratios = [a / f for a, f in zip(adaptive, fixed)]
+    print(f"EURACHEM A2, --adaptive --digits {digits}: {trials:,} trials")
+    print(f"  adaptive: min {min(adaptive):.2f} s, median {statistics.median(adaptive):.2f} s")
+    print(f"  fixed run of the same trials: min {min(fixed):.2f} s, median "
+          f"{statistics.median(fixed):.2f} s")
+    print(f"  adaptive / fixed: median of per-round ratios {statistics.median(ratios):.2f}")
+
+
+if __name__ == "__main__":
+    main()
