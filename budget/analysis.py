@@ -6,9 +6,11 @@ of trials is 0, ``simulate`` (JCGM 101) validating the GUM result (JCGM 101 8.2)
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Callable
 
+from .errors import Location, PropagationError
+from .limits import LIMITS_PAGE, check_digits, check_probability
 from .gum import Budget, propagate
 from .model import Model
 from .montecarlo import Simulation, simulate
@@ -36,12 +38,20 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
     """GUM budget and (unless ``trials == 0``) the Monte Carlo cross-check of ``model``."""
     coverage = model.settings.coverage if coverage is None else coverage
     digits = model.settings.digits if digits is None else digits
-    budget = propagate(model, coverage, second_order=second_order)
+    where = Location(file=model.source)
+    check_probability(coverage, replace(where, key="coverage"))  # limits, also for the API
+    check_digits(digits, replace(where, key="digits"))
     if trials is None and not adaptive and model.settings.trials == 0:
         trials = 0
-    simulation = None
-    if adaptive or trials != 0:
-        simulation = simulate(model, budget, trials=None if adaptive else trials,
-                              adaptive=adaptive, seed=seed, coverage=coverage,
-                              digits=digits, workers=workers, progress=progress)
+    try:
+        budget = propagate(model, coverage, second_order=second_order)
+        simulation = None
+        if adaptive or trials != 0:
+            simulation = simulate(model, budget, trials=None if adaptive else trials,
+                                  adaptive=adaptive, seed=seed, coverage=coverage,
+                                  digits=digits, workers=workers, progress=progress)
+    except RecursionError as exc:  # a safety net: the engine walks without recursion
+        raise PropagationError(f"expected a model nested less deeply (limits: "
+                               f"{LIMITS_PAGE}), found one too deep to evaluate", where
+                               ) from exc
     return Result(model=model, budget=budget, simulation=simulation, digits=digits)
