@@ -172,7 +172,7 @@ def check_strings(document: dict[str, Any],
         path, value = stack.pop()
         if isinstance(value, dict):
             for key, item in value.items():
-                _refuse(str(key), "", where, path, str(key))
+                _refuse(str(key), "", where, f"{path}.{key}" if path else str(key), str(key))
                 stack.append((f"{path}.{key}" if path else str(key), item))
         elif isinstance(value, list):
             stack.extend((path, item) for item in value)

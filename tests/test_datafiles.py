@@ -213,6 +213,7 @@ def test_xlsx_round_trip(tmp_path):
     assert table.source == f"{path}[Runs]"
     assert table.column("m_c").unit == "mg"
     assert table.numbers("m_c").tolist() == [524.652, 501.407]
+    assert table.column("date").cells == ("2025-05-06", "2025-05-07")
     assert table.dates_of("date") == [datetime(2025, 5, 6), datetime(2025, 5, 7)]
     with pytest.raises(DataFileError) as caught:
         read_table(path, FileFormat(sheet="runs"))
@@ -268,3 +269,13 @@ def test_any_table_reads_or_fails_with_a_budget_error(tmp_path, rows, separator,
                 table.dates_of(name, allow_missing=True)
     except BudgetError:
         pass
+
+
+def test_record_files_read_decimal_commas_and_windows_1252(tmp_path):
+    from budget.recordfiles import read_columns
+
+    path = tmp_path / "r.csv"
+    path.write_bytes("# Strom über die Zeit\nt [s];I / mA\n0;1,5\n1;1,25\n".encode("cp1252"))
+    columns = read_columns(path, "r.csv", ["t", "I"], Location(file="m.toml"))
+    assert columns.values["I"].tolist() == [1.5, 1.25]
+    assert columns.units == {"t": "s", "I": "mA"}

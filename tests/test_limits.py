@@ -281,3 +281,32 @@ def test_a_value_is_never_shown_with_more_digits_than_a_double_holds() -> None:
     # 17 significant digits: the precision of an IEEE 754 double (common practice)
     assert format_pair(1.0, 1e-200) == ("1.0000000000000000E+0", "1.0E-200")
     assert format_pair(123456.789, 1e-30)[0] == "123456.78900000000"
+
+
+@pytest.mark.parametrize("options, message", [
+    ({"coverage": math.nan}, "api.toml: coverage: expected a coverage probability in [1e-06, "
+     "1 - 1e-09] (limits: docs/limits.md), found nan"),
+    ({"digits": 1000}, "api.toml: digits: expected a whole number of significant digits from "
+     "1 to 6, found 1000"),
+])
+def test_the_python_api_checks_the_same_limits(options, message) -> None:
+    with pytest.raises(InputError) as caught:
+        evaluate(parse_model(text(), name="api.toml"), trials=0, **options)
+    assert str(caught.value) == message
+
+
+def test_unreadable_inputs_are_one_error_line(cli, tmp_path) -> None:
+    fifo = tmp_path / "model.toml"
+    os.mkfifo(fifo)  # no writer: read as empty, never a hang
+    for path, found in ((tmp_path, "expected a readable model file, found Is a directory"),
+                        (fifo, "expected a TOML model, found an empty file")):
+        code, stdout, stderr = cli("check", str(path))
+        assert (code, stdout, stderr) == (1, "", f"error: {path}: {found}\n")
+
+
+def test_a_key_with_a_control_character_is_named_in_its_table() -> None:
+    source = text() + '[inputs."b\\u001b"]\nvalue = 1\nu = 1\n'
+    with pytest.raises(BudgetError) as caught:
+        parse_model(source, name="key.toml")
+    assert str(caught.value) == ("key.toml: [inputs] b\\x1b: expected text without control "
+                                 "characters, found U+001B ESCAPE at position 2")
