@@ -140,12 +140,26 @@ def _row_view(c: Any, unit: str, digits: int) -> dict[str, Any]:
     return cells
 
 
+def _reported_statement(result: Result, b: MeasurandBudget, digits: int, unit: str) -> str:
+    """The GUM statement, or the Monte Carlo interval when that is the reported one."""
+    chosen = result.reported_for(b.name)
+    if not chosen.monte_carlo:
+        return result_statement(b, digits, unit=unit)
+    value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
+    low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
+                 for x in chosen.interval)
+    return (f"{b.name} = {value} {unit}, {chosen.percent} coverage "
+            f"interval [{low}, {high}] {unit}")
+
+
 def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any]:
     measurand = result.model.measurands[k]
     simulation = result.simulation.measurands[k] if result.simulation else None
     view = budget_view(b, result.digits, simulation)
     view.update({"description": measurand.description, "equation": measurand.equation,
                  "math": model_view_math(result, k),
+                 "statement": _reported_statement(result, b, result.digits, view["unit"]),
+                 "method": f"Reported interval: {result.reported_for(b.name).description}.",
                  # a chained model's earlier models are reached through their results
                  "sensitivity": sensitivity_view(
                      result.model, k, {c.input: c.sensitivity for c in b.contributions})})
