@@ -289,7 +289,7 @@ def test_json_document_lists_each_fit_with_its_covariance():
     (fit,) = record["fits"]
     assert fit["dof"] == 9 and fit["points"] == 11
     # GUM H.3.3 [M✓C]: r = −0.930, u(y1) = 0.0029 °C, u(y2) = 0.00067; their rounding
-    # allows 1.9 % on the product (0.5/29 + 0.5/67 + 0.5/930)
+    # allows 2.5 % on the product (0.5/29 + 0.5/67 + 0.5/930)
     assert fit["covariance"][0][1] == pytest.approx(-0.930 * 0.0029 * 0.00067, rel=0.026)
     json.dumps(document, allow_nan=False)
     typed = result_document(evaluate(load_model(MODELS / "reference" /
