@@ -14,6 +14,7 @@ from .limits import LIMITS_PAGE, check_digits, check_probability
 from .gum import Budget, propagate
 from .model import Model
 from .montecarlo import Simulation, simulate
+from .reported import Reported, gum_reported, reported
 
 __all__ = ["Result", "evaluate"]
 
@@ -24,6 +25,16 @@ class Result:
     budget: Budget
     simulation: Simulation | None
     digits: int
+    reported: tuple[Reported, ...] = ()  # per measurand: the result to report, and how
+
+    def reported_for(self, name: str) -> Reported:
+        """The reported result of one measurand (GUM unless ``reported_interval`` says)."""
+        for item in self.reported:
+            if item.name == name:
+                return item
+        b = self.budget.measurand(name)
+        return gum_reported(b.name, b.unit, b.estimate, b.combined_uncertainty,
+                            b.coverage_factor, b.coverage_probability)
 
     @property
     def warnings(self) -> tuple[str, ...]:
@@ -34,8 +45,10 @@ class Result:
 def evaluate(model: Model, *, coverage: float | None = None, trials: int | None = None,
              adaptive: bool = False, seed: int | None = None, digits: int | None = None,
              second_order: bool = False, workers: int | None = None,
-             progress: Callable[[int, int], None] | None = None) -> Result:
-    """GUM budget and (unless ``trials == 0``) the Monte Carlo cross-check of ``model``."""
+             progress: Callable[[int, int], None] | None = None,
+             reported_interval: str | None = None) -> Result:
+    """GUM budget and (unless ``trials == 0``) the Monte Carlo cross-check of ``model``;
+    ``reported_interval`` (default: the model's setting) picks the reported result."""
     coverage = model.settings.coverage if coverage is None else coverage
     digits = model.settings.digits if digits is None else digits
     where = Location(file=model.source)
@@ -54,4 +67,9 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
         raise PropagationError(f"expected a model nested less deeply (limits: "
                                f"{LIMITS_PAGE}), found one too deep to evaluate", where
                                ) from exc
-    return Result(model=model, budget=budget, simulation=simulation, digits=digits)
+    method = reported_interval or model.settings.reported_interval
+    chosen = tuple(
+        reported(b, simulation.measurands[k] if simulation else None, method, model.source)
+        for k, b in enumerate(budget.measurands))
+    return Result(model=model, budget=budget, simulation=simulation, digits=digits,
+                  reported=chosen)

@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 
 from .datafiles import FORMAT_KEYS, FileFormat, parse_declared_format
-from .errors import CampaignError, Location, did_you_mean
+from .errors import BudgetError, CampaignError, Location, did_you_mean
 from .limits import (LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, as_float,
                      check_probability, check_strings, shorten)
 from .model import LineIndex, Model, decode, load_model, read_toml
@@ -75,6 +75,7 @@ class Campaign:
     time_unit: str = ""
     excluded: tuple[Exclusion, ...] = field(default=())
     warnings: tuple[str, ...] = field(default=())
+    reported_interval: str = "gum"  # [certificate]: which interval the certificate states
 
 
 class _Reader:
@@ -248,7 +249,8 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
                     if key in r.doc),
         data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
         method_label=label, methods=plan, stability_plan=stability_plan,
-        time_unit=time_unit, excluded=excluded + more, warnings=tuple(warnings))
+        time_unit=time_unit, excluded=excluded + more, warnings=tuple(warnings),
+        reported_interval=_reported_interval(r))
 
 
 def _format(r: _Reader, data: dict[str, Any], table: str) -> FileFormat:
@@ -523,5 +525,19 @@ def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...
     if k is None and coverage is None:
         k = 2.0
     fields = tuple((key, str(value)) for key, value in data.items()
-                   if key not in ("k", "coverage"))
+                   if key not in ("k", "coverage", "reported_interval"))
     return k, coverage, fields
+
+
+def _reported_interval(r: _Reader) -> str:
+    """``[certificate] reported_interval``: gum (default), monte_carlo, monte_carlo_shortest."""
+    from .model import check_reported
+
+    data = r.doc.get("certificate", {})
+    if "reported_interval" not in data:
+        return "gum"
+    try:
+        return check_reported(data["reported_interval"],
+                              r.where("certificate", "reported_interval"))
+    except BudgetError as error:
+        raise CampaignError(error.message, error.location) from error

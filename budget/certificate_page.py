@@ -96,6 +96,14 @@ def _sentence(cert: Any) -> Markup:
 
 
 def _method(cert: Any) -> str:
+    chosen = cert.reported_result
+    if chosen.monte_carlo:  # JCGM 101 8.2: the Monte Carlo interval is the certificate's
+        trials = cert.simulation.trials if cert.simulation is not None else 0
+        return (f"The interval is the Monte Carlo one ({chosen.description}): the certified "
+                f"value was propagated by Monte Carlo ({trials:,} trials), the "
+                "characterization model, its repeatability, the between-unit and the "
+                "stability components each drawn from its distribution (JCGM 101, ISO "
+                "Guide 35).")
     result = cert.characterization.result
     simulation = result.simulation
     text = ("The interval is the GUM one, ±k·u(CRM), u(CRM) combining characterization, "

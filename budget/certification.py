@@ -33,7 +33,9 @@ import numpy as np
 
 from .analysis import Result, evaluate
 from .campaign import Campaign, Comparison
-from .errors import BudgetError, CampaignError, Location
+from .certified_mc import CertifiedSimulation, simulate_certified
+from .errors import BudgetError, CampaignError, Location, SimulationError
+from .reported import Reported, gum_reported
 from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
 from .model import Model
@@ -123,6 +125,17 @@ class Certification:
     run_dates: tuple[dt.date, ...] = ()  # the measurement dates of the runs, if given
     methods: Any = None  # intercomparison.MethodsResult when the campaign has several
     stability_studies: Any = None  # stability.StabilityStudies: series, short-term study
+    simulation: CertifiedSimulation | None = None  # Monte Carlo of the certified value
+    reported: Reported | None = None  # the certificate's interval and the method behind it
+
+    @property
+    def reported_result(self) -> Reported:
+        """What the certificate states: the GUM interval unless ``reported_interval``."""
+        if self.reported is not None:
+            return self.reported
+        return gum_reported(self.campaign.measurand, self.campaign.unit, self.certified_value,
+                            self.standard_uncertainty, self.coverage_factor,
+                            self.coverage_probability)
 
     @property
     def shares(self) -> dict[str, float]:
@@ -223,8 +236,11 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
 
 
 def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None = None,
-            progress: Callable[[int, int], None] | None = None) -> Certification:
-    """The certified value, its uncertainty budget and the comparisons."""
+            progress: Callable[[int, int], None] | None = None,
+            reported_interval: str | None = None) -> Certification:
+    """The certified value, its uncertainty budget and the comparisons; with Monte Carlo
+    trials also a Monte Carlo of the certified value, whose interval is the reported one
+    when ``reported_interval`` (default: the campaign's) asks for it."""
     warnings: list[str] = []
     days = _run_dates(campaign)
     warnings.extend(date_warnings(campaign.model.certificates, days,
@@ -272,7 +288,65 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     cert = replace(_certified(campaign_used, value_from, homogeneity, stability_used,
                               warnings), run_dates=days, stability=stability,
                    stability_studies=studies)
+    cert = _with_monte_carlo(cert, char if methods is None else None,
+                             reported_interval or campaign.reported_interval,
+                             math.inf if stability_used is None else float(stability_used.dof))
     return cert if methods is None else replace(cert, characterization=char, methods=methods)
+
+
+def _with_monte_carlo(cert: Certification, char: Characterization | None,
+                      method: str, stability_dof: float) -> Certification:
+    """Add the Monte Carlo of the certified value (``certified_mc.py``) and the result
+    that the certificate reports (GUM, or a Monte Carlo interval, JCGM 101 8.2)."""
+    campaign = cert.campaign
+    simulation = _simulate_certified(cert, char, stability_dof)
+    if method == "gum":
+        chosen = cert.reported_result
+        v = simulation.validation if simulation else None
+        if v is not None and not v.validated:
+            cert = replace(cert, warnings=(*cert.warnings, (
+                f"certified value: Monte Carlo does not validate the GUM interval at "
+                f"{v.tolerance:.2g} {campaign.unit} (d_low = {v.d_low:.2g}, d_high = "
+                f"{v.d_high:.2g}, JCGM 101 8.2); reported_interval = \"monte_carlo\" "
+                "would state the Monte Carlo interval")))
+    elif simulation is None:
+        raise SimulationError(
+            f"{campaign.source}: [certificate] reported_interval: expected a Monte Carlo run "
+            f"of the characterization for \"{method}\" (trials > 0, one method), found none")
+    else:
+        interval = simulation.interval if method == "monte_carlo" else \
+            simulation.shortest_interval
+        chosen = Reported(name=campaign.measurand, unit=campaign.unit, method=method,
+                          estimate=simulation.mean,
+                          standard_uncertainty=simulation.standard_uncertainty,
+                          interval=interval,
+                          coverage_probability=simulation.coverage_probability,
+                          coverage_factor=None)
+    return replace(cert, simulation=simulation, reported=chosen)
+
+
+def _simulate_certified(cert: Certification, char: Characterization | None,
+                        stability_dof: float) -> CertifiedSimulation | None:
+    sim = None if char is None else char.result.simulation
+    if char is None or sim is None or not sim.trials:
+        return None
+    campaign, model = cert.campaign, cert.campaign.model
+    index = [m.name for m in model.measurands].index(campaign.measurand)
+    used = dict(cert.components)  # the u's that went into u_CRM, with their ν
+    h = cert.homogeneity
+    components = ((used["homogeneity"], float(h.dof_between) if h else math.inf),
+                  (used["long_term_stability"], stability_dof),
+                  (used["short_term_stability"], math.inf))
+    stated = cert.coverage_probability
+    return simulate_certified(
+        model_samples=sim.measurands[index].samples,
+        model_estimate=char.result.budget.measurands[index].estimate,
+        scale=_unit_scale(campaign, model.measurands[index].unit), runs_mean=char.mean,
+        s=char.s, n=char.n, components=components,
+        coverage=stated if stated is not None else model.settings.coverage, seed=sim.seed,
+        gum=None if stated is None else (cert.certified_value, cert.standard_uncertainty,
+                                         cert.expanded_uncertainty),
+        digits=model.settings.digits)
 
 
 def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:

@@ -34,6 +34,7 @@ def certification_view(cert: Any) -> dict[str, Any]:
                       "coverage": None if cert.coverage_probability is None
                       else f"{100 * cert.coverage_probability:g}",
                       "u": rounded(cert.standard_uncertainty), "dof": format_dof(cert.dof)},
+        "reported": _reported(cert, unit, digits),
         "certificate": [(key.replace("_", " "), text) for key, text in campaign.certificate],
         "components": [{"name": _LABELS[name], "u": rounded(u),
                         "share": format_percent(cert.shares[name])}
@@ -63,6 +64,31 @@ def _characterization(char: Any, covers: tuple[str, ...], unit: str,
             "chart": points_with_bars([(label, y, 0.0) for label, y in
                                        zip(char.labels, char.runs)], centre=char.mean,
                                       unit=unit, label="results of the determinations")}
+
+
+def _reported(cert: Any, unit: str, digits: int) -> dict[str, Any]:
+    """The certificate's interval when Monte Carlo gave it, the method, the cross-check."""
+    chosen, sim = cert.reported_result, cert.simulation
+    view: dict[str, Any] = {"monte_carlo": chosen.monte_carlo,
+                            "method": f"Reported interval: {chosen.description}.",
+                            "simulation": None}
+    if chosen.monte_carlo:
+        value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
+        low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
+                     for x in chosen.interval)
+        view["statement"] = (f"{value} {unit}, {chosen.percent} coverage interval "
+                             f"[{low}, {high}] {unit}")
+    if sim is not None:
+        low, high = (format_pair(x, sim.standard_uncertainty, digits + 1)[0]
+                     for x in sim.interval)
+        mean = format_pair(sim.mean, sim.standard_uncertainty, digits + 1)[0]
+        view["simulation"] = (
+            f"Monte Carlo of the certified value (characterization model, repeatability, "
+            f"between-unit and stability components each drawn from its distribution): "
+            f"{sim.trials:,} trials, mean {mean} {unit}, u = "
+            f"{format_number(sim.standard_uncertainty, digits)} {unit}, "
+            f"{100 * sim.coverage_probability:g} % interval [{low}, {high}] {unit}.")
+    return view
 
 
 def _covers(char: Any, covers: tuple[str, ...], unit: str, digits: int) -> str:

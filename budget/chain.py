@@ -12,8 +12,10 @@ Values are computed here, independently of the engine, from the text of each equ
 a reverse sweep over Python's ``ast`` in coherent SI values (the built-in ``air_density``
 by central differences), each local derivative then expressed in the display units of the
 two quantities. Their products agree with the engine's c_i (``tests/test_chain.py``), so a
-reader can check every factor. Formulas of the local derivatives come from sympy applied
-to the equation's own text with every name a plain symbol, then typeset by ``typeset``.
+reader can check every factor. Formulas of the local derivatives come from
+``symbolic_partials`` (the rules of calculus applied to the equation's own tree, every
+name a plain symbol), then typeset by ``typeset``; the test suite evaluates each formula
+and compares it with the value found here.
 """
 
 from __future__ import annotations
@@ -46,6 +48,7 @@ class Partial:
     value: float
     unit: str
     formula: str | None
+    si_value: float = 0.0   # the same derivative in coherent SI units
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -73,6 +76,7 @@ class ChainRule:
     partials: tuple[Partial, ...]
     chains: tuple[Chain, ...]
     units: tuple[tuple[str, str], ...]
+    si_values: tuple[tuple[str, float], ...] = ()   # every name's value in coherent SI
 
     def partial(self, of: str, by: str) -> Partial:
         return next(p for p in self.partials if p.of == of and p.by == by)
@@ -128,7 +132,9 @@ def chain_rule(model: Any, index: int,
         chains.append(_through(measurand.name, x, stage, own, local, known, partials, engine))
     units = tuple((name, q.shown) for name, q in known.items())
     return ChainRule(measurand=measurand.name, partials=tuple(partials.values()),
-                     chains=tuple(chains), units=units)
+                     chains=tuple(chains), units=units,
+                     si_values=tuple((name, q.value) for name, q in known.items()
+                                     if name != measurand.name))
 
 
 def _stage(x: str, links: dict[str, Any], model: Any) -> str | None:
@@ -215,7 +221,7 @@ def _partials(top: str, local: dict[str, dict[str, float]], known: dict[str, _Qu
             value = local[name][by] * float(by_q.factor) / float(of_q.factor)
             out[(name, by)] = Partial(of=name, by=by, value=value,
                                       unit=unit_ratio(of_q.shown, by_q.shown),
-                                      formula=formulas.get(by))
+                                      formula=formulas.get(by), si_value=local[name][by])
     return out
 
 

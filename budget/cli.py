@@ -191,6 +191,12 @@ def _common(function: Callable[..., Any]) -> Callable[..., Any]:
     return function
 
 
+_REPORTED_OPTION = click.option(
+    "--reported-interval", type=click.Choice(["gum", "monte_carlo", "monte_carlo_shortest"]),
+    default=None, help="Which interval is the result: the GUM one (default) or the Monte "
+    "Carlo symmetric or shortest one (JCGM 101 8.2); overrides the file's setting.")
+
+
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(package_name="budget", prog_name="budget")
 def main() -> None:
@@ -206,10 +212,11 @@ def main() -> None:
               help="Add the GUM 5.1.2 higher-order terms (uncorrelated inputs).")
 @_export_options
 @_STRICT
+@_REPORTED_OPTION
 def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
         coverage: float | None, digits: int | None, as_json: bool, html_file: str | None,
         second_order: bool, csv_file: str | None, xlsx_file: str | None,
-        strict: bool) -> None:
+        strict: bool, reported_interval: str | None) -> None:
     """Evaluate MODEL.toml: GUM budget and Monte Carlo cross-check."""
     from .errors import BudgetError
 
@@ -217,7 +224,7 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
     try:
         _check_outputs(html_file, csv_file, xlsx_file)
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
-                           second_order, progress)
+                           second_order, progress, reported_interval)
         progress.close()
         _strict(strict, result.warnings)
         _can_export(xlsx_file)
@@ -240,13 +247,14 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
 
 def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
               coverage: float | None, digits: int | None, second_order: bool,
-              progress: _Progress) -> Any:
+              progress: _Progress, reported_interval: str | None = None) -> Any:
     from .analysis import evaluate
     from .model import load_model
 
     model = load_model(model_file)
     return evaluate(model, coverage=coverage, trials=trials, adaptive=adaptive, seed=seed,
-                    digits=digits, second_order=second_order, progress=progress)
+                    digits=digits, second_order=second_order, progress=progress,
+                    reported_interval=reported_interval)
 
 
 def _print_result(result: Any, as_json: bool) -> None:
@@ -330,9 +338,11 @@ def check(model_file: str, strict: bool) -> None:
               help="Allow files named in the campaign outside its folder tree.")
 @_export_options
 @_STRICT
+@_REPORTED_OPTION
 def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: int | None,
             seed: int | None, allow_outside_folder: bool, csv_file: str | None,
-            xlsx_file: str | None, strict: bool) -> None:
+            xlsx_file: str | None, strict: bool,
+            reported_interval: str | None) -> None:
     """Certify a batch: characterization, homogeneity, stability, comparison."""
     from .campaign import load_campaign
     from .certification import certify as run_certification
@@ -342,7 +352,8 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
     try:
         _check_outputs(html_file, csv_file, xlsx_file)
         campaign = load_campaign(campaign_file, allow_outside=allow_outside_folder)
-        cert = run_certification(campaign, trials=trials, seed=seed, progress=progress)
+        cert = run_certification(campaign, trials=trials, seed=seed, progress=progress,
+                                 reported_interval=reported_interval)
         progress.close()
         _strict(strict, cert.warnings)
         _can_export(xlsx_file)

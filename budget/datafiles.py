@@ -243,11 +243,6 @@ def _table(source: str, grid: list[list[str]], rows: list[int], decimal: str,
                  missing=tuple(m.strip() for m in fmt.missing), dates=fmt.dates)
 
 
-def decode_text(raw: bytes, shown: str) -> str:
-    """The text of a data file by the detection rules above (for other readers)."""
-    return _decode(raw, None, shown)
-
-
 def _decode(raw: bytes, declared: str | None, shown: str) -> str:
     if declared is not None:
         return _decode_as(raw, ENCODINGS[declared.lower()], shown)

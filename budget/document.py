@@ -47,8 +47,10 @@ def result_document(result: Result) -> dict[str, Any]:
         "coverage": result.budget.measurands[0].coverage_probability,
         "seed": seed,
         "measurands": [
-            _measurand(b, simulation.measurands[k] if simulation else None)
+            {**_measurand(b, simulation.measurands[k] if simulation else None),
+             "reported": reported_document(result.reported_for(b.name))}
             for k, b in enumerate(result.budget.measurands)],
+        "reported_interval": (result.reported[0].method if result.reported else "gum"),
         "output_correlation": {a: {b: matrix[i][j] for j, b in enumerate(names)}
                                for i, a in enumerate(names)},
         "output_correlation_gum": {a: {b: result.budget.output_correlation[i][j]
@@ -66,6 +68,20 @@ def result_document(result: Result) -> dict[str, Any]:
         "provenance": provenance.describe(model, simulation),
         "caution": CAUTION,
     }
+
+
+def certified_document(sim: Any) -> dict[str, Any] | None:
+    from .certified_mc import certified_document as made
+
+    return made(sim)
+
+
+def reported_document(chosen: Any) -> dict[str, Any]:
+    """The reported result and the method that gave it (``reported.py``)."""
+    return {"method": chosen.method, "description": chosen.description,
+            "value": chosen.estimate, "u": chosen.standard_uncertainty,
+            "interval": list(chosen.interval), "coverage": chosen.coverage_probability,
+            "k": chosen.coverage_factor}
 
 
 def _convention(result: Result) -> str | None:
@@ -129,6 +145,9 @@ def certification_document(cert: Any) -> dict[str, Any]:
         "title": campaign.title,
         "unit": campaign.unit,
         "certified_value": cert.certified_value,
+        "reported": reported_document(cert.reported_result),
+        "reported_interval": cert.reported_result.method,
+        "monte_carlo": certified_document(cert.simulation),
         "u": cert.standard_uncertainty,
         "k": cert.coverage_factor,
         "U": cert.expanded_uncertainty,

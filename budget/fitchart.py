@@ -13,8 +13,7 @@ import numpy as np
 from markupsafe import Markup
 
 from .fits import Fit
-from .formatting import format_number
-from .svg import _AXIS, _BAR, _W, _frame, _svg, _text, _y_axis
+from .svg import _AXIS, _BAR, _W, _frame, _svg, _text
 
 __all__ = ["fit_chart", "POINTS"]
 
@@ -42,8 +41,8 @@ def fit_chart(fit: Fit, *, x_label: str, y_label: str, label: str) -> Markup:
     body += _panel(x, y, fitted, sx, (22.0, 180.0), left, right, y_label, curve=True)
     body += _panel(x, residuals, np.zeros_like(x), sx, (222.0, 300.0), left, right,
                    "residual", curve=False)
-    for v in np.linspace(x_low, x_high, 5)[1:-1]:
-        body.append(_text(sx(float(v)), 314, format_number(float(v), 6), "middle"))
+    for v in nice_ticks(x_low, x_high):
+        body.append(_text(sx(v), 314, f"{v:g}", "middle"))
     body.append(_text((left + right) / 2, 330, x_label, "middle"))
     return _svg(_W, 338, body, label)
 
@@ -70,4 +69,21 @@ def _panel(x: np.ndarray, y: np.ndarray, line: np.ndarray, sx: Callable[[float],
     body.append(f'<line x1="{left}" y1="{bottom}" x2="{right}" y2="{bottom}" '
                 f'stroke="{_AXIS}"/>')
     body.append(_text(left + 4, top - 8, unit, "start", 'font-size="10"'))
-    return body + _y_axis(low, high, left, top, bottom, sy, "")
+    body.append(f'<line x1="{left}" y1="{top}" x2="{left}" y2="{bottom}" stroke="{_AXIS}"/>')
+    for v in nice_ticks(low, high):
+        body.append(_text(left - 6, sy(v) + 4, f"{v:g}", "end", 'font-size="9"'))
+    return body
+
+
+def nice_ticks(low: float, high: float, count: int = 5) -> list[float]:
+    """Round tick values (1, 2 or 5 × 10ⁿ apart) inside [low, high]."""
+    span = high - low
+    if not span > 0 or not np.isfinite(span):
+        return [low]
+    raw = span / count
+    power = 10.0 ** np.floor(np.log10(raw))
+    step = min((m * power for m in (1.0, 2.0, 5.0, 10.0)),
+               key=lambda candidate: abs(span / candidate - count))
+    first = np.ceil(low / step) * step
+    ticks = np.arange(first, high + step * 1e-9, step)
+    return [float(np.round(t / step) * step) + 0.0 for t in ticks]  # + 0.0: no "-0"

@@ -42,7 +42,9 @@ __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model"
 DEFAULT_SEED = 20260601
 _TOP_KEYS = ("title", "description", "measurands", "definitions", "inputs", "correlations",
              "estimated_together", "settings", "fits", "records", "register", "measured")
-_SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights")
+_SETTING_KEYS = ("coverage", "trials", "seed", "digits", "atomic_weights",
+                 "reported_interval")
+REPORTED_INTERVALS = ("gum", "monte_carlo", "monte_carlo_shortest")
 _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
 
@@ -123,6 +125,7 @@ class Settings:
     seed: int = DEFAULT_SEED
     digits: int = 2
     atomic_weights: str = DEFAULT_CONVENTION
+    reported_interval: str = "gum"  # which interval is the result: REPORTED_INTERVALS
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -543,7 +546,18 @@ def check_settings(data: dict[str, Any], where: Any) -> Settings:
                              f"{did_you_mean(str(value), CONVENTIONS)}",
                              where("atomic_weights"))
         made["atomic_weights"] = value
+    if "reported_interval" in data:
+        made["reported_interval"] = check_reported(data["reported_interval"],
+                                                   where("reported_interval"))
     return Settings(**made)
+
+
+def check_reported(value: Any, where: Location) -> str:
+    """A ``reported_interval`` value: gum, monte_carlo or monte_carlo_shortest."""
+    if value not in REPORTED_INTERVALS:
+        raise InputError(f"expected one of {', '.join(REPORTED_INTERVALS)}, found {value!r}"
+                         f"{did_you_mean(str(value), REPORTED_INTERVALS)}", where)
+    return str(value)
 
 
 def _digest(path: Path) -> str:

@@ -255,11 +255,18 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
               f"coefficients of one fit of {shown} ({described})")
     made.views.append(RecordView(
         table=f"fits.{name}", file=shown, method=described, produces=names,
-        fits=(FitView(label=name, fit=fit, x_label=f"{data['x']} / {units['x']}",
-                      y_label=f"{data['y']} / {units['y']}"),),
+        fits=(FitView(label=name, fit=fit, x_label=_axis(data["x"], units["x"]),
+                      y_label=_axis(data["y"], units["y"])),),
         notes=_fit_notes(fit)))
     if covariance == "stated" and math.isfinite(fit.chi2):
         _chi2_warning(made, name, fit)
+
+
+def _axis(column: str, unit: str) -> str:
+    """An axis label, quantity / unit, with the unit as symbols (µA, °C)."""
+    from .unit_display import display_unit
+
+    return f"{column} / {display_unit(unit)}"
 
 
 def _degree(data: dict[str, Any], here: Where) -> int:
@@ -361,7 +368,7 @@ def _one_record(name: str, data: dict[str, Any], base: Path, here: Where,
     shown, values, units, rows = _load(data, base, here, {"x": "required",
                                                           "y": "required"})
     series = checked_series(shown, values["x"], values["y"], rows, str(data["x"]))
-    labels = (f"{data['x']} / {units['x']}", f"{data['y']} / {units['y']}")
+    labels = (_axis(data["x"], units["x"]), _axis(data["y"], units["y"]))
     from .recordkinds import KINDS
 
     KINDS[kind](name, data, series, units, labels, here, made)

@@ -140,6 +140,18 @@ def _row_view(c: Any, unit: str, digits: int) -> dict[str, Any]:
     return cells
 
 
+def _reported_statement(result: Result, b: MeasurandBudget, digits: int, unit: str) -> str:
+    """The GUM statement, or the Monte Carlo interval when that is the reported one."""
+    chosen = result.reported_for(b.name)
+    if not chosen.monte_carlo:
+        return result_statement(b, digits, unit=unit)
+    value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
+    low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
+                 for x in chosen.interval)
+    return (f"{b.name} = {value} {unit}, {chosen.percent} coverage "
+            f"interval [{low}, {high}] {unit}")
+
+
 def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any]:
     measurand = result.model.measurands[k]
     simulation = result.simulation.measurands[k] if result.simulation else None
@@ -154,7 +166,8 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "name": b.name, "shown": Markup(name_html(b.name)), "unit": unit,
         "description": measurand.description, "equation": measurand.equation,
         "math": model_view_math(result, k),
-        "statement": result_statement(b, digits, unit=unit),
+        "statement": _reported_statement(result, b, digits, unit),
+        "method": f"Reported interval: {result.reported_for(b.name).description}.",
         "rows": [_row_view(c, unit, digits) for c in b.contributions],
         "correlation_terms": [{"pair": Markup(f"{name_html(t.inputs[0])}, "
                                               f"{name_html(t.inputs[1])}"), "r": f"{t.r:g}",

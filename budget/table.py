@@ -15,6 +15,7 @@ from .montecarlo import MeasurandSimulation
 from .unit_display import display_unit
 
 __all__ = ["render", "render_certification", "result_statement", "contribution_cells",
+           "reported_lines",
            "SHORT_DISTRIBUTION"]
 
 WIDTH = 100
@@ -60,7 +61,22 @@ def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None
         lines += stage_lines(result.model, b)
     if s is not None:
         lines += _monte_carlo(b, s, result.digits)
+    chosen = result.reported_for(b.name)
+    if chosen.monte_carlo:
+        lines += reported_lines(chosen, result.digits)
     return lines
+
+
+def reported_lines(chosen: Any, digits: int) -> list[str]:
+    """The reported result when it is a Monte Carlo interval (JCGM 101 8.2), with its
+    method named; the GUM one is the ``GUM:`` line itself."""
+    low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
+                 for x in chosen.interval)
+    value, u = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)
+    return [f"REPORTED: {chosen.name} = {value} {chosen.unit}, u = {u} {chosen.unit}, "
+            f"{chosen.percent} coverage interval [{low}, {high}] "
+            f"{chosen.unit}",
+            f"      method: {chosen.description}"]
 
 
 _CELLS = ("input", "estimate", "unit", "u", "distribution", "type", "dof", "sensitivity",
@@ -174,6 +190,29 @@ def _correlations(result: Result) -> list[str]:
     return lines
 
 
+def _certified_monte_carlo(cert: Any, unit: str, digits: int) -> list[str]:
+    """The Monte Carlo of the certified value, and which interval the certificate states."""
+    lines = []
+    sim, chosen = cert.simulation, cert.reported_result
+    if sim is not None:
+        low, high = (format_pair(x, sim.standard_uncertainty, digits + 1)[0]
+                     for x in sim.interval)
+        short = [format_pair(x, sim.standard_uncertainty, digits + 1)[0]
+                 for x in sim.shortest_interval]
+        lines.append(f"Monte Carlo of the certified value: {sim.trials:,} trials, u = "
+                     f"{format_number(sim.standard_uncertainty, digits)} {unit}, "
+                     f"{100 * sim.coverage_probability:g} % interval [{low}, {high}], "
+                     f"shortest [{short[0]}, {short[1]}]")
+    if chosen.monte_carlo:
+        low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
+                     for x in chosen.interval)
+        value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
+        lines.insert(0, f"certified value (REPORTED): {value} {unit}, {chosen.percent} "
+                        f"coverage interval [{low}, {high}] {unit}")
+    lines.append(f"reported interval: {chosen.description}")
+    return lines
+
+
 def render_certification(cert: Any, digits: int = 2) -> str:
     """Terminal summary of ``budget certify``."""
     from .studydata import time_words
@@ -185,10 +224,17 @@ def render_certification(cert: Any, digits: int = 2) -> str:
     if campaign.material:
         lines.append(campaign.material)
     p = cert.coverage_probability
-    lines += ["", f"certified value: ({value} ± {expanded}) {unit}, "
+    gum_label = "GUM result, for comparison" if cert.reported_result.monte_carlo else \
+        "certified value"
+    lines += ["", f"{gum_label}: ({value} ± {expanded}) {unit}, "
               f"k = {cert.coverage_factor:.3g}"
-              + (f", coverage probability {100 * p:g} %" if p else ""),
-              "", "component                 u / " + unit + "      share of u_CRM²"]
+              + (f", coverage probability {100 * p:g} %" if p else "")]
+    monte_carlo = _certified_monte_carlo(cert, unit, digits)
+    if cert.reported_result.monte_carlo:  # the reported interval comes first
+        lines[-1:-1] = monte_carlo[:1]
+        monte_carlo = monte_carlo[1:]
+    lines += monte_carlo
+    lines += ["", "component                 u / " + unit + "      share of u_CRM²"]
     for name, u in cert.components:
         share = cert.shares[name]
         lines.append(f"{name.replace('_', ' '):24}  {format_number(u, digits):>10}    "

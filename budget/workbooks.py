@@ -40,6 +40,8 @@ def _text(value: Any) -> str:
         return str(value)
     if isinstance(value, float):
         return repr(value)
+    if isinstance(value, datetime) and value.time() == time(0, 0):
+        return value.date().isoformat()  # a date typed in a cell: 2025-05-06
     if isinstance(value, (datetime, date, time)):
         return value.isoformat()
     return str(value)

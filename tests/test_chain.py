@@ -64,7 +64,7 @@ def test_demo_chain_goes_through_the_sample_mass():
     # ∂m/∂m_c is the buoyancy factor (1 − ρ_a/ρ_ref)/(1 − ρ_a/ρ_s), about 1.000 58 for
     # KHP (README, Buoyancy: common practice, OIML D 28 conventions)
     factor = rule.partial("m", "m_c")
-    assert factor.formula == "(1 - rho_a/rho_ref)/(1 - rho_a/rho_s)"
+    assert factor.formula == "(1 - rho_a / rho_ref) / (1 - rho_a / rho_s)"
     assert factor.value == pytest.approx(1.00058, abs=2e-5)
     assert factor.unit == "1"
 
@@ -151,3 +151,27 @@ def test_a_wide_formula_is_folded_after_each_term():
     assert folded.startswith("<mtable") and folded.count("<mtr>") == 8
     assert "<mtable" not in _folded("<mi>y</mi>", "a + b")
     assert FOLD_WIDTH < 80
+
+
+@pytest.mark.parametrize("path", MODEL_FILES, ids=lambda p: p.name)
+def test_each_printed_formula_evaluates_to_its_derivative(path):
+    # the formulas (symbolic, symbolic_partials) against the values (reverse sweep, chain):
+    # two independent differentiations of the same text
+    import ast
+
+    from budget.chain import _Quantity, _sweep
+    from budget.units import DIMENSIONLESS
+
+    loaded = load_model(path)
+    for k in range(len(loaded.measurands)):
+        rule = chain_rule(loaded, k)
+        known = {name: _Quantity(value, DIMENSIONLESS, 1, "") for name, value in
+                 rule.si_values}
+        checked = 0
+        for partial in rule.partials:
+            if partial.formula is None:
+                continue
+            value, _, _ = _sweep(ast.parse(partial.formula, mode="eval").body, known)
+            assert value == pytest.approx(partial.si_value, rel=1e-9, abs=1e-300), partial
+            checked += 1
+        assert checked or not rule.partials

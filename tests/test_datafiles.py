@@ -213,6 +213,7 @@ def test_xlsx_round_trip(tmp_path):
     assert table.source == f"{path}[Runs]"
     assert table.column("m_c").unit == "mg"
     assert table.numbers("m_c").tolist() == [524.652, 501.407]
+    assert table.column("date").cells == ("2025-05-06", "2025-05-07")
     assert table.dates_of("date") == [datetime(2025, 5, 6), datetime(2025, 5, 7)]
     with pytest.raises(DataFileError) as caught:
         read_table(path, FileFormat(sheet="runs"))

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import json
 import math
-from datetime import date
+from datetime import date, datetime
 from pathlib import Path
 from typing import Callable
 
@@ -291,7 +291,8 @@ def test_xlsx_runs_by_sheet_name(tmp_path, demo):
     sheet.append(lines[0].split(","))
     for line in lines[1:]:
         cells = line.split(",")
-        sheet.append(cells[:3] + [float(c) for c in cells[3:]])
+        day = datetime.fromisoformat(cells[2])  # typed as a date in the workbook
+        sheet.append(cells[:2] + [day] + [float(c) for c in cells[3:]])
     book.save(tmp_path / "lab.xlsx")
     cert = _certified(path)
     assert cert.certified_value == pytest.approx(demo.certified_value, rel=1e-15)

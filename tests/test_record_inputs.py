@@ -262,3 +262,14 @@ def test_hostile_values_in_fit_and_record_tables_give_budget_errors_only(name, t
                     propagate(load_model(path))
                 except BudgetError:
                     pass
+
+
+@pytest.mark.parametrize("low, high, ticks", [
+    (-0.0993, 2.513, [0.0, 0.5, 1.0, 1.5, 2.0, 2.5]),
+    (394.0, 1010.0, [400.0, 500.0, 600.0, 700.0, 800.0, 900.0, 1000.0]),
+    (-0.0073, 0.0073, [-0.005, 0.0, 0.005]),
+])
+def test_chart_ticks_are_round_numbers_inside_the_range(low, high, ticks):
+    from budget.fitchart import nice_ticks
+
+    assert nice_ticks(low, high) == pytest.approx(ticks)

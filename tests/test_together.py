@@ -313,3 +313,34 @@ def test_h3_monte_carlo_validates_and_explain_says_t():
     assert mc.interval[1] == pytest.approx(law.ppf(0.975), abs=tol)
     assert not [w for w in result.warnings if "copula" in w]
     assert explain(result)  # runs with a set in the model
+
+
+def test_a_joint_evaluation_keeps_the_sets():
+    # two models, each predicting from its own calibration line (JCGM 100 H.3 figures):
+    # joined, each line is still one Welch-Satterthwaite component with nu = 9
+    from budget.joint import Member, join
+
+    members = [Member(name=n, model=model(_line(at))) for n, at in (("a", 24.0), ("b", 30.0))]
+    joint = join(members)
+    assert [s.inputs for s in joint.model.estimated_together] == [
+        (joint.input_name("a", "y1"), joint.input_name("a", "y2")),
+        (joint.input_name("b", "y1"), joint.input_name("b", "y2"))]
+    budget = propagate(joint.model)
+    assert [m.dof for m in budget.measurands] == pytest.approx([9.0, 9.0], rel=1e-12)
+
+
+@pytest.mark.parametrize("statement, says_t", [
+    ("u = 1\ndof = 3", True),                                      # drawn as t_3
+    ('distribution = "rectangular"\nhalf_width = 1.7\ndof = 3', False),  # drawn rectangular
+])
+def test_explain_says_t_only_for_what_is_drawn_as_t(statement, says_t):
+    # issue 10 regression: explain said "drawn from a t distribution" for an input that
+    # Monte Carlo drew as a plain normal; now it says so exactly when the draw is a t
+    text = ('title = "one"\n[measurands.y]\nequation = "x + e"\n[inputs.x]\nvalue = 0\n'
+            + statement + "\n[inputs.e]\nvalue = 0\nu = 0.01\n")
+    result = evaluate(model(text), trials=100_000, seed=9)
+    reasons = " ".join(explain(result, sobol_trials=1024)[0].reasons)
+    drawn = result.model.input("x").distribution.name
+    assert (drawn == "student_t") == says_t
+    if not result.simulation.measurand("y").validation.validated:
+        assert ("drawn from a t distribution" in reasons) == says_t
