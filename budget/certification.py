@@ -155,7 +155,7 @@ def anova(groups: list[np.ndarray], labels: list[str] | None = None) -> Homogene
     dof_b, dof_w = p - 1, total - p
     # mean squares in units of the largest deviation, so that values near 1e±300 give
     # representable s_bb and u*_bb (the mean squares themselves may then be ∞: JSON null)
-    scale = float(np.max(np.abs(np.concatenate(groups) - grand), initial=0.0)) or 1.0
+    scale = _scale(np.concatenate(groups) - grand)
     ms_b1 = float(np.sum(counts * ((means - grand) / scale) ** 2) / dof_b)
     ms_w1 = float(sum(np.sum(((g - m) / scale) ** 2) for g, m in zip(groups, means)) / dof_w)
     n0 = (total - float(np.sum(counts ** 2)) / total) / dof_b
@@ -174,10 +174,26 @@ def anova(groups: list[np.ndarray], labels: list[str] | None = None) -> Homogene
                        p_value=p_value, dof_between=dof_b, dof_within=dof_w)
 
 
+def _root_sum_square(parts: list[float]) -> float:
+    """√Σx²: the plain sum for ordinary numbers (unchanged to the last bit), hypot (no
+    overflow or underflow) when the plain sum is not representable."""
+    plain = math.sqrt(math.fsum(x * x for x in parts))
+    if math.isfinite(plain) and (plain > 1e-150 or not any(parts)):
+        return plain
+    return math.hypot(*parts)
+
+
+def _scale(values: np.ndarray) -> float:
+    """1 for ordinary data (results unchanged to the last bit); the largest magnitude for
+    data whose squares would overflow or underflow (near 1e±100 and beyond)."""
+    largest = float(np.max(np.abs(values), initial=0.0))
+    return 1.0 if largest == 0.0 or 1e-100 <= largest <= 1e100 else largest
+
+
 def _mean(values: np.ndarray) -> float:
     """The mean without overflow: [1e308, 1e308] has the mean 1e308, not ∞."""
-    scale = float(np.max(np.abs(values), initial=0.0)) or 1.0
-    return scale * float(np.mean(values / scale))
+    scale = _scale(values)
+    return float(values.mean()) if scale == 1.0 else scale * float(np.mean(values / scale))
 
 
 def _noise(values: np.ndarray) -> float:
@@ -217,10 +233,13 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
     t_mean = times.mean()
     sxx = float(np.sum((times - t_mean) ** 2))
     mean = _mean(values)
-    scale = float(np.max(np.abs(values - mean), initial=0.0)) or 1.0  # no overflow
+    scale = _scale(values - mean)  # 1 unless the squares would overflow or underflow
     slope = scale * float(np.sum((times - t_mean) * ((values - mean) / scale)) / sxx)
     intercept = float(mean - slope * t_mean)
-    residuals = (values - mean) / scale - (slope / scale) * (times - t_mean)
+    if scale == 1.0:
+        residuals = values - (intercept + slope * times)
+    else:
+        residuals = (values - mean) / scale - (slope / scale) * (times - t_mean)
     s = scale * math.sqrt(float(np.sum(residuals ** 2)) / (n - 2))
     reason = zero_residual(s, values)
     if reason:  # a residual within rounding noise is zero: s(b₁) = 0, as the reason says
@@ -373,7 +392,7 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
                   ("homogeneity", homogeneity.u_bb if homogeneity else 0.0),
                   ("long_term_stability", stability.u_lts if stability else 0.0),
                   ("short_term_stability", campaign.u_short_term))
-    u = math.hypot(*(c for _, c in components))  # no overflow for 1e200
+    u = _root_sum_square([c for _, c in components])
     dofs = np.array([char.dof, homogeneity.dof_between if homogeneity else math.inf,
                      stability.dof if stability else math.inf, math.inf], dtype=float)
     nu = welch_satterthwaite(u, np.array([c for _, c in components]), dofs)
@@ -419,7 +438,7 @@ def _characterize(campaign: Campaign, trials: int | None, seed: int | None,
     result = evaluate(at_mean, trials=trials, seed=seed, progress=progress)
     gum = result.budget.measurands[index]
     u_b = gum.combined_uncertainty * scale
-    u = math.hypot(u_b, s / math.sqrt(n))
+    u = _root_sum_square([u_b, s / math.sqrt(n)])
     nu = welch_satterthwaite(u, np.array([u_b, s / math.sqrt(n)]),
                              np.array([gum.dof, n - 1.0]))
     labels = _labels(campaign)
