@@ -10,6 +10,7 @@ single-core draws of the same random numbers with numpy's default generator.
 from __future__ import annotations
 
 import os
+import statistics
 import sys
 import time
 
@@ -44,13 +45,19 @@ def main() -> None:
     model = parse_model(linear_model(10))
     budget = propagate(model)
     full_monte_carlo(model, budget, 100_000)  # warm up: compile, threads, imports
-    bare = min(bare_draws(trials, 10) for _ in range(repeats))
-    full = min(full_monte_carlo(model, budget, trials) for _ in range(repeats))
+    bare, full = [], []
+    for _ in range(repeats):  # in turns, so that a change of load touches both alike
+        bare.append(bare_draws(trials, 10))
+        full.append(full_monte_carlo(model, budget, trials))
+    ratios = [f / b for f, b in zip(full, bare)]
     print(f"machine: {os.cpu_count()} cores, numpy {np.__version__}")
-    print(f"trials: {trials:,}; inputs: 10 (normal); best of {repeats}")
-    print(f"bare single-core draws (default_rng, standard_normal): {bare:.3f} s")
-    print(f"full Monte Carlo (draws, evaluation, intervals, validation): {full:.3f} s")
-    print(f"ratio full / bare: {full / bare:.2f}")
+    print(f"trials: {trials:,}; inputs: 10 (normal); {repeats} rounds in turns")
+    print(f"bare single-core draws (default_rng, standard_normal): min {min(bare):.3f} s, "
+          f"median {statistics.median(bare):.3f} s")
+    print(f"full Monte Carlo (draws, evaluation, intervals, validation): min {min(full):.3f} s,"
+          f" median {statistics.median(full):.3f} s")
+    print(f"ratio full / bare: min of the times {min(full) / min(bare):.2f}; per round: min "
+          f"{min(ratios):.2f}, median {statistics.median(ratios):.2f}, max {max(ratios):.2f}")
 
 
 if __name__ == "__main__":

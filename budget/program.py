@@ -208,6 +208,52 @@ class Program:
         values_out = np.array([slots[i] for i in self.outputs], dtype=float)
         return values_out, jacobian
 
+    def gradient_many(self, values: Sequence[np.ndarray]) -> tuple[np.ndarray, np.ndarray]:
+        """Outputs (measurands × L) and Jacobians (measurands × inputs × L) at L points at
+        once: the same reverse sweep on arrays, one array operation per step for all L."""
+        size = max((np.size(v) for v in values), default=1)
+        slots = self._forward([np.broadcast_to(np.asarray(v, dtype=float), (size,))
+                               for v in values])
+        n_in = len(self.symbols)
+        jacobian = np.zeros((len(self.outputs), n_in, size))
+        with np.errstate(all="ignore"):
+            for row, out in enumerate(self.outputs):
+                adjoint: list[Any] = [0.0] * len(slots)
+                adjoint[out] = np.ones(size)
+                for index in range(len(slots) - 1, n_in - 1, -1):
+                    if not (isinstance(adjoint[index], float) and adjoint[index] == 0.0):
+                        self._backward_many(index, slots, adjoint)
+                for j in range(n_in):
+                    jacobian[row, j] = adjoint[j]
+        outputs = np.array([np.broadcast_to(slots[i], (size,)) for i in self.outputs])
+        return outputs, jacobian
+
+    def _backward_many(self, index: int, slots: list[Any], adjoint: list[Any]) -> None:
+        kind, args, payload = self.ops[index - len(self.symbols)]
+        bar = adjoint[index]
+        if kind == "add":
+            for a in args:
+                adjoint[a] = adjoint[a] + bar
+        elif kind == "mul":
+            factors = [slots[a] for a in args]
+            prefix: list[Any] = [1.0]
+            for f in factors[:-1]:
+                prefix.append(prefix[-1] * f)
+            suffix: Any = 1.0
+            for position in range(len(factors) - 1, -1, -1):
+                a = args[position]
+                adjoint[a] = adjoint[a] + bar * prefix[position] * suffix
+                suffix = suffix * factors[position]
+        elif kind == "pow":
+            base, exponent = slots[args[0]], slots[args[1]]
+            adjoint[args[0]] = adjoint[args[0]] + np.where(
+                exponent != 0.0, bar * exponent * base ** (exponent - 1.0), 0.0)
+            if payload is None:
+                adjoint[args[1]] = adjoint[args[1]] + bar * np.log(base) * slots[index]
+        elif kind == "call":
+            adjoint[args[0]] = adjoint[args[0]] + bar * _DERIV[payload](slots[args[0]],
+                                                                        slots[index])
+
     def _backward(self, index: int, slots: list[Any], adjoint: np.ndarray) -> None:
         kind, args, payload = self.ops[index - len(self.symbols)]
         bar = adjoint[index]
