@@ -27,6 +27,7 @@ def audit_view(result: Any, chains: list[dict[str, Any]]) -> list[dict[str, Any]
     from .explain import explain
 
     digits = result.digits
+    formulas = {i.name: i for i in result.model.inputs if i.molar_mass is not None}
     out = []
     for k, e in enumerate(explain(result, sobol_trials=1 << 12)):
         budget = result.budget.measurands[k]
@@ -57,11 +58,10 @@ def audit_view(result: Any, chains: list[dict[str, Any]]) -> list[dict[str, Any]
             "type_a": format_percent(e.type_a_share), "type_b": format_percent(e.type_b_share),
             "correlation": format_percent(e.correlation_share) if e.correlation_share else None,
             "validated": e.validated, "reasons": list(e.reasons), "U": expanded,
-            "elements": [element_rows(result.model.input(c.input), c.sensitivity,
+            "elements": [element_rows(formulas[c.input], c.sensitivity,
                                       budget.combined_uncertainty, digits, e.unit)
                          for c in budget.contributions
-                         if result.model.input(c.input).molar_mass is not None
-                         and c.standard_uncertainty > 0],
+                         if c.input in formulas and c.standard_uncertainty > 0],
         })
     return out
 

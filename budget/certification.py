@@ -34,12 +34,12 @@ import numpy as np
 from .analysis import Result, evaluate
 from .campaign import Campaign, Comparison
 from .certified_mc import CertifiedSimulation, simulate_certified
-from .errors import BudgetError, CampaignError, Location, SimulationError
+from .errors import CampaignError, Location, SimulationError
 from .reported import Reported, gum_reported
 from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
 from .model import Model
-from .register import date_warnings, read_date
+from .register import date_warnings
 from .studydata import time_words
 from .units import parse_unit
 
@@ -369,21 +369,14 @@ def _simulate_certified(cert: Certification, char: Characterization | None,
 
 
 def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:
-    """The dates in the runs table's ``date`` column (ISO 8601), if it has one."""
-    labels = dict(campaign.runs.labels)
-    if "date" not in labels:
+    """The dates in the runs table's ``date`` column, if it has one.
+
+    The column was read with the runs file's own declarations (``dates``), like every
+    date of a data file: ISO 8601, or a day-first or month-first form when settled.
+    """
+    if campaign.runs.dates is None:
         return campaign.model.measured
-    days = []
-    for row, cell in zip(campaign.runs.rows, labels["date"]):
-        where = Location(file=campaign.source, table="characterization", key="runs")
-        try:
-            days.append(read_date(str(cell), where))
-        except BudgetError as exc:
-            path = next((p for role, p, _ in campaign.data_files
-                         if role == "characterization.runs"), campaign.source)
-            raise CampaignError(f"column 'date': expected a date such as 2025-05-06, found "
-                                f"'{cell}'", Location(file=path, line=row)) from exc
-    return tuple(days)
+    return campaign.runs.dates
 
 
 def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogeneity | None,

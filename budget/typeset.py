@@ -1,6 +1,7 @@
 """Equations as the user wrote them, typeset as MathML from Python's ``ast``.
 
-Method: the expression text of a model file is parsed by ``ast.parse(mode="eval")`` (never
+Method: the expression text of a model file is parsed by ``ast.parse(mode="eval")`` (through
+``longparse`` for texts of thousands of terms; never
 run) and each node becomes one MathML element, in the order written: no term is moved, no
 factor cancelled, no parenthesis added or removed except where a fraction bar, a radical
 or a superscript already groups (``(a + b) / c`` shows no parentheses over the bar). The
@@ -29,6 +30,8 @@ from __future__ import annotations
 import ast
 import html
 import re
+
+from .longparse import parse
 
 __all__ = ["GREEK", "name_parts", "name_mathml", "name_html", "name_text",
            "expression_mathml", "equation_mathml", "partial_mathml", "math_block",
@@ -248,13 +251,13 @@ def _number(text: str) -> str:
 
 def expression_mathml(text: str) -> str:
     """The MathML row of an expression, as written; raises ``SyntaxError`` on bad text."""
-    tree = ast.parse(text.strip(), mode="eval")
+    tree = parse(text.strip())
     return _Writer(text.strip()).node(tree.body, grouped=True)
 
 
 def width(text: str) -> int:
     """A rough printed width of an expression in characters (names and operators)."""
-    tree = ast.parse(text.strip(), mode="eval")
+    tree = parse(text.strip())
     total = 0
     for node in ast.walk(tree):
         if isinstance(node, ast.Name):

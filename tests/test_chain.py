@@ -175,3 +175,19 @@ def test_each_printed_formula_evaluates_to_its_derivative(path):
             assert value == pytest.approx(partial.si_value, rel=1e-9, abs=1e-300), partial
             checked += 1
         assert checked or not rule.partials
+
+
+def test_a_model_of_thousands_of_inputs_gets_its_chains():
+    # linear cost: one top-down sweep for the coefficients, no search per input
+    n = 3000
+    text = ("title = \"many\"\n[measurands.y]\nequation = \"s / n\"\n[definitions]\n"
+            f"s = \"{' + '.join(f'x{i}' for i in range(n))}\"\n"
+            f"[inputs.n]\nvalue = {n}\nexact = true\n"
+            + "".join(f"[inputs.x{i}]\nvalue = 1\nu = 0.01\n" for i in range(n)))
+    from budget.model import parse_model
+
+    m = parse_model(text)
+    rule = chain_rule(m, 0)
+    assert len(rule.chains) == n
+    assert all(c.value == pytest.approx(1 / n) and c.paths == (("y", "s", c.input),)
+               for c in rule.chains)

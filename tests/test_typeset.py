@@ -77,16 +77,9 @@ def test_numbers_and_functions_as_written():
 
 
 def test_a_long_sum_is_typeset_without_deep_recursion():
-    # as long as Python's own parser takes (its C recursion limit comes first)
-    size = 1
-    while size < 200_000:
-        try:
-            ast.parse(" + ".join(["x"] * size * 2), mode="eval")
-        except RecursionError:
-            break
-        size *= 2
-    text = " + ".join(f"x{i}" for i in range(size))
-    assert expression_mathml(text).count("<mo>+</mo>") == size - 1
+    # 5000 terms: beyond Python's own parser (longparse splits it) and recursion limit
+    text = " + ".join(f"x{i}" for i in range(5000))
+    assert expression_mathml(text).count("<mo>+</mo>") == 4999
 
 
 @pytest.mark.parametrize("path", MODEL_FILES, ids=lambda p: p.name)
