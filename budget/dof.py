@@ -98,29 +98,53 @@ def effective_dof(model: Any, name: str, parts: np.ndarray, combined: float,
     single = np.abs(parts[found.singles]) if found.singles.size else np.zeros(0)
     finite = np.isfinite(dofs) & (single > 0)
     denominator = float(np.sum(single[finite] ** 4 / dofs[finite]))
-    notes, warnings = [], []
+    kinds: dict[str, list[tuple[str, str]]] = {"set": [], "infinite": [], "smallest": []}
     for group, variance in zip(found.groups, _variances(model, found, parts)):
         if variance <= 0.0:
             continue
         names = ", ".join(model.inputs[i].name for i in group.members)
         shown = "∞" if math.isinf(group.dof) else f"{group.dof:g}"
-        if group.declared:
-            notes.append(f"inputs estimated together ({names}) count as one component "
-                         f"with their common ν = {shown}")
-        elif math.isinf(group.dof):
-            notes.append(f"the correlated inputs ({names}) count as one component with "
-                         "infinite degrees of freedom")
-        else:
-            notes.append(f"the correlated inputs ({names}) count as one component with "
-                         f"their smallest ν = {shown}")
-            warnings.append(
-                f"'{name}': inputs {names} are correlated and have finite degrees of "
-                "freedom but are not declared [[estimated_together]]; Welch-Satterthwaite "
-                "has no rule for them (Willink 2007 needs the independent sources of the "
-                f"correlation), so they count as one component with ν = {shown}, their "
-                "smallest; declare them estimated together if they come from one data set")
+        kind = "set" if group.declared else "infinite" if math.isinf(group.dof) else \
+            "smallest"
+        kinds[kind].append((names, shown))
         if math.isfinite(group.dof):
             denominator += variance ** 2 / group.dof
     nu = combined ** 4 / denominator if combined > 0.0 and denominator > 0.0 else math.inf
-    rule = "; ".join([WS, *notes])
-    return nu, rule, tuple(warnings)
+    notes = [note for kind, found_groups in kinds.items()
+             for note in _notes(kind, found_groups)]
+    return nu, "; ".join([WS, *notes]), _warnings(name, kinds["smallest"])
+
+
+_SHOWN = 3  # groups named one by one in the rule and the warning; the rest are counted
+_NOTE = {"set": "inputs estimated together ({names}) count as one component with their "
+                "common ν = {dof}",
+         "infinite": "the correlated inputs ({names}) count as one component with infinite "
+                     "degrees of freedom",
+         "smallest": "the correlated inputs ({names}) count as one component with their "
+                     "smallest ν = {dof}"}
+
+
+def _notes(kind: str, groups: list[tuple[str, str]]) -> list[str]:
+    notes = [_NOTE[kind].format(names=names, dof=dof) for names, dof in groups[:_SHOWN]]
+    if len(groups) > _SHOWN:
+        notes.append(f"{len(groups) - _SHOWN} more such groups count the same way")
+    return notes
+
+
+def _warnings(name: str, groups: list[tuple[str, str]]) -> tuple[str, ...]:
+    if not groups:
+        return ()
+    if len(groups) == 1:
+        names, dof = groups[0]
+        return (f"'{name}': inputs {names} are correlated and have finite degrees of "
+                "freedom but are not declared [[estimated_together]]; Welch-Satterthwaite "
+                "has no rule for them (Willink 2007 needs the independent sources of the "
+                f"correlation), so they count as one component with ν = {dof}, their "
+                "smallest; declare them estimated together if they come from one data set",)
+    listed = "; ".join(names for names, _ in groups[:_SHOWN])
+    more = f" and {len(groups) - _SHOWN} more groups" if len(groups) > _SHOWN else ""
+    return (f"'{name}': {len(groups)} groups of correlated inputs with finite degrees of "
+            f"freedom are not declared [[estimated_together]] ({listed}{more}); "
+            "Welch-Satterthwaite has no rule for them (Willink 2007 needs the independent "
+            "sources of the correlation), so each counts as one component with its "
+            "smallest ν; declare them estimated together if they come from one data set",)

@@ -344,3 +344,23 @@ def test_explain_says_t_only_for_what_is_drawn_as_t(statement, says_t):
     assert (drawn == "student_t") == says_t
     if not result.simulation.measurand("y").validation.validated:
         assert ("drawn from a t distribution" in reasons) == says_t
+
+
+def test_many_correlated_groups_give_one_warning_and_a_short_rule():
+    # 40 independent correlated pairs with finite nu: one warning per measurand and a
+    # dof_rule that names three groups and counts the rest (a rule, not a listing)
+    lines = ['title = "many"', "[measurands.y]",
+             'equation = "' + " + ".join(f"x{i}" for i in range(80)) + '"']
+    for i in range(80):
+        lines += [f"[inputs.x{i}]", "value = 1", "u = 0.1", "dof = 6"]
+    for i in range(0, 80, 2):
+        lines += ["[[correlations]]", f'between = ["x{i}", "x{i + 1}"]', "r = 0.5"]
+    budget = propagate(model("\n".join(lines)))
+    b = budget.measurand("y")
+    assert b.dof_rule.endswith("37 more such groups count the same way")
+    assert len(budget.warnings) == 1
+    assert budget.warnings[0].startswith(
+        "'y': 40 groups of correlated inputs with finite degrees of freedom are not declared "
+        "[[estimated_together]] (x0, x1; x2, x3; x4, x5 and 37 more groups)")
+    # each pair: v = 2·0.01·(1 + 0.5) = 0.03 with nu = 6; u_c^2 = 40·0.03 (GUM G.2b by hand)
+    assert b.dof == pytest.approx((40 * 0.03) ** 2 / (40 * 0.03 ** 2 / 6), rel=1e-12)
