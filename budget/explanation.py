@@ -30,6 +30,7 @@ from .evaluation import compile_model
 from .formatting import format_number, format_percent
 from .gum import propagate
 from .model import Model
+from .unit_display import display_unit
 
 __all__ = ["Driver", "SobolIndex", "Explanation", "explain", "draw_inputs"]
 
@@ -160,6 +161,7 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
     if simulation is None or simulation.validation is None:
         return ("no Monte Carlo run (trials = 0): the linear approximation was not checked",)
     v = simulation.validation
+    unit = display_unit(budget.unit)
     reasons = []
     top = ranked[0]
     item = model.input(top.input)
@@ -169,11 +171,11 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
         return (f"Monte Carlo cannot validate the GUM result: {v.reason}",)
     if v.validated:
         return (f"Monte Carlo validates the GUM result: both interval ends agree within "
-                f"δ = {format_number(v.tolerance, 1)} {budget.unit} (JCGM 101 8.2)",)
+                f"δ = {format_number(v.tolerance, 1)} {unit} (JCGM 101 8.2)",)
     side = "wider" if gum_width > mc_width else "narrower"
     reasons.append(f"the GUM interval is {side} than the Monte Carlo one "
                    f"({format_number(gum_width, 3)} vs {format_number(mc_width, 3)} "
-                   f"{budget.unit}; d_low = {format_number(v.d_low, 2)}, d_high = "
+                   f"{unit}; d_low = {format_number(v.d_low, 2)}, d_high = "
                    f"{format_number(v.d_high, 2)}, δ = {format_number(v.tolerance, 1)})")
     if top.share >= 40 and not item.distribution.gaussian and item.distribution.name != "student_t":
         shape = "flatter" if item.distribution.name.startswith(("rectangular", "arcsine",
@@ -192,7 +194,7 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
     if shift > v.tolerance or spread > 0.05 * budget.combined_uncertainty:
         reasons.append(f"nonlinearity: the Monte Carlo mean differs from the estimate by "
                        f"{format_number(shift, 2)} and its standard deviation from u_c by "
-                       f"{format_number(spread, 2)} {budget.unit}")
+                       f"{format_number(spread, 2)} {unit}")
     if len(reasons) == 1:
         reasons.append("no single cause stands out; a longer run (--adaptive) shows whether "
                        "the difference is Monte Carlo noise")
