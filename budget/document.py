@@ -64,10 +64,27 @@ def result_document(result: Result) -> dict[str, Any]:
         "chain": None if not model.chain else {
             b.name: chain_document(model, b) for b in result.budget.measurands},
         "digits": result.digits,
+        "records": records_document(model),
         "atomic_weights": _convention(result),
         "provenance": provenance.describe(model, simulation),
         "caution": CAUTION,
     }
+
+
+def records_document(model: Any) -> list[dict[str, Any]] | None:
+    """Each [fits.NAME] / [records.NAME] table: method, inputs made, and every fit."""
+    if not model.records:
+        return None
+    return [{"table": view.table, "file": view.file, "method": view.method,
+             "produces": list(view.produces), "notes": list(view.notes),
+             "fits": [{"label": f.label, "method": f.fit.method, "points": len(f.fit.x),
+                       "parameters": list(f.fit.parameters),
+                       "estimates": [float(v) for v in f.fit.estimates],
+                       "covariance": [[float(v) for v in row] for row in f.fit.covariance],
+                       "dof": None if math.isinf(f.fit.dof) else f.fit.dof,
+                       "residual_sd": f.fit.residual_sd}
+                      for f in view.fits]}
+            for view in model.records]
 
 
 def certified_document(sim: Any) -> dict[str, Any] | None:

@@ -273,3 +273,25 @@ def test_chart_ticks_are_round_numbers_inside_the_range(low, high, ticks):
     from budget.fitchart import nice_ticks
 
     assert nice_ticks(low, high) == pytest.approx(ticks)
+
+
+def test_json_document_lists_each_fit_with_its_covariance():
+    import json
+
+    from budget.analysis import evaluate
+    from budget.document import result_document
+    from conftest import MODELS
+
+    model = load_model(MODELS / "reference" / "gum-h3-thermometer-fit.toml")
+    document = result_document(evaluate(model, trials=0))
+    (record,) = document["records"]
+    assert (record["table"], record["produces"]) == ("fits.line", ["y1", "y2"])
+    (fit,) = record["fits"]
+    assert fit["dof"] == 9 and fit["points"] == 11
+    # GUM H.3.3 [M✓C]: r = −0.930, u(y1) = 0.0029 °C, u(y2) = 0.00067; their rounding
+    # allows 2.5 % on the product (0.5/29 + 0.5/67 + 0.5/930)
+    assert fit["covariance"][0][1] == pytest.approx(-0.930 * 0.0029 * 0.00067, rel=0.026)
+    json.dumps(document, allow_nan=False)
+    typed = result_document(evaluate(load_model(MODELS / "reference" /
+                                                "gum-h1-end-gauge.toml"), trials=0))
+    assert typed["records"] is None
