@@ -38,7 +38,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-from .distributions import Normal
+from .distributions import Normal, StudentT
 from .limits import check_trials
 from .errors import SimulationError
 from .evaluation import compile_model
@@ -282,11 +282,18 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
                 f"{model.source}: [[correlations]]: cannot draw correlated {shapes}; "
                 "correlate only inputs with a normal, rectangular, triangular, arcsine, "
                 "trapezoidal or student_t distribution")
-        if odd:
+        t_members = [i for i in odd if isinstance(i.distribution, StudentT)]
+        copula = [i for i in odd if not isinstance(i.distribution, StudentT)]
+        if copula:
             warnings.append(
-                f"correlation between non-Gaussian inputs ({', '.join(i.name for i in odd)}):"
-                " drawn through a Gaussian copula; the correlation of the draws differs "
-                "slightly from the stated r")
+                f"correlation between non-Gaussian inputs "
+                f"({', '.join(i.name for i in copula)}): drawn through a Gaussian copula; "
+                "the correlation of the draws differs slightly from the stated r")
+        if t_members:
+            warnings.append(
+                f"correlated Student-t inputs ({', '.join(i.name for i in t_members)}): "
+                "drawn as correlated normals over independent √(χ²_ν/ν); the correlation "
+                "of the draws is somewhat below the stated r")
     return warnings
 
 
@@ -303,7 +310,8 @@ def _correlated(model: Model, group: list[int], factor: np.ndarray,
     """One group of jointly drawn inputs: a multivariate Gaussian z with the group's
     correlations (JCGM 101 6.4.8); the members of an [[estimated_together]] set with
     finite ν share one χ²_ν draw w and are z·√(ν/w), a multivariate t (JCGM 102 6.5);
-    other non-Gaussian members go through the Gaussian copula of their own ppf."""
+    a correlated Student-t input is its z over its own √(χ²_ν/ν) (exact t marginals, no
+    inverse CDF); other non-Gaussian members go through the Gaussian copula of their ppf."""
     z = rng.standard_normal((size, len(group))) @ factor.T
     scales: dict[int, np.ndarray] = {}
     for number, nu in sorted({sets[slot] for slot in group if slot in sets}):
@@ -317,6 +325,10 @@ def _correlated(model: Model, group: list[int], factor: np.ndarray,
             columns.append(item.estimate + item.standard_uncertainty * column)
         elif item.distribution.gaussian:
             columns.append(item.estimate + item.standard_uncertainty * z[:, j])
+        elif isinstance(item.distribution, StudentT):  # z / √(χ²_ν/ν): no inverse CDF
+            t = item.distribution
+            columns.append(t.estimate + t.scale * z[:, j]
+                           * np.sqrt(t.dof / rng.chisquare(t.dof, size)))
         else:
             from scipy.special import ndtr
 

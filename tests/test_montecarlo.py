@@ -312,3 +312,42 @@ def test_correlated_input_without_an_inverse_is_refused():
         "test.toml: [[correlations]]: cannot draw correlated a (curvilinear_trapezoid); "
         "correlate only inputs with a normal, rectangular, triangular, arcsine, trapezoidal "
         "or student_t distribution")
+
+
+def test_correlated_student_t_inputs_are_normals_over_independent_chi_roots():
+    # a = z_a / sqrt(χ²_a/ν), b = z_b / sqrt(χ²_b/ν) with corr(z_a, z_b) = r: each is an
+    # exact t_ν (its sd is scale·sqrt(ν/(ν-2)), JCGM 101 6.4.9) and their correlation is
+    # r·(ν-2)/ν·(E sqrt(ν/χ²_ν))², E sqrt(ν/χ²_ν) = sqrt(ν/2)·Γ((ν-1)/2)/Γ(ν/2) [C]
+    nu, r, trials = 8.0, 0.6, 400_000
+    m = model(f"""
+        title = "correlated t"
+        [measurands.y]
+        equation = "a + b"
+        [measurands.d]
+        equation = "a - b"
+        [inputs.a]
+        value = 1
+        distribution = "student_t"
+        u = 0.1
+        dof = {nu}
+        [inputs.b]
+        value = 2
+        distribution = "student_t"
+        u = 0.1
+        dof = {nu}
+        [[correlations]]
+        between = ["a", "b"]
+        r = {r}
+    """)
+    result = simulate(m, propagate(m), trials=trials, seed=5)
+    assert "correlated Student-t inputs (a, b)" in result.warnings[0]
+    scale = m.input("a").distribution.scale
+    var_t = scale ** 2 * nu / (nu - 2)
+    mean_root = math.sqrt(nu / 2) * math.gamma((nu - 1) / 2) / math.gamma(nu / 2)
+    rho = r * (nu - 2) / nu * mean_root ** 2
+    # var(a ± b) = 2 var_t (1 ± rho); the sample variance of a t_8 sum has a relative
+    # standard error of about sqrt((2 + kurtosis excess)/M) with excess 6/(ν-4) = 1.5
+    tolerance = 5 * math.sqrt(3.5 / trials)
+    for name, sign in (("y", 1), ("d", -1)):
+        got = result.measurand(name).standard_uncertainty ** 2
+        assert got == pytest.approx(2 * var_t * (1 + sign * rho), rel=tolerance)
