@@ -347,10 +347,12 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     cert = replace(_certified(campaign_used, value_from, homogeneity, stability_used,
                               warnings), run_dates=days, stability=stability,
                    stability_studies=studies)
-    cert = _with_monte_carlo(cert, char if methods is None else None,
-                             reported_interval or campaign.reported_interval,
+    if methods is not None:  # several methods: the combined value's own draws, if any
+        cert = replace(cert, characterization=char, methods=methods)
+    cert = _with_monte_carlo(cert, char if methods is None or methods.combined is None
+                             else None, reported_interval or campaign.reported_interval,
                              math.inf if stability_used is None else float(stability_used.dof))
-    return cert if methods is None else replace(cert, characterization=char, methods=methods)
+    return cert
 
 
 def _with_monte_carlo(cert: Certification, char: Characterization | None,
@@ -386,6 +388,10 @@ def _with_monte_carlo(cert: Certification, char: Characterization | None,
 
 def _simulate_certified(cert: Certification, char: Characterization | None,
                         stability_dof: float) -> CertifiedSimulation | None:
+    if char is None and cert.methods is not None:  # a combined value (combined_montecarlo)
+        from .combined_montecarlo import certified_from_combined
+
+        return certified_from_combined(cert, stability_dof)
     sim = None if char is None else char.result.simulation
     if char is None or sim is None or not sim.trials:
         return None

@@ -357,6 +357,14 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
                 f"correlated Student-t inputs ({', '.join(i.name for i in t_members)}): "
                 "drawn as correlated normals over independent √(χ²_ν/ν); the correlation "
                 "of the draws is somewhat below the stated r")
+        t_sets = {in_sets[i][0] for i in group if i in in_sets and math.isfinite(in_sets[i][1])}
+        if t_sets and (len(t_sets) > 1 or members):
+            names = ", ".join(model.inputs[i].name for i in group)
+            warnings.append(
+                f"inputs estimated together are correlated with inputs outside their set "
+                f"({names}): each set is drawn as its own multivariate t on one Gaussian "
+                "correlation structure; the correlation across sets differs slightly from "
+                "the stated r")
     return warnings
 
 
