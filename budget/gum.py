@@ -284,7 +284,7 @@ def _parts(name: str, model: Model, c: np.ndarray, u: np.ndarray) -> np.ndarray:
 def _warn(name: str, combined: float, nu: float, warnings: list[str]) -> None:
     if combined == 0.0:
         warnings.append(f"'{name}': the combined standard uncertainty is zero to first "
-                        "order (try --second-order or Monte Carlo)")
+                        "order (try the second-order terms or Monte Carlo)")
     elif nu < 3.0:
         warnings.append(f"'{name}': effective degrees of freedom {nu:.2g} < 3; the coverage "
                         "factor from the t-distribution is very uncertain")
@@ -323,8 +323,8 @@ def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray
     if not wanted:
         return None
     if model.correlations:
-        warnings.append("--second-order ignored: the GUM 5.1.2 higher-order terms hold "
-                        "for uncorrelated inputs only")
+        warnings.append("second-order terms not added: the GUM 5.1.2 higher-order terms "
+                        "hold for uncorrelated inputs only")
         return None
     from .evaluation import second_order_variances
     from .limits import LIMITS_PAGE, MAX_SECOND_ORDER_INPUTS
@@ -332,7 +332,7 @@ def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray
     count = sum(1 for i in model.inputs if i.standard_uncertainty > 0)
     if count > MAX_SECOND_ORDER_INPUTS:
         raise PropagationError(f"{model.source}: expected at most {MAX_SECOND_ORDER_INPUTS} "
-                               f"inputs with an uncertainty for --second-order (it needs "
+                               f"inputs with an uncertainty for the second-order terms (they need "
                                f"N² second and N³ third derivatives; limits: {LIMITS_PAGE}), "
                                f"found {count}")
     return second_order_variances(model)

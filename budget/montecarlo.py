@@ -594,7 +594,7 @@ def check_adaptive(coverage: float) -> None:
             f"expected a coverage probability whose adaptive batches fit the limit of "
             f"{ADAPTIVE_LIMIT:,} trials (at most {1 - 200 / ADAPTIVE_LIMIT:.7g}; JCGM 101 "
             f"7.9 asks for batches of 100/(1 - p) = {batch:,} trials here), found {coverage:g}"
-            "; give a fixed --trials instead")
+            "; give a fixed number of trials instead")
 
 
 def _batch_stats(chunk: np.ndarray, coverage: float) -> np.ndarray:
