@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 
 from .dof import Grouping, effective_dof, grouping
-from .errors import PropagationError
+from .errors import Location, PropagationError
 from .model import Model
 
 __all__ = ["Contribution", "CorrelationTerm", "MeasurandBudget", "Budget", "propagate",
@@ -221,13 +221,15 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
     first = float(np.sum(scaled ** 2)) + math.fsum(t[3] for t in terms)
     if first < 0.0:
         raise PropagationError(f"the variance of '{measurand.name}' came out negative "
-                               f"({first * scale * scale:.3g}); check the correlations")
+                               f"({first * scale * scale:.3g}); check the correlations",
+                               _equation(model, measurand))
     variance = first + (extra or 0.0) / scale / scale
     combined = scale * math.sqrt(variance)
     share = (100.0 * scaled ** 2 / variance) if variance > 0 else np.zeros_like(parts)
     if not math.isfinite(combined):
         raise PropagationError(f"the combined standard uncertainty of '{measurand.name}' is "
-                               "beyond the floating-point range (±1.8e308)")
+                               "beyond the floating-point range (±1.8e308)",
+                               _equation(model, measurand))
     with np.errstate(over="ignore"):
         terms = [(a, b, rho, v * scale * scale) for a, b, rho, v in terms]
         first, variance = first * scale * scale, variance * scale * scale
@@ -270,14 +272,22 @@ def _scaled_covariance(jac: np.ndarray, u: np.ndarray, pairs: "_Pairs",
     return core, scale
 
 
+def _equation(model: Model, measurand: Any) -> Location:
+    """Where a measurand's equation is written, for an error about its result."""
+    return Location(file=model.source, table=f"measurands.{measurand.name}", key="equation",
+                    line=measurand.line)
+
+
 def _parts(name: str, model: Model, c: np.ndarray, u: np.ndarray) -> np.ndarray:
     """c_i·u(x_i), refused when one is beyond the floating-point range."""
     with np.errstate(over="ignore", invalid="ignore"):
         parts: np.ndarray = np.asarray(c * u, dtype=float)
     bad = np.flatnonzero(~np.isfinite(parts))
     if bad.size:
-        raise PropagationError(f"the contribution c·u(x) of '{model.inputs[int(bad[0])].name}'"
-                               f" to '{name}' is beyond the floating-point range (±1.8e308)")
+        culprit = model.inputs[int(bad[0])].name
+        raise PropagationError(f"the contribution c·u(x) of '{culprit}' to '{name}' is beyond "
+                               "the floating-point range (±1.8e308)",
+                               Location(file=model.source, table=f"inputs.{culprit}"))
     return parts
 
 
