@@ -321,7 +321,9 @@ def check(model_file: str, strict: bool) -> None:
     _strict(strict, model.warnings)
     _out(f"ok: {model_file}: {len(model.inputs)} inputs, {len(model.measurands)} "
                f"measurand(s), {len(model.definitions)} definition(s), "
-               f"{len(model.correlations)} correlation(s)")
+               f"{len(model.correlations)} correlation(s)"
+               + (f", {len(model.estimated_together)} set(s) estimated together"
+                  if model.estimated_together else ""))
     _warn(model.warnings)
 
 
