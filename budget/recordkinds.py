@@ -41,6 +41,14 @@ def _optional(data: dict[str, Any], key: str, here: Where) -> float | None:
     return value
 
 
+def _required(data: dict[str, Any], key: str, here: Where) -> tuple[float, float]:
+    """A ``[low, high]`` window that must be given."""
+    pair = _pair(data, key, here, required=True)
+    if pair is None:  # _pair refuses a missing required window; this keeps the type plain
+        raise InputError(f"expected {key} = [low, high], found none", here(None))
+    return pair
+
+
 def _derived_inputs(made: Generated, derived: Derived, names: tuple[str, ...],
                     units: tuple[str, ...], basis: str, source: str) -> None:
     u = derived.standard_uncertainties
@@ -146,17 +154,15 @@ def _end_point(name: str, data: dict[str, Any], record: Series, units: dict[str,
             raise InputError(f"expected windows = [[low, high], [low, high]], found "
                              f"{'none' if windows is None else repr(windows)}",
                              here("windows" if "windows" in data else None))
-        first = _pair({"windows": windows[0]}, "windows", here, required=True)
-        second = _pair({"windows": windows[1]}, "windows", here, required=True)
-        assert first is not None and second is not None
+        first = _required({"windows": windows[0]}, "windows", here)
+        second = _required({"windows": windows[1]}, "windows", here)
         derived = intersection(record, first, second)
         described = "intersection of two fitted straight segments"
     else:
         if "windows" in data:
             raise InputError("expected one 'window' for the inflection, found 'windows'",
                              here("windows"))
-        window = _pair(data, "window", here, required=True)
-        assert window is not None
+        window = _required(data, "window", here)
         derived = inflection(record, window)
         described = "inflection point (extremum of the first derivative of a local cubic)"
     _derived_inputs(made, derived, (name,), (units["x"],), f"end point, {described}",
@@ -169,8 +175,7 @@ def _end_point(name: str, data: dict[str, Any], record: Series, units: dict[str,
 
 def _drift(name: str, data: dict[str, Any], record: Series, units: dict[str, str],
            labels: Labels, here: Where, made: Generated) -> None:
-    before = _pair(data, "before", here, required=True)
-    assert before is not None
+    before = _required(data, "before", here)
     after = _pair(data, "after", here)
     give = _choice(data, "give", ("correction", "rate"), here)
     derived = drift(record, before, after)
