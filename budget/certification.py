@@ -34,12 +34,12 @@ import numpy as np
 from .analysis import Result, evaluate
 from .campaign import Campaign, Comparison
 from .certified_mc import CertifiedSimulation, simulate_certified
-from .errors import BudgetError, CampaignError, Location, SimulationError
+from .errors import CampaignError, Location, SimulationError
 from .reported import Reported, gum_reported
 from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
 from .model import Model
-from .register import date_warnings, read_date
+from .register import date_warnings
 from .studydata import time_words
 from .units import parse_unit
 
@@ -140,7 +140,7 @@ class Certification:
     @property
     def shares(self) -> dict[str, float]:
         total = self.standard_uncertainty
-        return {name: 100.0 * u * u / (total * total) if total > 0 else 0.0
+        return {name: 100.0 * (u / total) ** 2 if total > 0 else 0.0
                 for name, u in self.components}
 
 
@@ -150,16 +150,22 @@ def anova(groups: list[np.ndarray], labels: list[str] | None = None) -> Homogene
 
     counts = np.array([g.size for g in groups])
     p, total = len(groups), int(counts.sum())
-    means = np.array([g.mean() for g in groups])
-    grand = np.concatenate(groups).mean()
+    means = np.array([_mean(g) for g in groups])
+    grand = _mean(np.concatenate(groups))
     dof_b, dof_w = p - 1, total - p
-    ms_b = float(np.sum(counts * (means - grand) ** 2) / dof_b)
-    ms_w = float(sum(np.sum((g - g.mean()) ** 2) for g in groups) / dof_w)
+    # mean squares in units of the largest deviation, so that values near 1e±300 give
+    # representable s_bb and u*_bb (the mean squares themselves may then be ∞: JSON null)
+    scale = _scale(np.concatenate(groups) - grand)
+    ms_b1 = float(np.sum(counts * ((means - grand) / scale) ** 2) / dof_b)
+    ms_w1 = float(sum(np.sum(((g - m) / scale) ** 2) for g, m in zip(groups, means)) / dof_w)
     n0 = (total - float(np.sum(counts ** 2)) / total) / dof_b
-    s_bb = math.sqrt(max(0.0, ms_b - ms_w) / n0)
-    u_star = math.sqrt(ms_w / n0) * (2.0 / dof_w) ** 0.25
-    reason = _zero_within(ms_w, ms_b, groups)
-    f = math.nan if reason else ms_b / ms_w
+    s_bb = scale * math.sqrt(max(0.0, ms_b1 - ms_w1) / n0)
+    u_star = scale * math.sqrt(ms_w1 / n0) * (2.0 / dof_w) ** 0.25
+    with np.errstate(over="ignore"):
+        ms_b, ms_w = float(np.float64(ms_b1) * scale * scale), \
+            float(np.float64(ms_w1) * scale * scale)
+    reason = _zero_within(scale * math.sqrt(ms_w1), scale * math.sqrt(ms_b1), groups)
+    f = math.nan if reason else ms_b1 / ms_w1
     p_value = math.nan if reason else f_sf(f, dof_b, dof_w)
     return Homogeneity(reason=reason, units=tuple(labels or (str(i + 1) for i in range(p))),
                        means=tuple(float(m) for m in means),
@@ -168,17 +174,40 @@ def anova(groups: list[np.ndarray], labels: list[str] | None = None) -> Homogene
                        p_value=p_value, dof_between=dof_b, dof_within=dof_w)
 
 
+def _root_sum_square(parts: list[float]) -> float:
+    """√Σx²: the plain sum for ordinary numbers (unchanged to the last bit), hypot (no
+    overflow or underflow) when the plain sum is not representable."""
+    plain = math.sqrt(math.fsum(x * x for x in parts))
+    if math.isfinite(plain) and (plain > 1e-150 or not any(parts)):
+        return plain
+    return math.hypot(*parts)
+
+
+def _scale(values: np.ndarray) -> float:
+    """1 for ordinary data (results unchanged to the last bit); the largest magnitude for
+    data whose squares would overflow or underflow (near 1e±100 and beyond)."""
+    largest = float(np.max(np.abs(values), initial=0.0))
+    return 1.0 if largest == 0.0 or 1e-100 <= largest <= 1e100 else largest
+
+
+def _mean(values: np.ndarray) -> float:
+    """The mean without overflow: [1e308, 1e308] has the mean 1e308, not ∞."""
+    scale = _scale(values)
+    return float(values.mean()) if scale == 1.0 else scale * float(np.mean(values / scale))
+
+
 def _noise(values: np.ndarray) -> float:
     """A spread below rounding noise: 1000 ε of the largest value counts as zero."""
     return 1000.0 * float(np.finfo(float).eps) * float(np.max(np.abs(values), initial=0.0))
 
 
-def _zero_within(ms_w: float, ms_b: float, groups: list[np.ndarray]) -> str:
-    """Why F = MS_between/MS_within is not defined, or '' when it is."""
+def _zero_within(sd_w: float, sd_b: float, groups: list[np.ndarray]) -> str:
+    """Why F = MS_between/MS_within is not defined (from √MS_within and √MS_between), or
+    '' when it is."""
     noise = _noise(np.concatenate(groups))
-    if math.sqrt(max(ms_w, 0.0)) > noise:
+    if sd_w > noise:
         return ""
-    if math.sqrt(max(ms_b, 0.0)) <= noise:
+    if sd_b <= noise:
         return ("every value is the same (zero between- and within-unit variance): F = 0/0 "
                 "and its p-value are not defined")
     return ("the replicates of each unit agree exactly (zero within-unit variance): "
@@ -203,12 +232,19 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
     n = times.size
     t_mean = times.mean()
     sxx = float(np.sum((times - t_mean) ** 2))
-    slope = float(np.sum((times - t_mean) * (values - values.mean())) / sxx)
-    intercept = float(values.mean() - slope * t_mean)
-    residuals = values - (intercept + slope * times)
-    s = math.sqrt(float(np.sum(residuals ** 2)) / (n - 2))
-    u_slope = s / math.sqrt(sxx)
+    mean = _mean(values)
+    scale = _scale(values - mean)  # 1 unless the squares would overflow or underflow
+    slope = scale * float(np.sum((times - t_mean) * ((values - mean) / scale)) / sxx)
+    intercept = float(mean - slope * t_mean)
+    if scale == 1.0:
+        residuals = values - (intercept + slope * times)
+    else:
+        residuals = (values - mean) / scale - (slope / scale) * (times - t_mean)
+    s = scale * math.sqrt(float(np.sum(residuals ** 2)) / (n - 2))
     reason = zero_residual(s, values)
+    if reason:  # a residual within rounding noise is zero: s(b₁) = 0, as the reason says
+        s = 0.0
+    u_slope = s / math.sqrt(sxx)
     t = math.nan if reason else slope / u_slope
     p_value = math.nan if reason else t_two_sided_p(t, n - 2)
     return Stability(reason=reason, times=tuple(float(x) for x in times),
@@ -333,21 +369,14 @@ def _simulate_certified(cert: Certification, char: Characterization | None,
 
 
 def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:
-    """The dates in the runs table's ``date`` column (ISO 8601), if it has one."""
-    labels = dict(campaign.runs.labels)
-    if "date" not in labels:
+    """The dates in the runs table's ``date`` column, if it has one.
+
+    The column was read with the runs file's own declarations (``dates``), like every
+    date of a data file: ISO 8601, or a day-first or month-first form when settled.
+    """
+    if campaign.runs.dates is None:
         return campaign.model.measured
-    days = []
-    for row, cell in zip(campaign.runs.rows, labels["date"]):
-        where = Location(file=campaign.source, table="characterization", key="runs")
-        try:
-            days.append(read_date(str(cell), where))
-        except BudgetError as exc:
-            path = next((p for role, p, _ in campaign.data_files
-                         if role == "characterization.runs"), campaign.source)
-            raise CampaignError(f"column 'date': expected a date such as 2025-05-06, found "
-                                f"'{cell}'", Location(file=path, line=row)) from exc
-    return tuple(days)
+    return campaign.runs.dates
 
 
 def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogeneity | None,
@@ -356,7 +385,7 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
                   ("homogeneity", homogeneity.u_bb if homogeneity else 0.0),
                   ("long_term_stability", stability.u_lts if stability else 0.0),
                   ("short_term_stability", campaign.u_short_term))
-    u = math.sqrt(math.fsum(c * c for _, c in components))
+    u = _root_sum_square([c for _, c in components])
     dofs = np.array([char.dof, homogeneity.dof_between if homogeneity else math.inf,
                      stability.dof if stability else math.inf, math.inf], dtype=float)
     nu = welch_satterthwaite(u, np.array([c for _, c in components]), dofs)
@@ -402,7 +431,7 @@ def _characterize(campaign: Campaign, trials: int | None, seed: int | None,
     result = evaluate(at_mean, trials=trials, seed=seed, progress=progress)
     gum = result.budget.measurands[index]
     u_b = gum.combined_uncertainty * scale
-    u = math.sqrt(u_b ** 2 + s * s / n)
+    u = _root_sum_square([u_b, s / math.sqrt(n)])
     nu = welch_satterthwaite(u, np.array([u_b, s / math.sqrt(n)]),
                              np.array([gum.dof, n - 1.0]))
     labels = _labels(campaign)

@@ -28,6 +28,7 @@ from .evaluation import compile_model
 from .formatting import format_number, format_pair, format_percent
 from .gum import propagate
 from .model import Model
+from .unit_display import display_unit, terminal_unit
 
 __all__ = ["Driver", "SobolIndex", "Explanation", "explain", "render", "explanation_document"]
 
@@ -125,6 +126,7 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
     if simulation is None or simulation.validation is None:
         return ("no Monte Carlo run (trials = 0): the linear approximation was not checked",)
     v = simulation.validation
+    unit = display_unit(budget.unit)
     reasons = []
     top = ranked[0]
     item = model.input(top.input)
@@ -134,11 +136,11 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
         return (f"Monte Carlo cannot validate the GUM result: {v.reason}",)
     if v.validated:
         return (f"Monte Carlo validates the GUM result: both interval ends agree within "
-                f"δ = {format_number(v.tolerance, 1)} {budget.unit} (JCGM 101 8.2)",)
+                f"δ = {format_number(v.tolerance, 1)} {unit} (JCGM 101 8.2)",)
     side = "wider" if gum_width > mc_width else "narrower"
     reasons.append(f"the GUM interval is {side} than the Monte Carlo one "
                    f"({format_number(gum_width, 3)} vs {format_number(mc_width, 3)} "
-                   f"{budget.unit}; d_low = {format_number(v.d_low, 2)}, d_high = "
+                   f"{unit}; d_low = {format_number(v.d_low, 2)}, d_high = "
                    f"{format_number(v.d_high, 2)}, δ = {format_number(v.tolerance, 1)})")
     if top.share >= 40 and not item.distribution.gaussian and item.distribution.name != "student_t":
         shape = "flatter" if item.distribution.name.startswith(("rectangular", "arcsine",
@@ -157,7 +159,7 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
     if shift > v.tolerance or spread > 0.05 * budget.combined_uncertainty:
         reasons.append(f"nonlinearity: the Monte Carlo mean differs from the estimate by "
                        f"{format_number(shift, 2)} and its standard deviation from u_c by "
-                       f"{format_number(spread, 2)} {budget.unit}")
+                       f"{format_number(spread, 2)} {unit}")
     if len(reasons) == 1:
         reasons.append("no single cause stands out; a longer run (--adaptive) shows whether "
                        "the difference is Monte Carlo noise")
@@ -215,7 +217,8 @@ def render(explanations: tuple[Explanation, ...], digits: int = 2) -> str:
 
 def _text(e: Explanation, digits: int) -> str:
     value, expanded = format_pair(e.estimate, e.expanded_uncertainty, digits)
-    lines = [f"{e.name} = ({value} ± {expanded}) {e.unit}  (k = {e.coverage_factor:.3g})", ""]
+    unit = terminal_unit(e.unit)
+    lines = [f"{e.name} = ({value} ± {expanded}) {unit}  (k = {e.coverage_factor:.3g})", ""]
     first = e.drivers[0]
     lines.append(f"1. {first.input} dominates: {format_percent(first.share)} % of u_c² "
                  f"({first.distribution}, Type {first.type}).")
@@ -234,7 +237,7 @@ def _text(e: Explanation, digits: int) -> str:
     lines += ["", "What would reduce U:"]
     for d in e.drivers:
         halved = format_pair(e.estimate, d.halved_expanded_uncertainty, digits)[1]
-        lines.append(f"  - halving u({d.input}) gives U = {halved} {e.unit} (now {expanded})")
+        lines.append(f"  - halving u({d.input}) gives U = {halved} {unit} (now {expanded})")
         if e.target is not None:
             lines.append("    " + _target_text(e, d, digits))
     if e.sobol:
@@ -249,11 +252,13 @@ def _text(e: Explanation, digits: int) -> str:
 def _target_text(e: Explanation, d: Driver, digits: int) -> str:
     target = format_pair(e.estimate, e.target or 0.0, digits)[1]
     if d.needed_standard_uncertainty is None or d.reached_expanded_uncertainty is None:
-        return f"U = {target} {e.unit} cannot be reached by improving {d.input} alone"
+        return (f"U = {target} {terminal_unit(e.unit)} cannot be reached by improving "
+                f"{d.input} alone")
     reached = format_pair(e.estimate, d.reached_expanded_uncertainty, digits)[1]
     needed = format_number(d.needed_standard_uncertainty, 2)
-    return (f"for U = {target} {e.unit}: u({d.input}) ≤ {needed} "
-            f"{d.unit} (now {format_number(d.standard_uncertainty, 2)}; rerun gives U = "
+    return (f"for U = {target} {terminal_unit(e.unit)}: u({d.input}) ≤ {needed} "
+            f"{terminal_unit(d.unit)} (now {format_number(d.standard_uncertainty, 2)}; "
+            f"rerun gives U = "
             f"{reached})")
 
 

@@ -12,6 +12,7 @@ row is kept as an :class:`Exclusion` so every output can list it with its reason
 from __future__ import annotations
 
 from dataclasses import dataclass
+import datetime as dt
 from datetime import datetime
 from pathlib import Path
 from typing import Any
@@ -48,6 +49,7 @@ class Runs:
     inputs: tuple[tuple[str, np.ndarray], ...]
     labels: tuple[tuple[str, tuple[str, ...]], ...]
     header_units: tuple[tuple[str, str], ...] = ()
+    dates: tuple[dt.date, ...] | None = None  # the 'date' column, read like any data date
 
     def __len__(self) -> int:
         return len(self.rows)
@@ -93,8 +95,11 @@ def read_runs(path: Path, fmt: FileFormat, model: Any, shown: str) -> Runs:
     labels = tuple((c.name, tuple(s.strip() for s in c.cells)) for c in table.columns
                    if c.name not in inputs)
     units = tuple((c.name, c.unit) for c in table.columns if c.unit and c.name in inputs)
+    dates = None
+    if table.has("date") and "date" not in inputs:  # ISO, or a declared or clear local form
+        dates = tuple(d.date() for d in table.dates_of("date") if d is not None)
     return Runs(source=table.source, rows=table.rows, inputs=made, labels=labels,
-                header_units=units)
+                header_units=units, dates=dates)
 
 
 def read_homogeneity(path: Path, fmt: FileFormat, unit: str, value_unit: str | None,

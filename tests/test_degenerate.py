@@ -69,3 +69,21 @@ def test_certify_json_is_valid_and_says_why(cli, tmp_path: Path) -> None:
     report = tmp_path / "report.html"
     code, _, _ = cli("certify", "--trials", "0", "--html", str(report), str(campaign))
     assert code == 0 and "not computable" in report.read_text(encoding="utf-8")
+
+
+def test_huge_and_tiny_data_give_representable_statistics() -> None:
+    # scaling leaves the statistics of x·10^k as those of x times 10^k (plain arithmetic)
+    base = [np.array([1.0, 2.0, 4.0]), np.array([2.0, 3.0, 3.5]), np.array([0.5, 1.5, 2.0])]
+    reference = anova(base)
+    for factor in (1e300, 1e-300):
+        h = anova([g * factor for g in base])
+        assert math.isclose(h.s_bb, reference.s_bb * factor, rel_tol=1e-12)
+        assert math.isclose(h.u_bb_star, reference.u_bb_star * factor, rel_tol=1e-12)
+        assert math.isclose(h.F, reference.F, rel_tol=1e-12)
+    times = np.array([0.0, 6.0, 12.0, 18.0])
+    values = np.array([1.0, 1.5, 1.7, 2.6])
+    line = trend(times, values, 36.0)
+    for factor in (1e300, 1e-300):
+        fit = trend(times, values * factor, 36.0)
+        assert math.isclose(fit.u_lts, line.u_lts * factor, rel_tol=1e-12)
+        assert math.isclose(fit.t, line.t, rel_tol=1e-12)
