@@ -49,7 +49,8 @@ def campaign(folder: Path, runs: int, units: int, replicates: int, points: int) 
     for n in range(runs):
         row = list(demo[n % len(demo)])
         row[0], row[1] = f"D{n + 1}", f"U-{n % units:03d}"
-        row[header.index("m_c")] = f"{float(row[header.index('m_c')]) * (1 + 1e-4 * rng.standard_normal()):.6f}"
+        mass = header.index("m_c")
+        row[mass] = f"{float(row[mass]) * (1 + 1e-4 * rng.standard_normal()):.6f}"
         body.append(row)
     write(folder / "determinations.csv", header, body)
     write(folder / "homogeneity.csv", ["unit", "replicate", "value"],
