@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-import sys
 import textwrap
 from typing import Any
 
@@ -12,7 +11,7 @@ from .formatting import (format_dof, format_number, format_pair, format_percent,
                          format_statistic)
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
-from .unit_display import display_unit
+from .unit_display import terminal_unit
 
 __all__ = ["render", "render_certification", "result_statement", "contribution_cells",
            "reported_lines",
@@ -27,12 +26,6 @@ SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
                       "rectangular (atomic weights)": "atomic wts"}
 _HEAD = ("input", "estimate", "unit", "u(x)", "distribution", "type", "ν", "c",
          "|c|·u(x)", "share %")
-
-
-def terminal_unit(text: str) -> str:
-    """A unit as symbols (°C, kg/m³, Ω) when standard output can encode them, else as
-    written; the one function through which the terminal shows units."""
-    return display_unit(text, encoding=getattr(sys.stdout, "encoding", None) or "utf-8")
 
 
 def render(result: Result) -> str:

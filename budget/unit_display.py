@@ -10,8 +10,9 @@ from __future__ import annotations
 
 import codecs
 import re
+import sys
 
-__all__ = ["display_unit", "unit_ratio"]
+__all__ = ["display_unit", "terminal_unit", "unit_ratio"]
 
 _NAMES = {
     "degC": "°C", "degree_Celsius": "°C", "celsius": "°C", "degF": "°F", "deg": "°",
@@ -90,6 +91,12 @@ def display_unit(text: str, encoding: str | None = None) -> str:
         except (LookupError, UnicodeEncodeError):
             return stripped
     return shown
+
+
+def terminal_unit(text: str) -> str:
+    """A unit as symbols (°C, kg/m³, Ω) when standard output can encode them, else as
+    written; the one function through which the terminal shows units."""
+    return display_unit(text, encoding=getattr(sys.stdout, "encoding", None) or "utf-8")
 
 
 def unit_ratio(numerator: str, denominator: str) -> str:
