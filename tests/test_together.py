@@ -17,7 +17,7 @@ from scipy import stats
 
 from budget.analysis import evaluate
 from budget.errors import InputError
-from budget.explain import explain
+from budget.explanation import explain
 from budget.gum import propagate
 from budget.model import load_model
 from budget.montecarlo import simulate
