@@ -25,7 +25,7 @@ if TYPE_CHECKING:  # the same names, eagerly, for type checkers only
     from .document import (certification_document as certification_document,
                            result_document as result_document)
     from .errors import BudgetError as BudgetError, Location as Location
-    from .explain import explain as explain
+    from .explanation import explain as explain
     from .gum import (Budget as Budget, Contribution as Contribution,
                       MeasurandBudget as MeasurandBudget, propagate as propagate)
     from .model import (Input as Input, Measurand as Measurand, Model as Model,
@@ -56,7 +56,7 @@ _WHERE = {
     "result_document": "document", "molar_mass": "chemistry", "air_density": "chemistry",
     "load_campaign": "campaign", "Campaign": "campaign", "certify": "certification",
     "Certification": "certification", "certification_document": "document",
-    "explain": "explain", "render_report": "report",
+    "explain": "explanation", "render_report": "report",
     "render_certification_report": "report",
     "combine": "combination", "Combined": "combination", "join": "joint", "Joint": "joint",
     "Member": "joint",

@@ -7,11 +7,11 @@ of trials is 0, ``simulate`` (JCGM 101) validating the GUM result (JCGM 101 8.2)
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
-from typing import Callable
+from typing import Any, Callable
 
 from .errors import Location, PropagationError
 from .limits import LIMITS_PAGE, check_digits, check_probability
-from .gum import Budget, propagate
+from .gum import Budget, MeasurandBudget, propagate
 from .model import Model
 from .montecarlo import Simulation, simulate
 from .reported import Reported, gum_reported, reported
@@ -40,6 +40,39 @@ class Result:
     def warnings(self) -> tuple[str, ...]:
         extra = self.simulation.warnings if self.simulation else ()
         return tuple(dict.fromkeys(self.budget.warnings + extra))
+
+    def measurand(self, name: str) -> MeasurandBudget:
+        """The GUM budget of measurand ``name`` (a ``KeyError`` with a "did you mean")."""
+        return self.budget.measurand(name)
+
+    def __repr__(self) -> str:
+        trials = f"{self.simulation.trials:,} Monte Carlo trials" if self.simulation \
+            else "no Monte Carlo"
+        parts = "; ".join(repr(m)[1:-1] for m in self.budget.measurands)
+        return f"<Result {self.model.title!r}: {parts}; {trials}>"
+
+    def summary(self) -> str:
+        """The terminal output of ``budget run``, warnings included."""
+        from .table import render
+
+        return "\n".join([render(self), *(f"warning: {w}" for w in self.warnings)])
+
+    def _repr_html_(self) -> str:
+        from .notebook import result_html
+
+        return result_html(self)
+
+    def to_frame(self) -> Any:
+        """The budget as a DataFrame (``Budget.to_frame``; one measurand: its own)."""
+        if len(self.budget.measurands) == 1:
+            return self.budget.measurands[0].to_frame()
+        return self.budget.to_frame()
+
+    def to_dict(self) -> dict[str, Any]:
+        """The JSON result document."""
+        from .document import result_document
+
+        return result_document(self)
 
 
 def evaluate(model: Model, *, coverage: float | None = None, trials: int | None = None,

@@ -1,6 +1,6 @@
 """View-model of the auditor's page: what dominates the uncertainty, why, what reduces it.
 
-It lays out the analysis of ``explain`` (ranking by share of u_c², Type A/B shares, the
+It lays out the analysis of ``explanation`` (ranking by share of u_c², Type A/B shares, the
 reasons why Monte Carlo does or does not validate the GUM result, the what-if reruns) and
 adds what a report can show better than a terminal: the chain of derivatives that
 amplifies the dominant input, and each molar mass's u(M) broken down by element,
@@ -24,7 +24,7 @@ __all__ = ["audit_view", "element_rows"]
 
 def audit_view(result: Any, chains: list[dict[str, Any]]) -> list[dict[str, Any]]:
     """One auditor's answer per measurand; ``chains[k]`` is measurand k's sensitivity view."""
-    from .explain import explain
+    from .explanation import explain
 
     digits = result.digits
     formulas = {i.name: i for i in result.model.inputs if i.molar_mass is not None}

@@ -137,6 +137,46 @@ class Certification:
                             self.standard_uncertainty, self.coverage_factor,
                             self.coverage_probability)
 
+    def __repr__(self) -> str:
+        from .notebook import short
+
+        value, expanded = short(self.certified_value, self.expanded_uncertainty)
+        return (f"<Certification {self.campaign.title!r}: ({value} ± {expanded}) "
+                f"{self.campaign.unit}, k = {self.coverage_factor:.3g}>")
+
+    def summary(self, digits: int | None = None) -> str:
+        """The terminal output of ``budget certify``, warnings included."""
+        from .table import render_certification
+
+        digits = self.campaign.model.settings.digits if digits is None else digits
+        return "\n".join([render_certification(self, digits),
+                          *(f"warning: {w}" for w in self.warnings)])
+
+    def _repr_html_(self) -> str:
+        from .notebook import certification_html
+
+        return certification_html(self)
+
+    def to_frame(self) -> Any:
+        """One row per component of u_CRM (``component``, ``u``, ``share``); the certified
+        value, ``u``, ``k``, ``U`` and ``unit`` in ``attrs``."""
+        from .notebook import frame
+
+        shares = self.shares
+        rows = [{"component": name, "u": u, "share": shares[name]}
+                for name, u in self.components]
+        return frame(rows, "component", {
+            "title": self.campaign.title, "unit": self.campaign.unit,
+            "certified_value": self.certified_value, "u": self.standard_uncertainty,
+            "k": self.coverage_factor, "U": self.expanded_uncertainty,
+            "coverage": self.coverage_probability})
+
+    def to_dict(self) -> dict[str, Any]:
+        """The JSON certification document."""
+        from .document import certification_document
+
+        return certification_document(self)
+
     @property
     def shares(self) -> dict[str, float]:
         total = self.standard_uncertainty
@@ -307,10 +347,12 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     cert = replace(_certified(campaign_used, value_from, homogeneity, stability_used,
                               warnings), run_dates=days, stability=stability,
                    stability_studies=studies)
-    cert = _with_monte_carlo(cert, char if methods is None else None,
-                             reported_interval or campaign.reported_interval,
+    if methods is not None:  # several methods: the combined value's own draws, if any
+        cert = replace(cert, characterization=char, methods=methods)
+    cert = _with_monte_carlo(cert, char if methods is None or methods.combined is None
+                             else None, reported_interval or campaign.reported_interval,
                              math.inf if stability_used is None else float(stability_used.dof))
-    return cert if methods is None else replace(cert, characterization=char, methods=methods)
+    return cert
 
 
 def _with_monte_carlo(cert: Certification, char: Characterization | None,
@@ -346,6 +388,10 @@ def _with_monte_carlo(cert: Certification, char: Characterization | None,
 
 def _simulate_certified(cert: Certification, char: Characterization | None,
                         stability_dof: float) -> CertifiedSimulation | None:
+    if char is None and cert.methods is not None:  # a combined value (combined_montecarlo)
+        from .combined_montecarlo import certified_from_combined
+
+        return certified_from_combined(cert, stability_dof)
     sim = None if char is None else char.result.simulation
     if char is None or sim is None or not sim.trials:
         return None

@@ -38,6 +38,7 @@ from .units import parse_unit
 __all__ = ["Link", "PendingLink", "read_link", "resolve", "CHAIN_KEYS"]
 
 CHAIN_KEYS = ("result_of", "measurand", "shares")
+BETWEEN_STAGES = "correlations between stages"  # the folded row of cross-stage terms
 _THIS = "__stage"  # the current model's member name inside the join (never shown)
 
 
@@ -337,22 +338,32 @@ class Stage:
 def stages(model: Model, budget: Any) -> tuple[Stage, ...]:
     """The budget folded per stage: each input goes to the deepest link its name is in.
 
-    Shared inputs belong to the stage that names them first (the later model), so the
-    stages' variances add up to the uncorrelated part of u_c².
+    Shared inputs belong to the stage that names them first (the later model). A
+    correlation term between two inputs of one stage is part of that stage (an earlier
+    model's intercept and slope, say); terms between inputs of different stages form a
+    row of their own (label ``BETWEEN_STAGES``). The stages' variances thus add up to the
+    first-order u_c², and their shares to 100 %.
     """
     links = sorted(getattr(model, "chain", ()), key=lambda link: -len(link.input))
-    groups: dict[str, list[Any]] = {"": []}
+
+    def home(name: str) -> str:
+        return next((link.input for link in links if name.startswith(link.input + ":")), "")
+
+    groups: dict[str, list[tuple[str | None, float, float]]] = {"": []}
     for link in getattr(model, "chain", ()):
         groups[link.input] = []
     for c in budget.contributions:
-        home = next((link.input for link in links if c.input.startswith(link.input + ":")),
-                    "")
-        groups[home].append(c)
+        groups[home(c.input)].append((c.input, c.contribution ** 2, c.share))
+    for term in getattr(budget, "correlation_terms", ()):
+        a, b = (home(name) for name in term.inputs)
+        groups.setdefault(a if a == b else BETWEEN_STAGES, []).append(
+            (None, term.variance, term.share))
     sources = {link.input: link.source for link in getattr(model, "chain", ())}
-    return tuple(Stage(label=label, source=sources.get(label, model.source),
-                       inputs=tuple(c.input for c in found),
-                       variance=math.fsum(c.contribution ** 2 for c in found),
-                       share=math.fsum(c.share for c in found))
+    return tuple(Stage(label=label, source=sources.get(label, "" if label == BETWEEN_STAGES
+                                                       else model.source),
+                       inputs=tuple(name for name, _, _ in found if name is not None),
+                       variance=math.fsum(v for _, v, _ in found),
+                       share=math.fsum(s for _, _, s in found))
                  for label, found in groups.items())
 
 
@@ -365,7 +376,8 @@ def stage_lines(model: Model, budget: Any) -> list[str]:
                      + (f"; shared: {shared}" if shared else ""))
     lines.append("Share of u_c² by stage:")
     for stage in stages(model, budget):
-        name = "this model" if not stage.label else f"{stage.label} (from {stage.source})"
+        name = "this model" if not stage.label else stage.label if not stage.source \
+            else f"{stage.label} (from {stage.source})"
         lines.append(f"  {stage.share:6.1f} %  {name}")
     return lines
 

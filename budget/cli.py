@@ -15,9 +15,12 @@ import json
 import math
 import sys
 import time
+from pathlib import Path
 from typing import Any, Callable
 
 import click
+
+from . import __version__
 
 __all__ = ["main"]
 
@@ -45,13 +48,54 @@ _TARGET = _Finite(5e-324, 1.7976931348623157e308, "a positive finite number")
 
 
 def _fail(error: Exception) -> None:
-    click.echo(f"error: {_safe(str(error))}", err=True)
+    _err(f"error: {_safe(str(error))}")
     sys.exit(1)
 
 
+def _err(text: str) -> None:
+    """A line on standard error, in a spelling its encoding can write."""
+    from .console import for_stream
+
+    click.echo(for_stream(text, sys.stderr), err=True)
+
+
 def _warn(warnings: Any) -> None:
+    if _quiet():
+        return
     for line in warnings:
-        click.echo(f"warning: {_safe(str(line))}", err=True)
+        _err(f"warning: {_safe(str(line))}")
+
+
+def _quiet() -> bool:
+    context = click.get_current_context(silent=True)
+    return bool(context and context.meta.get("budget.quiet"))
+
+
+def _set_quiet(ctx: click.Context, _: click.Parameter, value: bool) -> None:
+    if value:
+        ctx.meta["budget.quiet"] = True
+
+
+_QUIET = click.option("-q", "--quiet", is_flag=True, expose_value=False, is_eager=True,
+                      callback=_set_quiet,
+                      help="Print nothing but errors and asked-for JSON (warnings still "
+                           "go into the JSON and the reports; --strict still counts them).")
+
+
+def _read_model(model_file: str) -> Any:
+    """The model of MODEL_FILE, or of standard input when it is '-'."""
+    from .model import load_model, parse_model
+
+    if model_file != "-":
+        return load_model(model_file)
+    from .errors import InputError, Location
+    from .limits import MAX_FILE_BYTES
+
+    data = click.get_binary_stream("stdin").read(MAX_FILE_BYTES + 1)
+    if len(data) > MAX_FILE_BYTES:
+        raise InputError(f"expected a model of at most {MAX_FILE_BYTES // 2 ** 20} MiB, "
+                         "found more", Location(file="<stdin>"))
+    return parse_model(data, name="<stdin>")
 
 
 def _check_outputs(*paths: str | None, protect: Any = ()) -> None:
@@ -73,15 +117,18 @@ def _safe(text: str) -> str:
     return terminal_text(text)
 
 
-def _out(text: str) -> None:
+def _out(text: str, *, data: bool = False) -> None:
     """Standard output, or an error when it is closed (the result would be lost)."""
     if sys.stdout is None or getattr(sys.stdout, "closed", False):
         click.echo("error: standard output is closed; the result could not be written",
                    err=True)
         sys.exit(1)
+    if _quiet() and not data:
+        return
+    from .console import for_stream
     from .limits import terminal_text
 
-    click.echo(terminal_text(text, keep="\n"))
+    click.echo(for_stream(terminal_text(text, keep="\n"), sys.stdout))
 
 
 class _Group(click.Group):
@@ -118,8 +165,7 @@ def _strict(enabled: bool, warnings: Any) -> None:
         return
     _warn(warnings)
     count = len(warnings)
-    click.echo(f"error: --strict: {count} warning{'s' if count > 1 else ''}; no output "
-               "written", err=True)
+    _err(f"error: --strict: {count} warning{'s' if count > 1 else ''}; no output written")
     sys.exit(STRICT_EXIT)
 
 
@@ -198,12 +244,14 @@ _REPORTED_OPTION = click.option(
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
-@click.version_option(package_name="budget", prog_name="budget")
+@click.version_option(version=__version__, prog_name="budget")
+@_QUIET
 def main() -> None:
     """Measurement-uncertainty budgets to the GUM, cross-checked by Monte Carlo."""
 
 
 @main.command()
+@_QUIET
 @click.argument("model_file", metavar="MODEL.toml")
 @_common
 @click.option("--html", "html_file", metavar="FILE", default=None,
@@ -220,7 +268,7 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
     """Evaluate MODEL.toml: GUM budget and Monte Carlo cross-check."""
     from .errors import BudgetError
 
-    progress = _Progress(not as_json)
+    progress = _Progress(not as_json and not _quiet())
     try:
         _check_outputs(html_file, csv_file, xlsx_file)
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
@@ -249,9 +297,8 @@ def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | N
               coverage: float | None, digits: int | None, second_order: bool,
               progress: _Progress, reported_interval: str | None = None) -> Any:
     from .analysis import evaluate
-    from .model import load_model
 
-    model = load_model(model_file)
+    model = _read_model(model_file)
     return evaluate(model, coverage=coverage, trials=trials, adaptive=adaptive, seed=seed,
                     digits=digits, second_order=second_order, progress=progress,
                     reported_interval=reported_interval)
@@ -261,7 +308,8 @@ def _print_result(result: Any, as_json: bool) -> None:
     if as_json:
         from .document import json_safe, result_document
 
-        _out(json.dumps(json_safe(result_document(result)), indent=2, allow_nan=False))
+        _out(json.dumps(json_safe(result_document(result)), indent=2, allow_nan=False),
+             data=True)
     else:
         from .table import render
 
@@ -270,6 +318,7 @@ def _print_result(result: Any, as_json: bool) -> None:
 
 
 @main.command()
+@_QUIET
 @click.argument("model_file", metavar="MODEL.toml")
 @_common
 @click.option("--target", type=_TARGET, default=None,
@@ -280,9 +329,10 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
             target: float | None, strict: bool) -> None:
     """What dominates the uncertainty of MODEL.toml, why, and what would reduce it."""
     from .errors import BudgetError
-    from .explain import explain as run_explain, explanation_document, render
+    from .explanation import explain as run_explain
+    from .explanation_view import explanation_document, render
 
-    progress = _Progress(not as_json)
+    progress = _Progress(not as_json and not _quiet())
     try:
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits, False,
                            progress)
@@ -300,32 +350,34 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
                     **explanation_document(explanations), "warnings": list(result.warnings)}
         from .document import json_safe
 
-        _out(json.dumps(json_safe(document), indent=2, allow_nan=False))
+        _out(json.dumps(json_safe(document), indent=2, allow_nan=False), data=True)
     else:
         _out(render(explanations, result.digits))
     _warn(result.warnings)
 
 
 @main.command()
+@_QUIET
 @click.argument("model_file", metavar="MODEL.toml")
 @_STRICT
 def check(model_file: str, strict: bool) -> None:
     """Validate MODEL.toml (syntax, names, units, distributions, correlations)."""
     from .errors import BudgetError
-    from .model import load_model
 
     try:
-        model = load_model(model_file)
+        model = _read_model(model_file)
     except BudgetError as error:
         _fail(error)
     _strict(strict, model.warnings)
-    _out(f"ok: {model_file}: {len(model.inputs)} inputs, {len(model.measurands)} "
+    shown = "<stdin>" if model_file == "-" else model_file
+    _out(f"ok: {shown}: {len(model.inputs)} inputs, {len(model.measurands)} "
                f"measurand(s), {len(model.definitions)} definition(s), "
                f"{len(model.correlations)} correlation(s)")
     _warn(model.warnings)
 
 
 @main.command()
+@_QUIET
 @click.argument("campaign_file", metavar="CAMPAIGN.toml")
 @click.option("--json", "as_json", is_flag=True, help="Print the JSON certification document.")
 @click.option("--html", "html_file", metavar="FILE", default=None,
@@ -348,7 +400,7 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
     from .certification import certify as run_certification
     from .errors import BudgetError
 
-    progress = _Progress(not as_json)
+    progress = _Progress(not as_json and not _quiet())
     try:
         _check_outputs(html_file, csv_file, xlsx_file)
         campaign = load_campaign(campaign_file, allow_outside=allow_outside_folder)
@@ -375,7 +427,8 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
     if as_json:
         from .document import certification_document, json_safe
 
-        _out(json.dumps(json_safe(certification_document(cert)), indent=2, allow_nan=False))
+        _out(json.dumps(json_safe(certification_document(cert)), indent=2,
+                        allow_nan=False), data=True)
     else:
         from .table import render_certification
 
@@ -384,6 +437,7 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
 
 
 @main.command()
+@_QUIET
 @click.argument("before", metavar="A")
 @click.argument("after", metavar="B")
 @click.option("--json", "as_json", is_flag=True, help="Print the JSON comparison document.")
@@ -418,7 +472,28 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
         click.echo(render_difference(difference, digits), nl=False)
 
 
+@main.command()
+@_QUIET
+@click.argument("folder", metavar="DIR")
+def demo(folder: str) -> None:
+    """Copy the demo and reference models with their data into DIR."""
+    from .demo_files import copy_demo
+    from .errors import BudgetError
+
+    try:
+        written = copy_demo(folder)
+    except BudgetError as error:
+        _fail(error)
+    except OSError as error:
+        _fail(Exception(f"{folder}: expected a folder that can be written, found "
+                        f"{error.strerror or error}"))
+    _out(f"copied {len(written)} files into {folder}; try\n"
+         f"  budget certify {Path(folder) / 'vics-as-25a' / 'campaign.toml'}\n"
+         f"  budget run {Path(folder) / 'reference' / 'eurachem-a2-naoh.toml'}")
+
+
 @main.command("certify-all")
+@_QUIET
 @click.argument("folder", metavar="FOLDER")
 @click.option("--json", "as_json", is_flag=True, help="Print the JSON summary document.")
 @click.option("--csv", "csv_file", metavar="FILE", default=None,
@@ -454,7 +529,8 @@ def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str
     if as_json:
         from .document import json_safe
 
-        _out(json.dumps(json_safe(batch_document(batch)), indent=2, allow_nan=False))
+        _out(json.dumps(json_safe(batch_document(batch)), indent=2, allow_nan=False),
+             data=True)
     else:
         _out(render_batch(batch))
     failed = [e for e in batch.entries if e.error is not None]

@@ -17,12 +17,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 from numpy.typing import NDArray
 
 from .montecarlo import Validation, coverage_interval, tolerance
+
+if TYPE_CHECKING:
+    from .certified_mc import CertifiedSimulation
 
 __all__ = ["CombinedSimulation", "combined_simulation"]
 
@@ -110,3 +113,31 @@ def parts_for(elements: list[Any], index: list[int], gum_values: Array) -> list[
                           estimate=element.estimate,
                           standard_uncertainty=math.sqrt(element.variance), dof=element.dof))
     return parts
+
+
+def certified_from_combined(cert: Any, stability_dof: float
+                            ) -> "CertifiedSimulation | None":
+    """The Monte Carlo of the certified value (``certified_mc``) when its characterization
+    is a combined value: the combined value's trials (which already hold each method's
+    repeatability) take the place of the characterization model's, with no further
+    repeatability term; None without Monte Carlo trials."""
+    from .certified_mc import simulate_certified
+
+    combined = cert.methods.combined_monte_carlo
+    if combined is None:
+        return None
+    used = dict(cert.components)
+    h = cert.homogeneity
+    components = ((used["homogeneity"], float(h.dof_between) if h else math.inf),
+                  (used["long_term_stability"], stability_dof),
+                  (used["short_term_stability"], math.inf))
+    stated = cert.coverage_probability
+    model = cert.campaign.model
+    value = cert.methods.combined.value
+    return simulate_certified(
+        model_samples=combined.samples, model_estimate=value, scale=1.0, runs_mean=value,
+        s=0.0, n=2, components=components,
+        coverage=stated if stated is not None else model.settings.coverage,
+        seed=model.settings.seed, gum=None if stated is None else (
+            cert.certified_value, cert.standard_uncertainty, cert.expanded_uncertainty),
+        digits=model.settings.digits)

@@ -47,7 +47,7 @@ def result_document(result: Result) -> dict[str, Any]:
         "coverage": result.budget.measurands[0].coverage_probability,
         "seed": seed,
         "measurands": [
-            {**_measurand(b, simulation.measurands[k] if simulation else None),
+            {**measurand_document(b, simulation.measurands[k] if simulation else None),
              "reported": reported_document(result.reported_for(b.name))}
             for k, b in enumerate(result.budget.measurands)],
         "reported_interval": (result.reported[0].method if result.reported else "gum"),
@@ -106,7 +106,7 @@ def _convention(result: Result) -> str | None:
     return result.model.settings.atomic_weights if used else None
 
 
-def _measurand(budget: MeasurandBudget, simulation: MeasurandSimulation | None
+def measurand_document(budget: MeasurandBudget, simulation: MeasurandSimulation | None
                ) -> dict[str, Any]:
     document: dict[str, Any] = {
         "name": budget.name,
@@ -126,7 +126,7 @@ def _measurand(budget: MeasurandBudget, simulation: MeasurandSimulation | None
         "type_a_share": budget.type_a_share,
     }
     if simulation is not None:
-        document["monte_carlo"] = _simulation(simulation)
+        document["monte_carlo"] = simulation_document(simulation)
     return document
 
 
@@ -137,7 +137,7 @@ def _contribution(c: Any) -> dict[str, Any]:
             "contribution": c.contribution, "share": c.share}
 
 
-def _simulation(s: MeasurandSimulation) -> dict[str, Any]:
+def simulation_document(s: MeasurandSimulation) -> dict[str, Any]:
     document: dict[str, Any] = {
         "trials": s.trials, "mean": s.mean, "u": s.standard_uncertainty,
         "interval": list(s.interval), "shortest_interval": list(s.shortest_interval),

@@ -12,6 +12,7 @@ root only, so anything else that escapes is a bug in ``budget`` and shows as one
     ├── InputError       (also ValueError)   missing/invalid keys and numbers, correlations
     ├── CampaignError    (also ValueError)   campaign files and their CSV data
     │   └── DataFileError                    a data table: encoding, separators, cells
+    ├── NotFoundError    (also KeyError)     a lookup by a name the result does not have
     ├── PropagationError                     the model cannot be evaluated at the estimates
     └── SimulationError                      Monte Carlo cannot give a result
 
@@ -27,7 +28,8 @@ from typing import Iterable
 
 __all__ = [
     "BudgetError", "ModelSyntaxError", "UnknownNameError", "UnitError", "InputError",
-    "CampaignError", "DataFileError", "PropagationError", "SimulationError", "Location",
+    "CampaignError", "DataFileError", "NotFoundError", "PropagationError", "SimulationError",
+    "Location",
     "did_you_mean",
 ]
 
@@ -82,6 +84,13 @@ class CampaignError(BudgetError, ValueError):
 
 class DataFileError(CampaignError):
     """A data table (CSV or workbook) that cannot be read as declared."""
+
+
+class NotFoundError(BudgetError, KeyError):
+    """A lookup (``budget.measurand("w")``, ``model.input("x")``) by a name that is not there."""
+
+    def __str__(self) -> str:  # KeyError would show the message in quotes
+        return str(self.args[0]) if self.args else ""
 
 
 class PropagationError(BudgetError):

@@ -79,16 +79,38 @@ class MeasurandBudget:
         """Percentage of the uncorrelated variance that comes from Type A inputs."""
         return math.fsum(c.share for c in self.contributions if c.type == "A")
 
-    def to_frame(self) -> Any:
-        """The budget table as a pandas DataFrame, one row per input."""
-        import pandas as pd
+    def __repr__(self) -> str:
+        from .notebook import short
 
-        rows = [{"input": c.input, "estimate": c.estimate, "unit": c.unit,
-                 "u": c.standard_uncertainty,
-                 "distribution": c.distribution, "type": c.type, "dof": c.dof,
-                 "sensitivity": c.sensitivity, "contribution": c.contribution,
-                 "share": c.share} for c in self.contributions]
-        return pd.DataFrame(rows).set_index("input")
+        value, u = short(self.estimate, self.combined_uncertainty)
+        expanded = short(self.estimate, self.expanded_uncertainty)[1]
+        return (f"<MeasurandBudget {self.name}: y = {value} {self.unit}, u_c = {u}, "
+                f"k = {self.coverage_factor:.3g}, U = {expanded} "
+                f"({len(self.contributions)} inputs)>")
+
+    def summary(self, digits: int = 2) -> str:
+        """The terminal table and the GUM lines."""
+        from .table import _rows, _summary
+
+        return "\n".join([*_rows(self, digits), "", *_summary(self, digits)])
+
+    def _repr_html_(self) -> str:
+        from .notebook import budget_html
+
+        return budget_html([self], 2)
+
+    def to_frame(self) -> Any:
+        """The budget as a DataFrame: one row per input (index ``input``), the JSON keys as
+        columns, the totals (``value``, ``u``, ``dof``, ``k``, ``U``) in ``attrs``."""
+        from .notebook import budget_frame
+
+        return budget_frame(self)
+
+    def to_dict(self) -> dict[str, Any]:
+        """This measurand's part of the JSON result document."""
+        from .document import measurand_document
+
+        return measurand_document(self, None)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -103,10 +125,37 @@ class Budget:
     warnings: tuple[str, ...] = field(default=())
 
     def measurand(self, name: str) -> MeasurandBudget:
-        for item in self.measurands:
-            if item.name == name:
-                return item
-        raise KeyError(name)
+        """The budget of measurand ``name`` (a ``KeyError`` with a "did you mean")."""
+        from .notebook import lookup
+
+        return lookup(self.measurands, name, "measurand")
+
+    def __repr__(self) -> str:
+        names = ", ".join(m.name for m in self.measurands)
+        return f"<Budget of {names}: {len(self.model.inputs)} inputs>"
+
+    def summary(self, digits: int = 2) -> str:
+        return "\n\n".join(f"{m.name} [{m.unit}]\n{m.summary(digits)}"
+                           for m in self.measurands)
+
+    def _repr_html_(self) -> str:
+        from .notebook import budget_html
+
+        return budget_html(self.measurands, 2, title=self.model.title)
+
+    def to_frame(self) -> Any:
+        """All measurands' budgets, indexed by (``measurand``, ``input``); the totals of
+        each measurand in ``attrs["measurands"]``."""
+        from .notebook import budget_rows, budget_totals, frame
+
+        rows = [{"measurand": m.name, **row} for m in self.measurands for row in budget_rows(m)]
+        return frame(rows, ["measurand", "input"],
+                     {"measurands": {m.name: budget_totals(m) for m in self.measurands}})
+
+    def to_dict(self) -> dict[str, Any]:
+        from .document import measurand_document
+
+        return {"measurands": [measurand_document(m, None) for m in self.measurands]}
 
 
 def coverage_factor(coverage: float, dof: float) -> float:

@@ -153,20 +153,49 @@ class Model:
     chain: tuple[Any, ...] = field(default=())  # chained.Link: results of earlier models
 
     def input(self, name: str) -> Input:
-        for item in self.inputs:
-            if item.name == name:
-                return item
-        raise KeyError(name)
+        """The input called ``name`` (a ``KeyError`` with a "did you mean")."""
+        from .notebook import lookup
+
+        return lookup(self.inputs, name, "input")
 
     def correlation_matrix(self) -> np.ndarray:
         return corr.matrix([i.name for i in self.inputs], self.correlations)
 
-    def with_uncertainty(self, name: str, factor: float) -> "Model":
-        """A what-if copy in which one input's uncertainty is scaled by ``factor``."""
-        from .whatif import scaled_input
+    def with_uncertainty(self, name: str, *, u: float | None = None,
+                         factor: float | None = None) -> "Model":
+        """A what-if copy in which input ``name`` has the standard uncertainty ``u`` (in the
+        input's unit), or its uncertainty multiplied by ``factor``: give exactly one.
+        Every width of the distribution changes in proportion; its shape is kept."""
+        from .whatif import input_with_uncertainty
 
-        inputs = tuple(scaled_input(i, factor) if i.name == name else i for i in self.inputs)
-        return self.changed(inputs, f"u({name}) × {factor:g}")
+        self.input(name)  # a KeyError with a "did you mean" for an unknown name
+        inputs = tuple(input_with_uncertainty(i, u=u, factor=factor) if i.name == name
+                       else i for i in self.inputs)
+        change = f"u({name}) = {u:g}" if u is not None else f"u({name}) × {factor:g}"
+        return self.changed(inputs, change)
+
+    def with_value(self, name: str, value: float) -> "Model":
+        """A what-if copy in which input ``name`` has the estimate ``value`` (its unit);
+        the distribution moves with it and keeps its widths."""
+        from .whatif import input_with_value
+
+        self.input(name)
+        inputs = tuple(input_with_value(i, value) if i.name == name else i
+                       for i in self.inputs)
+        return self.changed(inputs, f"{name} = {value:g}")
+
+    def with_distribution(self, name: str, distribution: Any) -> "Model":
+        """A what-if copy in which input ``name`` is drawn from ``distribution``: a shape
+        name (``"normal"``, ``"rectangular"``, ``"triangular"``, ``"arcsine"``) keeping the
+        estimate and the standard uncertainty, or a distribution object
+        (``budget.distributions.Rectangular(estimate=…, half_width=…)`` …)."""
+        from .whatif import input_with_distribution
+
+        self.input(name)
+        inputs = tuple(input_with_distribution(i, distribution) if i.name == name else i
+                       for i in self.inputs)
+        shown = distribution if isinstance(distribution, str) else distribution.name
+        return self.changed(inputs, f"{name} drawn from a {shown} distribution")
 
 
 def load_model(path: str | Path, *, register: Path | None = None, **overrides: Any

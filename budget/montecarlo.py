@@ -81,6 +81,36 @@ class MeasurandSimulation:
     validation: Validation | None
     samples: np.ndarray = field(repr=False, compare=False)  # in trial order, joint
 
+    def __repr__(self) -> str:
+        from .notebook import short
+
+        mean, u = short(self.mean, self.standard_uncertainty, 3)
+        verdict = "" if self.validation is None else (
+            ", GUM validated" if self.validation.validated else ", GUM NOT validated")
+        return (f"<MeasurandSimulation {self.name}: {self.trials:,} trials, y = {mean} "
+                f"{self.unit}, u = {u}{verdict}>")
+
+    def summary(self, digits: int = 2) -> str:
+        from .notebook import simulation_text
+
+        return simulation_text(self, digits)
+
+    def _repr_html_(self) -> str:
+        from .notebook import simulation_html
+
+        return simulation_html([self])
+
+    def to_frame(self) -> Any:
+        """One row (index ``name``): the JSON keys, intervals as ``*_low``/``*_high``."""
+        from .notebook import simulation_frame
+
+        return simulation_frame([self], {})
+
+    def to_dict(self) -> dict[str, Any]:
+        from .document import simulation_document
+
+        return simulation_document(self)
+
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Simulation:
@@ -94,7 +124,40 @@ class Simulation:
     warnings: tuple[str, ...] = ()
 
     def measurand(self, name: str) -> MeasurandSimulation:
-        return next(m for m in self.measurands if m.name == name)
+        """The simulation of measurand ``name`` (a ``KeyError`` with a "did you mean")."""
+        from .notebook import lookup
+
+        return lookup(self.measurands, name, "measurand")
+
+    def __repr__(self) -> str:
+        names = ", ".join(m.name for m in self.measurands)
+        return f"<Simulation of {names}: {self.trials:,} trials, seed {self.seed}>"
+
+    def summary(self, digits: int = 2) -> str:
+        p = f"{100 * self.coverage_probability:g} %"
+        return "\n".join(m.summary(digits).replace("interval", f"{p} interval", 1)
+                         for m in self.measurands)
+
+    def _repr_html_(self) -> str:
+        from .notebook import simulation_html
+
+        return simulation_html(self.measurands)
+
+    def to_frame(self) -> Any:
+        """One row per measurand; ``trials``, ``seed``, ``coverage`` in ``attrs``."""
+        from .notebook import simulation_frame
+
+        return simulation_frame(self.measurands, {
+            "trials": self.trials, "seed": self.seed, "coverage": self.coverage_probability,
+            "adaptive": self.adaptive})
+
+    def to_dict(self) -> dict[str, Any]:
+        from .document import simulation_document
+
+        return {"trials": self.trials, "seed": self.seed,
+                "coverage": self.coverage_probability, "adaptive": self.adaptive,
+                "measurands": {m.name: simulation_document(m) for m in self.measurands},
+                "warnings": list(self.warnings)}
 
 
 def block_size(model: Model) -> int:
@@ -294,6 +357,14 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
                 f"correlated Student-t inputs ({', '.join(i.name for i in t_members)}): "
                 "drawn as correlated normals over independent √(χ²_ν/ν); the correlation "
                 "of the draws is somewhat below the stated r")
+        t_sets = {in_sets[i][0] for i in group if i in in_sets and math.isfinite(in_sets[i][1])}
+        if t_sets and (len(t_sets) > 1 or members):
+            names = ", ".join(model.inputs[i].name for i in group)
+            warnings.append(
+                f"inputs estimated together are correlated with inputs outside their set "
+                f"({names}): each set is drawn as its own multivariate t on one Gaussian "
+                "correlation structure; the correlation across sets differs slightly from "
+                "the stated r")
     return warnings
 
 

@@ -13,7 +13,9 @@ _LIBRARIES = ("numpy", "scipy", "sympy", "pint", "pandas", "jinja2")
 
 
 def versions() -> dict[str, str]:
-    found = {"budget": _version("budget"), "python": platform.python_version()}
+    from . import __version__
+
+    found = {"budget": __version__, "python": platform.python_version()}
     for name in _LIBRARIES:
         found[name] = _version(name)
     return found

@@ -155,7 +155,21 @@ def _reported_statement(result: Result, b: MeasurandBudget, digits: int, unit: s
 def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any]:
     measurand = result.model.measurands[k]
     simulation = result.simulation.measurands[k] if result.simulation else None
-    digits = result.digits
+    view = budget_view(b, result.digits, simulation)
+    view.update({"description": measurand.description, "equation": measurand.equation,
+                 "math": model_view_math(result, k),
+                 "statement": _reported_statement(result, b, result.digits, view["unit"]),
+                 "method": f"Reported interval: {result.reported_for(b.name).description}.",
+                 # a chained model's earlier models are reached through their results
+                 "sensitivity": sensitivity_view(
+                     result.model, k, {c.input: c.sensitivity for c in b.contributions})})
+    return view
+
+
+def budget_view(b: MeasurandBudget, digits: int,
+                simulation: MeasurandSimulation | None = None) -> dict[str, Any]:
+    """The budget table, GUM lines, chart and Monte Carlo part of one measurand, from the
+    budget alone (the report adds the model's equations; the notebook shows this)."""
     unit = display_unit(b.unit)
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
     chart_rows = [(name_text(c.input), c.share) for c in
@@ -164,10 +178,7 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
                    for t in b.correlation_terms]
     return {
         "name": b.name, "shown": Markup(name_html(b.name)), "unit": unit,
-        "description": measurand.description, "equation": measurand.equation,
-        "math": model_view_math(result, k),
-        "statement": _reported_statement(result, b, digits, unit),
-        "method": f"Reported interval: {result.reported_for(b.name).description}.",
+        "statement": result_statement(b, digits, unit=unit),
         "rows": [_row_view(c, unit, digits) for c in b.contributions],
         "correlation_terms": [{"pair": Markup(f"{name_html(t.inputs[0])}, "
                                               f"{name_html(t.inputs[1])}"), "r": f"{t.r:g}",
@@ -180,9 +191,6 @@ def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any
         "second_order": None if b.second_order_variance is None else
         format_number(b.first_order_uncertainty, 3),
         "chart": bar_chart(chart_rows, "%", f"shares of u_c² of {name_text(b.name)}"),
-        # a chained model's earlier models are reached through their results
-        "sensitivity": sensitivity_view(result.model, k,
-                                        {c.input: c.sensitivity for c in b.contributions}),
         "mc": _simulation_view(b, simulation, digits, unit) if simulation else None,
     }
 
@@ -285,6 +293,14 @@ def _certification_view(cert: Any) -> dict[str, Any]:
         view["stability_studies"] = studies_view(cert.stability_studies,
                                                  cert.campaign.model.settings.digits)
     return view
+
+
+def render_notebook(*, title: str, measurands: list[dict[str, Any]],
+                    tables: list[dict[str, Any]]) -> str:
+    """An HTML fragment for a notebook: the report's tables and charts, scoped styles."""
+    html: str = _environment().get_template("notebook.html.j2").render(
+        title=title, measurands=measurands, tables=tables)
+    return html
 
 
 def render_difference_report(difference: Any, digits: int = 2) -> str:

@@ -10,7 +10,7 @@ import pytest
 from budget.analysis import evaluate
 from budget.audit_view import audit_view, element_rows
 from budget.equations_view import sensitivity_view
-from budget.explain import explain
+from budget.explanation import explain
 from budget.model import load_model
 from budget.report import render_report
 from budget.typeset import name_html

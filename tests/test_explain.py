@@ -9,7 +9,7 @@ import json
 import pytest
 
 from budget.analysis import evaluate
-from budget.explain import explain
+from budget.explanation import explain
 
 from conftest import MODELS, model
 

@@ -399,3 +399,36 @@ def test_monte_carlo_of_the_combined_value(tmp_path: Path) -> None:
     assert simulation.mean == pytest.approx(methods.combined.value,
                                             abs=5 * expected / math.sqrt(200_000))
     assert simulation.samples.size == 200_000
+
+
+def test_monte_carlo_of_a_certified_combined_value() -> None:
+    # the certified value's Monte Carlo (certified_mc) takes the combined value's trials as
+    # its characterization: its variance is u^2 of those trials plus the other components
+    # drawn as t (u^2 nu/(nu - 2) for finite nu, JCGM 101 6.4.9). Tolerance: five standard
+    # errors of a standard deviation from 100,000 trials with excess kurtosis up to 6:
+    # 5 * 0.5 * sqrt(8 / 100,000) = 2.2 % (common practice)
+    cert = certify(load_campaign(DEMO / "campaign-methods.toml"), trials=100_000)
+    combined = cert.methods.combined_monte_carlo
+    parts = dict(cert.components)
+    nu_bb, nu_lts = cert.homogeneity.dof_between, cert.stability_studies.series[0].dof
+    expected = math.sqrt(combined.standard_uncertainty ** 2
+                         + parts["homogeneity"] ** 2 * nu_bb / (nu_bb - 2)
+                         + parts["long_term_stability"] ** 2 * nu_lts / (nu_lts - 2)
+                         + parts["short_term_stability"] ** 2)
+    assert cert.simulation is not None
+    assert cert.simulation.standard_uncertainty == pytest.approx(expected, rel=0.022)
+    assert cert.simulation.mean == pytest.approx(cert.certified_value,
+                                                 abs=5 * expected / math.sqrt(100_000))
+
+
+def test_compare_only_keeps_the_first_methods_monte_carlo() -> None:
+    # compared only: the certified value's Monte Carlo is the first method's, as with one
+    campaign = load_campaign(DEMO / "campaign-methods.toml")
+    compared = replace(campaign, methods=replace(campaign.methods, rule=None, combined=()))
+    cert = certify(compared, trials=20_000)
+    one = certify(load_campaign(DEMO / "campaign.toml"), trials=20_000)
+    assert cert.simulation is not None
+    assert cert.simulation.mean == pytest.approx(cert.certified_value,
+                                                 abs=5 * cert.standard_uncertainty
+                                                 / math.sqrt(20_000))
+    assert cert.characterization.mean == one.characterization.mean

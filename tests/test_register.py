@@ -292,7 +292,7 @@ def test_a_what_if_copy_never_carries_the_files_digest(cli):
     from budget.document import result_document
 
     model = load_model(DEMO / "coulometric-purity.toml")
-    changed = model.with_uncertainty("R_s", 0.5)
+    changed = model.with_uncertainty("R_s", factor=0.5)
     document = result_document(evaluate(changed, trials=0))
     assert document["model_sha256"] is None
     assert document["provenance"]["model_sha256"] is None

@@ -8,6 +8,7 @@ library's ``datetime``.
 from __future__ import annotations
 
 import datetime as dt
+import math
 
 from budget.campaign import load_campaign
 from budget.certification import certify
@@ -59,3 +60,81 @@ def test_an_expiry_found_through_day_first_run_dates(tmp_path):
     assert dt.date(2026, 1, 20) in cert.run_dates
     assert any("certificate 'R10'" in w and "expired on 2026-01-20" in w
                for w in cert.warnings)
+
+
+STAGE1 = """
+title = "stage 1 (a line with intercept and slope estimated together)"
+
+[measurands.y]
+equation = "b0 + b1 * x"
+
+[inputs.b0]
+value = 1.0
+u = 0.02
+dof = 6
+
+[inputs.b1]
+value = 2.0
+u = 0.01
+dof = 6
+
+[inputs.x]
+value = 3.0
+u = 0.05
+
+[[correlations]]
+between = ["{a}", "{b}"]
+r = -0.8
+"""
+
+STAGE2 = """
+title = "stage 2"
+
+[measurands.z]
+equation = "y1 * x2"
+
+[inputs.y1]
+result_of = "stage1.toml"
+measurand = "y"
+shares = { x2 = "x" }
+
+[inputs.x2]
+value = 3.0
+u = 0.05
+"""
+
+
+def _stages(tmp_path, a, b):
+    from budget.analysis import evaluate
+    from budget.chained import stages
+    from budget.model import load_model
+
+    (tmp_path / "stage1.toml").write_text(STAGE1.format(a=a, b=b), encoding="utf-8")
+    (tmp_path / "stage2.toml").write_text(STAGE2, encoding="utf-8")
+    model = load_model(tmp_path / "stage2.toml")
+    budget = evaluate(model, trials=0).budget.measurands[0]
+    return {s.label: s for s in stages(model, budget)}, budget
+
+
+def test_stage_shares_include_the_earlier_models_own_correlation(tmp_path):
+    # Found: "Share of u_c² by stage" printed 99.3 % + 2.7 % = 102 %: the correlation term
+    # r(b0, b1) of stage 1 was left out of its stage.
+    # Hand computation (GUM eq. (16)): z = (b0 + b1·x)·x, c_b0 = x = 3, c_b1 = x² = 9,
+    # c_x = b0 + 2·b1·x = 13; stage 1: (3·0.02)² + (9·0.01)² + 2·3·9·(−0.8)·0.02·0.01
+    # = 0.0036 + 0.0081 − 0.00864 = 0.00306; this model: (13·0.05)² = 0.4225.
+    found, budget = _stages(tmp_path, "b0", "b1")
+    assert math.isclose(found["y1"].variance, 0.00306, rel_tol=1e-9)
+    assert math.isclose(found[""].variance, 0.4225, rel_tol=1e-9)
+    assert math.isclose(sum(s.share for s in found.values()), 100.0, rel_tol=1e-9)
+    assert math.isclose(sum(s.variance for s in found.values()),
+                        budget.combined_uncertainty ** 2, rel_tol=1e-12)
+
+
+def test_a_correlation_across_stages_is_a_row_of_its_own(tmp_path):
+    # stage 1 correlates its b0 with x, which stage 2 shares as x2: the term
+    # 2·c_b0·c_x·r·u_b0·u_x = 2·3·13·(−0.8)·0.02·0.05 = −0.0624 (hand computation)
+    from budget.chained import BETWEEN_STAGES
+
+    found, budget = _stages(tmp_path, "b0", "x")
+    assert math.isclose(found[BETWEEN_STAGES].variance, -0.0624, rel_tol=1e-9)
+    assert math.isclose(sum(s.share for s in found.values()), 100.0, rel_tol=1e-9)

@@ -17,7 +17,7 @@ from scipy import stats
 
 from budget.analysis import evaluate
 from budget.errors import InputError
-from budget.explain import explain
+from budget.explanation import explain
 from budget.gum import propagate
 from budget.model import load_model
 from budget.montecarlo import simulate
@@ -364,3 +364,30 @@ def test_many_correlated_groups_give_one_warning_and_a_short_rule():
         "[[estimated_together]] (x0, x1; x2, x3; x4, x5 and 37 more groups)")
     # each pair: v = 2·0.01·(1 + 0.5) = 0.03 with nu = 6; u_c^2 = 40·0.03 (GUM G.2b by hand)
     assert b.dof == pytest.approx((40 * 0.03) ** 2 / (40 * 0.03 ** 2 / 6), rel=1e-12)
+
+
+def test_a_set_correlated_outside_itself_is_drawn_with_a_warning():
+    # the set's multivariate t and an outside Gaussian share one correlation structure;
+    # the sample correlation is then below the stated r by the factor E[sqrt(nu/w)]/
+    # sqrt(nu/(nu-2)) (computed with scipy.special.gamma), and a warning says so
+    from scipy.special import gamma
+
+    text = _pair(5, 0.0).replace("[[estimated_together]]", """
+        [inputs.c]
+        value = 0
+        u = 1
+        [[correlations]]
+        between = ["a", "c"]
+        r = 0.8
+        [[estimated_together]]""").replace('equation = "b"', 'equation = "c"')
+    trials = 200_000
+    sim = simulate(model(text), trials=trials, seed=8)
+    assert any(w.startswith("inputs estimated together are correlated with inputs outside "
+                            "their set (a, b, c)") for w in sim.warnings)
+    nu = 5
+    mean_scale = math.sqrt(nu / 2) * gamma((nu - 1) / 2) / gamma(nu / 2)  # E[sqrt(nu/w)]
+    expected = 0.8 * mean_scale / math.sqrt(nu / (nu - 2))
+    r = float(np.corrcoef(sim.measurands[0].samples, sim.measurands[1].samples)[0, 1])
+    # 5 standard errors of a sample correlation, (1 - r^2)/sqrt(M) < 1/sqrt(M), doubled for
+    # the heavy t_5 tails of one of the pair
+    assert r == pytest.approx(expected, abs=10 / math.sqrt(trials))

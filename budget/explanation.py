@@ -1,5 +1,7 @@
 """The auditor's answer: what dominates the uncertainty, why, and what would reduce it.
 
+This module computes; ``explanation_view`` writes the answer as text and as JSON.
+
 Method:
 
 * ranking by the share 100·(c_i u_i)²/u_c² of the GUM budget (JCGM 100 5.1.3), Type A
@@ -25,12 +27,12 @@ import numpy as np
 
 from .analysis import Result
 from .evaluation import compile_model
-from .formatting import format_number, format_pair, format_percent
+from .formatting import format_number, format_percent
 from .gum import propagate
 from .model import Model
-from .unit_display import display_unit, terminal_unit
+from .unit_display import display_unit
 
-__all__ = ["Driver", "SobolIndex", "Explanation", "explain", "render", "explanation_document"]
+__all__ = ["Driver", "SobolIndex", "Explanation", "explain", "draw_inputs"]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -74,6 +76,39 @@ class Explanation:
     sobol_notes: tuple[str, ...]
     target: float | None
 
+    def __repr__(self) -> str:
+        lead = ", ".join(f"{d.input} {format_percent(d.share)} %" for d in self.drivers)
+        return f"<Explanation of {self.name}: {lead} of u_c²>"
+
+    def summary(self, digits: int = 2) -> str:
+        """The plain-language answer of ``budget explain``."""
+        from .explanation_view import render
+
+        return render((self,), digits)
+
+    def _repr_html_(self) -> str:
+        from .notebook import explanation_html
+
+        return explanation_html(self)
+
+    def to_frame(self) -> Any:
+        """One row per input named (leading inputs first), columns as in the JSON."""
+        from .notebook import frame
+
+        document = self.to_dict()
+        rows = [*document["drivers"], *document["others"]]
+        totals = {key: document[key] for key in ("name", "unit", "value", "u", "U", "k",
+                                                 "type_a_share", "type_b_share",
+                                                 "correlation_share", "validated")}
+        return frame(rows, "input", totals)
+
+    def to_dict(self) -> dict[str, Any]:
+        """This measurand's part of the ``budget explain --json`` document."""
+        from .explanation_view import explanation_document
+
+        measurand: dict[str, Any] = explanation_document((self,))["measurands"][0]
+        return measurand
+
 
 def explain(result: Result, *, target: float | None = None, leading: int = 3,
             sobol_trials: int = 1 << 15) -> tuple[Explanation, ...]:
@@ -105,7 +140,7 @@ def explain(result: Result, *, target: float | None = None, leading: int = 3,
 
 def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
             target: float | None) -> Driver:
-    halved = propagate(model.with_uncertainty(c.input, 0.5), coverage).measurands[k]
+    halved = propagate(model.with_uncertainty(c.input, factor=0.5), coverage).measurands[k]
     needed = reached = None
     if target is not None and c.standard_uncertainty > 0 and c.sensitivity != 0:
         rest = budget.combined_uncertainty ** 2 - c.contribution ** 2
@@ -113,7 +148,7 @@ def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
         if room > 0:
             needed = math.sqrt(room) / abs(c.sensitivity)
             factor = needed / c.standard_uncertainty
-            reached = propagate(model.with_uncertainty(c.input, factor),
+            reached = propagate(model.with_uncertainty(c.input, factor=factor),
                                 coverage).measurands[k].expanded_uncertainty
     return Driver(input=c.input, share=c.share, contribution=c.contribution,
                   distribution=c.distribution, type=c.type,
@@ -207,78 +242,3 @@ def _sobol(result: Result, k: int, n: int) -> tuple[tuple[SobolIndex, ...], tupl
                          "interaction)")
     indices.sort(key=lambda s: -s.first_order)
     return tuple(indices), tuple(notes)
-
-
-def render(explanations: tuple[Explanation, ...], digits: int = 2) -> str:
-    """Plain-language answer, most important first."""
-    blocks = [_text(e, digits) for e in explanations]
-    return "\n\n".join(blocks)
-
-
-def _text(e: Explanation, digits: int) -> str:
-    value, expanded = format_pair(e.estimate, e.expanded_uncertainty, digits)
-    unit = terminal_unit(e.unit)
-    lines = [f"{e.name} = ({value} ± {expanded}) {unit}  (k = {e.coverage_factor:.3g})", ""]
-    first = e.drivers[0]
-    lines.append(f"1. {first.input} dominates: {format_percent(first.share)} % of u_c² "
-                 f"({first.distribution}, Type {first.type}).")
-    for n, d in enumerate(e.drivers[1:], start=2):
-        lines.append(f"{n}. then {d.input}: {format_percent(d.share)} % ({d.distribution}, "
-                     f"Type {d.type}).")
-    if e.others:
-        rest = ", ".join(f"{name} {format_percent(share)} %" for name, share in e.others[:6])
-        lines.append(f"   the others: {rest}{' …' if len(e.others) > 6 else ''}")
-    lines.append(f"Type A inputs give {format_percent(e.type_a_share)} % of u_c², Type B "
-                 f"{format_percent(e.type_b_share)} %"
-                 + (f", correlation terms {format_percent(e.correlation_share)} %."
-                    if e.correlation_share else "."))
-    lines += ["", "Linear approximation (GUM) against Monte Carlo (JCGM 101):"]
-    lines += [f"  - {r}" for r in e.reasons]
-    lines += ["", "What would reduce U:"]
-    for d in e.drivers:
-        halved = format_pair(e.estimate, d.halved_expanded_uncertainty, digits)[1]
-        lines.append(f"  - halving u({d.input}) gives U = {halved} {unit} (now {expanded})")
-        if e.target is not None:
-            lines.append("    " + _target_text(e, d, digits))
-    if e.sobol:
-        lines += ["", "Variance-based first-order indices (Saltelli et al. 2010), Monte Carlo:"]
-        for s in e.sobol[:6]:
-            lines.append(f"  - {s.input}: S = {s.first_order:.3f} ± {s.standard_error:.3f} "
-                         f"(linear share {format_percent(s.linear_share)} %)")
-    lines += [f"  note: {n}" for n in e.sobol_notes]
-    return "\n".join(lines)
-
-
-def _target_text(e: Explanation, d: Driver, digits: int) -> str:
-    target = format_pair(e.estimate, e.target or 0.0, digits)[1]
-    if d.needed_standard_uncertainty is None or d.reached_expanded_uncertainty is None:
-        return (f"U = {target} {terminal_unit(e.unit)} cannot be reached by improving "
-                f"{d.input} alone")
-    reached = format_pair(e.estimate, d.reached_expanded_uncertainty, digits)[1]
-    needed = format_number(d.needed_standard_uncertainty, 2)
-    return (f"for U = {target} {terminal_unit(e.unit)}: u({d.input}) ≤ {needed} "
-            f"{terminal_unit(d.unit)} (now {format_number(d.standard_uncertainty, 2)}; "
-            f"rerun gives U = "
-            f"{reached})")
-
-
-def explanation_document(explanations: tuple[Explanation, ...]) -> dict[str, Any]:
-    def driver(d: Driver) -> dict[str, Any]:
-        return {"input": d.input, "share": d.share, "contribution": d.contribution,
-                "distribution": d.distribution, "type": d.type, "u": d.standard_uncertainty,
-                "unit": d.unit, "U_if_halved": d.halved_expanded_uncertainty,
-                "u_needed": d.needed_standard_uncertainty,
-                "U_reached": d.reached_expanded_uncertainty}
-
-    return {"measurands": [{
-        "name": e.name, "unit": e.unit, "value": e.estimate, "u": e.combined_uncertainty,
-        "U": e.expanded_uncertainty, "k": e.coverage_factor,
-        "drivers": [driver(d) for d in e.drivers],
-        "others": [{"input": n, "share": s} for n, s in e.others],
-        "type_a_share": e.type_a_share, "type_b_share": e.type_b_share,
-        "correlation_share": e.correlation_share, "validated": e.validated,
-        "reasons": list(e.reasons), "target": e.target,
-        "sobol": [{"input": s.input, "first_order": s.first_order,
-                   "standard_error": s.standard_error, "linear_share": s.linear_share}
-                  for s in e.sobol],
-        "sobol_notes": list(e.sobol_notes)} for e in explanations]}
