@@ -96,21 +96,28 @@ def _sentence(cert: Any) -> Markup:
 
 
 def _method(cert: Any) -> str:
-    """How the characterization's u was obtained and whether Monte Carlo validates it (the
-    reported interval's own method is stated by ``certification_view``)."""
+    chosen = cert.reported_result
+    if chosen.monte_carlo:  # JCGM 101 8.2: the Monte Carlo interval is the certificate's
+        trials = cert.simulation.trials if cert.simulation is not None else 0
+        return (f"The interval is the Monte Carlo one ({chosen.description}): the certified "
+                f"value was propagated by Monte Carlo ({trials:,} trials), the "
+                "characterization model, its repeatability, the between-unit and the "
+                "stability components each drawn from its distribution (JCGM 101, ISO "
+                "Guide 35).")
     result = cert.characterization.result
     simulation = result.simulation
-    text = ("u of the characterization model comes from the law of propagation "
-            "(JCGM 100)")
+    text = ("The interval is the GUM one, ±k·u(CRM), u(CRM) combining characterization, "
+            "between-unit homogeneity and stability (ISO Guide 35); u of the "
+            "characterization model comes from the law of propagation (JCGM 100)")
     if simulation is None or not simulation.trials:
-        return text + "; no Monte Carlo check of it was run."
+        return text + "; no Monte Carlo check was run."
     index = [m.name for m in result.model.measurands].index(cert.campaign.measurand)
     validation = simulation.measurands[index].validation
     if validation is None:
         return text + f", checked by Monte Carlo ({simulation.trials:,} trials, JCGM 101)."
     verdict = "validates" if validation.validated else "does not validate"
-    return (text + f"; its Monte Carlo check ({simulation.trials:,} trials, JCGM 101 8.2) "
-            f"{verdict} that linear result.")
+    return (text + f"; Monte Carlo ({simulation.trials:,} trials, JCGM 101 8.2) {verdict} "
+            "that linear result.")
 
 
 def certificate_warnings(cert: Any) -> list[str]:
