@@ -372,7 +372,9 @@ def check(model_file: str, strict: bool) -> None:
     shown = "<stdin>" if model_file == "-" else model_file
     _out(f"ok: {shown}: {len(model.inputs)} inputs, {len(model.measurands)} "
                f"measurand(s), {len(model.definitions)} definition(s), "
-               f"{len(model.correlations)} correlation(s)")
+               f"{len(model.correlations)} correlation(s)"
+               + (f", {len(model.estimated_together)} set(s) estimated together"
+                  if model.estimated_together else ""))
     _warn(model.warnings)
 
 
