@@ -329,7 +329,7 @@ def _from_formula(table: _Table, shape: str, dof: float, unit: Any,
 
 def _from_constant(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Statement:
     name = table.data["constant"]
-    if name not in CONSTANTS:
+    if not isinstance(name, str) or name not in CONSTANTS:  # a list or table is no name
         raise InputError(f"expected a built-in constant, one of {', '.join(CONSTANTS)}, "
                          f"found {_shown(name)}{did_you_mean(str(name), CONSTANTS)}",
                          table.where("constant"))
