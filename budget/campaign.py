@@ -92,7 +92,7 @@ class _Reader:
         campaign's folder tree (absolute, '..' or a link) unless ``allow_outside``."""
         path = self.path.parent / relative
         if self.allow_outside:
-            return path
+            return self.bounded(path, table, key, nth)
         folder = self.path.parent.resolve()
         try:
             inside = path.resolve().is_relative_to(folder)
@@ -102,6 +102,17 @@ class _Reader:
             raise self.fail(f"expected a path inside the campaign's folder, found "
                             f"'{relative}', which leads outside it (allowed only when "
                             f"paths outside the folder are allowed)", table, key, nth)
+        return self.bounded(path, table, key, nth)
+
+    def bounded(self, path: Path, table: str | None, key: str, nth: int = 0) -> Path:
+        """Refuse a data file beyond the size limit before anything reads it."""
+        try:
+            large = path.is_file() and path.stat().st_size > MAX_DATA_BYTES
+        except OSError:
+            large = False
+        if large:
+            raise self.fail(f"expected a data file of at most {MAX_DATA_BYTES // 2 ** 20} MiB "
+                            f"(limits: {LIMITS_PAGE}), found a larger file", table, key, nth)
         return path
 
     def where(self, table: str | None, key: str | None = None, nth: int = 0) -> Location:
@@ -156,9 +167,6 @@ class _Reader:
         if not path.is_file():
             raise self.fail(f"expected a file '{relative}' beside the campaign file, found "
                             "none", table, key)
-        if path.stat().st_size > MAX_DATA_BYTES:
-            raise self.fail(f"expected a data file of at most {MAX_DATA_BYTES // 2 ** 20} MiB "
-                            f"(limits: {LIMITS_PAGE}), found a larger file", table, key)
         import hashlib
 
         try:

@@ -36,6 +36,7 @@ from .campaign import Campaign, Comparison
 from .certified_mc import CertifiedSimulation, simulate_certified
 from .errors import CampaignError, Location, SimulationError
 from .reported import Reported, gum_reported
+from .special import t_cdf
 from .evaluation import compile_model
 from .gum import coverage_factor, welch_satterthwaite
 from .model import Model
@@ -365,11 +366,13 @@ def _with_monte_carlo(cert: Certification, char: Characterization | None,
         chosen = cert.reported_result
         v = simulation.validation if simulation else None
         if v is not None and not v.validated:
+            at = simulation.validation_coverage if simulation else None
+            where = "" if at is None else f" at {100 * at:.3g} %"
             cert = replace(cert, warnings=(*cert.warnings, (
-                f"certified value: Monte Carlo does not validate the GUM interval at "
-                f"{v.tolerance:.2g} {campaign.unit} (d_low = {v.d_low:.2g}, d_high = "
-                f"{v.d_high:.2g}, JCGM 101 8.2); reported_interval = \"monte_carlo\" "
-                "would state the Monte Carlo interval")))
+                f"certified value: the GUM interval is not validated by the Monte Carlo of "
+                f"the certified value{where} (d_low = {v.d_low:.2g}, d_high = "
+                f"{v.d_high:.2g}, δ = {v.tolerance:.2g} {campaign.unit}, JCGM 101 8.2); "
+                "reported_interval = \"monte_carlo\" would state the Monte Carlo interval")))
     elif simulation is None:
         raise SimulationError(
             f"{campaign.source}: [certificate] reported_interval: expected a Monte Carlo run "
@@ -403,15 +406,15 @@ def _simulate_certified(cert: Certification, char: Characterization | None,
                   (used["long_term_stability"], stability_dof),
                   (used["short_term_stability"], math.inf))
     stated = cert.coverage_probability
+    implied = 2.0 * t_cdf(cert.coverage_factor, cert.dof) - 1.0  # what ±k·u_CRM claims
     return simulate_certified(
         model_samples=sim.measurands[index].samples,
         model_estimate=char.result.budget.measurands[index].estimate,
         scale=_unit_scale(campaign, model.measurands[index].unit), runs_mean=char.mean,
         s=char.s, n=char.n, components=components,
         coverage=stated if stated is not None else model.settings.coverage, seed=sim.seed,
-        gum=None if stated is None else (cert.certified_value, cert.standard_uncertainty,
-                                         cert.expanded_uncertainty),
-        digits=model.settings.digits)
+        gum=(cert.certified_value, cert.standard_uncertainty, cert.expanded_uncertainty),
+        digits=model.settings.digits, validate_at=stated if stated is not None else implied)
 
 
 def _run_dates(campaign: Campaign) -> tuple[dt.date, ...]:

@@ -14,7 +14,8 @@ eq. (1)), the δ's with expectation zero. Each trial draws
 — the rule of ``docs/uncertainty-rules.md``: a component with finite ν is a scaled and
 shifted t (JCGM 101 6.4.9). The coverage intervals are JCGM 101 7.7.2 (probabilistically
 symmetric) and 7.7.3 (shortest); when the certificate states a coverage probability, the
-GUM certificate interval x ± k·u_CRM is validated against the symmetric one (8.2).
+GUM certificate interval x ± k·u_CRM is validated against the symmetric one (8.2) at that
+probability, else at the probability its k implies (t with ν_eff of u_CRM).
 """
 
 from __future__ import annotations
@@ -25,7 +26,7 @@ from typing import Any
 
 import numpy as np
 
-from .montecarlo import Validation, shortest_interval, tolerance
+from .montecarlo import Validation, coverage_interval, shortest_interval, tolerance
 
 __all__ = ["CertifiedSimulation", "simulate_certified"]
 
@@ -41,6 +42,7 @@ class CertifiedSimulation:
     shortest_interval: tuple[float, float]
     coverage_probability: float
     validation: Validation | None
+    validation_coverage: float | None = None  # the p at which the GUM interval was checked
 
 
 def _t(rng: np.random.Generator, dof: float, size: int) -> np.ndarray:
@@ -53,9 +55,10 @@ def simulate_certified(*, model_samples: np.ndarray, model_estimate: float, scal
                        runs_mean: float, s: float, n: int,
                        components: tuple[tuple[float, float], ...], coverage: float,
                        seed: int, gum: tuple[float, float, float] | None,
-                       digits: int) -> CertifiedSimulation:
-    """``components``: (u, ν) of δ_bb, δ_lts, δ_sts; ``gum``: (value, u, U) to validate,
-    when the certificate states a coverage probability."""
+                       digits: int, validate_at: float | None = None) -> CertifiedSimulation:
+    """``components``: (u, ν) of δ_bb, δ_lts, δ_sts; ``gum``: (value, u, U) to validate at
+    the coverage probability ``validate_at`` (default ``coverage``): the stated one, or the
+    one a certificate's k implies."""
     rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(
         seed, spawn_key=(_STREAM,))))
     size = model_samples.size
@@ -66,25 +69,22 @@ def simulate_certified(*, model_samples: np.ndarray, model_estimate: float, scal
         if u > 0.0:
             values += u * _t(rng, dof, size)
     mean, sd = float(values.mean()), float(values.std(ddof=1))
-    interval = _symmetric(values.copy(), coverage)
+    interval = coverage_interval(values.copy(), coverage)
     shortest = shortest_interval(values, coverage)
     validation = None
+    at = coverage if validate_at is None else validate_at
     if gum is not None:
         value, u_gum, expanded = gum
+        ends = interval if at == coverage else coverage_interval(values.copy(), at)
         delta = tolerance(u_gum, digits)
-        d_low = abs(value - expanded - interval[0])
-        d_high = abs(value + expanded - interval[1])
+        d_low = abs(value - expanded - ends[0])
+        d_high = abs(value + expanded - ends[1])
         validation = Validation(tolerance=delta, d_low=d_low, d_high=d_high,
                                 validated=bool(d_low <= delta and d_high <= delta))
     return CertifiedSimulation(trials=size, mean=mean, standard_uncertainty=sd,
                                interval=interval, shortest_interval=shortest,
-                               coverage_probability=coverage, validation=validation)
-
-
-def _symmetric(values: np.ndarray, coverage: float) -> tuple[float, float]:
-    from .montecarlo import coverage_interval
-
-    return coverage_interval(values, coverage)
+                               coverage_probability=coverage, validation=validation,
+                               validation_coverage=None if gum is None else at)
 
 
 def certified_document(sim: Any) -> dict[str, Any] | None:
@@ -95,6 +95,7 @@ def certified_document(sim: Any) -> dict[str, Any] | None:
     return {"trials": sim.trials, "mean": sim.mean, "u": sim.standard_uncertainty,
             "interval": list(sim.interval), "shortest_interval": list(sim.shortest_interval),
             "coverage": sim.coverage_probability,
+            "validation_coverage": sim.validation_coverage,
             "validation": None if v is None else {
                 "tolerance": v.tolerance, "d_low": v.d_low, "d_high": v.d_high,
                 "validated": v.validated}}

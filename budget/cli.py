@@ -379,7 +379,9 @@ def check(model_file: str, strict: bool) -> None:
     shown = "<stdin>" if model_file == "-" else model_file
     _out(f"ok: {shown}: {len(model.inputs)} inputs, {len(model.measurands)} "
                f"measurand(s), {len(model.definitions)} definition(s), "
-               f"{len(model.correlations)} correlation(s)")
+               f"{len(model.correlations)} correlation(s)"
+               + (f", {len(model.estimated_together)} set(s) estimated together"
+                  if model.estimated_together else ""))
     _warn(model.warnings)
 
 
@@ -461,6 +463,7 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
     from .errors import BudgetError
 
     try:
+        _check_outputs(html_file)
         difference = run_compare(load_side(before, trials=trials),
                                  load_side(after, trials=trials))
         if html_file:
@@ -472,11 +475,14 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
     if as_json:
         from .difference_view import difference_document
 
-        click.echo(json.dumps(difference_document(difference), indent=2, allow_nan=False))
+        from .document import json_safe
+
+        _out(json.dumps(json_safe(difference_document(difference)), indent=2,
+                        allow_nan=False), data=True)
     else:
         from .difference_view import render_difference
 
-        click.echo(render_difference(difference, digits), nl=False)
+        _out(render_difference(difference, digits).rstrip("\n"))
 
 
 @main.command()

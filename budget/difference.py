@@ -53,6 +53,7 @@ class MeasurandSide:
     terms: tuple[Term, ...]
     correlation_variance: float
     higher_order_variance: float
+    correlations: tuple[tuple[str, str, float], ...] = ()  # (input, input, r) as stated
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -89,10 +90,11 @@ class MeasurandChange:
     inputs: tuple[InputChange, ...]  # largest |delta| first
     correlation_delta: float
     higher_order_delta: float
+    correlation_what: tuple[str, ...] = ()  # coefficients added, removed or changed
 
     @property
     def variance_delta(self) -> float:
-        return self.after.u ** 2 - self.before.u ** 2
+        return self.after.u * self.after.u - self.before.u * self.before.u
 
     @property
     def U_from_u(self) -> float:
@@ -138,15 +140,17 @@ def _measurand_side(m: dict[str, Any]) -> MeasurandSide:
     terms = tuple(Term(input=c["input"], estimate=float(c["estimate"]), unit=str(c["unit"]),
                        u=float(c["u"]), distribution=str(c["distribution"]),
                        dof=_number(c["dof"]), sensitivity=float(c["sensitivity"]),
-                       variance=float(c["contribution"]) ** 2)
+                       variance=float(c["contribution"]) * float(c["contribution"]))
                   for c in m["contributions"])
     correlation = math.fsum(float(t["variance"]) for t in m.get("correlation_terms", []))
     higher = m.get("second_order_variance") or 0.0
+    pairs = tuple((str(t["inputs"][0]), str(t["inputs"][1]), float(t["r"]))
+                  for t in m.get("correlation_terms", []))
     return MeasurandSide(name=m["name"], unit=m["unit"], value=float(m["value"]),
                          u=float(m["u"]), k=float(m["k"]), U=float(m["U"]),
                          dof=_number(m["dof"]), terms=terms,
                          correlation_variance=correlation,
-                         higher_order_variance=float(higher))
+                         higher_order_variance=float(higher), correlations=pairs)
 
 
 def load_side(path: str | Path, *, trials: int = 0, seed: int | None = None) -> Side:
@@ -218,13 +222,30 @@ def _measurand_change(a: MeasurandSide, b: MeasurandSide) -> MeasurandChange:
     terms_a = {t.input: t for t in a.terms}
     terms_b = {t.input: t for t in b.terms}
     names = list(terms_a) + [n for n in terms_b if n not in terms_a]
-    var_a, var_b = a.u ** 2, b.u ** 2
+    var_a, var_b = a.u * a.u, b.u * b.u
     inputs = [_input_change(n, terms_a.get(n), terms_b.get(n), var_a, var_b) for n in names]
     inputs.sort(key=lambda c: -abs(c.delta))
     return MeasurandChange(name=a.name, unit=a.unit, before=a, after=b, inputs=tuple(inputs),
                            correlation_delta=b.correlation_variance - a.correlation_variance,
                            higher_order_delta=b.higher_order_variance
-                           - a.higher_order_variance)
+                           - a.higher_order_variance,
+                           correlation_what=_correlations_changed(a, b))
+
+
+def _correlations_changed(a: MeasurandSide, b: MeasurandSide) -> tuple[str, ...]:
+    """Correlation coefficients added, removed or changed, in words (r(x,y) 0.5 → 0.2)."""
+    def table(side: MeasurandSide) -> dict[frozenset[str], tuple[str, float]]:
+        return {frozenset((x, y)): (f"r({x},{y})", r) for x, y, r in side.correlations}
+
+    before, after = table(a), table(b)
+    found = []
+    for key in list(before) + [k for k in after if k not in before]:
+        name, r_a = before.get(key, after.get(key, ("", 0.0)))
+        r_b = after[key][1] if key in after else 0.0
+        r_a = r_a if key in before else 0.0
+        if not math.isclose(r_a, r_b, rel_tol=1e-12, abs_tol=0.0):
+            found.append(f"{name} {r_a:.4g} → {r_b:.4g}")
+    return tuple(found)
 
 
 def _share(variance: float, total: float) -> float:
@@ -242,8 +263,8 @@ def _input_change(name: str, a: Term | None, b: Term | None, var_a: float,
     else:
         what = _what_changed(a, b)
         status = "changed" if what else "unchanged"
-        c2a, c2b = a.sensitivity ** 2, b.sensitivity ** 2
-        u2a, u2b = a.u ** 2, b.u ** 2
+        c2a, c2b = a.sensitivity * a.sensitivity, b.sensitivity * b.sensitivity
+        u2a, u2b = a.u * a.u, b.u * b.u
         if a.unit != b.unit:  # sensitivities per different input units: split by ratio
             from_u, from_c = after - before, 0.0
         else:

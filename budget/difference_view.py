@@ -35,7 +35,8 @@ def causes(m: MeasurandChange, most: int = 5) -> list[str]:
     total = m.variance_delta
     rows = [(c.delta, _cause(c)) for c in m.inputs if c.delta != 0.0]
     if m.correlation_delta:
-        rows.append((m.correlation_delta, "correlation terms"))
+        what = f" ({'; '.join(m.correlation_what)})" if m.correlation_what else ""
+        rows.append((m.correlation_delta, "correlation terms" + what))
     if m.higher_order_delta:
         rows.append((m.higher_order_delta, "higher-order terms"))
     rows.sort(key=lambda r: -abs(r[0]))
@@ -114,6 +115,7 @@ def difference_document(diff: Difference) -> dict[str, Any]:
             "U_change_from_u": m.U_from_u, "U_change_from_k": m.U_from_k,
             "correlation_change": m.correlation_delta,
             "higher_order_change": m.higher_order_delta,
+            "correlations_changed": list(m.correlation_what),
             "causes": causes(m, most=len(m.inputs) + 2),
             "inputs": [{"input": c.input, "status": c.status, "what": list(c.what),
                         "share_before": c.share_before, "share_after": c.share_after,

@@ -41,6 +41,14 @@ def _optional(data: dict[str, Any], key: str, here: Where) -> float | None:
     return value
 
 
+def _required(data: dict[str, Any], key: str, here: Where) -> tuple[float, float]:
+    """A ``[low, high]`` window that must be given."""
+    pair = _pair(data, key, here, required=True)
+    if pair is None:  # _pair refuses a missing required window; this keeps the type plain
+        raise InputError(f"expected {key} = [low, high], found none", here(None))
+    return pair
+
+
 def _derived_inputs(made: Generated, derived: Derived, names: tuple[str, ...],
                     units: tuple[str, ...], basis: str, source: str) -> None:
     u = derived.standard_uncertainties
@@ -57,8 +65,10 @@ def _views(derived: Derived, labels: Labels) -> tuple[FitView, ...]:
                  for what, fit in derived.fits)
 
 
-def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, str],
-            labels: Labels, here: Where, made: Generated) -> None:
+def _charge_options(data: dict[str, Any], here: Where
+                    ) -> tuple[tuple[float, float] | None, str, tuple[float, float] | None,
+                               bool]:
+    """window, background, background_window and residual, checked together."""
     window = _pair(data, "window", here)
     background = _choice(data, "background", ("none", "constant", "line", "exponential"),
                          here)
@@ -72,6 +82,12 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
     if "residual" in data and background != "exponential":
         raise InputError("expected 'residual' only with background = \"exponential\", "
                          f"found background = \"{background}\"", here("residual"))
+    return window, background, tail, residual
+
+
+def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, str],
+            labels: Labels, here: Where, made: Generated) -> None:
+    window, background, tail, residual = _charge_options(data, here)
     result = charge(record, window, background, tail, residual)
     unit = f"{_delta(units['y'])}*{_delta(units['x'])}"
     source = f"record {record.file}"
@@ -89,20 +105,10 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
         _derived_inputs(made, result.background, names, (unit,) * len(names),
                         f"{background} background fitted to {background_window_text(tail)}",
                         source)
-        inner.append(f"- {names[0]}")
-        if len(names) > 1:
-            inner.append(f"+ {names[1]}")
+        inner += [f"- {names[0]}"] + [f"+ {n}" for n in names[1:]]
         notes.extend(result.background.notes)
         views = _views(result.background, labels)
-    text = f"({' '.join(inner)})"
-    for suffix, key, what in (("cal", "current_u_relative", "current calibration"),
-                              ("time", "time_u_relative", "time base")):
-        value = _optional(data, key, here)
-        if value:
-            made.inputs.append(Made(name=f"{name}_{suffix}", estimate=1.0, unit="1", u=value,
-                                    dof=math.inf, type="B", basis=f"relative {what}",
-                                    source=source))
-            text = f"{name}_{suffix} * {text}"
+    text = _corrections(name, data, here, made, source, f"({' '.join(inner)})")
     if result.rule_error != 0.0:
         made.inputs.append(Made(name=f"{name}_rule", estimate=result.rule_error, unit=unit,
                                 u=abs(result.rule_error), dof=math.inf, type="B",
@@ -115,6 +121,20 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
                                  method=f"charge by the trapezoidal rule, {background} "
                                         "background", produces=(name,), fits=views,
                                  notes=tuple(notes)))
+
+
+def _corrections(name: str, data: dict[str, Any], here: Where, made: Generated,
+                 source: str, text: str) -> str:
+    """The relative calibration factors of the current and the time base, when stated."""
+    for suffix, key, what in (("cal", "current_u_relative", "current calibration"),
+                              ("time", "time_u_relative", "time base")):
+        value = _optional(data, key, here)
+        if value:
+            made.inputs.append(Made(name=f"{name}_{suffix}", estimate=1.0, unit="1", u=value,
+                                    dof=math.inf, type="B", basis=f"relative {what}",
+                                    source=source))
+            text = f"{name}_{suffix} * {text}"
+    return text
 
 
 def background_window_text(pair: tuple[float, float] | None) -> str:
@@ -146,17 +166,15 @@ def _end_point(name: str, data: dict[str, Any], record: Series, units: dict[str,
             raise InputError(f"expected windows = [[low, high], [low, high]], found "
                              f"{'none' if windows is None else repr(windows)}",
                              here("windows" if "windows" in data else None))
-        first = _pair({"windows": windows[0]}, "windows", here, required=True)
-        second = _pair({"windows": windows[1]}, "windows", here, required=True)
-        assert first is not None and second is not None
+        first = _required({"windows": windows[0]}, "windows", here)
+        second = _required({"windows": windows[1]}, "windows", here)
         derived = intersection(record, first, second)
         described = "intersection of two fitted straight segments"
     else:
         if "windows" in data:
             raise InputError("expected one 'window' for the inflection, found 'windows'",
                              here("windows"))
-        window = _pair(data, "window", here, required=True)
-        assert window is not None
+        window = _required(data, "window", here)
         derived = inflection(record, window)
         described = "inflection point (extremum of the first derivative of a local cubic)"
     _derived_inputs(made, derived, (name,), (units["x"],), f"end point, {described}",
@@ -169,8 +187,7 @@ def _end_point(name: str, data: dict[str, Any], record: Series, units: dict[str,
 
 def _drift(name: str, data: dict[str, Any], record: Series, units: dict[str, str],
            labels: Labels, here: Where, made: Generated) -> None:
-    before = _pair(data, "before", here, required=True)
-    assert before is not None
+    before = _required(data, "before", here)
     after = _pair(data, "after", here)
     give = _choice(data, "give", ("correction", "rate"), here)
     derived = drift(record, before, after)

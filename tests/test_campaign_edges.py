@@ -79,3 +79,14 @@ def test_labels_differing_by_spaces_are_one_unit(cli, tmp_path: Path) -> None:
     assert code == 0, stderr
     homogeneity = json.loads(stdout)["homogeneity"]
     assert homogeneity["units"] == ["A", "B"] and homogeneity["counts"] == [2, 2]
+
+
+def test_a_data_file_beyond_the_size_limit_is_refused_unread(cli, tmp_path: Path) -> None:
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    with open(folder / "stability.csv", "wb") as big:  # sparse: 65 MiB of nothing
+        big.truncate(65 * 2 ** 20)
+    code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
+    assert (code, stdout) == (1, "")
+    assert stderr.endswith("[stability] data: expected a data file of at most 64 MiB "
+                           "(limits: docs/limits.md), found a larger file\n")

@@ -101,11 +101,18 @@ def test_shortest_interval_reported():
         "Y").shortest_interval
 
 
-def test_monte_carlo_reported_without_trials_is_refused():
+def test_monte_carlo_reported_without_trials():
+    # asked for explicitly (flag or argument): an error; set in the file and then run with
+    # --trials 0 (compare, explain, a quick look): the GUM interval, named, and a warning
     with pytest.raises(BudgetError) as caught:
-        evaluate(model(_94.format(extra='reported_interval = "monte_carlo"')), trials=0)
+        evaluate(model(_94.format(extra="")), trials=0, reported_interval="monte_carlo")
     assert str(caught.value) == ('test.toml: reported_interval: expected Monte Carlo trials '
                                  'for "monte_carlo", found trials = 0')
+    result = evaluate(model(_94.format(extra='reported_interval = "monte_carlo"')), trials=0)
+    assert result.reported_for("Y").method == "gum"
+    assert result.warnings[-1] == ('test.toml: [settings] reported_interval = "monte_carlo" '
+                                   'but no Monte Carlo run (trials = 0): the GUM interval is '
+                                   'reported')
 
 
 def test_bad_setting_is_refused():
@@ -164,7 +171,11 @@ def test_certified_value_monte_carlo_matches_its_components():
     assert sim.mean == pytest.approx(char.mean, abs=5 * sim.standard_uncertainty
                                      / math.sqrt(trials))
     assert sim.trials == trials
-    assert sim.validation is None  # the demo certificate states k = 2, no coverage
+    # the demo certificate states k = 2 and no coverage probability: ±k·u_CRM is checked at
+    # the probability it implies, 2·F_t(k; nu_eff) - 1 (scipy.stats.t.cdf)
+    assert sim.validation is not None
+    assert sim.validation_coverage == pytest.approx(
+        2 * stats.t.cdf(2.0, cert.dof) - 1, rel=1e-9)
 
 
 def test_certified_value_reported_from_monte_carlo(campaign_dir, cli):
@@ -222,7 +233,8 @@ def test_gum_certificate_not_validated_warns(campaign_dir):
     v = cert.simulation.validation
     assert v is not None
     if not v.validated:
-        assert any(w.startswith("certified value: Monte Carlo does not validate the GUM "
-                                "interval") for w in cert.warnings)
+        assert any(w.startswith("certified value: the GUM interval is not validated by the "
+                                "Monte Carlo of the certified value at 95 %")
+                   for w in cert.warnings)
     quantiles = np.array(cert.simulation.interval)
     assert quantiles[0] < cert.certified_value < quantiles[1]

@@ -138,3 +138,70 @@ def test_a_correlation_across_stages_is_a_row_of_its_own(tmp_path):
     found, budget = _stages(tmp_path, "b0", "x")
     assert math.isclose(found[BETWEEN_STAGES].variance, -0.0624, rel_tol=1e-9)
     assert math.isclose(sum(s.share for s in found.values()), 100.0, rel_tol=1e-9)
+
+
+TWO = """
+title = "two results from shared inputs"
+
+[measurands.s]
+equation = "a + b"
+unit = "g"
+
+[measurands.d]
+equation = "a - b"
+unit = "g"
+
+[inputs.a]
+value = 10
+unit = "g"
+u = 0.3
+dof = 5
+
+[inputs.b]
+value = 4
+unit = "g"
+u = {u_b}
+dof = 5
+
+[[correlations]]
+between = ["a", "b"]
+r = {r}
+
+[[estimated_together]]
+inputs = ["a", "b"]
+"""
+
+
+def test_compare_names_a_changed_correlation_coefficient(tmp_path):
+    # Found: `budget compare` of two budgets whose r(a,b) went 0.5 → 0.2 blamed
+    # "correlation terms" without naming the coefficient that changed.
+    # Hand computation (GUM eq. (16)): u_c²(s) = 0.09 + u_b² + 2·r·0.3·u_b, so the
+    # correlation term goes 2·0.5·0.3·0.4 = 0.12 → 2·0.2·0.3·0.5 = 0.06 g².
+    from budget.difference import compare, load_side
+    from budget.difference_view import causes, difference_document
+
+    (tmp_path / "a.toml").write_text(TWO.format(u_b=0.4, r=0.5), encoding="utf-8")
+    (tmp_path / "b.toml").write_text(TWO.format(u_b=0.5, r=0.2), encoding="utf-8")
+    diff = compare(load_side(tmp_path / "a.toml"), load_side(tmp_path / "b.toml"))
+    s = diff.measurands[0]
+    assert math.isclose(s.correlation_delta, 0.06 - 0.12, rel_tol=1e-9)
+    assert math.isclose(s.variance_delta, (0.09 + 0.25 + 0.06) - (0.09 + 0.16 + 0.12),
+                        rel_tol=1e-9)
+    assert "correlation terms (r(a,b) 0.5 → 0.2)" in causes(s)[1]
+    document = difference_document(diff)
+    assert document["measurands"][1]["correlations_changed"] == ["r(a,b) 0.5 → 0.2"]
+
+
+def test_the_basis_of_an_input_with_finite_dof_names_the_t_it_is_drawn_from():
+    # Found: the report's "Inputs and the basis of their uncertainty" and `explain` said
+    # "standard uncertainty, normal" for `u` with `dof = 5`, which Monte Carlo draws as a
+    # t with 5 degrees of freedom (JCGM 101 6.4.9; docs/uncertainty-rules.md).
+    from budget.model import parse_model
+
+    model = parse_model(TWO.format(u_b=0.4, r=0.5), "two.toml")
+    inputs = {i.name: i for i in model.inputs}
+    assert inputs["a"].distribution.name == "student_t"
+    assert inputs["a"].basis == "standard uncertainty, t with ν = 5"
+    plain = parse_model(TWO.format(u_b=0.4, r=0.5).replace("dof = 5\n", ""),
+                        "plain.toml")
+    assert {i.name: i for i in plain.inputs}["a"].basis == "standard uncertainty, normal"

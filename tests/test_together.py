@@ -391,3 +391,10 @@ def test_a_set_correlated_outside_itself_is_drawn_with_a_warning():
     # 5 standard errors of a sample correlation, (1 - r^2)/sqrt(M) < 1/sqrt(M), doubled for
     # the heavy t_5 tails of one of the pair
     assert r == pytest.approx(expected, abs=10 / math.sqrt(trials))
+
+
+def test_check_counts_the_sets(cli):
+    code, stdout, stderr = cli("check", str(H3))
+    assert code == 0, stderr
+    assert stdout.endswith(": 4 inputs, 1 measurand(s), 0 definition(s), 1 correlation(s), "
+                           "1 set(s) estimated together\n")
