@@ -456,6 +456,7 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
     from .errors import BudgetError
 
     try:
+        _check_outputs(html_file)
         difference = run_compare(load_side(before, trials=trials),
                                  load_side(after, trials=trials))
         if html_file:
@@ -467,11 +468,14 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
     if as_json:
         from .difference_view import difference_document
 
-        click.echo(json.dumps(difference_document(difference), indent=2, allow_nan=False))
+        from .document import json_safe
+
+        _out(json.dumps(json_safe(difference_document(difference)), indent=2,
+                        allow_nan=False), data=True)
     else:
         from .difference_view import render_difference
 
-        click.echo(render_difference(difference, digits), nl=False)
+        _out(render_difference(difference, digits).rstrip("\n"))
 
 
 @main.command()

@@ -94,7 +94,7 @@ class MeasurandChange:
 
     @property
     def variance_delta(self) -> float:
-        return self.after.u ** 2 - self.before.u ** 2
+        return self.after.u * self.after.u - self.before.u * self.before.u
 
     @property
     def U_from_u(self) -> float:
@@ -140,7 +140,7 @@ def _measurand_side(m: dict[str, Any]) -> MeasurandSide:
     terms = tuple(Term(input=c["input"], estimate=float(c["estimate"]), unit=str(c["unit"]),
                        u=float(c["u"]), distribution=str(c["distribution"]),
                        dof=_number(c["dof"]), sensitivity=float(c["sensitivity"]),
-                       variance=float(c["contribution"]) ** 2)
+                       variance=float(c["contribution"]) * float(c["contribution"]))
                   for c in m["contributions"])
     correlation = math.fsum(float(t["variance"]) for t in m.get("correlation_terms", []))
     higher = m.get("second_order_variance") or 0.0
@@ -222,7 +222,7 @@ def _measurand_change(a: MeasurandSide, b: MeasurandSide) -> MeasurandChange:
     terms_a = {t.input: t for t in a.terms}
     terms_b = {t.input: t for t in b.terms}
     names = list(terms_a) + [n for n in terms_b if n not in terms_a]
-    var_a, var_b = a.u ** 2, b.u ** 2
+    var_a, var_b = a.u * a.u, b.u * b.u
     inputs = [_input_change(n, terms_a.get(n), terms_b.get(n), var_a, var_b) for n in names]
     inputs.sort(key=lambda c: -abs(c.delta))
     return MeasurandChange(name=a.name, unit=a.unit, before=a, after=b, inputs=tuple(inputs),
@@ -263,8 +263,8 @@ def _input_change(name: str, a: Term | None, b: Term | None, var_a: float,
     else:
         what = _what_changed(a, b)
         status = "changed" if what else "unchanged"
-        c2a, c2b = a.sensitivity ** 2, b.sensitivity ** 2
-        u2a, u2b = a.u ** 2, b.u ** 2
+        c2a, c2b = a.sensitivity * a.sensitivity, b.sensitivity * b.sensitivity
+        u2a, u2b = a.u * a.u, b.u * b.u
         if a.unit != b.unit:  # sensitivities per different input units: split by ratio
             from_u, from_c = after - before, 0.0
         else:

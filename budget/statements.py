@@ -164,8 +164,9 @@ def _from_u(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Stateme
         made = dist.StudentT(estimate, u, dof)
     else:
         made = _bounded(table, shape, estimate, half_width=None, u=u)
+    drawn = f"t with ν = {dof:.4g}" if isinstance(made, dist.StudentT) else shape
     return Statement(distribution=made, dof=dof, type="B", unit=unit,
-                     basis=f"standard uncertainty, {shape}")
+                     basis=f"standard uncertainty, {drawn}")
 
 
 def _from_expanded(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Statement:
@@ -328,7 +329,7 @@ def _from_formula(table: _Table, shape: str, dof: float, unit: Any,
 
 def _from_constant(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Statement:
     name = table.data["constant"]
-    if name not in CONSTANTS:
+    if not isinstance(name, str) or name not in CONSTANTS:  # a list or table is no name
         raise InputError(f"expected a built-in constant, one of {', '.join(CONSTANTS)}, "
                          f"found {_shown(name)}{did_you_mean(str(name), CONSTANTS)}",
                          table.where("constant"))

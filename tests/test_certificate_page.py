@@ -48,6 +48,7 @@ def test_value_line_names_the_quantity_and_states_k_and_p(demo):
                      r"(\d+\.\d) %", text)
     shown = float(re.search(r"about (\d+\.\d) %", text).group(1))
     assert shown == pytest.approx(p, abs=0.15)
+    assert "Reported interval: GUM" in text  # the method of the interval, named
     assert "The interval is the GUM one" in text and "Monte Carlo (20,000 trials" in text
 
 

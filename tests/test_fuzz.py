@@ -314,7 +314,8 @@ def _no_constant(name: str) -> None:
 
 _COMMANDS = (("run", "--json", "--trials", "500", "--html", "out.html"),
              ("run", "--trials", "500"), ("explain", "--trials", "500"),
-             ("explain", "--json", "--trials", "0"), ("check",))
+             ("explain", "--json", "--trials", "0"), ("check",), ("compare", "--json"),
+             ("compare",))
 
 
 def _through_the_cli(text: str, folder: Path) -> None:
@@ -324,7 +325,8 @@ def _through_the_cli(text: str, folder: Path) -> None:
     for command in _COMMANDS:
         before = set(os.listdir(folder))
         with time_limit(SECONDS):
-            result = runner.invoke(main, [*command, str(model)], catch_exceptions=False)
+            sides = [str(model)] * (2 if command[0] == "compare" else 1)
+            result = runner.invoke(main, [*command, *sides], catch_exceptions=False)
         _check_output(result.exit_code, result.stdout, result.stderr, "--json" in command)
         _tally(command[0], result)
         assert set(os.listdir(folder)) - before <= {"out.html"}

@@ -310,3 +310,20 @@ def test_a_key_with_a_control_character_is_named_in_its_table() -> None:
         parse_model(source, name="key.toml")
     assert str(caught.value) == ("key.toml: [inputs] b\\x1b: expected text without control "
                                  "characters, found U+001B ESCAPE at position 2")
+
+
+def test_compare_with_huge_contributions_is_valid_json(cli, tmp_path) -> None:
+    # found by the fuzzer: the squared contribution 1.5e200 overflowed in compare
+    model = tmp_path / "huge.toml"
+    model.write_text('title = "t"\n[measurands.y]\nequation = "a * b"\n[inputs.a]\n'
+                     'value = 1.5\nu = 1e200\n[inputs.b]\nvalue = 1.5\nu = 0.1\n',
+                     encoding="utf-8")
+    code, stdout, stderr = cli("compare", "--json", str(model), str(model))
+    assert code in (0, 1) and "Traceback" not in stderr
+    if code == 0:
+        import json
+
+        json.loads(stdout, parse_constant=lambda name: pytest.fail(f"JSON holds {name}"))
+    code, _, stderr = cli("compare", "--html", "/dev/null", str(model), str(model))
+    assert (code, stderr) == (1, "error: /dev/null: expected a regular file or a new name "
+                                 "for the output, found a character device\n")

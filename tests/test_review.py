@@ -190,3 +190,18 @@ def test_compare_names_a_changed_correlation_coefficient(tmp_path):
     assert "correlation terms (r(a,b) 0.5 → 0.2)" in causes(s)[1]
     document = difference_document(diff)
     assert document["measurands"][1]["correlations_changed"] == ["r(a,b) 0.5 → 0.2"]
+
+
+def test_the_basis_of_an_input_with_finite_dof_names_the_t_it_is_drawn_from():
+    # Found: the report's "Inputs and the basis of their uncertainty" and `explain` said
+    # "standard uncertainty, normal" for `u` with `dof = 5`, which Monte Carlo draws as a
+    # t with 5 degrees of freedom (JCGM 101 6.4.9; docs/uncertainty-rules.md).
+    from budget.model import parse_model
+
+    model = parse_model(TWO.format(u_b=0.4, r=0.5), "two.toml")
+    inputs = {i.name: i for i in model.inputs}
+    assert inputs["a"].distribution.name == "student_t"
+    assert inputs["a"].basis == "standard uncertainty, t with ν = 5"
+    plain = parse_model(TWO.format(u_b=0.4, r=0.5).replace("dof = 5\n", ""),
+                        "plain.toml")
+    assert {i.name: i for i in plain.inputs}["a"].basis == "standard uncertainty, normal"
