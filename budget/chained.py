@@ -255,7 +255,8 @@ def saved_result_model(path: Path, where: Location) -> Model:
     try:
         return _linear_model(document, str(path))
     except (KeyError, TypeError, ValueError) as exc:
-        raise InputError(f"expected a result document of 'budget run --json' in '{path}', "
+        raise InputError(f"expected a JSON result document (schema result.schema.json) in "
+                         f"'{path}', "
                          f"found one without {exc}", where) from exc
 
 
