@@ -26,6 +26,7 @@ class Result:
     simulation: Simulation | None
     digits: int
     reported: tuple[Reported, ...] = ()  # per measurand: the result to report, and how
+    notes: tuple[str, ...] = ()  # warnings of the evaluation itself
 
     def reported_for(self, name: str) -> Reported:
         """The reported result of one measurand (GUM unless ``reported_interval`` says)."""
@@ -39,7 +40,7 @@ class Result:
     @property
     def warnings(self) -> tuple[str, ...]:
         extra = self.simulation.warnings if self.simulation else ()
-        return tuple(dict.fromkeys(self.budget.warnings + extra))
+        return tuple(dict.fromkeys(self.budget.warnings + extra + self.notes))
 
     def measurand(self, name: str) -> MeasurandBudget:
         """The GUM budget of measurand ``name`` (a ``KeyError`` with a "did you mean")."""
@@ -101,8 +102,13 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
                                f"{LIMITS_PAGE}), found one too deep to evaluate", where
                                ) from exc
     method = reported_interval or model.settings.reported_interval
+    notes: tuple[str, ...] = ()
+    if simulation is None and method != "gum" and reported_interval is None:
+        notes = (f"{model.source}: [settings] reported_interval = \"{method}\" but no Monte "
+                 "Carlo run (trials = 0): the GUM interval is reported",)
+        method = "gum"
     chosen = tuple(
         reported(b, simulation.measurands[k] if simulation else None, method, model.source)
         for k, b in enumerate(budget.measurands))
     return Result(model=model, budget=budget, simulation=simulation, digits=digits,
-                  reported=chosen)
+                  reported=chosen, notes=notes)

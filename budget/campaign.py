@@ -100,8 +100,8 @@ class _Reader:
             inside = False
         if not inside:
             raise self.fail(f"expected a path inside the campaign's folder, found "
-                            f"'{relative}', which leads outside it (certify "
-                            f"--allow-outside-folder allows it)", table, key, nth)
+                            f"'{relative}', which leads outside it (allowed only when "
+                            f"paths outside the folder are allowed)", table, key, nth)
         return self.bounded(path, table, key, nth)
 
     def bounded(self, path: Path, table: str | None, key: str, nth: int = 0) -> Path:

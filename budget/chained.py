@@ -191,7 +191,8 @@ def _one(model: Model, link: PendingLink) -> Model:
         estimated_together=tuple(replace(t, inputs=tuple(final[n] for n in t.inputs))
                                  for t in joint.model.estimated_together),
         certificates=model.certificates + tuple(
-            replace(u, input=_upstream_name(link, u.input, dict(link.shares)))
+            replace(u, input=_upstream_name(link, u.input, dict(link.shares)),
+                    dates=u.dates if u.dates is not None else link.upstream.measured)
             for u in link.upstream.certificates),
         files=model.files + tuple((_nested_role(link.input, role), path, digest)
                                   for role, path, digest in link.upstream.files),
@@ -254,7 +255,8 @@ def saved_result_model(path: Path, where: Location) -> Model:
     try:
         return _linear_model(document, str(path))
     except (KeyError, TypeError, ValueError) as exc:
-        raise InputError(f"expected a result document of 'budget run --json' in '{path}', "
+        raise InputError(f"expected a JSON result document (schema result.schema.json) in "
+                         f"'{path}', "
                          f"found one without {exc}", where) from exc
 
 

@@ -47,8 +47,15 @@ _COVERAGE = _Finite(1e-6, 1.0 - 1e-9, "a coverage probability in [1e-6, 1 - 1e-9
 _TARGET = _Finite(5e-324, 1.7976931348623157e308, "a positive finite number")
 
 
+_FLAG_HINTS = {"paths outside the folder are allowed": "--allow-outside-folder"}
+
+
 def _fail(error: Exception) -> None:
-    _err(f"error: {_safe(str(error))}")
+    text = str(error)
+    # the library names no command-line flag; the command adds the one that applies
+    for phrase, flag in _FLAG_HINTS.items():
+        text = text.replace(phrase, f"{phrase}: {flag}")
+    _err(f"error: {_safe(text)}")
     sys.exit(1)
 
 

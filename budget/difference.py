@@ -132,7 +132,7 @@ def side_from_document(document: dict[str, Any], label: str) -> Side:
                     sha256=document.get("model_sha256"), settings=settings,
                     measurands=measurands)
     except (KeyError, TypeError, ValueError) as exc:
-        raise InputError(f"expected a result document of 'budget run --json', found a "
+        raise InputError(f"expected a JSON result document (schema result.schema.json), found a "
                          f"JSON document without {exc}", where) from exc
 
 

@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Protocol
+from typing import Any, Protocol
 
 import numpy as np
 
@@ -47,6 +47,27 @@ class Distribution(Protocol):
     def ppf(self, p: np.ndarray) -> np.ndarray: ...
 
 
+def _valid(owner: Any, *, widths: tuple[str, ...] = (), fraction: str | None = None,
+           dof: str | None = None) -> None:
+    """Refuse a distribution that cannot be drawn: a non-finite estimate, a negative or
+    non-finite width, a shape parameter outside [0, 1], degrees of freedom ≤ 0."""
+    from .errors import InputError
+
+    kind = type(owner).__name__
+    estimate = owner.estimate
+    if not math.isfinite(estimate):
+        raise InputError(f"{kind}: expected a finite estimate, found {estimate!r}")
+    for name in widths:
+        value = getattr(owner, name)
+        if not (math.isfinite(value) and value >= 0):
+            raise InputError(f"{kind}: expected {name} ≥ 0 and finite, found {value!r}")
+    if fraction is not None and not 0.0 <= getattr(owner, fraction) <= 1.0:
+        raise InputError(f"{kind}: expected {fraction} in [0, 1], found "
+                         f"{getattr(owner, fraction)!r}")
+    if dof is not None and not getattr(owner, dof) > 0:
+        raise InputError(f"{kind}: expected {dof} > 0, found {getattr(owner, dof)!r}")
+
+
 @dataclass(frozen=True, slots=True)
 class Normal:
     estimate: float
@@ -54,6 +75,9 @@ class Normal:
     name = "normal"
     gaussian = True
     has_ppf = True
+
+    def __post_init__(self) -> None:
+        _valid(self, widths=("sd",))
 
     @property
     def standard_uncertainty(self) -> float:
@@ -77,6 +101,9 @@ class Rectangular:
     gaussian = False
     has_ppf = True
 
+    def __post_init__(self) -> None:
+        _valid(self, widths=("half_width",))
+
     @property
     def standard_uncertainty(self) -> float:
         return self.half_width / _SQRT3
@@ -98,6 +125,9 @@ class Triangular:
     name = "triangular"
     gaussian = False
     has_ppf = True
+
+    def __post_init__(self) -> None:
+        _valid(self, widths=("half_width",))
 
     @property
     def standard_uncertainty(self) -> float:
@@ -127,6 +157,9 @@ class Arcsine:
     gaussian = False
     has_ppf = True
 
+    def __post_init__(self) -> None:
+        _valid(self, widths=("half_width",))
+
     @property
     def standard_uncertainty(self) -> float:
         return self.half_width / _SQRT2
@@ -153,6 +186,9 @@ class Trapezoidal:
     name = "trapezoidal"
     gaussian = False
     has_ppf = True
+
+    def __post_init__(self) -> None:
+        _valid(self, widths=("half_width",), fraction="beta")
 
     @property
     def standard_uncertainty(self) -> float:
@@ -194,6 +230,9 @@ class CurvilinearTrapezoid:
     gaussian = False
     has_ppf = False
 
+    def __post_init__(self) -> None:
+        _valid(self, widths=("half_width", "inexactness"))
+
     @property
     def standard_uncertainty(self) -> float:
         return math.sqrt(self.half_width ** 2 / 3.0 + self.inexactness ** 2 / 9.0)
@@ -220,6 +259,9 @@ class StudentT:
     gaussian = False
     has_ppf = True
 
+    def __post_init__(self) -> None:
+        _valid(self, widths=("scale",), dof="dof")
+
     @property
     def standard_uncertainty(self) -> float:
         return self.scale
@@ -243,6 +285,9 @@ class Exact:
     name = "exact"
     gaussian = True
     has_ppf = True
+
+    def __post_init__(self) -> None:
+        _valid(self)
 
     @property
     def standard_uncertainty(self) -> float:

@@ -196,7 +196,8 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
                        f"{format_number(shift, 2)} and its standard deviation from u_c by "
                        f"{format_number(spread, 2)} {unit}")
     if len(reasons) == 1:
-        reasons.append("no single cause stands out; a longer run (--adaptive) shows whether "
+        reasons.append("no single cause stands out; a longer run (the adaptive procedure of "
+                       "JCGM 101 7.9) shows whether "
                        "the difference is Monte Carlo noise")
     return tuple(reasons)
 

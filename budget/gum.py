@@ -24,7 +24,7 @@ from typing import Any
 import numpy as np
 
 from .dof import Grouping, effective_dof, grouping
-from .errors import PropagationError
+from .errors import Location, PropagationError
 from .model import Model
 
 __all__ = ["Contribution", "CorrelationTerm", "MeasurandBudget", "Budget", "propagate",
@@ -221,13 +221,15 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
     first = float(np.sum(scaled ** 2)) + math.fsum(t[3] for t in terms)
     if first < 0.0:
         raise PropagationError(f"the variance of '{measurand.name}' came out negative "
-                               f"({first * scale * scale:.3g}); check the correlations")
+                               f"({first * scale * scale:.3g}); check the correlations",
+                               _equation(model, measurand))
     variance = first + (extra or 0.0) / scale / scale
     combined = scale * math.sqrt(variance)
     share = (100.0 * scaled ** 2 / variance) if variance > 0 else np.zeros_like(parts)
     if not math.isfinite(combined):
         raise PropagationError(f"the combined standard uncertainty of '{measurand.name}' is "
-                               "beyond the floating-point range (±1.8e308)")
+                               "beyond the floating-point range (±1.8e308)",
+                               _equation(model, measurand))
     with np.errstate(over="ignore"):
         terms = [(a, b, rho, v * scale * scale) for a, b, rho, v in terms]
         first, variance = first * scale * scale, variance * scale * scale
@@ -270,21 +272,29 @@ def _scaled_covariance(jac: np.ndarray, u: np.ndarray, pairs: "_Pairs",
     return core, scale
 
 
+def _equation(model: Model, measurand: Any) -> Location:
+    """Where a measurand's equation is written, for an error about its result."""
+    return Location(file=model.source, table=f"measurands.{measurand.name}", key="equation",
+                    line=measurand.line)
+
+
 def _parts(name: str, model: Model, c: np.ndarray, u: np.ndarray) -> np.ndarray:
     """c_i·u(x_i), refused when one is beyond the floating-point range."""
     with np.errstate(over="ignore", invalid="ignore"):
         parts: np.ndarray = np.asarray(c * u, dtype=float)
     bad = np.flatnonzero(~np.isfinite(parts))
     if bad.size:
-        raise PropagationError(f"the contribution c·u(x) of '{model.inputs[int(bad[0])].name}'"
-                               f" to '{name}' is beyond the floating-point range (±1.8e308)")
+        culprit = model.inputs[int(bad[0])].name
+        raise PropagationError(f"the contribution c·u(x) of '{culprit}' to '{name}' is beyond "
+                               "the floating-point range (±1.8e308)",
+                               Location(file=model.source, table=f"inputs.{culprit}"))
     return parts
 
 
 def _warn(name: str, combined: float, nu: float, warnings: list[str]) -> None:
     if combined == 0.0:
         warnings.append(f"'{name}': the combined standard uncertainty is zero to first "
-                        "order (try --second-order or Monte Carlo)")
+                        "order (try the second-order terms or Monte Carlo)")
     elif nu < 3.0:
         warnings.append(f"'{name}': effective degrees of freedom {nu:.2g} < 3; the coverage "
                         "factor from the t-distribution is very uncertain")
@@ -323,8 +333,8 @@ def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray
     if not wanted:
         return None
     if model.correlations:
-        warnings.append("--second-order ignored: the GUM 5.1.2 higher-order terms hold "
-                        "for uncorrelated inputs only")
+        warnings.append("second-order terms not added: the GUM 5.1.2 higher-order terms "
+                        "hold for uncorrelated inputs only")
         return None
     from .evaluation import second_order_variances
     from .limits import LIMITS_PAGE, MAX_SECOND_ORDER_INPUTS
@@ -332,7 +342,7 @@ def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray
     count = sum(1 for i in model.inputs if i.standard_uncertainty > 0)
     if count > MAX_SECOND_ORDER_INPUTS:
         raise PropagationError(f"{model.source}: expected at most {MAX_SECOND_ORDER_INPUTS} "
-                               f"inputs with an uncertainty for --second-order (it needs "
+                               f"inputs with an uncertainty for the second-order terms (they need "
                                f"N² second and N³ third derivatives; limits: {LIMITS_PAGE}), "
                                f"found {count}")
     return second_order_variances(model)

@@ -70,7 +70,7 @@ def check_trials(trials: int, where: Location | None = None) -> int:
     if trials > MAX_TRIALS:
         raise InputError(f"expected at most {MAX_TRIALS:,} Monte Carlo trials (8 bytes of "
                          f"memory per trial and measurand; limits: {LIMITS_PAGE}; use "
-                         f"--adaptive to stop when the results are stable), found "
+                         f"the adaptive procedure to stop when the results are stable), found "
                          f"{_count(trials)}", where)
     return trials
 

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import math
 import re
 import tomllib
 from dataclasses import dataclass, field, replace
@@ -49,6 +50,14 @@ _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
 
 
+def _agree(name: str, field: str, value: float, source: float) -> None:
+    if value == source or math.isclose(value, source, rel_tol=1e-12, abs_tol=1e-300):
+        return
+    raise InputError(f"expected {field} {value!r} of input '{name}' to be its distribution's, "
+                     f"found {source!r}; change the distribution (with_value, "
+                     "with_uncertainty, with_distribution), not the field")
+
+
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Input:
     """An input quantity X_i: estimate, standard uncertainty and distribution."""
@@ -64,6 +73,13 @@ class Input:
     description: str = ""
     source: str = ""
     molar_mass: Any = None
+
+    def __post_init__(self) -> None:
+        """The distribution is the one source of the estimate and the standard uncertainty:
+        the two fields repeat it for speed and may not disagree with it."""
+        _agree(self.name, "estimate", self.estimate, self.distribution.estimate)
+        _agree(self.name, "standard_uncertainty", self.standard_uncertainty,
+               self.distribution.standard_uncertainty)
 
     @property
     def symbol(self) -> Any:

@@ -494,8 +494,8 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
         check_adaptive(coverage)
     sampler = _Sampler(model, seed)
     if adaptive:
-        samples, warnings = _adaptive(sampler, budget, coverage, digits, workers, progress)
-        moments, kept = None, None
+        samples, warnings, moments, kept = _adaptive(sampler, coverage, digits, workers,
+                                                     progress)
     else:
         if trials < 2 or trials < 1.0 / (1.0 - coverage):
             raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
@@ -526,13 +526,14 @@ def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
     return _combine([first, rest]), [tails.collect(head), *kept]
 
 
-def _adaptive(sampler: _Sampler, budget: Budget | None, coverage: float, digits: int,
-              workers: int, progress: Callable[[int, int], None] | None
-              ) -> tuple[np.ndarray, list[str]]:
+def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
+              progress: Callable[[int, int], None] | None
+              ) -> tuple[np.ndarray, list[str], np.ndarray, list[Any]]:
     """JCGM 101 7.9 with batches of whole blocks (≥ max(J, 10⁴) trials each), on all
-    workers. Running statistics: each batch leaves its moments and its four results
-    (mean, sd, interval ends), so a convergence check costs one batch, never all the
-    values so far; the batches are joined once, at the end."""
+    workers. Running statistics: each batch leaves its moments, its four results (mean,
+    sd, interval ends) and its tail values beyond the first batch's cut points, so a
+    convergence check costs one batch, never all the values so far, and the final
+    intervals sort the tails only; the batches are joined once, at the end."""
     j = math.ceil(100.0 / (1.0 - coverage))
     # at least two blocks per batch, so that both workers draw (the same on any number
     # of cores: the batch size never depends on the workers)
@@ -542,21 +543,28 @@ def _adaptive(sampler: _Sampler, budget: Budget | None, coverage: float, digits:
     batches: list[np.ndarray] = []
     stats: list[np.ndarray] = []  # per batch: (n_out, 4) mean, sd, low, high
     moments: np.ndarray | None = None  # (n_out, 3): count, mean, M2 of all batches
+    tails: _Tails | None = None
+    kept: list[Any] = []
     while True:
         h = len(batches)
         chunk = np.empty((n_out, size))
         ticker = (lambda n, total=size * (h + 1): progress(n, total)) if progress else None
-        done, _ = _run_blocks(sampler, h * per_batch, per_batch, (h + 1) * size, chunk,
-                              ticker, workers)
+        done, found = _run_blocks(sampler, h * per_batch, per_batch, (h + 1) * size, chunk,
+                                  ticker, workers, tails)
+        if h == 0 and coverage > 0.5 and np.isfinite(chunk).all():
+            tails = _Tails(chunk, coverage)
+            found = [tails.collect(chunk)]
+        kept.extend(found)
         moments = done if moments is None else _combine([moments, done])
         batches.append(chunk)
         stats.append(_batch_stats(chunk, coverage))
-        if h >= 1 and _converged(moments, np.array(stats), digits):
-            return np.concatenate(batches, axis=1), []
-        if (h + 2) * size > ADAPTIVE_LIMIT:
-            return np.concatenate(batches, axis=1), [
+        stop = h >= 1 and _converged(moments, np.array(stats), digits)
+        if stop or (h + 2) * size > ADAPTIVE_LIMIT:
+            warnings = [] if stop else [
                 f"adaptive Monte Carlo stopped at {(h + 1) * size} trials before its "
                 f"numerical tolerance was reached (limit {ADAPTIVE_LIMIT})"]
+            return (np.concatenate(batches, axis=1), warnings, moments,
+                    kept if tails is not None else [])
 
 
 def _unresolved(estimate: float, u: float, delta: float,
@@ -594,7 +602,7 @@ def check_adaptive(coverage: float) -> None:
             f"expected a coverage probability whose adaptive batches fit the limit of "
             f"{ADAPTIVE_LIMIT:,} trials (p below {1 - 200 / ADAPTIVE_LIMIT:.7g}; JCGM 101 "
             f"7.9 asks for batches of 100/(1 - p) = {batch:,} trials here), found {coverage:g}"
-            "; give a fixed --trials instead")
+            "; give a fixed number of trials instead")
 
 
 def _batch_stats(chunk: np.ndarray, coverage: float) -> np.ndarray:

@@ -164,8 +164,9 @@ def _from_u(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Stateme
         made = dist.StudentT(estimate, u, dof)
     else:
         made = _bounded(table, shape, estimate, half_width=None, u=u)
+    drawn = f"t with ν = {dof:.4g}" if isinstance(made, dist.StudentT) else shape
     return Statement(distribution=made, dof=dof, type="B", unit=unit,
-                     basis=f"standard uncertainty, {shape}")
+                     basis=f"standard uncertainty, {drawn}")
 
 
 def _from_expanded(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Statement:

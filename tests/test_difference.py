@@ -138,8 +138,8 @@ def test_measurands_in_another_unit_are_converted(pair, tmp_path):
 @pytest.mark.parametrize("content, message", [
     ("{", "error: {path}: expected a JSON result document, found Expecting property name "
           "enclosed in double quotes: line 1 column 2 (char 1)"),
-    ('{"title": "x"}', "error: {path}: expected a result document of 'budget run --json', "
-                       "found a JSON document without 'measurands'"),
+    ('{"title": "x"}', "error: {path}: expected a JSON result document (schema "
+                       "result.schema.json), found a JSON document without 'measurands'"),
     ("[1, 2]", "error: {path}: expected a JSON result document, found another JSON value"),
 ])
 def test_bad_saved_results_are_errors(pair, cli, tmp_path, content, message):

@@ -107,7 +107,7 @@ def test_zero_first_order_uncertainty_does_not_break():
     assert [c.share for c in budget.contributions] == [0.0]
     assert budget.expanded_uncertainty == 0.0
     assert propagate(m).warnings == ("'y': the combined standard uncertainty is zero to "
-                                     "first order (try --second-order or Monte Carlo)",)
+                                     "first order (try the second-order terms or Monte Carlo)",)
     second = propagate(m, second_order=True).measurand("y")
     assert second.combined_uncertainty == pytest.approx(math.sqrt(2 * 0.1 ** 4))
 
@@ -115,8 +115,8 @@ def test_zero_first_order_uncertainty_does_not_break():
 def test_second_order_is_refused_for_correlated_inputs():
     budget = propagate(model(_NONLINEAR), second_order=True)
     assert budget.measurand("y").second_order_variance is None
-    assert budget.warnings[0] == ("--second-order ignored: the GUM 5.1.2 higher-order terms "
-                                  "hold for uncorrelated inputs only")
+    assert budget.warnings[0] == ("second-order terms not added: the GUM 5.1.2 higher-order "
+                                  "terms hold for uncorrelated inputs only")
 
 
 def test_division_by_zero_at_the_estimates():

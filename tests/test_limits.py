@@ -89,7 +89,8 @@ CASES = {
                     "expected a whole number of significant digits from 1 to 6, found 1000"),
     "trials_huge": (text(extra="[settings]\ntrials = 1000000000000\n"), ":9: [settings] "
                     "trials: expected at most 100,000,000 Monte Carlo trials (8 bytes of "
-                    "memory per trial and measurand; limits: docs/limits.md; use --adaptive to "
+                    "memory per trial and measurand; limits: docs/limits.md; use the adaptive "
+                    "procedure to "
                     "stop when the results are stable), found 1,000,000,000,000"),
     "seed_huge": (text(extra="[settings]\nseed = 1" + "0" * 30 + "\n"), ":9: [settings] seed: "
                   "expected a whole-number seed from 0 to 2**64 - 1, found a whole number of "
@@ -223,8 +224,8 @@ def test_second_order_beyond_the_limit_is_refused_before_differentiating() -> No
     with pytest.raises(BudgetError) as caught:
         propagate(parse_model(source, name="product.toml"), second_order=True)
     assert str(caught.value) == (
-        "product.toml: expected at most 20 inputs with an uncertainty for --second-order (it "
-        "needs N² second and N³ third derivatives; limits: docs/limits.md), found 60")
+        "product.toml: expected at most 20 inputs with an uncertainty for the second-order "
+        "terms (they need N² second and N³ third derivatives; limits: docs/limits.md), found 60")
 
 
 def test_formula_counts_are_bounded() -> None:

@@ -4,7 +4,6 @@ general-purpose uncertainties package (linear propagation, first order)."""
 
 from __future__ import annotations
 
-from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -20,9 +19,9 @@ A2 = MODELS / "reference" / "eurachem-a2-naoh.toml"
 
 
 def _lot(model, **values):  # type: ignore[no-untyped-def]
-    inputs = tuple(replace(i, estimate=values[i.name]) if i.name in values else i
-                   for i in model.inputs)
-    return propagate(replace(model, inputs=inputs))
+    for name, value in values.items():  # the distribution moves with the estimate
+        model = model.with_value(name, value)
+    return propagate(model)
 
 
 @pytest.mark.parametrize("path, name, values", [

@@ -351,3 +351,24 @@ def test_correlated_student_t_inputs_are_normals_over_independent_chi_roots():
     for name, sign in (("y", 1), ("d", -1)):
         got = result.measurand(name).standard_uncertainty ** 2
         assert got == pytest.approx(2 * var_t * (1 + sign * rho), rel=tolerance)
+
+
+def test_adaptive_intervals_from_the_kept_tails_equal_a_full_selection():
+    # the adaptive run keeps each batch's tail values beyond the first batch's cut points;
+    # both JCGM 101 7.7 intervals must equal those of a selection over all its values
+    m = model("""
+        title = "adaptive tails"
+        [measurands.y]
+        equation = "a * exp(b)"
+        [inputs.a]
+        value = 1
+        u = 0.2
+        [inputs.b]
+        value = 0
+        distribution = "rectangular"
+        half_width = 0.5
+    """)
+    result = simulate(m, propagate(m), adaptive=True, digits=1, seed=9).measurand("y")
+    values = np.sort(result.samples)
+    assert result.interval == coverage_interval(values.copy(), 0.95)
+    assert result.shortest_interval == shortest_interval(values.copy(), 0.95)

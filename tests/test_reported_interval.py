@@ -101,11 +101,18 @@ def test_shortest_interval_reported():
         "Y").shortest_interval
 
 
-def test_monte_carlo_reported_without_trials_is_refused():
+def test_monte_carlo_reported_without_trials():
+    # asked for explicitly (flag or argument): an error; set in the file and then run with
+    # --trials 0 (compare, explain, a quick look): the GUM interval, named, and a warning
     with pytest.raises(BudgetError) as caught:
-        evaluate(model(_94.format(extra='reported_interval = "monte_carlo"')), trials=0)
+        evaluate(model(_94.format(extra="")), trials=0, reported_interval="monte_carlo")
     assert str(caught.value) == ('test.toml: reported_interval: expected Monte Carlo trials '
                                  'for "monte_carlo", found trials = 0')
+    result = evaluate(model(_94.format(extra='reported_interval = "monte_carlo"')), trials=0)
+    assert result.reported_for("Y").method == "gum"
+    assert result.warnings[-1] == ('test.toml: [settings] reported_interval = "monte_carlo" '
+                                   'but no Monte Carlo run (trials = 0): the GUM interval is '
+                                   'reported')
 
 
 def test_bad_setting_is_refused():

@@ -140,8 +140,8 @@ def test_campaign_paths_stay_inside_the_folder(cli, tmp_path: Path, value: str) 
     code, stdout, stderr = cli("certify", "--trials", "0", str(campaign))
     assert (code, stdout) == (1, "")
     assert stderr.endswith(f"[homogeneity] data: expected a path inside the campaign's "
-                           f"folder, found '{value}', which leads outside it (certify "
-                           "--allow-outside-folder allows it)\n")
+                           f"folder, found '{value}', which leads outside it (allowed only "
+                           "when paths outside the folder are allowed: --allow-outside-folder)\n")
     assert "secret" not in stderr and "root:x:" not in stderr
 
 
