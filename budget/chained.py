@@ -191,7 +191,8 @@ def _one(model: Model, link: PendingLink) -> Model:
         estimated_together=tuple(replace(t, inputs=tuple(final[n] for n in t.inputs))
                                  for t in joint.model.estimated_together),
         certificates=model.certificates + tuple(
-            replace(u, input=_upstream_name(link, u.input, dict(link.shares)))
+            replace(u, input=_upstream_name(link, u.input, dict(link.shares)),
+                    dates=u.dates if u.dates is not None else link.upstream.measured)
             for u in link.upstream.certificates),
         files=model.files + tuple((_nested_role(link.input, role), path, digest)
                                   for role, path, digest in link.upstream.files),

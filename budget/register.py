@@ -112,6 +112,9 @@ class CertificateUse:
     input: str
     certificate: Certificate
     stated: str
+    # the measurement dates of the earlier model that uses it, when it comes through a
+    # chain (that stage's own `measured`); None: the dates of the model or campaign at hand
+    dates: tuple[dt.date, ...] | None = None
 
 
 def load_register(path: Path, where: Location, convention: str) -> Register:
@@ -319,17 +322,27 @@ def traceability_statement(uses: tuple[CertificateUse, ...]) -> str:
 
 
 def certificates_document(model: Any, days: tuple[dt.date, ...]) -> list[dict[str, Any]]:
-    """Every certificate a model uses, what it feeds and its validity on ``days``."""
+    """Every certificate a model uses, what it feeds and its validity on the dates.
+
+    An input of the model at hand is checked on ``days``; an input that comes through a
+    chained earlier model on that model's own measurement dates.
+    """
     found: dict[str, dict[str, Any]] = {}
+    dates: dict[str, set[dt.date]] = {}
     for use in model.certificates:
         c = use.certificate
         entry = found.setdefault(c.identifier, {
             "certificate": c.identifier, "number": c.number, "instrument": c.instrument,
             "issuer": c.issuer, "calibrated": c.calibrated.isoformat(),
             "valid_until": c.valid_until.isoformat(), "traceable_to": c.traceable_to,
-            "si_unit": si_unit_name(c), "inputs": [],
-            "measurement_dates": [day.isoformat() for day in sorted(set(days))],
-            "problems": [reason for day in sorted(set(days))
-                         if (reason := validity(c, day))]})
+            "si_unit": si_unit_name(c), "inputs": []})
         entry["inputs"].append({"input": use.input, "stated": use.stated})
+        dates.setdefault(c.identifier, set()).update(
+            days if use.dates is None else use.dates)
+    for ident, entry in found.items():
+        c = next(u.certificate for u in model.certificates
+                 if u.certificate.identifier == ident)
+        entry["measurement_dates"] = [day.isoformat() for day in sorted(dates[ident])]
+        entry["problems"] = [reason for day in sorted(dates[ident])
+                             if (reason := validity(c, day))]
     return list(found.values())

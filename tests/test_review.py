@@ -205,3 +205,27 @@ def test_the_basis_of_an_input_with_finite_dof_names_the_t_it_is_drawn_from():
     plain = parse_model(TWO.format(u_b=0.4, r=0.5).replace("dof = 5\n", ""),
                         "plain.toml")
     assert {i.name: i for i in plain.inputs}["a"].basis == "standard uncertainty, normal"
+
+
+def test_certificates_of_a_chained_stage_are_checked_on_that_stages_dates(tmp_path):
+    # Found: the chained example's report listed the demo's certificates as "no
+    # measurement date given", although the earlier model states `measured = 2025-05-06`;
+    # an expired certificate then showed no problem in the report or the JSON.
+    from budget.analysis import evaluate
+    from budget.document import result_document
+    from budget.model import load_model
+
+    demo = MODELS / "vics-as-25a"
+    for name in ("coulometric-purity.toml", "calibrations.toml"):
+        (tmp_path / name).write_bytes((demo / name).read_bytes())
+    for path in (MODELS / "chain").glob("*.toml"):
+        (tmp_path / path.name).write_text(path.read_text(encoding="utf-8").replace(
+            "../vics-as-25a/", ""), encoding="utf-8")
+    register = tmp_path / "calibrations.toml"
+    register.write_text(register.read_text(encoding="utf-8").replace(
+        "valid_until = 2026-01-19", "valid_until = 2025-05-01"), encoding="utf-8")
+    document = result_document(evaluate(load_model(tmp_path / "acid-assay.toml"), trials=0))
+    found = {c["certificate"]: c for c in document["certificates"]}
+    assert found["DVM1"]["measurement_dates"] == ["2025-05-06"]  # the stage's `measured`
+    assert found["DVM1"]["problems"] == []
+    assert found["R10"]["problems"] == ["expired on 2025-05-06 (valid until 2025-05-01)"]
