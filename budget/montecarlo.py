@@ -499,7 +499,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     else:
         if trials < 2 or trials < 1.0 / (1.0 - coverage):
             raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
-                                  f"trials for a {100 * coverage:g} % interval, found {trials}")
+                                  f"trials for a {100 * coverage:.10g} % interval, found {trials}")
         samples = np.empty((len(model.measurands), trials))
         ticker = (lambda n, total=trials: progress(n, total)) if progress else None
         moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
@@ -600,7 +600,7 @@ def check_adaptive(coverage: float) -> None:
     if 2 * batch > ADAPTIVE_LIMIT:
         raise SimulationError(
             f"expected a coverage probability whose adaptive batches fit the limit of "
-            f"{ADAPTIVE_LIMIT:,} trials (at most {1 - 200 / ADAPTIVE_LIMIT:.7g}; JCGM 101 "
+            f"{ADAPTIVE_LIMIT:,} trials (p below {1 - 200 / ADAPTIVE_LIMIT:.7g}; JCGM 101 "
             f"7.9 asks for batches of 100/(1 - p) = {batch:,} trials here), found {coverage:g}"
             "; give a fixed number of trials instead")
 
