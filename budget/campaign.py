@@ -17,6 +17,7 @@ import numpy as np
 
 from .datafiles import FORMAT_KEYS, FileFormat, parse_declared_format
 from .errors import BudgetError, CampaignError, Location, did_you_mean
+from .tomlkeys import check_keys
 from .limits import (LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, as_float,
                      check_probability, check_strings, shorten)
 from .model import LineIndex, Model, decode, load_model, read_toml
@@ -135,10 +136,7 @@ class _Reader:
         return value
 
     def known(self, data: dict[str, Any], table: str, keys: tuple[str, ...], nth: int = 0) -> None:
-        for key in data:
-            if key not in keys:
-                raise self.fail(f"unknown key '{key}'{did_you_mean(key, keys)}; expected one "
-                                f"of {', '.join(keys)}", table, key, nth)
+        check_keys(data, keys, lambda key: self.where(table, key, nth), error=CampaignError)
 
     def text(self, data: dict[str, Any], key: str, table: str | None, nth: int = 0) -> str:
         value = data.get(key)
@@ -204,10 +202,8 @@ def _register(r: _Reader) -> Path | None:
 
 
 def _campaign(r: _Reader, sha256: str) -> Campaign:
-    for key in r.doc:
-        if key not in _TOP:
-            raise r.fail(f"unknown top-level key '{key}'{did_you_mean(key, _TOP)}; expected "
-                         f"one of {', '.join(_TOP)}", None, key)
+    check_keys(r.doc, _TOP, lambda key: r.where(None, key), error=CampaignError,
+               kind="top-level key")
     check_strings(r.doc, r.where)
     title = r.text(r.doc, "title", None)
     unit = r.text(r.doc, "unit", None)

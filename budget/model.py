@@ -26,6 +26,7 @@ from . import algebra as alg
 from .chemistry import CONVENTIONS, DEFAULT_CONVENTION
 from .errors import (InputError, Location, ModelSyntaxError, UnitError,
                      did_you_mean)
+from .tomlkeys import check_keys
 from .limits import (LIMITS_PAGE, MAX_FILE_BYTES, check_digits, check_probability,
                      check_seed, check_strings, check_trials, shorten)
 from .expressions import Term, build, names_in, parse_expression
@@ -303,11 +304,8 @@ class _Reader:
                         line=self.index.find(table, key, nth))
 
     def model(self, sha256: str, overrides: dict[str, Any]) -> Model:
-        for key in self.doc:
-            if key not in _TOP_KEYS:
-                raise InputError(f"unknown top-level key '{key}'{did_you_mean(key, _TOP_KEYS)}"
-                                 f"; expected one of {', '.join(_TOP_KEYS)}",
-                                 self.where(None, key))
+        check_keys(self.doc, _TOP_KEYS, lambda key: self.where(None, key),
+                   kind="top-level key")
         check_strings(self.doc, self.where)
         title = self.doc.get("title")
         if not isinstance(title, str) or not title.strip():
@@ -410,11 +408,7 @@ class _Reader:
 
     def settings(self) -> Settings:
         data = self.table("settings")
-        for key in data:
-            if key not in _SETTING_KEYS:
-                raise InputError(f"unknown key '{key}'{did_you_mean(key, _SETTING_KEYS)}; "
-                                 f"expected one of {', '.join(_SETTING_KEYS)}",
-                                 self.where("settings", key))
+        check_keys(data, _SETTING_KEYS, lambda key: self.where("settings", key))
         return check_settings(data, lambda key: self.where("settings", key))
 
     def inputs(self, convention: str, generated: bool = False) -> tuple[Input, ...]:
@@ -549,11 +543,7 @@ class _Reader:
                              "or a definition", where)
         if not isinstance(data, dict):
             raise InputError(f"expected a table [measurands.{name}], found {data!r}", where)
-        for key in data:
-            if key not in _MEASURAND_KEYS:
-                raise InputError(f"unknown key '{key}'{did_you_mean(key, _MEASURAND_KEYS)}; "
-                                 f"expected one of {', '.join(_MEASURAND_KEYS)}",
-                                 self.where("measurands." + name, key))
+        check_keys(data, _MEASURAND_KEYS, lambda key: self.where("measurands." + name, key))
         if "equation" not in data:
             raise InputError("expected an 'equation', found none", where)
         eq_where = self.where("measurands." + name, "equation")

@@ -22,6 +22,7 @@ import numpy as np
 
 from .datafiles import FORMAT_KEYS, parse_declared_format
 from .errors import InputError, Location, did_you_mean
+from .tomlkeys import check_keys
 from .fits import Fit, FitError, polynomial, york
 from .recordfiles import read_columns
 from .records import (
@@ -141,10 +142,7 @@ def _blamed(data: dict[str, Any], message: str) -> str | None:
 # ---------------------------------------------------------------- reading keys
 
 def _keys(data: dict[str, Any], allowed: tuple[str, ...], here: Where) -> None:
-    for key in data:
-        if key not in allowed:
-            raise InputError(f"unknown key '{key}'{did_you_mean(key, allowed)}; expected one "
-                             f"of {', '.join(allowed)}", here(key))
+    check_keys(data, allowed, here)
 
 
 def _text(data: dict[str, Any], key: str, here: Where, default: str | None = None) -> str:

@@ -37,6 +37,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import InputError, Location, did_you_mean
+from .tomlkeys import check_keys
 
 __all__ = ["StatedValue", "Certificate", "Register", "CertificateUse", "load_register",
            "read_date", "validity", "date_warnings", "traceability_statement",
@@ -144,10 +145,7 @@ def load_register(path: Path, where: Location, convention: str) -> Register:
 
 
 def _known(data: dict[str, Any], keys: tuple[str, ...], at: Any, table: str | None) -> None:
-    for key in data:
-        if key not in keys:
-            raise InputError(f"unknown key '{key}'{did_you_mean(key, keys)}; expected one of "
-                             f"{', '.join(keys)}", at(table, key))
+    check_keys(data, keys, lambda key: at(table, key))
 
 
 def _text(data: dict[str, Any], key: str, at: Any, table: str) -> str:

@@ -17,6 +17,7 @@ import numpy as np
 from . import distributions as dist
 from .chemistry import CONSTANTS, molar_mass
 from .errors import InputError, Location, did_you_mean
+from .tomlkeys import check_keys
 from .limits import LIMITS_PAGE, MIN_RELIABILITY, as_float, check_probability, shorten
 
 __all__ = ["Statement", "read_statement", "INPUT_KEYS", "SHAPES", "STATEMENT_WAYS"]
@@ -100,10 +101,7 @@ def _digit_count(value: int) -> str:
 def read_statement(data: dict[str, Any], where: Callable[[str | None], Location],
                    convention: str) -> Statement:
     """Read one input table; ``where(key)`` gives the location of a key (None: the table)."""
-    for key in data:
-        if key not in INPUT_KEYS:
-            raise InputError(f"unknown key '{key}'{did_you_mean(key, INPUT_KEYS)}; expected "
-                             f"one of {', '.join(INPUT_KEYS)}", where(key))
+    check_keys(data, INPUT_KEYS, where)
     table = _Table(data, where)
     ways = [w for w in _WAYS if any(table.has(k) for k in w)]
     if not ways:
