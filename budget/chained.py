@@ -264,6 +264,7 @@ def _linear_model(document: dict[str, Any], source: str) -> Model:
     import hashlib
 
     from .model import Measurand, Settings
+    from .together import Together
 
     inputs: dict[str, Input] = {}
     measurands = []
@@ -293,9 +294,15 @@ def _linear_model(document: dict[str, Any], source: str) -> Model:
             a, b = t["inputs"]
             pairs[frozenset((a, b))] = (a, b, float(t["r"]))
     raw = json.dumps(document, sort_keys=True).encode("utf-8")
+    sets = tuple(Together(inputs=tuple(str(n) for n in s["inputs"]),
+                          dof=math.inf if s.get("dof") is None else float(s["dof"]),
+                          note=str(s.get("note", "")))
+                 for s in document.get("estimated_together") or ()
+                 if all(str(n) in inputs for n in s["inputs"]))
     return Model(title=str(document.get("title", source)), description="",
                  inputs=tuple(inputs.values()), definitions=(), measurands=tuple(measurands),
                  correlations=tuple(pairs.values()), settings=Settings(), source=source,
+                 estimated_together=sets,
                  sha256=hashlib.sha256(raw).hexdigest(), warnings=tuple(warnings),
                  files=(("saved result", source, hashlib.sha256(
                      Path(source).read_bytes()).hexdigest()),))

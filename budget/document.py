@@ -61,6 +61,8 @@ def result_document(result: Result) -> dict[str, Any]:
                                   for i, a in enumerate(names)},
         "warnings": list(result.warnings),
         "certificates": certificates_document(model, model.measured),
+        "estimated_together": [{"inputs": list(s.inputs), "dof": dof_or_null(s.dof),
+                                "note": s.note} for s in model.estimated_together],
         "chain": None if not model.chain else {
             b.name: chain_document(model, b) for b in result.budget.measurands},
         "digits": result.digits,

@@ -229,3 +229,28 @@ def test_certificates_of_a_chained_stage_are_checked_on_that_stages_dates(tmp_pa
     assert found["DVM1"]["measurement_dates"] == ["2025-05-06"]  # the stage's `measured`
     assert found["DVM1"]["problems"] == []
     assert found["R10"]["problems"] == ["expired on 2025-05-06 (valid until 2025-05-01)"]
+
+
+def test_a_saved_result_keeps_its_estimated_together_sets(tmp_path):
+    # Found: chaining the saved JSON of a model with [[estimated_together]] lost the set:
+    # a warning asked to "declare them estimated together" (impossible in a saved result)
+    # and Monte Carlo drew the pair as correlated t with separate χ² draws instead of one
+    # multivariate t (JCGM 102 6.5; docs/uncertainty-rules.md).
+    import json
+
+    from budget.analysis import evaluate
+    from budget.document import result_document
+    from budget.model import load_model
+
+    stage1 = STAGE1.format(a="b0", b="b1") + '\n[[estimated_together]]\ninputs = ["b0", "b1"]\n'
+    (tmp_path / "stage1.toml").write_text(stage1, encoding="utf-8")
+    saved = result_document(evaluate(load_model(tmp_path / "stage1.toml"), trials=0))
+    assert saved["estimated_together"] == [{"inputs": ["b0", "b1"], "dof": 6.0, "note": ""}]
+    (tmp_path / "stage1.json").write_text(json.dumps(saved), encoding="utf-8")
+    (tmp_path / "stage2.toml").write_text(STAGE2.replace("stage1.toml", "stage1.json"),
+                                          encoding="utf-8")
+    model = load_model(tmp_path / "stage2.toml")
+    assert [s.inputs for s in model.estimated_together] == [("y1:b0", "y1:b1")]
+    result = evaluate(model, trials=0)
+    assert not any("not declared [[estimated_together]]" in w for w in result.warnings)
+    assert "estimated together (y1:b0, y1:b1)" in result.budget.measurands[0].dof_rule
