@@ -13,6 +13,7 @@ from __future__ import annotations
 import errno
 import json
 import math
+import os
 import sys
 import time
 from pathlib import Path
@@ -526,7 +527,11 @@ def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str
     from .errors import BudgetError
 
     try:
+        _check_outputs(csv_file, html_file)
         batch = certify_folder(folder, trials=trials, seed=seed, workers=workers)
+        _check_outputs(csv_file, html_file,
+                       protect=[("campaign", os.path.join(folder, e.path))
+                                for e in batch.entries])
         if csv_file:
             from .export import csv_text
             from .output import write_atomic

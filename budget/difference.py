@@ -112,6 +112,54 @@ class Difference:
     measurands: tuple[MeasurandChange, ...]
     notes: tuple[str, ...]  # settings, conventions, seeds, measurands added or removed
 
+    def __repr__(self) -> str:
+        moved = "; ".join(f"{m.name}: u {m.before.u:.3g} → {m.after.u:.3g} {m.unit}"
+                          for m in self.measurands)
+        return f"<Difference {self.before.label} → {self.after.label}: {moved}>"
+
+    def measurand(self, name: str) -> MeasurandChange:
+        """The change of measurand ``name`` (a ``KeyError`` with a "did you mean")."""
+        from .notebook import lookup
+
+        return lookup(self.measurands, name, "measurand")
+
+    def summary(self, digits: int = 2) -> str:
+        """The terminal text of ``budget compare``."""
+        from .difference_view import render_difference
+
+        return render_difference(self, digits)
+
+    def _repr_html_(self) -> str:
+        from .formatting import format_percent
+        from .notebook import table_html
+
+        rows = [[m.name, c.input, c.status, format_percent(c.share_before),
+                 format_percent(c.share_after), f"{c.delta:+.3g}", "; ".join(c.what)]
+                for m in self.measurands for c in m.inputs]
+        return table_html(f"{self.before.label} → {self.after.label}",
+                          ["measurand", "input", "status", "share before / %",
+                           "share after / %", "change of (c·u)²", "what changed"], rows,
+                          notes=list(self.notes))
+
+    def to_frame(self) -> Any:
+        """One row per measurand and input (``share_before``, ``share_after``, ``delta`` …)."""
+        from .notebook import frame
+
+        rows = [{"measurand": m.name, "input": c.input, "status": c.status,
+                 "share_before": c.share_before, "share_after": c.share_after,
+                 "delta": c.delta, "from_uncertainty": c.from_uncertainty,
+                 "from_sensitivity": c.from_sensitivity, "what": "; ".join(c.what)}
+                for m in self.measurands for c in m.inputs]
+        return frame(rows, ["measurand", "input"], {
+            "before": self.before.label, "after": self.after.label,
+            "notes": list(self.notes)})
+
+    def to_dict(self) -> dict[str, Any]:
+        """The JSON document of ``budget compare --json``."""
+        from .difference_view import difference_document
+
+        return difference_document(self)
+
 
 def _number(value: Any) -> float:
     return math.inf if value is None else float(value)

@@ -261,3 +261,21 @@ def test_a_notebook_session() -> None:
     assert "share" in frame_data["text/html"]  # pandas' own table of the budget
     assert "What dominates" in explanation_data["text/html"]
     shell.clear_instance()
+
+
+def test_a_comparison_shows_itself_too(tmp_path: Any) -> None:
+    from budget.difference import compare, load_side
+
+    before = budget.load_model(A2)
+    changed = tmp_path / "changed.toml"
+    changed.write_text(A2.read_text(encoding="utf-8").replace("u = 0.013", "u = 0.026"),
+                       encoding="utf-8")
+    diff = compare(load_side(A2), load_side(changed))
+    assert repr(diff).startswith("<Difference ") and len(repr(diff)) < 300
+    assert diff.summary() and diff.to_dict()["measurands"]
+    _check_html(diff._repr_html_())
+    frame = diff.to_frame()
+    assert {"share_before", "share_after", "delta"} <= set(frame.columns)
+    with pytest.raises(KeyError, match="did you mean 'c_NaOH'"):
+        diff.measurand("c_NaOh")
+    assert before.input("V_T").standard_uncertainty == 0.013

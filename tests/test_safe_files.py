@@ -189,3 +189,16 @@ def test_exports_onto_a_device_are_refused_before_the_work(cli) -> None:
     assert (code, stdout) == (1, "")
     assert stderr == ("error: /dev/full: expected a regular file or a new name for the "
                       "output, found a character device\n")
+
+
+def test_certify_all_never_overwrites_a_campaign(cli, tmp_path: Path) -> None:
+    folder = tmp_path / "year"
+    shutil.copytree(DEMO, folder / "batch-1")
+    target = folder / "batch-1" / "campaign.toml"
+    before = target.read_bytes()
+    code, stdout, stderr = cli("certify-all", str(folder), "--trials", "0", "--csv",
+                               str(target))
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {target}: expected an output file other than the files of "
+                      "the run, found the campaign file itself\n")
+    assert target.read_bytes() == before
