@@ -29,8 +29,14 @@ def _version(name: str) -> str:
 
 
 def files(model: Any) -> list[dict[str, str]]:
-    """Every file that fed the model (model, register, …) with its SHA-256 digest."""
-    return [{"role": role, "path": path, "sha256": digest}
+    """Every file that fed the model (model, register, …) with its SHA-256 digest.
+
+    For a what-if (a changed copy), the model file's role says that its digest is that of
+    the file before the changes, never the result's own.
+    """
+    changed = bool(getattr(model, "changes", ()))
+    return [{"role": f"{role} (before the changes)" if changed and role == "model" else role,
+             "path": path, "sha256": digest}
             for role, path, digest in model.files]
 
 

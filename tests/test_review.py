@@ -254,3 +254,23 @@ def test_a_saved_result_keeps_its_estimated_together_sets(tmp_path):
     result = evaluate(model, trials=0)
     assert not any("not declared [[estimated_together]]" in w for w in result.warnings)
     assert "estimated together (y1:b0, y1:b1)" in result.budget.measurands[0].dof_rule
+
+
+def test_a_what_if_names_the_listed_model_digest_as_the_file_before_the_changes(tmp_path):
+    # Found: a what-if copy listed `{"role": "model", "sha256": <the unchanged file's>}`
+    # in provenance.files, which reads as the digest of what was computed.
+    # Digest checked against hashlib.
+    import hashlib
+
+    from budget.analysis import evaluate
+    from budget.document import result_document
+    from budget.model import load_model
+
+    path = tmp_path / "two.toml"
+    path.write_text(TWO.format(u_b=0.4, r=0.5), encoding="utf-8")
+    changed = load_model(path).with_uncertainty("a", u=0.6)
+    files = result_document(evaluate(changed, trials=0))["provenance"]["files"]
+    assert files == [{"role": "model (before the changes)", "path": str(path),
+                      "sha256": hashlib.sha256(path.read_bytes()).hexdigest()}]
+    plain = result_document(evaluate(load_model(path), trials=0))["provenance"]["files"]
+    assert plain[0]["role"] == "model"
