@@ -99,7 +99,8 @@ def _read_model(model_file: str) -> Any:
     from .errors import InputError, Location
     from .limits import MAX_FILE_BYTES
 
-    data = click.get_binary_stream("stdin").read(MAX_FILE_BYTES + 1)
+    stream: Any = getattr(sys.stdin, "buffer", sys.stdin)  # the bytes under the text
+    data = stream.read(MAX_FILE_BYTES + 1)
     if len(data) > MAX_FILE_BYTES:
         raise InputError(f"expected a model of at most {MAX_FILE_BYTES // 2 ** 20} MiB, "
                          "found more", Location(file="<stdin>"))
