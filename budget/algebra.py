@@ -19,10 +19,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Any, Callable, Iterator
+from typing import Any, Callable, Iterator, TypeVar
+
+T = TypeVar("T")
 
 __all__ = ["Node", "Number", "symbol", "number", "call", "add", "mul", "to_sympy",
-           "symbols_in", "walk", "constant_value", "exact_value", "substitute",
+           "symbols_in", "walk", "constant_value", "exact_value", "substitute", "fold",
            "FUNCTION_NAMES"]
 
 Number = int | Fraction | str
@@ -167,7 +169,13 @@ _EXACT_DIGITS = 20_000  # exact powers beyond about this many digits are not com
 def exact_value(root: Node) -> Fraction | None:
     """The exact rational value of a node built from integers and fractions by sums,
     products and integer powers; None when a decimal, a function or a symbol occurs."""
-    done: dict[int, Fraction | None] = {}
+    return fold(root, _exact_step)
+
+
+def fold(root: Node, step: Callable[[Node, list[T]], T]) -> T:
+    """``step(node, values of its arguments)`` over the graph, arguments first, each shared
+    node once, without recursion; the value at ``root``."""
+    done: dict[int, T] = {}
     stack: list[tuple[Node, bool]] = [(root, False)]
     while stack:
         node, ready = stack.pop()
@@ -177,7 +185,7 @@ def exact_value(root: Node) -> Fraction | None:
             stack.append((node, True))
             stack.extend((a, False) for a in node.args if id(a) not in done)
             continue
-        done[id(node)] = _exact_step(node, [done[id(a)] for a in node.args])
+        done[id(node)] = step(node, [done[id(a)] for a in node.args])
     return done[id(root)]
 
 
@@ -240,19 +248,7 @@ def to_sympy(root: Node) -> Any:
     if cached is not None and cached[0] is root:
         return cached[1]
     functions = _sympy_functions()
-    done: dict[int, Any] = {}
-    stack: list[tuple[Node, bool]] = [(root, False)]
-    while stack:
-        node, ready = stack.pop()
-        if id(node) in done:
-            continue
-        if not ready and node.args:
-            stack.append((node, True))
-            stack.extend((a, False) for a in node.args if id(a) not in done)
-            continue
-        args = [done[id(a)] for a in node.args]
-        done[id(node)] = _replay(node, args, functions, sympy)
-    result = done[id(root)]
+    result = fold(root, lambda node, args: _replay(node, args, functions, sympy))
     if len(_CACHE) > 64:
         _CACHE.clear()
     _CACHE[id(root)] = (root, result)
