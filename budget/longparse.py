@@ -16,6 +16,7 @@ import ast
 import io
 import tokenize
 from dataclasses import dataclass
+from typing import Iterator
 
 __all__ = ["parse"]
 
@@ -104,7 +105,10 @@ class _Splitter:
 
     def commas(self, i: int, j: int) -> list[int]:
         """Positions of the commas outside any bracket in tokens i … j-1."""
-        found: list[int] = []
+        return [k for k in self.outside(i, j) if self.tokens[k].text == ","]
+
+    def outside(self, i: int, j: int) -> Iterator[int]:
+        """Positions of the operator tokens outside any bracket in tokens i … j-1."""
         depth = 0
         for k in range(i, j):
             token = self.tokens[k]
@@ -114,27 +118,18 @@ class _Splitter:
                 depth += 1
             elif token.text in _CLOSE:
                 depth -= 1
-            elif token.text == "," and depth == 0:
-                found.append(k)
-        return found
+            elif depth == 0:
+                yield k
 
     def top_level(self, i: int, j: int) -> tuple[list[int], list[int]]:
         """Positions of the binary operators outside any bracket in tokens i … j-1."""
         sums: list[int] = []
         products: list[int] = []
-        depth = 0
-        for k in range(i, j):
-            token = self.tokens[k]
-            if token.kind != tokenize.OP:
-                continue
-            if token.text in _OPEN:
-                depth += 1
-            elif token.text in _CLOSE:
-                depth -= 1
-            elif depth == 0 and k > i and self.operand_before(k):
-                if token.text in _SUMS:
+        for k in self.outside(i, j):
+            if k > i and self.operand_before(k):
+                if self.tokens[k].text in _SUMS:
                     sums.append(k)
-                elif token.text in _PRODUCTS:
+                elif self.tokens[k].text in _PRODUCTS:
                     products.append(k)
         return sums, products
 
