@@ -55,7 +55,8 @@ def _derived_inputs(made: Generated, derived: Derived, names: tuple[str, ...],
     u = derived.standard_uncertainties
     for k, name in enumerate(names):
         made.inputs.append(Made(name=name, estimate=float(derived.estimates[k]),
-                                unit=units[k], u=float(u[k]), dof=derived.dof, type="A",
+                                unit=units[k], standard_uncertainty=float(u[k]),
+                                dof=derived.dof, type="A",
                                 basis=basis, source=source))
     _together(made, names, derived.estimates, derived.covariance, derived.dof,
               f"parts derived from one fit of {source}")
@@ -113,7 +114,8 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
     text = _corrections(name, data, here, made, source, f"({' '.join(inner)})")
     if result.rule_error != 0.0:
         made.inputs.append(Made(name=f"{name}_rule", estimate=result.rule_error, unit=unit,
-                                u=abs(result.rule_error), dof=math.inf, type="B",
+                                standard_uncertainty=abs(result.rule_error) / math.sqrt(3.0),
+                                half_width=abs(result.rule_error), dof=math.inf, type="B",
                                 basis="trapezoidal-rule correction (Richardson), ± its "
                                       "size",
                                 source=source, shape="rectangular"))
@@ -163,7 +165,8 @@ def _corrections(name: str, data: dict[str, Any], here: Where, made: Generated,
                               ("time", "time_u_relative", "time base")):
         value = _optional(data, key, here)
         if value:
-            made.inputs.append(Made(name=f"{name}_{suffix}", estimate=1.0, unit="1", u=value,
+            made.inputs.append(Made(name=f"{name}_{suffix}", estimate=1.0, unit="1",
+                                    standard_uncertainty=value,
                                     dof=math.inf, type="B", basis=f"relative {what}",
                                     source=source))
             text = f"{name}_{suffix} * {text}"
@@ -178,11 +181,14 @@ def _raw_part(name: str, data: dict[str, Any], raw: float, weights: np.ndarray, 
               span: str, source: str, here: Where) -> Made:
     per_reading = _optional(data, "current_u", here)
     if not per_reading:
-        return Made(name=f"{name}_int", estimate=raw, unit=unit, u=0.0, dof=math.inf,
+        return Made(name=f"{name}_int", estimate=raw, unit=unit, standard_uncertainty=0.0,
+                    dof=math.inf,
                     type="B", basis=f"trapezoidal integral, {span}", source=source,
                     shape="exact")
     u = per_reading * float(np.sqrt(np.sum(weights ** 2)))
-    return Made(name=f"{name}_int", estimate=raw, unit=unit, u=u, dof=math.inf, type="B",
+    return Made(name=f"{name}_int", estimate=raw, unit=unit, standard_uncertainty=u,
+                dof=math.inf,
+                type="B",
                 basis=f"trapezoidal integral, {span}; u of each reading {per_reading:g}",
                 source=source)
 
@@ -236,7 +242,8 @@ def _drift(name: str, data: dict[str, Any], record: Series, units: dict[str, str
             raise InputError("expected no 'titration_time' with give = \"rate\"",
                              here("titration_time"))
         estimate, u, unit = rate, u_rate, f"{y_unit}/{x_unit}"
-    made.inputs.append(Made(name=name, estimate=estimate, unit=unit, u=u, dof=derived.dof,
+    made.inputs.append(Made(name=name, estimate=estimate, unit=unit, standard_uncertainty=u,
+                            dof=derived.dof,
                             type="A", basis="drift rate, common slope of the background "
                             "windows" + (" × titration time" if give == "correction" else ""),
                             source=f"record {record.file}"))
