@@ -136,7 +136,8 @@ def _shared(made: Generated, result: Charge, raw: Made, names: tuple[str, ...]
     shared readings, and the set counts with the fit's ν (the integral's own u is stated,
     ν = ∞; the smaller ν of the two estimates of the readings' noise is the cautious one).
     """
-    if result.correlation is None or raw.u == 0.0 or result.background is None:
+    if (result.correlation is None or raw.standard_uncertainty == 0.0
+            or result.background is None):
         return []
     members = (raw.name,) + names
     made.correlations[:] = [c for c in made.correlations
