@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
@@ -25,7 +26,7 @@ from .recordinputs import (
     _pair,
     _together,
 )
-from .records import Derived, Series, charge, drift, inflection, intersection
+from .records import Charge, Derived, Series, charge, drift, inflection, intersection
 
 __all__ = ["KINDS"]
 
@@ -109,6 +110,7 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
         inner += [f"- {names[0]}"] + [f"+ {n}" for n in names[1:]]
         notes.extend(result.background.notes)
         views = _views(result.background, labels)
+        notes.extend(_shared(made, result, parts, names))
     text = _corrections(name, data, here, made, source, f"({' '.join(inner)})")
     if result.rule_error != 0.0:
         made.inputs.append(Made(name=f"{name}_rule", estimate=result.rule_error, unit=unit,
@@ -123,6 +125,38 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
                                  method=f"charge by the trapezoidal rule, {background} "
                                         "background", produces=(name,), fits=views,
                                  notes=tuple(notes)))
+
+
+def _shared(made: Generated, result: Charge, raw: Made, names: tuple[str, ...]
+            ) -> list[str]:
+    """When the integral and the background fit share readings, their correlation.
+
+    The integral (with its per-reading u) and the background parts become one set
+    estimated together: the correlations are those ``records.charge`` computed from the
+    shared readings, and the set counts with the fit's ν (the integral's own u is stated,
+    ν = ∞; the smaller ν of the two estimates of the readings' noise is the cautious one).
+    """
+    if (result.correlation is None or raw.standard_uncertainty == 0.0
+            or result.background is None):
+        return []
+    members = (raw.name,) + names
+    made.correlations[:] = [c for c in made.correlations
+                            if c[0] not in members or c[1] not in members]
+    made.together[:] = [t for t in made.together if set(t[0]) != set(names)]
+    dof = result.background.dof
+    made.inputs[made.inputs.index(raw)] = replace(
+        raw, dof=dof, basis=f"{raw.basis}; shares {result.shared} readings with the "
+                            "background fit, so estimated together with it (its ν)")
+    for i in range(len(members)):
+        for j in range(i + 1, len(members)):
+            made.correlations.append((members[i], members[j],
+                                      float(result.correlation[i, j])))
+    made.together.append((members, dof, f"integral and background from {result.shared} "
+                                        f"shared readings of {raw.source}"))
+    shown = ", ".join(f"r({raw.name}, {n}) = {result.correlation[0, k + 1]:.3f}"
+                      for k, n in enumerate(names))
+    return [f"{result.shared} readings lie in both the integration and the background "
+            f"window: {shown} (from the shared readings, GUM 5.2)"]
 
 
 def _corrections(name: str, data: dict[str, Any], here: Where, made: Generated,
