@@ -85,7 +85,7 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
     """GUM budget and (unless ``trials == 0``) the Monte Carlo cross-check of ``model``;
     ``reported_interval`` (default: the model's setting) picks the reported result;
     ``keep_samples`` as for ``simulate``."""
-    coverage = model.settings.coverage if coverage is None else coverage
+    coverage = model.settings.coverage_probability if coverage is None else coverage
     digits = model.settings.digits if digits is None else digits
     where = Location(file=model.source)
     check_probability(coverage, replace(where, key="coverage"))  # limits, also for the API

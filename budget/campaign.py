@@ -65,8 +65,8 @@ class Campaign:
     shelf_life: float
     u_short_term: float
     comparisons: tuple[Comparison, ...]
-    k: float | None
-    coverage: float | None
+    coverage_factor: float | None
+    coverage_probability: float | None
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
     data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
@@ -247,8 +247,9 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         title=title, material=str(r.doc.get("material", "")), unit=unit, source=r.name,
         sha256=sha256, model=model, measurand=measurand, runs=runs, run_inputs=run_inputs,
         scatter_covers=covers, homogeneity=homogeneity, stability=stability,
-        shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r, unit), k=k,
-        coverage=coverage, certificate=fields,
+        shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r, unit),
+        coverage_factor=k,
+        coverage_probability=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
                     if key in r.doc),
         data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),

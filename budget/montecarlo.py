@@ -523,7 +523,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     while a fixed run has at most ``KEEP_LIMIT`` values, longer runs are streamed."""
     settings = model.settings
     seed = settings.seed if seed is None else seed
-    coverage = settings.coverage if coverage is None else coverage
+    coverage = settings.coverage_probability if coverage is None else coverage
     digits = settings.digits if digits is None else digits
     workers = workers or min(2, os.cpu_count() or 1)
     if trials is None:

@@ -148,7 +148,7 @@ def _reported_statement(result: Result, b: MeasurandBudget, digits: int, unit: s
     value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
     low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
                  for x in chosen.interval)
-    return (f"{b.name} = {value} {unit}, {chosen.percent} coverage "
+    return (f"{b.name} = {value} {unit}, {chosen.coverage_text} coverage "
             f"interval [{low}, {high}] {unit}")
 
 
@@ -313,8 +313,11 @@ def render_difference_report(difference: Any, digits: int = 2) -> str:
     from .difference_view import causes, headline
 
     def measurand(m: Any) -> dict[str, Any]:
-        through_k = "" if math.isclose(m.before.k, m.after.k, rel_tol=1e-4) else (
-            f"U changed by {m.U_from_u:+.3g} {m.unit} through u_c and by {m.U_from_k:+.3g} "
+        a, b = m.before, m.after
+        through_k = "" if math.isclose(a.coverage_factor, b.coverage_factor,
+                                       rel_tol=1e-4) else (
+            f"U changed by {m.expanded_change_from_uncertainty:+.3g} {m.unit} through u_c "
+            f"and by {m.expanded_change_from_coverage_factor:+.3g} "
             f"{m.unit} through the coverage factor k.")
         return {"name": m.name, "unit": m.unit, "headline": headline(m, digits),
                 "causes": causes(m) if m.variance_delta else [], "through_k": through_k,
