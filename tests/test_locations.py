@@ -83,6 +83,26 @@ def test_a_non_finite_higher_order_derivative_names_the_equation() -> None:
                               "derivatives finite at the estimates, found ")
 
 
+def test_monte_carlo_errors_name_the_file_and_the_key() -> None:
+    from budget.montecarlo import simulate
+
+    model = parse_model(PAIR.format(r=0.0), "m.toml")
+    with pytest.raises(BudgetError) as caught:
+        simulate(model, trials=5)
+    assert str(caught.value) == ("m.toml: trials: expected at least 20 trials for a 95 % "
+                                 "interval, found 5")
+    stated = parse_model(PAIR.format(r=0.0) + "[settings]\ntrials = 5\n", "m.toml")
+    with pytest.raises(BudgetError) as caught:
+        simulate(stated)
+    assert str(caught.value).startswith("m.toml: [settings] trials: expected at least 20 ")
+    domain = parse_model('title = "d"\n[measurands.y]\nequation = "sqrt(x)"\n'
+                         '[inputs.x]\nvalue = 0.1\nu = 1\n', "d.toml")
+    with pytest.raises(BudgetError) as caught:
+        simulate(domain, trials=100_000)
+    assert str(caught.value).startswith("d.toml: ")
+    assert caught.value.location == Location(file="d.toml")
+
+
 def test_no_engine_message_spells_its_file_by_hand() -> None:
     """A place is a Location (so the CLI, the JSON and the tests see it), never a
     ``f"{model.source}: …"`` prefix written into the message."""
