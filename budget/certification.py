@@ -407,8 +407,10 @@ def _simulate_certified(cert: Certification, char: Characterization | None,
                   (used["short_term_stability"], math.inf))
     stated = cert.coverage_probability
     implied = 2.0 * t_cdf(cert.coverage_factor, cert.dof) - 1.0  # what ±k·u_CRM claims
+    samples = sim.measurands[index].samples
+    assert samples is not None  # kept: _characterize asks for them
     return simulate_certified(
-        model_samples=sim.measurands[index].samples,
+        model_samples=samples,
         model_estimate=char.result.budget.measurands[index].estimate,
         scale=_unit_scale(campaign, model.measurands[index].unit), runs_mean=char.mean,
         s=char.s, n=char.n, components=components,
@@ -479,7 +481,8 @@ def _characterize(campaign: Campaign, trials: int | None, seed: int | None,
                                      key="runs"))
     s = float(np.std(runs, ddof=1))
     at_mean = _model_at_mean(campaign, s / math.sqrt(n))
-    result = evaluate(at_mean, trials=trials, seed=seed, progress=progress)
+    # the certified value's Monte Carlo reuses every value of the model's run
+    result = evaluate(at_mean, trials=trials, seed=seed, progress=progress, keep_samples=True)
     gum = result.budget.measurands[index]
     u_b = gum.combined_uncertainty * scale
     u = _root_sum_square([u_b, s / math.sqrt(n)])

@@ -298,7 +298,7 @@ def _covariance(members: list[Member], plan: "MethodsPlan", elements: list[_Elem
     if trials != 0 and (trials is not None or joint.model.settings.trials != 0):
         from .montecarlo import simulate
 
-        simulation = simulate(joint.model, trials=trials, seed=seed)
+        simulation = simulate(joint.model, trials=trials, seed=seed, keep_samples=True)
         sd = np.array([m.standard_uncertainty for m in simulation.measurands])
         covariance = np.array(simulation.output_correlation) * np.outer(sd, sd)
         mc = _element_covariance(elements, index, covariance, keep_diagonal=False)

@@ -200,6 +200,11 @@ def model_view_math(result: Result, k: int) -> Markup:
     return Markup(equation_mathml(measurand.name, measurand.equation))
 
 
+def _values(s: MeasurandSimulation) -> Any:
+    """Every value of the run, or the fine histogram of a streamed run."""
+    return s.samples if s.samples is not None else s.histogram
+
+
 def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int,
                      unit: str) -> dict[str, Any]:
     reference = b.combined_uncertainty or s.standard_uncertainty
@@ -215,7 +220,7 @@ def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int,
         "d_low": format_number(v.d_low, 2) if v else "-",
         "d_high": format_number(v.d_high, 2) if v else "-",
         "tolerance": format_number(v.tolerance, 1) if v else "-",
-        "histogram": histogram(s.samples, estimate=b.estimate, u=b.combined_uncertainty,
+        "histogram": histogram(_values(s), estimate=b.estimate, u=b.combined_uncertainty,
                                dof=b.dof, gum_interval=b.interval, interval=s.interval,
                                shortest=s.shortest_interval, unit=unit,
                                label=f"Monte Carlo distribution of {name_text(b.name)}"),

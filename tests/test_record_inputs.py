@@ -86,10 +86,10 @@ _BAD = {
         "not decay exponentially (background_window of 'data.csv', rows 2–9)"),
     "unknown key": ('[records.c]\nkind = "drift"\nfile = "data.csv"\nx = "x"\ny = "y"\n'
                     'befor = [0, 3]\n', _LINE,
-                    ":9: [records.c] befor: unknown key 'befor' (did you mean 'before'?); "
-                    "expected one of file, kind, x, y, x_unit, y_unit, description, "
-                    "separator, decimal, encoding, sheet, missing, dates, before, after, "
-                    "titration_time, give"),
+                    ":9: [records.c] befor: expected a key among file, kind, x, y, x_unit, "
+                    "y_unit, description, separator, decimal, encoding, sheet, missing, "
+                    "dates, before, after, titration_time, give, found 'befor' (did you "
+                    "mean 'before'?)"),
     "unit slip": ('[fits.c]\nfile = "data.csv"\nx = "t"\ny = "y"\nx_unit = "s"\n',
                   "t [min],y\n0,1\n1,2\n2,3.1\n",
                   ":8: [fits.c] x_unit: expected column 't' of 'data.csv' in x_unit 's', "
