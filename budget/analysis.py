@@ -80,10 +80,12 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
              adaptive: bool = False, seed: int | None = None, digits: int | None = None,
              second_order: bool = False, workers: int | None = None,
              progress: Callable[[int, int], None] | None = None,
-             reported_interval: str | None = None) -> Result:
+             reported_interval: str | None = None,
+             keep_samples: bool | None = None) -> Result:
     """GUM budget and (unless ``trials == 0``) the Monte Carlo cross-check of ``model``;
-    ``reported_interval`` (default: the model's setting) picks the reported result."""
-    coverage = model.settings.coverage if coverage is None else coverage
+    ``reported_interval`` (default: the model's setting) picks the reported result;
+    ``keep_samples`` as for ``simulate``."""
+    coverage = model.settings.coverage_probability if coverage is None else coverage
     digits = model.settings.digits if digits is None else digits
     where = Location(file=model.source)
     check_probability(coverage, replace(where, key="coverage"))  # limits, also for the API
@@ -96,7 +98,8 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
         if adaptive or trials != 0:
             simulation = simulate(model, budget, trials=None if adaptive else trials,
                                   adaptive=adaptive, seed=seed, coverage=coverage,
-                                  digits=digits, workers=workers, progress=progress)
+                                  digits=digits, workers=workers, progress=progress,
+                                  keep_samples=keep_samples)
     except RecursionError as exc:  # a safety net: the engine walks without recursion
         raise PropagationError(f"expected a model nested less deeply (limits: "
                                f"{LIMITS_PAGE}), found one too deep to evaluate", where

@@ -75,7 +75,7 @@ def element_rows(item: Any, sensitivity: float, u_c: float, digits: int,
     for (symbol, n), weight in zip(mass.counts, mass.weights):
         part = n * weight.standard_uncertainty
         rows.append({"element": symbol, "n": n,
-                     "A_r": format_pair(weight.value, weight.standard_uncertainty, 2)[0],
+                     "A_r": format_pair(weight.estimate, weight.standard_uncertainty, 2)[0],
                      "u_A": format_number(weight.standard_uncertainty, 2),
                      "n_u": format_number(part, 2),
                      "share_M": format_percent(100 * part ** 2 / u_m ** 2) if u_m else "0",

@@ -65,8 +65,8 @@ class Campaign:
     shelf_life: float
     u_short_term: float
     comparisons: tuple[Comparison, ...]
-    k: float | None
-    coverage: float | None
+    coverage_factor: float | None
+    coverage_probability: float | None
     certificate: tuple[tuple[str, str], ...] = field(default=())
     extra: tuple[tuple[str, str], ...] = field(default=())
     data_files: tuple[tuple[str, str, str], ...] = field(default=())  # (role, path, sha256)
@@ -247,8 +247,9 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         title=title, material=str(r.doc.get("material", "")), unit=unit, source=r.name,
         sha256=sha256, model=model, measurand=measurand, runs=runs, run_inputs=run_inputs,
         scatter_covers=covers, homogeneity=homogeneity, stability=stability,
-        shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r, unit), k=k,
-        coverage=coverage, certificate=fields,
+        shelf_life=shelf, u_short_term=u_sts, comparisons=_comparisons(r, unit),
+        coverage_factor=k,
+        coverage_probability=coverage, certificate=fields,
         extra=tuple((key, str(r.doc[key])) for key in ("producer", "description")
                     if key in r.doc),
         data_files=tuple(entry for entry in r.files if entry[0] != "characterization.model"),
@@ -276,6 +277,13 @@ def read_runs_file(r: _Reader, path: Path, fmt: FileFormat, model: Model, table:
     if not runs.inputs:
         raise r.fail(f"expected columns named like inputs of the model in '{path.name}', "
                      "found none", table, "runs", nth)
+    defined = {d.name: d.text for d in model.definitions}
+    for name, _ in runs.labels:
+        if name in defined:  # else read as a label and silently not used
+            raise r.fail(f"expected run columns named like inputs of the model in "
+                         f"'{path.name}', found '{name}', which the model defines "
+                         f"({name} = {defined[name]}): a run cannot set it, give the "
+                         "columns of its inputs", table, "runs", nth)
     for name in runs.names:
         if model.input(name).molar_mass is not None:
             raise r.fail(f"expected run columns for measured inputs, found '{name}', which "

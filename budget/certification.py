@@ -407,12 +407,15 @@ def _simulate_certified(cert: Certification, char: Characterization | None,
                   (used["short_term_stability"], math.inf))
     stated = cert.coverage_probability
     implied = 2.0 * t_cdf(cert.coverage_factor, cert.dof) - 1.0  # what ±k·u_CRM claims
+    samples = sim.measurands[index].samples
+    assert samples is not None  # kept: _characterize asks for them
     return simulate_certified(
-        model_samples=sim.measurands[index].samples,
+        model_samples=samples,
         model_estimate=char.result.budget.measurands[index].estimate,
         scale=_unit_scale(campaign, model.measurands[index].unit), runs_mean=char.mean,
         s=char.s, n=char.n, components=components,
-        coverage=stated if stated is not None else model.settings.coverage, seed=sim.seed,
+        coverage=stated if stated is not None else model.settings.coverage_probability,
+        seed=sim.seed,
         gum=(cert.certified_value, cert.standard_uncertainty, cert.expanded_uncertainty),
         digits=model.settings.digits, validate_at=stated if stated is not None else implied)
 
@@ -438,8 +441,8 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
     dofs = np.array([char.dof, homogeneity.dof_between if homogeneity else math.inf,
                      stability.dof if stability else math.inf, math.inf], dtype=float)
     nu = welch_satterthwaite(u, np.array([c for _, c in components]), dofs)
-    k = campaign.k if campaign.k is not None else \
-        coverage_factor(campaign.coverage or 0.95, nu)  # the campaign gives one of them
+    k = campaign.coverage_factor if campaign.coverage_factor is not None else \
+        coverage_factor(campaign.coverage_probability or 0.95, nu)  # the campaign gives one
     scores = tuple(_score(c, char, k) for c in campaign.comparisons)
     for s in scores:
         if not s.agrees:
@@ -447,7 +450,8 @@ def _certified(campaign: Campaign, char: Characterization, homogeneity: Homogene
                             f"ζ = {s.zeta:.2f})")
     return Certification(campaign=campaign, certified_value=char.mean,
                          standard_uncertainty=u, coverage_factor=k, expanded_uncertainty=k * u,
-                         coverage_probability=campaign.coverage, dof=nu, components=components,
+                         coverage_probability=campaign.coverage_probability, dof=nu,
+                         components=components,
                          characterization=char, homogeneity=homogeneity, stability=stability,
                          comparisons=scores,
                          warnings=tuple(dict.fromkeys([*char.result.warnings, *warnings])))
@@ -477,7 +481,8 @@ def _characterize(campaign: Campaign, trials: int | None, seed: int | None,
                                      key="runs"))
     s = float(np.std(runs, ddof=1))
     at_mean = _model_at_mean(campaign, s / math.sqrt(n))
-    result = evaluate(at_mean, trials=trials, seed=seed, progress=progress)
+    # the certified value's Monte Carlo reuses every value of the model's run
+    result = evaluate(at_mean, trials=trials, seed=seed, progress=progress, keep_samples=True)
     gum = result.budget.measurands[index]
     u_b = gum.combined_uncertainty * scale
     u = _root_sum_square([u_b, s / math.sqrt(n)])

@@ -76,7 +76,7 @@ def _reported(cert: Any, unit: str, digits: int) -> dict[str, Any]:
         value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
         low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
                      for x in chosen.interval)
-        view["statement"] = (f"{value} {unit}, {chosen.percent} coverage interval "
+        view["statement"] = (f"{value} {unit}, {chosen.coverage_text} coverage interval "
                              f"[{low}, {high}] {unit}")
     if sim is not None:
         low, high = (format_pair(x, sim.standard_uncertainty, digits + 1)[0]

@@ -46,10 +46,10 @@ class Partial:
 
     of: str
     by: str
-    value: float
+    derivative: float
     unit: str
     formula: str | None
-    si_value: float = 0.0   # the same derivative in coherent SI units
+    si_derivative: float = 0.0   # the same derivative in coherent SI units
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -64,7 +64,7 @@ class Chain:
     input: str
     paths: tuple[tuple[str, ...], ...]
     path_count: int
-    value: float
+    sensitivity: float
     unit: str
     through: str | None = None
     upstream: float | None = None
@@ -154,14 +154,14 @@ def _through(x: str, stage: str, own: Chain | None, flow: _Flow,
     """An input acting through an earlier model's result (and perhaps directly too)."""
     top = flow.top
     to_stage = _chain(flow, stage, known)
-    direct = own.value if own is not None else 0.0
+    direct = own.sensitivity if own is not None else 0.0
     total = engine.get(x, direct)
-    upstream = (total - direct) / to_stage.value if to_stage.value else None
+    upstream = (total - direct) / to_stage.sensitivity if to_stage.sensitivity else None
     shown = known[x].shown if x in known else ""
     return Chain(input=x, paths=(own.paths if own else ()) + tuple(
                      (*p, x) for p in to_stage.paths),
                  path_count=(own.path_count if own else 0) + to_stage.path_count,
-                 value=total, unit=unit_ratio(known[top].shown, shown), through=stage,
+                 sensitivity=total, unit=unit_ratio(known[top].shown, shown), through=stage,
                  upstream=upstream, upstream_unit=unit_ratio(known[stage].shown, shown))
 
 
@@ -220,9 +220,10 @@ def _partials(top: str, local: dict[str, dict[str, float]], known: dict[str, _Qu
             wanted.add(by)
             of_q, by_q = known[name], known[by]
             value = local[name][by] * float(by_q.factor) / float(of_q.factor)
-            out[(name, by)] = Partial(of=name, by=by, value=value,
+            out[(name, by)] = Partial(of=name, by=by, derivative=value,
                                       unit=unit_ratio(of_q.shown, by_q.shown),
-                                      formula=formulas.get(by), si_value=local[name][by])
+                                      formula=formulas.get(by),
+                                      si_derivative=local[name][by])
     return out
 
 
@@ -237,8 +238,9 @@ class _Flow:
         self.value: dict[str, float] = {top: 1.0}
         self.count: dict[str, int] = {top: 1}
         for (of, by), partial in partials.items():  # top down: parents come first
-            self.parents.setdefault(by, []).append((of, partial.value))
-            self.value[by] = self.value.get(by, 0.0) + self.value.get(of, 0.0) * partial.value
+            self.parents.setdefault(by, []).append((of, partial.derivative))
+            self.value[by] = self.value.get(by, 0.0) \
+                + self.value.get(of, 0.0) * partial.derivative
             self.count[by] = self.count.get(by, 0) + self.count.get(of, 0)
 
     def paths(self, x: str) -> list[tuple[str, ...]]:
@@ -255,7 +257,7 @@ class _Flow:
 
 def _chain(flow: _Flow, x: str, known: dict[str, _Quantity]) -> Chain:
     return Chain(input=x, paths=tuple(flow.paths(x)), path_count=flow.count.get(x, 0),
-                 value=flow.value.get(x, 0.0),
+                 sensitivity=flow.value.get(x, 0.0),
                  unit=unit_ratio(known[flow.top].shown, known[x].shown))
 
 

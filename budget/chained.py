@@ -71,7 +71,10 @@ def read_link(name: str, data: dict[str, Any], base: Path, where: Any,
               loading: tuple[str, ...]) -> tuple[PendingLink, Input]:
     """The link an input states and the placeholder input that stands for it meanwhile."""
     from .distributions import Exact
+    from .statements import INPUT_KEYS
+    from .tomlkeys import check_keys
 
+    check_keys(data, (*INPUT_KEYS, *CHAIN_KEYS), where)
     for key in data:
         if key not in (*CHAIN_KEYS, "unit", "description", "source"):
             raise InputError(f"'{key}' does not apply to an input that is the result of "

@@ -100,7 +100,7 @@ class AtomicWeight:
     """An element's atomic weight as a rectangular distribution: centre ± half_width."""
 
     symbol: str
-    value: float
+    estimate: float
     half_width: float
     checked: bool
 
@@ -257,8 +257,8 @@ class MolarMass:
     weights: tuple[AtomicWeight, ...]
 
     @property
-    def value(self) -> float:
-        return math.fsum(n * w.value for (_, n), w in zip(self.counts, self.weights))
+    def estimate(self) -> float:
+        return math.fsum(n * w.estimate for (_, n), w in zip(self.counts, self.weights))
 
     @property
     def standard_uncertainty(self) -> float:

@@ -60,7 +60,7 @@ class Combined:
     """One value from several results, by ``rule``, with its standard uncertainty."""
 
     rule: str
-    value: float
+    estimate: float
     standard_uncertainty: float
     weights: tuple[float, ...]
     tau: float
@@ -189,7 +189,7 @@ def combine(values: Array | list[float], covariance: Array | list[list[float]],
         elif rule == "paule-mandel":
             tau2 = paule_mandel(x, v)
         mu, u, weights = gls_mean(x, v + tau2 * np.eye(x.size))
-    return Combined(rule=rule, value=mu, standard_uncertainty=u,
+    return Combined(rule=rule, estimate=mu, standard_uncertainty=u,
                     weights=tuple(float(w) for w in weights), tau=math.sqrt(tau2),
                     consistency=check, warnings=_fit_warnings(rule, check, weights))
 

@@ -133,11 +133,11 @@ def certified_from_combined(cert: Any, stability_dof: float
                   (used["short_term_stability"], math.inf))
     stated = cert.coverage_probability
     model = cert.campaign.model
-    value = cert.methods.combined.value
+    value = cert.methods.combined.estimate
     return simulate_certified(
         model_samples=combined.samples, model_estimate=value, scale=1.0, runs_mean=value,
         s=0.0, n=2, components=components,
-        coverage=stated if stated is not None else model.settings.coverage,
+        coverage=stated if stated is not None else model.settings.coverage_probability,
         seed=model.settings.seed, gum=None if stated is None else (
             cert.certified_value, cert.standard_uncertainty, cert.expanded_uncertainty),
         digits=model.settings.digits)

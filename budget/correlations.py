@@ -14,10 +14,12 @@ from typing import Any, Callable, Sequence
 import numpy as np
 
 from .errors import InputError, Location, did_you_mean
+from .tomlkeys import check_keys
 
 __all__ = ["read", "matrix"]
 
 _KEYS = ("between", "r", "matrix")
+_PAIR_KEYS = ("between", "r")
 
 
 def read(entries: Any, names: Sequence[str],
@@ -77,10 +79,7 @@ def _one(entry: Any, names: Sequence[str], here: Callable[..., Location],
     if not isinstance(entry, dict):
         raise InputError(f"expected a table in correlation {index + 1}, found {entry!r}",
                          here())
-    for key in entry:
-        if key not in _KEYS:
-            raise InputError(f"unknown key '{key}'{did_you_mean(key, _KEYS)} in correlation "
-                             f"{index + 1}; expected between and r", here(key))
+    check_keys(entry, _PAIR_KEYS, here, within=f"in correlation {index + 1}")
     between = entry.get("between")
     if (not isinstance(between, list) or len(between) != 2
             or not all(isinstance(n, str) for n in between)):
@@ -107,10 +106,7 @@ def _block(entry: dict[str, Any], names: Sequence[str], here: Callable[..., Loca
            index: int) -> list[tuple[str, str, float]]:
     """A block of inputs estimated with one correlation matrix: ``between`` n names and
     either ``r`` (every pair) or ``matrix`` (n × n, symmetric, unit diagonal)."""
-    for key in entry:
-        if key not in _KEYS:
-            raise InputError(f"unknown key '{key}'{did_you_mean(key, _KEYS)} in correlation "
-                             f"{index + 1}; expected between and r or matrix", here(key))
+    check_keys(entry, _KEYS, here, within=f"in correlation {index + 1}")
     between = entry.get("between")
     if (not isinstance(between, list) or len(between) < 2
             or not all(isinstance(n, str) for n in between)):

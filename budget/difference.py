@@ -34,7 +34,7 @@ class Term:
     input: str
     estimate: float
     unit: str
-    u: float
+    standard_uncertainty: float
     distribution: str
     dof: float
     sensitivity: float
@@ -45,10 +45,10 @@ class Term:
 class MeasurandSide:
     name: str
     unit: str
-    value: float
-    u: float
-    k: float
-    U: float
+    estimate: float
+    combined_uncertainty: float
+    coverage_factor: float
+    expanded_uncertainty: float
     dof: float
     terms: tuple[Term, ...]
     correlation_variance: float
@@ -94,15 +94,21 @@ class MeasurandChange:
 
     @property
     def variance_delta(self) -> float:
-        return self.after.u * self.after.u - self.before.u * self.before.u
+        """u_c²(B) − u_c²(A)."""
+        a, b = self.before.combined_uncertainty, self.after.combined_uncertainty
+        return b * b - a * a
 
     @property
-    def U_from_u(self) -> float:
-        return self.before.k * (self.after.u - self.before.u)
+    def expanded_change_from_uncertainty(self) -> float:
+        """The part k_A (u_B − u_A) of U_B − U_A."""
+        a, b = self.before, self.after
+        return a.coverage_factor * (b.combined_uncertainty - a.combined_uncertainty)
 
     @property
-    def U_from_k(self) -> float:
-        return self.after.u * (self.after.k - self.before.k)
+    def expanded_change_from_coverage_factor(self) -> float:
+        """The part u_B (k_B − k_A) of U_B − U_A."""
+        a, b = self.before, self.after
+        return b.combined_uncertainty * (b.coverage_factor - a.coverage_factor)
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -113,7 +119,8 @@ class Difference:
     notes: tuple[str, ...]  # settings, conventions, seeds, measurands added or removed
 
     def __repr__(self) -> str:
-        moved = "; ".join(f"{m.name}: u {m.before.u:.3g} → {m.after.u:.3g} {m.unit}"
+        moved = "; ".join(f"{m.name}: u {m.before.combined_uncertainty:.3g} → "
+                          f"{m.after.combined_uncertainty:.3g} {m.unit}"
                           for m in self.measurands)
         return f"<Difference {self.before.label} → {self.after.label}: {moved}>"
 
@@ -186,7 +193,7 @@ def side_from_document(document: dict[str, Any], label: str) -> Side:
 
 def _measurand_side(m: dict[str, Any]) -> MeasurandSide:
     terms = tuple(Term(input=c["input"], estimate=float(c["estimate"]), unit=str(c["unit"]),
-                       u=float(c["u"]), distribution=str(c["distribution"]),
+                       standard_uncertainty=float(c["u"]), distribution=str(c["distribution"]),
                        dof=_number(c["dof"]), sensitivity=float(c["sensitivity"]),
                        variance=float(c["contribution"]) * float(c["contribution"]))
                   for c in m["contributions"])
@@ -194,8 +201,10 @@ def _measurand_side(m: dict[str, Any]) -> MeasurandSide:
     higher = m.get("second_order_variance") or 0.0
     pairs = tuple((str(t["inputs"][0]), str(t["inputs"][1]), float(t["r"]))
                   for t in m.get("correlation_terms", []))
-    return MeasurandSide(name=m["name"], unit=m["unit"], value=float(m["value"]),
-                         u=float(m["u"]), k=float(m["k"]), U=float(m["U"]),
+    return MeasurandSide(name=m["name"], unit=m["unit"], estimate=float(m["value"]),
+                         combined_uncertainty=float(m["u"]),
+                         coverage_factor=float(m["k"]),
+                         expanded_uncertainty=float(m["U"]),
                          dof=_number(m["dof"]), terms=terms,
                          correlation_variance=correlation,
                          higher_order_variance=float(higher), correlations=pairs)
@@ -259,7 +268,9 @@ def _in_unit(m: MeasurandSide, unit: str, label: str) -> MeasurandSide:
         raise InputError(f"expected measurand '{m.name}' in a unit of the dimension of "
                          f"'{unit}', found '{m.unit}'", where)
     s = float(theirs.factor / ours.factor)
-    return replace(m, unit=unit, value=m.value * s, u=m.u * s, U=m.U * s,
+    return replace(m, unit=unit, estimate=m.estimate * s,
+                   combined_uncertainty=m.combined_uncertainty * s,
+                   expanded_uncertainty=m.expanded_uncertainty * s,
                    terms=tuple(replace(t, sensitivity=t.sensitivity * s,
                                        variance=t.variance * s * s) for t in m.terms),
                    correlation_variance=m.correlation_variance * s * s,
@@ -270,7 +281,8 @@ def _measurand_change(a: MeasurandSide, b: MeasurandSide) -> MeasurandChange:
     terms_a = {t.input: t for t in a.terms}
     terms_b = {t.input: t for t in b.terms}
     names = list(terms_a) + [n for n in terms_b if n not in terms_a]
-    var_a, var_b = a.u * a.u, b.u * b.u
+    u_a, u_b = a.combined_uncertainty, b.combined_uncertainty
+    var_a, var_b = u_a * u_a, u_b * u_b
     inputs = [_input_change(n, terms_a.get(n), terms_b.get(n), var_a, var_b) for n in names]
     inputs.sort(key=lambda c: -abs(c.delta))
     return MeasurandChange(name=a.name, unit=a.unit, before=a, after=b, inputs=tuple(inputs),
@@ -312,7 +324,8 @@ def _input_change(name: str, a: Term | None, b: Term | None, var_a: float,
         what = _what_changed(a, b)
         status = "changed" if what else "unchanged"
         c2a, c2b = a.sensitivity * a.sensitivity, b.sensitivity * b.sensitivity
-        u2a, u2b = a.u * a.u, b.u * b.u
+        u_a, u_b = a.standard_uncertainty, b.standard_uncertainty
+        u2a, u2b = u_a * u_a, u_b * u_b
         if a.unit != b.unit:  # sensitivities per different input units: split by ratio
             from_u, from_c = after - before, 0.0
         else:
@@ -329,9 +342,10 @@ def _what_changed(a: Term, b: Term) -> tuple[str, ...]:
         found.append(f"unit {a.unit} → {b.unit}")
     if not math.isclose(a.estimate, b.estimate, rel_tol=1e-12, abs_tol=0.0):
         found.append(f"value {a.estimate:.10g} → {b.estimate:.10g} {b.unit}")
-    if not math.isclose(a.u, b.u, rel_tol=1e-12, abs_tol=0.0):
-        ratio = f" (× {b.u / a.u:.3g})" if a.u > 0 and a.unit == b.unit else ""
-        found.append(f"u {a.u:.4g} → {b.u:.4g} {b.unit}{ratio}")
+    u_a, u_b = a.standard_uncertainty, b.standard_uncertainty
+    if not math.isclose(u_a, u_b, rel_tol=1e-12, abs_tol=0.0):
+        ratio = f" (× {u_b / u_a:.3g})" if u_a > 0 and a.unit == b.unit else ""
+        found.append(f"u {u_a:.4g} → {u_b:.4g} {b.unit}{ratio}")
     if a.distribution != b.distribution:
         found.append(f"distribution {a.distribution} → {b.distribution}")
     if a.dof != b.dof:

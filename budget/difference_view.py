@@ -8,7 +8,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from .difference import Difference, InputChange, MeasurandChange
+from .difference import Difference, InputChange, MeasurandChange, MeasurandSide
 from .formatting import format_number, format_percent
 
 __all__ = ["render_difference", "difference_document", "headline", "causes"]
@@ -24,10 +24,12 @@ def headline(m: MeasurandChange, digits: int) -> str:
     """One line: U, u_c and k before and after."""
     a, b = m.before, m.after
     n = digits
-    return (f"{m.name}: U {format_number(a.U, n)} → {format_number(b.U, n)} {m.unit}"
-            f"{_relative(a.U, b.U)}; u_c {format_number(a.u, n)} → "
-            f"{format_number(b.u, n)} {m.unit}{_relative(a.u, b.u)}; k "
-            f"{a.k:.3g} → {b.k:.3g}")
+    big_a, big_b = a.expanded_uncertainty, b.expanded_uncertainty
+    u_a, u_b = a.combined_uncertainty, b.combined_uncertainty
+    return (f"{m.name}: U {format_number(big_a, n)} → {format_number(big_b, n)} {m.unit}"
+            f"{_relative(big_a, big_b)}; u_c {format_number(u_a, n)} → "
+            f"{format_number(u_b, n)} {m.unit}{_relative(u_a, u_b)}; k "
+            f"{a.coverage_factor:.3g} → {b.coverage_factor:.3g}")
 
 
 def causes(m: MeasurandChange, most: int = 5) -> list[str]:
@@ -66,9 +68,10 @@ def render_difference(diff: Difference, digits: int = 2) -> str:
             lines.append(f"  u_c² changed by {m.variance_delta:+.3g} {m.unit}²; the "
                          "largest causes:")
             lines += ["    " + line for line in causes(m)]
-        if not math.isclose(m.before.k, m.after.k, rel_tol=1e-4):
-            lines.append(f"  U changed by {m.U_from_u:+.3g} {m.unit} through u_c and by "
-                         f"{m.U_from_k:+.3g} {m.unit} through k (ν_eff "
+        if not math.isclose(m.before.coverage_factor, m.after.coverage_factor, rel_tol=1e-4):
+            lines.append(f"  U changed by {m.expanded_change_from_uncertainty:+.3g} {m.unit} "
+                         f"through u_c and by {m.expanded_change_from_coverage_factor:+.3g} "
+                         f"{m.unit} through k (ν_eff "
                          f"{_dof(m.before.dof)} → {_dof(m.after.dof)})")
         lines.append("")
     if diff.notes:
@@ -95,9 +98,18 @@ def _table(m: MeasurandChange) -> list[str]:
     return lines
 
 
+def _side_totals(side: MeasurandSide) -> dict[str, Any]:
+    """One side's totals under the JSON contract's short keys."""
+    from .document import dof_or_null
+
+    return {"value": side.estimate, "u": side.combined_uncertainty,
+            "k": side.coverage_factor, "U": side.expanded_uncertainty,
+            "dof": dof_or_null(side.dof)}
+
+
 def difference_document(diff: Difference) -> dict[str, Any]:
     """The JSON document of ``budget compare --json``."""
-    from .document import SCHEMA_VERSION, dof_or_null
+    from .document import SCHEMA_VERSION
 
     def side(s: Any) -> dict[str, Any]:
         return {"label": s.label, "title": s.title, "model_sha256": s.sha256,
@@ -107,12 +119,10 @@ def difference_document(diff: Difference) -> dict[str, Any]:
         a, b = m.before, m.after
         return {
             "name": m.name, "unit": m.unit,
-            "before": {"value": a.value, "u": a.u, "k": a.k, "U": a.U,
-                       "dof": dof_or_null(a.dof)},
-            "after": {"value": b.value, "u": b.u, "k": b.k, "U": b.U,
-                      "dof": dof_or_null(b.dof)},
+            "before": _side_totals(a), "after": _side_totals(b),
             "variance_change": m.variance_delta,
-            "U_change_from_u": m.U_from_u, "U_change_from_k": m.U_from_k,
+            "U_change_from_u": m.expanded_change_from_uncertainty,
+            "U_change_from_k": m.expanded_change_from_coverage_factor,
             "correlation_change": m.correlation_delta,
             "higher_order_change": m.higher_order_delta,
             "correlations_changed": list(m.correlation_what),

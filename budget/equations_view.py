@@ -69,7 +69,7 @@ def _partial_row(p: Partial) -> dict[str, Any]:
     else:
         body = _folded(head, p.formula)
     return {"math": Markup(math_block(body, f"d{p.of}/d{p.by} = {p.formula or ''}")),
-            "value": format_number(p.value, 6), "unit": p.unit,
+            "value": format_number(p.derivative, 6), "unit": p.unit,
             "note": "" if p.formula is not None else
             "through the built-in air_density (CIPM-2007): value computed, formula not shown"}
 
@@ -118,4 +118,4 @@ def _chain_row(rule: ChainRule, c: Chain) -> dict[str, Any]:
             "symbol": Markup(name_mathml(c.input)),
             "math": Markup(math_block(body, f"d{rule.measurand}/d{c.input}")),
             "inline": Markup(math_block(body, f"d{rule.measurand}/d{c.input}", "inline")),
-            "value": format_number(c.value, 4), "unit": c.unit, "direct": direct}
+            "value": format_number(c.sensitivity, 4), "unit": c.unit, "direct": direct}

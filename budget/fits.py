@@ -35,7 +35,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-__all__ = ["Fit", "FitError", "chi2_limit", "exponential", "polynomial", "york"]
+__all__ = ["Fit", "FitError", "chi2_limit", "decay_jacobian", "exponential", "polynomial",
+           "york"]
 
 Array = NDArray[np.float64]
 
@@ -221,7 +222,7 @@ def exponential(t: Array, i: Array, *, names: tuple[str, ...] = ("i0", "tau", "i
                        f"constant at the edge of its search range (τ = {math.exp(log_tau):.4g}"
                        "): the readings do not decay exponentially")
     estimates = _gauss_newton(dt, i, math.exp(log_tau))
-    jacobian = _decay_jacobian(dt, estimates)
+    jacobian = decay_jacobian(dt, estimates)
     fitted = decay(t, estimates[0], estimates[1], estimates[2], start)
     dof = len(t) - 3
     s2 = float(np.sum((i - fitted) ** 2)) / dof
@@ -269,7 +270,8 @@ def _golden(f: Callable[[float], float], low: float, high: float) -> float:
     return (a + b) / 2.0
 
 
-def _decay_jacobian(dt: Array, p: Array) -> Array:
+def decay_jacobian(dt: Array, p: Array) -> Array:
+    """∂i/∂(i₀, τ, i_b) at every dt = t − t₀."""
     e = np.exp(-dt / p[1])
     return np.column_stack([e, p[0] * dt / p[1] ** 2 * e, np.ones_like(dt)])
 
@@ -291,7 +293,7 @@ def _gauss_newton(dt: Array, i: Array, tau: float) -> Array:
     p = np.array([amplitude, tau, offset])
     best = float(np.sum((i - decay(dt, p[0], p[1], p[2], 0.0)) ** 2))
     for _ in range(5):
-        jacobian = _decay_jacobian(dt, p)
+        jacobian = decay_jacobian(dt, p)
         residual = i - decay(dt, p[0], p[1], p[2], 0.0)
         step, *_ = np.linalg.lstsq(jacobian, residual, rcond=None)
         trial = p + step

@@ -236,7 +236,7 @@ def propagate(model: Model, coverage: float | None = None, *,
     """The GUM budget of every measurand of ``model``."""
     from .evaluation import jacobian_at_estimates
 
-    coverage = model.settings.coverage if coverage is None else coverage
+    coverage = model.settings.coverage_probability if coverage is None else coverage
     if not 0.0 < coverage < 1.0:
         raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}")
     values, jac = jacobian_at_estimates(model)

@@ -162,9 +162,9 @@ def evaluate_methods(campaign: "Campaign", primary: "Characterization",
 
 def _k(campaign: "Campaign") -> Any:
     def k_for(dof: float) -> float:
-        if campaign.k is not None:
-            return float(campaign.k)
-        return coverage_factor(float(campaign.coverage or 0.95), dof)
+        if campaign.coverage_factor is not None:
+            return float(campaign.coverage_factor)
+        return coverage_factor(float(campaign.coverage_probability or 0.95), dof)
     return k_for
 
 
@@ -217,10 +217,10 @@ def _one_method(campaign: "Campaign", method: "ModelMethod | MassBalance",
     for impurity in method.impurities:
         if impurity.source is None:
             element = _Element(member=None, measurand=impurity.label, scale=1.0,
-                               estimate=impurity.value,
+                               estimate=impurity.estimate,
                                variance=impurity.standard_uncertainty ** 2, repeatability=0.0,
                                dof=impurity.dof)
-            impurities.append(ImpurityResult(label=impurity.label, estimate=impurity.value,
+            impurities.append(ImpurityResult(label=impurity.label, estimate=impurity.estimate,
                                              standard_uncertainty=impurity.standard_uncertainty,
                                              dof=impurity.dof))
         else:
@@ -298,7 +298,7 @@ def _covariance(members: list[Member], plan: "MethodsPlan", elements: list[_Elem
     if trials != 0 and (trials is not None or joint.model.settings.trials != 0):
         from .montecarlo import simulate
 
-        simulation = simulate(joint.model, trials=trials, seed=seed)
+        simulation = simulate(joint.model, trials=trials, seed=seed, keep_samples=True)
         sd = np.array([m.standard_uncertainty for m in simulation.measurands])
         covariance = np.array(simulation.output_correlation) * np.outer(sd, sd)
         mc = _element_covariance(elements, index, covariance, keep_diagonal=False)
@@ -325,12 +325,12 @@ def _combined_mc(campaign: "Campaign", plan: "MethodsPlan", results: list[Method
     weights = np.zeros(len(results))
     for label, w in zip(plan.combined, combined.weights):
         weights[labels.index(label)] = w
-    coverage = float(campaign.coverage or 0.95)
+    coverage = float(campaign.coverage_probability or 0.95)
     k = coverage_factor(coverage, nu)
     samples = found.samples if found.samples is not None else np.empty((0, 0))
     return combined_simulation(samples, found.parts, found.a, offsets, weights,
                                combined.tau, found.seed, coverage,
-                               (combined.value, combined.standard_uncertainty, k),
+                               (combined.estimate, combined.standard_uncertainty, k),
                                campaign.model.settings.digits)
 
 
@@ -433,6 +433,6 @@ def characterization_value(primary: "Characterization", methods: MethodsResult
     rule is declared (u_char = u(μ), ν by Welch–Satterthwaite), else the first method."""
     if methods.combined is None:
         return primary
-    return replace(primary, mean=methods.combined.value,
+    return replace(primary, mean=methods.combined.estimate,
                    standard_uncertainty=methods.combined.standard_uncertainty,
                    dof=methods.combined_dof)

@@ -70,7 +70,7 @@ def propagate_lots(model: Model, estimates: Mapping[str, Sequence[float]],
         variance += 2.0 * r * parts[:, index[a], :] * parts[:, index[b], :]
     combined = np.sqrt(np.clip(variance, 0.0, None))
     nu = _welch_satterthwaite(combined, parts, np.array([i.dof for i in model.inputs]))
-    coverage = model.settings.coverage if coverage is None else coverage
+    coverage = model.settings.coverage_probability if coverage is None else coverage
     k = _coverage_factors(coverage, nu)
     return LotBudgets(measurands=tuple(m.name for m in model.measurands),
                       inputs=tuple(index), estimate=values.T, combined_uncertainty=combined.T,

@@ -55,7 +55,7 @@ class Impurity:
 
     label: str
     source: ModelMethod | None
-    value: float = 0.0
+    estimate: float = 0.0
     standard_uncertainty: float = 0.0
     dof: float = float("inf")
 
@@ -169,7 +169,7 @@ def _impurity(r: _Reader, item: Any, method: str, nth: int) -> Impurity:
              / r.number(item, "k", table, positive=True, nth=nth))
     dof = r.number(item, "dof", table, positive=True, nth=nth) if "dof" in item \
         else float("inf")
-    return Impurity(label=label, source=None, value=value, standard_uncertainty=u, dof=dof)
+    return Impurity(label=label, source=None, estimate=value, standard_uncertainty=u, dof=dof)
 
 
 def _model_method(r: _Reader, entry: dict[str, Any], label: str, table: str, nth: int, *,

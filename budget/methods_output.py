@@ -45,7 +45,7 @@ def methods_document(m: Any) -> dict[str, Any]:
                   for p in m.pairs],
         "combination": None if combined is None else {
             "rule": combined.rule, "methods": list(m.combined_methods),
-            "value": combined.value, "u": combined.standard_uncertainty,
+            "value": combined.estimate, "u": combined.standard_uncertainty,
             "dof": _dof(m.combined_dof), "weights": dict(zip(m.combined_methods,
                                                               combined.weights)),
             "shares": dict(m.shares), "tau": combined.tau,
@@ -111,7 +111,7 @@ def methods_lines(m: Any, unit: str, digits: int) -> list[str]:
         lines.append(f"  certified value from '{m.methods[0].label}'; the others are "
                      "compared only")
         return lines
-    value, u = format_pair(c.value, c.standard_uncertainty, digits)
+    value, u = format_pair(c.estimate, c.standard_uncertainty, digits)
     shares = ", ".join(f"{label} {format_percent(s)} %" for label, s in m.shares)
     check = c.consistency
     lines += [f"  combined ({c.rule}): {value} {unit}, u = {u} (the characterization "
@@ -151,7 +151,7 @@ def methods_view(m: Any, unit: str, digits: int,
                    "E_n": f"{p.E_n:.2f}", "E_n_independent": f"{p.E_n_independent:.2f}",
                    "agrees": p.agrees} for p in m.pairs],
         "combined": None if c is None else {
-            "rule": c.rule, "value": format_pair(c.value, c.standard_uncertainty, digits)[0],
+            "rule": c.rule, "value": format_pair(c.estimate, c.standard_uncertainty, digits)[0],
             "u": format_number(c.standard_uncertainty, digits),
             "dof": format_dof(m.combined_dof), "tau": format_number(c.tau, digits),
             "chi2": f"{c.consistency.chi2:.3g}", "chi2_dof": c.consistency.dof,

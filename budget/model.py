@@ -137,7 +137,7 @@ class Measurand:
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Settings:
-    coverage: float = 0.95
+    coverage_probability: float = 0.95
     trials: int | str = 1_000_000
     seed: int = DEFAULT_SEED
     digits: int = 2
@@ -561,7 +561,7 @@ class _Reader:
 def check_settings(data: dict[str, Any], where: Any) -> Settings:
     made: dict[str, Any] = {}
     if "coverage" in data:
-        made["coverage"] = check_probability(data["coverage"], where("coverage"))
+        made["coverage_probability"] = check_probability(data["coverage"], where("coverage"))
     if "trials" in data:
         trials = data["trials"]
         if trials != "adaptive" and (isinstance(trials, bool) or not isinstance(trials, int)

@@ -34,7 +34,7 @@ import math
 import os
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
-from typing import Any, Callable
+from typing import Any, Callable, cast
 
 import numpy as np
 
@@ -45,9 +45,10 @@ from .evaluation import compile_model
 from .formatting import decimal_exponent
 from .gum import Budget
 from .model import Model
+from .streaming import Binned, Streamed
 
-__all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "Validation", "MeasurandSimulation",
-           "Simulation",
+__all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "KEEP_LIMIT", "Validation",
+           "MeasurandSimulation", "Simulation",
            "simulate", "tolerance", "coverage_interval", "shortest_interval"]
 
 BLOCK = 1 << 16
@@ -57,6 +58,9 @@ GENERATOR = "SFC64"
 _BLOCK_BYTES = 1 << 25
 _SLICE = 1 << 13  # evaluation works on slices that stay in the processor's cache
 NONFINITE_LIMIT = 0.01
+# A fixed run keeps every value (8 bytes per trial and measurand) up to this many values;
+# longer runs (with p > ½) are streamed: moments, a histogram and exact tails (streaming.py)
+KEEP_LIMIT = 10_000_000
 ADAPTIVE_LIMIT = 20_000_000
 
 
@@ -79,7 +83,10 @@ class MeasurandSimulation:
     interval: tuple[float, float]
     shortest_interval: tuple[float, float]
     validation: Validation | None
-    samples: np.ndarray = field(repr=False, compare=False)  # in trial order, joint
+    # every finite value in trial order (jointly with the other measurands), or None when
+    # the run was too long to keep them (``KEEP_LIMIT``): then ``histogram`` holds them
+    samples: np.ndarray | None = field(repr=False, compare=False)
+    histogram: Binned | None = field(default=None, repr=False, compare=False)
 
     def __repr__(self) -> str:
         from .notebook import short
@@ -245,48 +252,77 @@ class _Sampler:
         self.factors = {key: _factor(matrix)
                         for key, matrix in _group_matrices(model, self.groups).items()}
         self.sets = _set_slots(model)
+        self.plan = _plan(model, self.groups)
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
-        values = self.draw(index, size)
+        values, normals = self.draw(index, size)
         out = np.empty((len(self.model.measurands), size)) if out is None else out
         for start in range(0, size, _SLICE):  # cache-sized slices of the drawn block
             stop = min(size, start + _SLICE)
-            part = [_slice(v, start, stop) for v in values]
+            part = [v if np.ndim(v) == 0 else v[start:stop] for v in values]
+            for slots, z, mean, sd in normals:  # scaled slice by slice, in cache
+                scaled = z[:, start:stop] * sd
+                scaled += mean
+                for row, slot in enumerate(slots):
+                    part[slot] = scaled[row]
             for k, y in enumerate(self.program.evaluate(part)):
                 out[k, start:stop] = y
         return out
 
-    def draw(self, index: int, size: int) -> list[Any]:
+    def draw(self, index: int, size: int) -> tuple[list[Any], list[Any]]:
+        """The inputs of block ``index``: values (arrays or fixed numbers) and the runs of
+        independent normal inputs as standard normals with their slots, means and sds.
+
+        A run of k consecutive independent normal inputs is drawn in one call as k × size
+        numbers: the same stream as k calls of ``size`` each."""
         rng = np.random.Generator(np.random.SFC64(
             np.random.SeedSequence(self.seed, spawn_key=(index,))))
         values: list[Any] = [None] * len(self.model.inputs)
-        for group in self.groups:
-            if len(group) == 1:
-                item = self.model.inputs[group[0]]
-                if item.standard_uncertainty == 0:
-                    values[group[0]] = item.estimate
-                elif isinstance(item.distribution, Normal):  # scaled slice by slice, in cache
-                    values[group[0]] = (rng.standard_normal(size), item.estimate,
-                                        item.distribution.sd)
-                else:
-                    values[group[0]] = item.distribution.sample(rng, size)
+        normals: list[Any] = []
+        for kind, item in self.plan:
+            if kind == "fixed":
+                values[item] = self.model.inputs[item].estimate
+            elif kind == "normal":
+                slots, mean, sd = item
+                normals.append((slots, rng.standard_normal((len(slots), size)), mean, sd))
+            elif kind == "single":
+                values[item] = self.model.inputs[item].distribution.sample(rng, size)
             else:
-                factor = self.factors[tuple(group)]
-                for slot, column in zip(group, _correlated(self.model, group, factor, rng,
-                                                           size, self.sets)):
+                factor = self.factors[tuple(item)]
+                for slot, column in zip(item, _correlated(self.model, item, factor, rng,
+                                                          size, self.sets)):
                     values[slot] = column
-        return values
+        return values, normals
 
 
-def _slice(value: Any, start: int, stop: int) -> Any:
-    """A slice of a drawn input: scalars as they are, standard normals scaled on the way."""
-    if isinstance(value, tuple):
-        standard, mean, sd = value
-        part = standard[start:stop] * sd
-        part += mean
-        return part
-    return value if np.ndim(value) == 0 else value[start:stop]
+def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:
+    """How each group of inputs is drawn, in group order (the order of the stream):
+    consecutive independent normal inputs joined into runs drawn by one call."""
+    plan: list[tuple[str, Any]] = []
+    run: list[int] = []
+
+    def close() -> None:
+        if run:
+            items = [model.inputs[i] for i in run]
+            mean = np.array([[i.estimate] for i in items], dtype=float)
+            sd = np.array([[cast(Normal, i.distribution).sd] for i in items], dtype=float)
+            plan.append(("normal", (tuple(run), mean, sd)))
+            run.clear()
+
+    for group in groups:
+        item = model.inputs[group[0]]
+        if len(group) == 1 and item.standard_uncertainty > 0 and isinstance(
+                item.distribution, Normal):
+            run.append(group[0])
+            continue
+        close()
+        if len(group) > 1:
+            plan.append(("group", group))
+        else:
+            plan.append(("fixed" if item.standard_uncertainty == 0 else "single", group[0]))
+    close()
+    return plan
 
 
 def _groups(model: Model) -> list[list[int]]:
@@ -479,11 +515,15 @@ def _combine(moments: list[np.ndarray]) -> np.ndarray:
 def simulate(model: Model, budget: Budget | None = None, *, trials: int | None = None,
              adaptive: bool = False, seed: int | None = None, coverage: float | None = None,
              digits: int | None = None, workers: int | None = None,
-             progress: Callable[[int, int], None] | None = None) -> Simulation:
-    """Monte Carlo propagation of distributions; validates ``budget`` when given."""
+             progress: Callable[[int, int], None] | None = None,
+             keep_samples: bool | None = None) -> Simulation:
+    """Monte Carlo propagation of distributions; validates ``budget`` when given.
+
+    ``keep_samples``: keep every value (``MeasurandSimulation.samples``); by default only
+    while a fixed run has at most ``KEEP_LIMIT`` values, longer runs are streamed."""
     settings = model.settings
     seed = settings.seed if seed is None else seed
-    coverage = settings.coverage if coverage is None else coverage
+    coverage = settings.coverage_probability if coverage is None else coverage
     digits = settings.digits if digits is None else digits
     workers = workers or min(2, os.cpu_count() or 1)
     if trials is None:
@@ -500,12 +540,26 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
         if trials < 2 or trials < 1.0 / (1.0 - coverage):
             raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
                                   f"trials for a {100 * coverage:.10g} % interval, found {trials}")
-        samples = np.empty((len(model.measurands), trials))
         ticker = (lambda n, total=trials: progress(n, total)) if progress else None
+        if not _keeps(keep_samples, trials, len(model.measurands), coverage):
+            from .streaming import stream
+
+            found = stream(sampler, trials, coverage, ticker, workers)
+            return _summarise(model, budget, None, seed, coverage, digits, False,
+                              sampler.warnings, found.moments, streamed=found)
+        samples = np.empty((len(model.measurands), trials))
         moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
         warnings = []
     return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
                       sampler.warnings + warnings, moments, kept)
+
+
+def _keeps(keep_samples: bool | None, trials: int, measurands: int, coverage: float) -> bool:
+    """Whether a fixed run keeps every value: asked for, short enough, or p ≤ ½ (whose
+    shortest interval needs half of all values)."""
+    if keep_samples is not None:
+        return keep_samples
+    return trials * measurands <= KEEP_LIMIT or coverage <= 0.5
 
 
 def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
@@ -582,10 +636,11 @@ def _unresolved(estimate: float, u: float, delta: float,
             f"near {max(abs(estimate), abs(interval[0]), abs(interval[1])):.3g})")
 
 
-def _spread(y: np.ndarray, mean: float, variance: float) -> float:
+def _spread(y: np.ndarray | None, mean: float, variance: float) -> float:
     """The standard deviation; recomputed in scaled units when the variance over- or
-    underflows (values near 1e±200), so that a representable spread is never 0 or ∞."""
-    if 1e-280 < variance < 1e280:
+    underflows (values near 1e±200) and the values are kept, so that a representable
+    spread is never 0 or ∞."""
+    if 1e-280 < variance < 1e280 or y is None:
         return math.sqrt(variance)
     finite = y[np.isfinite(y)]
     scale = float(np.max(np.abs(finite - mean))) if finite.size else 0.0
@@ -631,15 +686,19 @@ def _converged(moments: np.ndarray, stats: np.ndarray, digits: int) -> bool:
     return True
 
 
-def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: int,
+def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, seed: int,
                coverage: float, digits: int, adaptive: bool, warnings: list[str],
-               moments: np.ndarray | None = None, kept: list[Any] | None = None) -> Simulation:
-    total = samples.shape[1]
+               moments: np.ndarray | None = None, kept: list[Any] | None = None,
+               streamed: Streamed | None = None) -> Simulation:
+    """The simulation from every value (``samples``) or from a streamed run."""
+    total = streamed.total if streamed is not None else samples.shape[1]  # type: ignore[union-attr]
     if moments is None:
+        assert samples is not None
         moments = _block_moments(samples)
     bad = int(total - moments[0, 0])
-    if bad:
+    if bad and samples is not None:
         samples = samples[:, np.isfinite(samples).all(axis=0)]
+    if bad:
         share = bad / total
         if share > NONFINITE_LIMIT:
             raise SimulationError(
@@ -648,11 +707,17 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: i
                 "input distributions reach outside the equations' domain")
         warnings.append(f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) gave a "
                         "non-finite model value and were left out")
-    correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
-    correlation = np.nan_to_num(np.atleast_2d(correlation), nan=0.0)
-    results = tuple(_one(model, budget, k, samples[k], coverage, digits, moments[k],
-                         [block[k] for block in kept] if kept and not bad else None)
-                    for k in range(samples.shape[0]))
+    if streamed is not None:
+        correlation = streamed.correlation
+    else:
+        assert samples is not None
+        correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
+        correlation = np.nan_to_num(np.atleast_2d(correlation), nan=0.0)
+    results = tuple(
+        _one(model, budget, k, None if samples is None else samples[k], coverage, digits,
+             moments[k], [block[k] for block in kept] if kept and not bad else None,
+             streamed)
+        for k in range(moments.shape[0]))
     for item in results:
         if item.validation is not None and item.validation.reason:
             warnings.append(f"'{item.name}': Monte Carlo cannot validate the GUM result: "
@@ -670,19 +735,24 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray, seed: i
                       warnings=tuple(warnings))
 
 
-def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: float,
-         digits: int, moments: np.ndarray, tails: list[Any] | None = None
-         ) -> MeasurandSimulation:
+def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray | None, coverage: float,
+         digits: int, moments: np.ndarray, tails: list[Any] | None = None,
+         streamed: Streamed | None = None) -> MeasurandSimulation:
     measurand = model.measurands[k]
-    if y.size < 2:
+    count = int(moments[0])
+    if count < 2:
         raise SimulationError(f"{model.source}: too few finite Monte Carlo values for "
                               f"'{measurand.name}'")
     mean = float(moments[1])
     sd = _spread(y, mean, float(moments[2]) / (moments[0] - 1))
-    found = _from_tails(tails, y.size, coverage) if tails else None
-    # the intervals partition a copy: ``samples`` keep the trial order, jointly with the
-    # other measurands (issue 10: sorting row by row destroyed their correlation)
-    interval, shortest = found or _intervals(y.copy(), coverage)
+    if streamed is not None:
+        interval, shortest = streamed.intervals[k]
+    else:
+        assert y is not None
+        found = _from_tails(tails, count, coverage) if tails else None
+        # the intervals partition a copy: ``samples`` keep the trial order, jointly with
+        # the other measurands (issue 10: sorting row by row destroyed their correlation)
+        interval, shortest = found or _intervals(y.copy(), coverage)
     validation = None
     if budget is not None:
         gum = budget.measurands[k]
@@ -693,7 +763,8 @@ def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray, coverage: f
         validation = Validation(tolerance=delta, d_low=d_low, d_high=d_high,
                                 validated=bool(d_low <= delta and d_high <= delta
                                                and not reason), reason=reason)
-    return MeasurandSimulation(name=measurand.name, unit=measurand.unit, trials=int(y.size),
+    return MeasurandSimulation(name=measurand.name, unit=measurand.unit, trials=count,
                                mean=mean, standard_uncertainty=sd, interval=interval,
                                shortest_interval=shortest, validation=validation,
-                               samples=y)
+                               samples=y, histogram=None if streamed is None
+                               else streamed.histograms[k])

@@ -18,6 +18,7 @@ To add a function: map its name in ``_FORWARD`` and its derivative in ``_DERIV``
 from __future__ import annotations
 
 import math
+import operator
 from fractions import Fraction
 from typing import Any, Callable, Sequence
 
@@ -66,6 +67,13 @@ class Program:
         self.outputs = tuple(self._compile(root) for root in outputs)
         self.release = self._last_uses()
         del self._slot, self._operands, self._uses
+        # what ``evaluate`` runs: numbers placed in their slots once, the other operations
+        self._filled: list[Any] = [None] * len(self.symbols) + [
+            payload if kind == "const" else None for kind, _, payload in self.ops]
+        self._steps = [(len(self.symbols) + i, kind, args, payload, done)
+                       for i, ((kind, args, payload), done) in enumerate(zip(self.ops,
+                                                                             self.release))
+                       if kind != "const"]
 
     def _last_uses(self) -> list[tuple[int, ...]]:
         """For each operation, the slots no longer needed once it has run."""
@@ -177,10 +185,10 @@ class Program:
 
         Intermediate arrays are dropped as soon as no later operation needs them, so a
         large model evaluated on a block of trials holds only its live values."""
-        slots: list[Any] = list(values)
+        slots: list[Any] = list(values) + self._filled[len(values):]
         with np.errstate(all="ignore"):
-            for (kind, args, payload), done in zip(self.ops, self.release):
-                slots.append(_apply(kind, [slots[a] for a in args], payload))
+            for at, kind, args, payload, done in self._steps:
+                slots[at] = _apply(kind, [slots[a] for a in args], payload)
                 for slot in done:
                     slots[slot] = None
         return [slots[i] for i in self.outputs]
@@ -292,15 +300,9 @@ def _use_counts(outputs: Sequence[Node]) -> dict[int, int]:
 
 def _apply(kind: str, operands: list[Any], payload: Any) -> Any:
     if kind == "add":
-        total = operands[0] + operands[1]
-        for term in operands[2:]:
-            total = total + term
-        return total
+        return _fold(operator.add, np.add, operands)
     if kind == "mul":
-        product = operands[0] * operands[1]
-        for factor in operands[2:]:
-            product = product * factor
-        return product
+        return _fold(operator.mul, np.multiply, operands)
     if kind == "pow":
         base = operands[0]
         if payload == -1.0:
@@ -313,6 +315,19 @@ def _apply(kind: str, operands: list[Any], payload: Any) -> Any:
     if kind == "call":
         return _FORWARD[payload](operands[0])
     return payload  # const
+
+
+def _fold(first: Callable[[Any, Any], Any], ufunc: np.ufunc, operands: list[Any]) -> Any:
+    """Sum or product left to right (the rounding of ``a + b + c``); the running value is
+    a new array after the first step, so the later steps write into it."""
+    total = first(operands[0], operands[1])
+    for term in operands[2:]:
+        if isinstance(total, np.ndarray) and total.ndim == 1 and total.dtype == np.float64 and (
+                np.ndim(term) == 0 or np.shape(term) == total.shape):
+            ufunc(total, term, out=total)
+        else:
+            total = first(total, term)
+    return total
 
 
 def _mul_adjoint(args: tuple[int, ...], slots: list[Any], bar: float,

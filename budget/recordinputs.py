@@ -61,12 +61,13 @@ class Made:
     name: str
     estimate: float
     unit: str
-    u: float
+    standard_uncertainty: float
     dof: float
     type: str
     basis: str
     source: str
-    shape: str = "normal"  # "normal", "rectangular" (u is the half-width) or "exact"
+    shape: str = "normal"  # "normal", "rectangular" (of ± half_width) or "exact"
+    half_width: float = 0.0  # the rectangular shape's half-width
     table: str = ""  # the [fits.NAME] or [records.NAME] table that made it
 
 
@@ -247,7 +248,7 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
     for k, coefficient in enumerate(names):
         made.inputs.append(Made(
             name=coefficient, estimate=float(fit.estimates[k]), unit=units_of[k],
-            u=float(fit.standard_uncertainties[k]), dof=fit.dof, type="A",
+            standard_uncertainty=float(fit.standard_uncertainties[k]), dof=fit.dof, type="A",
             basis=f"{described}, {len(x)} points", source=f"fit of {shown}"))
     _together(made, names, fit.estimates, fit.covariance, fit.dof,
               f"coefficients of one fit of {shown} ({described})")
@@ -378,14 +379,15 @@ def made_input(item: Made, in_set: bool) -> Any:
     from .model import Input
 
     distribution: Any
-    if item.shape == "exact" or item.u == 0.0:
+    u = item.standard_uncertainty
+    if item.shape == "exact" or u == 0.0:
         distribution = dist.Exact(item.estimate)
     elif item.shape == "rectangular":
-        distribution = dist.Rectangular(item.estimate, item.u)
+        distribution = dist.Rectangular(item.estimate, item.half_width)
     elif math.isfinite(item.dof) and not in_set:
-        distribution = dist.StudentT(item.estimate, item.u, item.dof)
+        distribution = dist.StudentT(item.estimate, u, item.dof)
     else:
-        distribution = dist.Normal(item.estimate, item.u)
+        distribution = dist.Normal(item.estimate, u)
     return Input(name=item.name, estimate=item.estimate, unit=item.unit,
                  standard_uncertainty=float(distribution.standard_uncertainty),
                  distribution=distribution, dof=item.dof, type=item.type, basis=item.basis,

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
@@ -25,7 +26,7 @@ from .recordinputs import (
     _pair,
     _together,
 )
-from .records import Derived, Series, charge, drift, inflection, intersection
+from .records import Charge, Derived, Series, charge, drift, inflection, intersection
 
 __all__ = ["KINDS"]
 
@@ -54,7 +55,8 @@ def _derived_inputs(made: Generated, derived: Derived, names: tuple[str, ...],
     u = derived.standard_uncertainties
     for k, name in enumerate(names):
         made.inputs.append(Made(name=name, estimate=float(derived.estimates[k]),
-                                unit=units[k], u=float(u[k]), dof=derived.dof, type="A",
+                                unit=units[k], standard_uncertainty=float(u[k]),
+                                dof=derived.dof, type="A",
                                 basis=basis, source=source))
     _together(made, names, derived.estimates, derived.covariance, derived.dof,
               f"parts derived from one fit of {source}")
@@ -108,10 +110,12 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
         inner += [f"- {names[0]}"] + [f"+ {n}" for n in names[1:]]
         notes.extend(result.background.notes)
         views = _views(result.background, labels)
+        notes.extend(_shared(made, result, parts, names))
     text = _corrections(name, data, here, made, source, f"({' '.join(inner)})")
     if result.rule_error != 0.0:
         made.inputs.append(Made(name=f"{name}_rule", estimate=result.rule_error, unit=unit,
-                                u=abs(result.rule_error), dof=math.inf, type="B",
+                                standard_uncertainty=abs(result.rule_error) / math.sqrt(3.0),
+                                half_width=abs(result.rule_error), dof=math.inf, type="B",
                                 basis="trapezoidal-rule correction (Richardson), ± its "
                                       "size",
                                 source=source, shape="rectangular"))
@@ -123,6 +127,38 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
                                  notes=tuple(notes)))
 
 
+def _shared(made: Generated, result: Charge, raw: Made, names: tuple[str, ...]
+            ) -> list[str]:
+    """When the integral and the background fit share readings, their correlation.
+
+    The integral (with its per-reading u) and the background parts become one set
+    estimated together: the correlations are those ``records.charge`` computed from the
+    shared readings, and the set counts with the fit's ν (the integral's own u is stated,
+    ν = ∞; the smaller ν of the two estimates of the readings' noise is the cautious one).
+    """
+    if (result.correlation is None or raw.standard_uncertainty == 0.0
+            or result.background is None):
+        return []
+    members = (raw.name,) + names
+    made.correlations[:] = [c for c in made.correlations
+                            if c[0] not in members or c[1] not in members]
+    made.together[:] = [t for t in made.together if set(t[0]) != set(names)]
+    dof = result.background.dof
+    made.inputs[made.inputs.index(raw)] = replace(
+        raw, dof=dof, basis=f"{raw.basis}; shares {result.shared} readings with the "
+                            "background fit, so estimated together with it (its ν)")
+    for i in range(len(members)):
+        for j in range(i + 1, len(members)):
+            made.correlations.append((members[i], members[j],
+                                      float(result.correlation[i, j])))
+    made.together.append((members, dof, f"integral and background from {result.shared} "
+                                        f"shared readings of {raw.source}"))
+    shown = ", ".join(f"r({raw.name}, {n}) = {result.correlation[0, k + 1]:.3f}"
+                      for k, n in enumerate(names))
+    return [f"{result.shared} readings lie in both the integration and the background "
+            f"window: {shown} (from the shared readings, GUM 5.2)"]
+
+
 def _corrections(name: str, data: dict[str, Any], here: Where, made: Generated,
                  source: str, text: str) -> str:
     """The relative calibration factors of the current and the time base, when stated."""
@@ -130,7 +166,8 @@ def _corrections(name: str, data: dict[str, Any], here: Where, made: Generated,
                               ("time", "time_u_relative", "time base")):
         value = _optional(data, key, here)
         if value:
-            made.inputs.append(Made(name=f"{name}_{suffix}", estimate=1.0, unit="1", u=value,
+            made.inputs.append(Made(name=f"{name}_{suffix}", estimate=1.0, unit="1",
+                                    standard_uncertainty=value,
                                     dof=math.inf, type="B", basis=f"relative {what}",
                                     source=source))
             text = f"{name}_{suffix} * {text}"
@@ -145,11 +182,14 @@ def _raw_part(name: str, data: dict[str, Any], raw: float, weights: np.ndarray, 
               span: str, source: str, here: Where) -> Made:
     per_reading = _optional(data, "current_u", here)
     if not per_reading:
-        return Made(name=f"{name}_int", estimate=raw, unit=unit, u=0.0, dof=math.inf,
+        return Made(name=f"{name}_int", estimate=raw, unit=unit, standard_uncertainty=0.0,
+                    dof=math.inf,
                     type="B", basis=f"trapezoidal integral, {span}", source=source,
                     shape="exact")
     u = per_reading * float(np.sqrt(np.sum(weights ** 2)))
-    return Made(name=f"{name}_int", estimate=raw, unit=unit, u=u, dof=math.inf, type="B",
+    return Made(name=f"{name}_int", estimate=raw, unit=unit, standard_uncertainty=u,
+                dof=math.inf,
+                type="B",
                 basis=f"trapezoidal integral, {span}; u of each reading {per_reading:g}",
                 source=source)
 
@@ -203,7 +243,8 @@ def _drift(name: str, data: dict[str, Any], record: Series, units: dict[str, str
             raise InputError("expected no 'titration_time' with give = \"rate\"",
                              here("titration_time"))
         estimate, u, unit = rate, u_rate, f"{y_unit}/{x_unit}"
-    made.inputs.append(Made(name=name, estimate=estimate, unit=unit, u=u, dof=derived.dof,
+    made.inputs.append(Made(name=name, estimate=estimate, unit=unit, standard_uncertainty=u,
+                            dof=derived.dof,
                             type="A", basis="drift rate, common slope of the background "
                             "windows" + (" × titration time" if give == "correction" else ""),
                             source=f"record {record.file}"))

@@ -34,7 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .fits import Fit, FitError, exponential, polynomial
+from .fits import Fit, FitError, decay_jacobian, exponential, polynomial
 
 __all__ = [
     "Derived",
@@ -109,6 +109,10 @@ class Derived:
     dof: float
     fits: tuple[tuple[str, Fit], ...]  # (what it is, the fit) for the report
     notes: tuple[str, ...] = ()
+    # ∂(estimate)/∂(reading): one row per estimate, one column per reading fitted, and the
+    # file row of each of those readings (a background fit; used for shared readings)
+    influence: Array | None = None
+    readings: NDArray[np.int64] | None = None
 
     @property
     def standard_uncertainties(self) -> Array:
@@ -142,6 +146,10 @@ class Charge:
     end: float
     count: int
     background: Derived | None
+    shared: int = 0  # readings inside both the integration and the background window
+    # with shared readings: the correlation matrix of (raw, background parts …) that the
+    # shared readings' noise causes (None when the windows share no reading)
+    correlation: Array | None = None
 
 
 def charge(record: Series, window: tuple[float, float] | None, background: str,
@@ -155,8 +163,39 @@ def charge(record: Series, window: tuple[float, float] | None, background: str,
         tail = record.window(background_window, "background_window",
                              {"constant": 2, "line": 3, "exponential": 4}[background])
         made = _background(tail, background, start, end, residual)
+    shared, correlation = _shared_readings(inside.rows, weights, made)
     return Charge(raw=raw, weights=weights, rule_error=error, start=start, end=end,
-                  count=len(inside.x), background=made)
+                  count=len(inside.x), background=made, shared=shared,
+                  correlation=correlation)
+
+
+def _shared_readings(rows: NDArray[np.int64], weights: Array, background: Derived | None
+                     ) -> tuple[int, Array | None]:
+    """Correlation of the raw integral and the background parts through shared readings.
+
+    The integral is Σ w_k i_k; the background parts are, linearised, Σ h_jk i_k over the
+    readings fitted (h: the rows of ``influence``). With independent readings of one
+    standard deviation σ, cov = σ²·Σ w_k h_jk over the shared readings (GUM 5.2 applied
+    to the readings), u² = σ²·Σ w_k², σ²·Σ h_jk²; σ cancels from the correlations, which
+    are those of the vectors w and h_j: the Gram matrix, positive semi-definite by
+    construction."""
+    if background is None or background.influence is None or background.readings is None:
+        return 0, None
+    common, in_window, in_fit = np.intersect1d(rows, background.readings,
+                                               assume_unique=True, return_indices=True)
+    if common.size == 0:
+        return 0, None
+    vectors = np.zeros((1 + len(background.influence), len(rows) + len(background.readings)
+                        - common.size))
+    vectors[0, :len(rows)] = weights
+    only = np.setdiff1d(np.arange(len(background.readings)), in_fit)
+    vectors[1:, in_window] = background.influence[:, in_fit]
+    vectors[1:, len(rows):] = background.influence[:, only]
+    gram = vectors @ vectors.T
+    norms = np.sqrt(np.diag(gram))
+    if np.any(norms == 0.0):
+        return int(common.size), None
+    return int(common.size), np.clip(gram / np.outer(norms, norms), -1.0, 1.0)
 
 
 def _background(tail: Series, kind: str, start: float, end: float,
@@ -169,9 +208,12 @@ def _background(tail: Series, kind: str, start: float, end: float,
         gradient = np.array([duration, ((end - centre) ** 2 - (start - centre) ** 2) / 2.0])
         g = gradient[:degree + 1]
         value = float(g @ fit.estimates)
+        design = np.vander(tail.x - centre, degree + 1, increasing=True)
         return Derived(names=("bg",), estimates=np.array([value]),
                        covariance=np.atleast_2d(g @ fit.covariance @ g), dof=fit.dof,
-                       fits=((f"background {kind}", fit),))
+                       fits=((f"background {kind}", fit),),
+                       influence=np.atleast_2d(g @ np.linalg.pinv(design)),
+                       readings=tail.rows)
     positive = np.flatnonzero(tail.y <= 0)
     if positive.size:
         k = int(positive[0])
@@ -192,9 +234,11 @@ def _background(tail: Series, kind: str, start: float, end: float,
     values = np.array([offset * duration, amplitude * decay * tau])[:len(g)]
     notes = (f"decay fitted to {len(tail.x)} readings: τ = {tau:.6g}, i_b = {offset:.6g}, "
              f"i_end = {amplitude * decay:.6g}",)
+    jacobian = decay_jacobian(tail.x - fit.x0, fit.estimates)
     return Derived(names=("bg", "res")[:len(g)], estimates=values,
                    covariance=g @ fit.covariance @ g.T, dof=fit.dof,
-                   fits=(("exponential decay", fit),), notes=notes)
+                   fits=(("exponential decay", fit),), notes=notes,
+                   influence=g @ np.linalg.pinv(jacobian), readings=tail.rows)
 
 
 def intersection(record: Series, first: tuple[float, float],

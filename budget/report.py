@@ -148,7 +148,7 @@ def _reported_statement(result: Result, b: MeasurandBudget, digits: int, unit: s
     value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
     low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
                  for x in chosen.interval)
-    return (f"{b.name} = {value} {unit}, {chosen.percent} coverage "
+    return (f"{b.name} = {value} {unit}, {chosen.coverage_text} coverage "
             f"interval [{low}, {high}] {unit}")
 
 
@@ -200,6 +200,11 @@ def model_view_math(result: Result, k: int) -> Markup:
     return Markup(equation_mathml(measurand.name, measurand.equation))
 
 
+def _values(s: MeasurandSimulation) -> Any:
+    """Every value of the run, or the fine histogram of a streamed run."""
+    return s.samples if s.samples is not None else s.histogram
+
+
 def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int,
                      unit: str) -> dict[str, Any]:
     reference = b.combined_uncertainty or s.standard_uncertainty
@@ -215,7 +220,7 @@ def _simulation_view(b: MeasurandBudget, s: MeasurandSimulation, digits: int,
         "d_low": format_number(v.d_low, 2) if v else "-",
         "d_high": format_number(v.d_high, 2) if v else "-",
         "tolerance": format_number(v.tolerance, 1) if v else "-",
-        "histogram": histogram(s.samples, estimate=b.estimate, u=b.combined_uncertainty,
+        "histogram": histogram(_values(s), estimate=b.estimate, u=b.combined_uncertainty,
                                dof=b.dof, gum_interval=b.interval, interval=s.interval,
                                shortest=s.shortest_interval, unit=unit,
                                label=f"Monte Carlo distribution of {name_text(b.name)}"),
@@ -308,8 +313,11 @@ def render_difference_report(difference: Any, digits: int = 2) -> str:
     from .difference_view import causes, headline
 
     def measurand(m: Any) -> dict[str, Any]:
-        through_k = "" if math.isclose(m.before.k, m.after.k, rel_tol=1e-4) else (
-            f"U changed by {m.U_from_u:+.3g} {m.unit} through u_c and by {m.U_from_k:+.3g} "
+        a, b = m.before, m.after
+        through_k = "" if math.isclose(a.coverage_factor, b.coverage_factor,
+                                       rel_tol=1e-4) else (
+            f"U changed by {m.expanded_change_from_uncertainty:+.3g} {m.unit} through u_c "
+            f"and by {m.expanded_change_from_coverage_factor:+.3g} "
             f"{m.unit} through the coverage factor k.")
         return {"name": m.name, "unit": m.unit, "headline": headline(m, digits),
                 "causes": causes(m) if m.variance_delta else [], "through_k": through_k,

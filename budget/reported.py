@@ -45,7 +45,7 @@ class Reported:
         return METHODS[self.method]
 
     @property
-    def percent(self) -> str:
+    def coverage_text(self) -> str:
         """The coverage probability as "95 %" (empty when only k was stated)."""
         p = self.coverage_probability
         return "" if p is None else f"{100 * p:g} %"

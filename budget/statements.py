@@ -319,7 +319,7 @@ def _from_formula(table: _Table, shape: str, dof: float, unit: Any,
                      "inexactness"), "to a formula (its atomic weights give the estimate)")
     mass = molar_mass(table.data["formula"], convention, table.where("formula"))
     made = dist.AtomicWeightSum(tuple(float(n) for _, n in mass.counts),
-                                tuple(w.value for w in mass.weights),
+                                tuple(w.estimate for w in mass.weights),
                                 tuple(w.half_width for w in mass.weights))
     return Statement(distribution=made, dof=math.inf, type="B", unit=unit or "g/mol",
                      basis=f"{mass.formula}, atomic weights {convention}", molar_mass=mass)

@@ -14,6 +14,7 @@ import numpy as np
 from markupsafe import Markup, escape
 
 from .formatting import format_number
+from .streaming import Binned
 
 __all__ = ["bar_chart", "histogram", "points_with_bars", "trend_plot"]
 
@@ -66,11 +67,38 @@ def bar_chart(rows: Sequence[tuple[str, float]], unit: str = "%",
     return _svg(_W, height, body, label, "bars")
 
 
-def histogram(samples: np.ndarray, *, estimate: float, u: float, dof: float,
+def _binned_quantiles(binned: Binned, p: tuple[float, float]) -> tuple[float, float]:
+    """Quantiles to within one fine bin (the upper edge of the bin that holds them)."""
+    below = binned.below + np.cumsum(binned.counts)
+    total = below[-1] + binned.above
+    found = [float(binned.edges[min(int(np.searchsorted(below, q * total)) + 1,
+                                    binned.edges.size - 1)]) for q in p]
+    return found[0], found[1]
+
+
+def _rebinned(binned: Binned, low: float, high: float, bins: int
+              ) -> tuple[np.ndarray, np.ndarray]:
+    """Densities of about ``bins`` bins over [low, high], each a whole number of fine bins."""
+    edges, counts = binned.edges, binned.counts
+    width = float(edges[1] - edges[0])
+    first = max(0, int(math.floor((low - edges[0]) / width)))
+    last = min(counts.size, int(math.ceil((high - edges[0]) / width)))
+    if last <= first:  # the range lies outside the fine bins: show them all
+        first, last = 0, counts.size
+    factor = max(1, round((last - first) / bins))
+    last = first + (last - first) // factor * factor
+    merged = counts[first:last].reshape(-1, factor).sum(axis=1)
+    total = float(binned.below + counts.sum() + binned.above)
+    return merged / (total * width * factor), edges[first:last + 1:factor]
+
+
+def histogram(samples: np.ndarray | Binned, *, estimate: float, u: float, dof: float,
               gum_interval: tuple[float, float], interval: tuple[float, float],
               shortest: tuple[float, float], unit: str, label: str) -> Markup:
-    """Monte Carlo histogram with the GUM density and the three intervals overlaid."""
-    low, high = np.quantile(samples, [0.0005, 0.9995])
+    """Monte Carlo histogram with the GUM density and the three intervals overlaid; from
+    every value, or from the fine histogram of a streamed run (whole fine bins merged)."""
+    low, high = (np.quantile(samples, [0.0005, 0.9995]) if isinstance(samples, np.ndarray)
+                 else _binned_quantiles(samples, (0.0005, 0.9995)))
     low = min(low, gum_interval[0], interval[0])
     high = max(high, gum_interval[1], interval[1])
     span = high - low
@@ -79,7 +107,8 @@ def histogram(samples: np.ndarray, *, estimate: float, u: float, dof: float,
                                            "for a histogram")], label)
     pad = 0.04 * span
     low, high = low - pad, high + pad
-    counts, edges = np.histogram(samples, bins=70, range=(low, high), density=True)
+    counts, edges = (np.histogram(samples, bins=70, range=(low, high), density=True)
+                     if isinstance(samples, np.ndarray) else _rebinned(samples, low, high, 70))
     grid = np.linspace(low, high, 241)
     density = _gum_density(grid, estimate, u, dof)
     peak = max(float(counts.max()), float(density.max()), 1e-300)

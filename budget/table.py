@@ -67,7 +67,7 @@ def reported_lines(chosen: Any, digits: int) -> list[str]:
                  for x in chosen.interval)
     value, u = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)
     return [f"REPORTED: {chosen.name} = {value} {chosen.unit}, u = {u} {chosen.unit}, "
-            f"{chosen.percent} coverage interval [{low}, {high}] "
+            f"{chosen.coverage_text} coverage interval [{low}, {high}] "
             f"{chosen.unit}",
             f"      method: {chosen.description}"]
 
@@ -200,7 +200,7 @@ def _certified_monte_carlo(cert: Any, unit: str, digits: int) -> list[str]:
         low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
                      for x in chosen.interval)
         value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
-        lines.insert(0, f"certified value (REPORTED): {value} {unit}, {chosen.percent} "
+        lines.insert(0, f"certified value (REPORTED): {value} {unit}, {chosen.coverage_text} "
                         f"coverage interval [{low}, {high}] {unit}")
     lines.append(f"reported interval: {chosen.description}")
     return lines

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from .errors import InputError, Location, did_you_mean
+from .tomlkeys import check_keys
 
 __all__ = ["KEY", "Together", "read"]
 
@@ -72,10 +73,7 @@ def _names(entry: Any, names: list[str], here: Callable[..., Location],
            index: int) -> list[str]:
     if not isinstance(entry, dict):
         raise InputError(f"expected a table in set {index + 1}, found {entry!r}", here())
-    for key in entry:
-        if key not in _KEYS:
-            raise InputError(f"unknown key '{key}'{did_you_mean(key, _KEYS)} in set "
-                             f"{index + 1}; expected inputs and note", here(key))
+    check_keys(entry, _KEYS, here, within=f"in set {index + 1}")
     listed = entry.get("inputs")
     if (not isinstance(listed, list) or len(listed) < 2
             or not all(isinstance(n, str) for n in listed)):

@@ -118,7 +118,7 @@ CASES = {
         ":8: [inputs.a] distribution: expected a distribution, one of normal, rectangular, triangular, arcsine, trapezoidal, curvilinear_trapezoid, student_t, found 'rectangle' (a string) (did you mean 'rectangular'?)"),
     'unknown_key': (
         'title = "bad"\n[measurands.y]\nequation = "a"\nunit = "g"\n[inputs.a]\nvalue = 2.0\nunit = "g"\nu = 0.1\nsorce = "x"\n',
-        ":9: [inputs.a] sorce: unknown key 'sorce' (did you mean 'source'?); expected one of value, unit, description, source, distribution, dof, reliability, u, expanded, k, level, half_width, beta, inexactness, lower, upper, observations, exact, formula, constant, certificate, stated"),
+        ":9: [inputs.a] sorce: expected a key among value, unit, description, source, distribution, dof, reliability, u, expanded, k, level, half_width, beta, inexactness, lower, upper, observations, exact, formula, constant, certificate, stated, found 'sorce' (did you mean 'source'?)"),
     'unknown_name': (
         'title = "bad"\n[measurands.y]\nequation = "a * b_m"\nunit = "g"\n[inputs.a]\nvalue = 2.0\nunit = "g"\nu = 0.1\n[inputs.b_n]\nvalue = 1\nexact = true\n',
         ":3: [measurands.y] equation: unknown quantity 'b_m' in 'a * b_m' (did you mean 'b_n'?)"),

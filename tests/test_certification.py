@@ -167,10 +167,10 @@ def test_scatter_covers_removes_an_input_from_u_b(tmp_path):
     (("shelf_life = 36", "shelf_life = -36"), None,
      "campaign.toml:23: [stability] shelf_life: expected a number > 0, found -36"),
     (("[certificate]", "[certificat]"), None,
-     "campaign.toml:33: certificat: unknown top-level key 'certificat' (did you mean "
-     "'certificate'?); expected one of title, material, unit, description, producer, "
-     "characterization, homogeneity, stability, comparison, certificate, method, shared, "
-     "combination, register"),
+     "campaign.toml:33: certificat: expected a top-level key among title, material, unit, "
+     "description, producer, characterization, homogeneity, stability, comparison, "
+     "certificate, method, shared, combination, register, found 'certificat' (did you mean "
+     "'certificate'?)"),
 ])
 def test_campaign_errors(edit, csv, message, tmp_path, cli, monkeypatch):
     for name in ("coulometric-purity.toml", "calibrations.toml", "determinations.csv",

@@ -29,7 +29,7 @@ def test_products_of_local_derivatives_equal_the_engines_coefficients(path):
         for chain in rule.chains:
             if chain.through is not None:
                 continue
-            assert math.isclose(chain.value, engine[chain.input], rel_tol=1e-6,
+            assert math.isclose(chain.sensitivity, engine[chain.input], rel_tol=1e-6,
                                 abs_tol=1e-12 * max(1.0, abs(b.estimate))), chain.input
 
 
@@ -42,14 +42,14 @@ def test_a_chained_model_reaches_the_earlier_models_inputs():
     assert set(chains) == {i.name for i in loaded.inputs if i.standard_uncertainty > 0}
     burette = chains["f_bur"]
     assert burette.through == "c_NaOH" and burette.path_count == 2
-    direct = next(p for p in chain_rule(loaded, 0).chains if p.input == "f_bur").value
-    local = chain_rule(loaded, 0).partial("w_X", "c_NaOH").value
+    direct = next(p for p in chain_rule(loaded, 0).chains if p.input == "f_bur").sensitivity
+    local = chain_rule(loaded, 0).partial("w_X", "c_NaOH").derivative
     # the two paths cancel: direct + ∂w/∂c_NaOH · ∂c_NaOH/∂f_bur = engine's c ≈ 0
     assert direct + local * burette.upstream == pytest.approx(engine["f_bur"], abs=1e-9)
     assert abs(engine["f_bur"]) < 1e-9 * abs(direct)
     mass = chains["c_NaOH:m_KHP"]
     assert mass.paths == (("w_X", "c_NaOH", "c_NaOH:m_KHP"),)
-    assert mass.value == engine["c_NaOH:m_KHP"]
+    assert mass.sensitivity == engine["c_NaOH:m_KHP"]
 
 
 def test_demo_chain_goes_through_the_sample_mass():
@@ -65,7 +65,7 @@ def test_demo_chain_goes_through_the_sample_mass():
     # KHP (README, Buoyancy: common practice, OIML D 28 conventions)
     factor = rule.partial("m", "m_c")
     assert factor.formula == "(1 - rho_a / rho_ref) / (1 - rho_a / rho_s)"
-    assert factor.value == pytest.approx(1.00058, abs=2e-5)
+    assert factor.derivative == pytest.approx(1.00058, abs=2e-5)
     assert factor.unit == "1"
 
 
@@ -84,7 +84,7 @@ def test_an_input_reached_by_two_paths_sums_them():
     (chain,) = chain_rule(m, 0).chains
     assert chain.path_count == 2
     # y = (x + 1)·x², dy/dx = x² + 2x(x + 1) = 4 + 12 = 16 (calculus)
-    assert chain.value == pytest.approx(16.0)
+    assert chain.sensitivity == pytest.approx(16.0)
     assert propagate(m).measurands[0].contributions[0].sensitivity == pytest.approx(16.0)
 
 
@@ -106,8 +106,8 @@ def test_units_of_mixed_prefixes_are_converted():
         u = 0.001
     """)
     chains = {c.input: c for c in chain_rule(m, 0).chains}
-    assert chains["m1"].value == pytest.approx(0.001) and chains["m1"].unit == "g/mg"
-    assert chains["m2"].value == pytest.approx(1.0) and chains["m2"].unit == "1"
+    assert chains["m1"].sensitivity == pytest.approx(0.001) and chains["m1"].unit == "g/mg"
+    assert chains["m2"].sensitivity == pytest.approx(1.0) and chains["m2"].unit == "1"
 
 
 def test_a_derivative_through_air_density_has_a_value_but_no_formula():
@@ -137,7 +137,7 @@ def test_a_derivative_through_air_density_has_a_value_but_no_formula():
     assert partial.formula is None
     engine = {c.input: c.sensitivity for c in propagate(m).measurands[0].contributions}
     for chain in rule.chains:  # central differences agree with the engine's derivative
-        assert chain.value == pytest.approx(engine[chain.input], rel=1e-6)
+        assert chain.sensitivity == pytest.approx(engine[chain.input], rel=1e-6)
     view = sensitivity_view(m, 0)
     notes = [r["note"] for g in view["groups"] for r in g["rows"]]
     assert any("air_density" in n for n in notes)
@@ -172,7 +172,7 @@ def test_each_printed_formula_evaluates_to_its_derivative(path):
             if partial.formula is None:
                 continue
             value, _, _ = _sweep(ast.parse(partial.formula, mode="eval").body, known)
-            assert value == pytest.approx(partial.si_value, rel=1e-9, abs=1e-300), partial
+            assert value == pytest.approx(partial.si_derivative, rel=1e-9, abs=1e-300), partial
             checked += 1
         assert checked or not rule.partials
 
@@ -189,5 +189,5 @@ def test_a_model_of_thousands_of_inputs_gets_its_chains():
     m = parse_model(text)
     rule = chain_rule(m, 0)
     assert len(rule.chains) == n
-    assert all(c.value == pytest.approx(1 / n) and c.paths == (("y", "s", c.input),)
+    assert all(c.sensitivity == pytest.approx(1 / n) and c.paths == (("y", "s", c.input),)
                for c in rule.chains)

@@ -48,7 +48,7 @@ def test_dersimonian_laird_on_the_bcg_example() -> None:
     y, v = _bcg()
     assert dersimonian_laird(y, v) == pytest.approx(0.3088, abs=5e-5)
     combined = combine(y, v, "dersimonian-laird")
-    assert combined.value == pytest.approx(-0.7141, abs=5e-5)
+    assert combined.estimate == pytest.approx(-0.7141, abs=5e-5)
     assert combined.standard_uncertainty == pytest.approx(0.1787, abs=5e-5)
     assert combined.tau == pytest.approx(math.sqrt(0.3088), abs=1e-4)
 
@@ -78,7 +78,7 @@ def test_paule_mandel_solves_its_estimating_equation() -> None:
     assert paule_mandel(y, v) == pytest.approx(expected, rel=1e-9)
     w = 1 / (var + expected)
     result = combine(y, v, "paule-mandel")
-    assert result.value == pytest.approx(np.sum(w * y) / w.sum(), rel=1e-9)
+    assert result.estimate == pytest.approx(np.sum(w * y) / w.sum(), rel=1e-9)
     assert result.standard_uncertainty == pytest.approx(1 / math.sqrt(w.sum()), rel=1e-9)
 
 

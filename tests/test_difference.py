@@ -61,8 +61,8 @@ def test_the_decomposition_adds_up_to_the_change_of_uc2(pair):
     # by hand: u_A² = 0.01² + (2·0.02)² + 0.03²/3; u_B² = 0.01² + (2·0.04)² + 0.03²/3
     u2a = 0.01 ** 2 + (2 * 0.02) ** 2 + 0.03 ** 2 / 3
     u2b = 0.01 ** 2 + (2 * 0.04) ** 2 + 0.03 ** 2 / 3
-    assert y.before.u ** 2 == pytest.approx(u2a, rel=1e-12)
-    assert y.after.u ** 2 == pytest.approx(u2b, rel=1e-12)
+    assert y.before.combined_uncertainty ** 2 == pytest.approx(u2a, rel=1e-12)
+    assert y.after.combined_uncertainty ** 2 == pytest.approx(u2b, rel=1e-12)
     assert math.fsum(c.delta for c in y.inputs) + y.correlation_delta + \
         y.higher_order_delta == pytest.approx(u2b - u2a, rel=1e-12)
     by_name = {c.input: c for c in y.inputs}
@@ -107,8 +107,9 @@ def test_settings_that_differ_are_named(pair, tmp_path):
     assert diff.notes[:2] == ("coverage: 0.95 → 0.99", "seed: 20260601 → 7")
     (y,) = diff.measurands
     # k from 1.96 to 2.576 with u_c unchanged: all of the change of U comes through k
-    assert y.U_from_u == 0.0
-    assert y.U_from_k == pytest.approx(y.after.U - y.before.U, rel=1e-12)
+    assert y.expanded_change_from_uncertainty == 0.0
+    assert y.expanded_change_from_coverage_factor == pytest.approx(
+        y.after.expanded_uncertainty - y.before.expanded_uncertainty, rel=1e-12)
 
 
 def test_json_and_html_outputs(pair, cli, tmp_path):

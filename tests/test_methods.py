@@ -340,7 +340,7 @@ rule = "{rule}"
     v = np.array(cert.methods.covariance)
     x = [m.estimate for m in cert.methods.methods]
     expected = combine(x, v, rule)
-    assert cert.certified_value == expected.value
+    assert cert.certified_value == expected.estimate
     assert dict(cert.components)["characterization"] == expected.standard_uncertainty
     assert cert.methods.combined.tau == expected.tau
 
@@ -396,7 +396,7 @@ def test_monte_carlo_of_the_combined_value(tmp_path: Path) -> None:
     expected = math.sqrt(w @ (v + extra) @ w)
     simulation = methods.combined_monte_carlo
     assert simulation.standard_uncertainty == pytest.approx(expected, rel=0.016)
-    assert simulation.mean == pytest.approx(methods.combined.value,
+    assert simulation.mean == pytest.approx(methods.combined.estimate,
                                             abs=5 * expected / math.sqrt(200_000))
     assert simulation.samples.size == 200_000
 

@@ -102,3 +102,18 @@ def test_xlsx_workbook_gives_the_same_record_and_fit(tmp_path):
     assert _generated(book) == _generated(plain)
     assert book.correlations == plain.correlations
     assert [view.file for view in book.records] == ["line.xlsx", "record.xlsx"]
+
+
+@pytest.mark.parametrize("page", ["README.md", "docs/model-format.md", "docs/records.md"])
+def test_every_fit_and_record_key_is_documented(page):
+    # every key the readers accept is named, in backticks (`key` or `key = …`), on the
+    # user's pages
+    import re
+    from pathlib import Path
+
+    from budget.recordinputs import FIT_KEYS, RECORD_KEYS
+
+    text = (Path(__file__).resolve().parent.parent / page).read_text(encoding="utf-8")
+    missing = [key for key in dict.fromkeys(FIT_KEYS + RECORD_KEYS)
+               if not re.search(f"`{key}( = [^`]*)?`", text)]
+    assert not missing, f"{page} does not name {missing}"

@@ -235,9 +235,9 @@ def test_a_certificate_without_a_register_is_an_error():
      "date 2025-01-20, found 2024-01-19"),
     (("issuer = \"an invented calibration service\"\nnumber = \"INV-1\"",
       "issuer = \"an invented calibration service\"\nnumbr = \"INV-1\""),
-     "r.toml:7: [certificates.R1] numbr: unknown key 'numbr' (did you mean 'number'?); "
-     "expected one of instrument, issuer, number, calibrated, valid_until, "
-     "interval_months, traceable_to, si_unit, values, note"),
+     "r.toml:7: [certificates.R1] numbr: expected a key among instrument, issuer, number, "
+     "calibrated, valid_until, interval_months, traceable_to, si_unit, values, note, found "
+     "'numbr' (did you mean 'number'?)"),
 ])
 def test_bad_register_files_are_errors(edit, message):
     with pytest.raises(BudgetError) as error:

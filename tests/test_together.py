@@ -180,8 +180,8 @@ def test_set_with_uncorrelated_members_is_one_component():
     ('inputs = ["a", "c"]\n', ("test.toml:17: [estimated_together] inputs: expected inputs "
      "stated with a normal or t distribution (u, expanded or observations) in set 1, found "
      "'c' (rectangular)")),
-    ('input = ["a", "b"]\n', ("test.toml:17: [estimated_together] input: unknown key 'input' "
-     "(did you mean 'inputs'?) in set 1; expected inputs and note")),
+    ('input = ["a", "b"]\n', ("test.toml:17: [estimated_together] input: expected a key in "
+     "set 1 among inputs, note, found 'input' (did you mean 'inputs'?)")),
     ('inputs = ["a", "b"]\n[[estimated_together]]\ninputs = ["b", "c"]\n',
      ("test.toml:17: [estimated_together] inputs: expected one common ν for the inputs of "
      "set 1 (they come from one data set), found a ν = 5, b ν = 7")),
