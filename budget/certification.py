@@ -375,8 +375,9 @@ def _with_monte_carlo(cert: Certification, char: Characterization | None,
                 "reported_interval = \"monte_carlo\" would state the Monte Carlo interval")))
     elif simulation is None:
         raise SimulationError(
-            f"{campaign.source}: [certificate] reported_interval: expected a Monte Carlo run "
-            f"of the characterization for \"{method}\" (trials > 0, one method), found none")
+            f"expected a Monte Carlo run of the characterization for \"{method}\" (trials > 0, "
+            "one method), found none",
+            Location(file=campaign.source, table="certificate", key="reported_interval"))
     else:
         interval = simulation.interval if method == "monte_carlo" else \
             simulation.shortest_interval
