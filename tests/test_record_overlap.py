@@ -182,3 +182,22 @@ def test_dichromate_example_integral_and_background_are_correlated():
     apart = math.sqrt(u["Q_int"] ** 2 + bg_res)
     assert 1 - together / apart == pytest.approx(0.043, abs=0.005)
     assert not model.warnings
+
+
+def test_integral_without_current_u_warns_when_the_background_fit_shows_scatter(tmp_path):
+    t = np.arange(0.0, 100.5, 1.0)
+    i = np.where(t < 40.0, 2.0, 0.0) + 0.05 + 0.01 * np.sin(3.0 * t)
+    (tmp_path / "record.csv").write_text(
+        "t [s],i [mA]\n" + "".join(f"{a!r},{b!r}\n" for a, b in zip(t.tolist(), i.tolist())),
+        encoding="utf-8")
+    path = tmp_path / "m.toml"
+    text = _MODEL.format(equation="Q", background="constant", low=50, high=100, sigma=0.01)
+    path.write_text(text.replace("current_u = 0.01\n", ""), encoding="utf-8")
+    model = load_model(str(path))
+    s = float(np.std(i[t >= 50], ddof=1))
+    assert model.warnings == (
+        f"[records.Q]: no current_u, so the integrated readings are taken as exact, yet the "
+        f"readings of the background fit scatter by s = {s:.3g} mA; state current_u (the "
+        "standard uncertainty of each reading)",)
+    assert model.input("Q_int").distribution.name == "exact"
+    assert model.correlations == ()
