@@ -533,10 +533,9 @@ def _model_at_mean(campaign: Campaign, repeatability: float | None = None) -> Mo
     for item in campaign.model.inputs:
         if item.name in campaign.run_inputs:
             mean = float(campaign.runs.values(item.name).mean())
-            item = replace(item, estimate=mean,
-                           distribution=replace(item.distribution, estimate=mean))
+            item = replace(item, distribution=replace(item.distribution, estimate=mean))
         if item.name in campaign.scatter_covers:
-            item = replace(item, standard_uncertainty=0.0, dof=math.inf, type="A",
+            item = replace(item, dof=math.inf, type="A",
                            distribution=CoveredByScatter(item.estimate, repeatability),
                            basis=_covered_basis(repeatability, campaign.unit, item.basis))
         inputs.append(item)
