@@ -277,6 +277,13 @@ def read_runs_file(r: _Reader, path: Path, fmt: FileFormat, model: Model, table:
     if not runs.inputs:
         raise r.fail(f"expected columns named like inputs of the model in '{path.name}', "
                      "found none", table, "runs", nth)
+    defined = {d.name: d.text for d in model.definitions}
+    for name, _ in runs.labels:
+        if name in defined:  # else read as a label and silently not used
+            raise r.fail(f"expected run columns named like inputs of the model in "
+                         f"'{path.name}', found '{name}', which the model defines "
+                         f"({name} = {defined[name]}): a run cannot set it, give the "
+                         "columns of its inputs", table, "runs", nth)
     for name in runs.names:
         if model.input(name).molar_mass is not None:
             raise r.fail(f"expected run columns for measured inputs, found '{name}', which "

@@ -11,7 +11,6 @@ imported inside the commands, so
 from __future__ import annotations
 
 import errno
-import json
 import math
 import os
 import sys
@@ -133,6 +132,12 @@ def _out(text: str, *, data: bool = False) -> None:
                    err=True)
         sys.exit(1)
     if _quiet() and not data:
+        return
+    if data and text.isascii():
+        # JSON text is ASCII with every control character escaped but DEL (which only
+        # a string can hold): written as it is, tens of megabytes at once
+        sys.stdout.write(text.replace("\x7f", "\\u007f") + "\n")
+        sys.stdout.flush()
         return
     from .console import for_stream
     from .limits import terminal_text
@@ -315,9 +320,10 @@ def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | N
 
 def _print_result(result: Any, as_json: bool) -> None:
     if as_json:
-        from .document import json_safe, result_document
+        from .document import result_document
+        from .jsontext import json_text
 
-        _out(json.dumps(json_safe(result_document(result)), indent=2, allow_nan=False),
+        _out(json_text(result_document(result)),
              data=True)
     else:
         from .table import render
@@ -357,9 +363,9 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
         document = {"schema_version": SCHEMA_VERSION, "title": result.model.title,
                     "model_sha256": result.model.sha256,
                     **explanation_document(explanations), "warnings": list(result.warnings)}
-        from .document import json_safe
+        from .jsontext import json_text
 
-        _out(json.dumps(json_safe(document), indent=2, allow_nan=False), data=True)
+        _out(json_text(document), data=True)
     else:
         _out(render(explanations, result.digits))
     _warn(result.warnings)
@@ -436,10 +442,10 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
         progress.close()
         _fail(error)
     if as_json:
-        from .document import certification_document, json_safe
+        from .document import certification_document
+        from .jsontext import json_text
 
-        _out(json.dumps(json_safe(certification_document(cert)), indent=2,
-                        allow_nan=False), data=True)
+        _out(json_text(certification_document(cert)), data=True)
     else:
         from .table import render_certification
 
@@ -477,10 +483,9 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
     if as_json:
         from .difference_view import difference_document
 
-        from .document import json_safe
+        from .jsontext import json_text
 
-        _out(json.dumps(json_safe(difference_document(difference)), indent=2,
-                        allow_nan=False), data=True)
+        _out(json_text(difference_document(difference)), data=True)
     else:
         from .difference_view import render_difference
 
@@ -546,9 +551,9 @@ def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str
     except BudgetError as error:
         _fail(error)
     if as_json:
-        from .document import json_safe
+        from .jsontext import json_text
 
-        _out(json.dumps(json_safe(batch_document(batch)), indent=2, allow_nan=False),
+        _out(json_text(batch_document(batch)),
              data=True)
     else:
         _out(render_batch(batch))

@@ -24,28 +24,41 @@ _PAIR_KEYS = ("between", "r")
 
 def read(entries: Any, names: Sequence[str],
          where: Callable[..., Location]) -> tuple[tuple[str, str, float], ...]:
-    """Checked ``(a, b, r)`` triples from the ``[[correlations]]`` tables."""
+    """Checked ``(a, b, r)`` triples from the ``[[correlations]]`` tables.
+
+    A block of n inputs gives n(n-1)/2 pairs: each pair is checked once by an integer
+    key, and the matrix of all pairs is assembled from index arrays and factored once."""
     if not isinstance(entries, list):
         raise InputError("expected [[correlations]] tables, found a single value",
                          where(None, "correlations"))
     pairs: list[tuple[str, str, float]] = []
-    seen: set[frozenset[str]] = set()
+    seen: set[int] = set()
     known = _Names(names)
+    size = len(names)
+    firsts: list[int] = []
+    seconds: list[int] = []
     for index, entry in enumerate(entries):
         here: Callable[..., Location] = \
             lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
         block = isinstance(entry, dict) and (
             "matrix" in entry or (isinstance(entry.get("between"), list)
                                   and len(entry["between"]) > 2))
-        for pair in (_block(entry, known, here, index) if block
-                     else [_one(entry, known, here, index)]):
-            key = frozenset(pair[:2])
-            if key in seen:
-                raise InputError(f"expected each pair once, found {pair[0]} and {pair[1]} "
-                                 f"again in correlation {index + 1}", here("between"))
-            seen.add(key)
-            pairs.append(pair)
-    _check_definite(names, pairs, where("correlations"))
+        made = _block(entry, known, here, index) if block else [_one(entry, known, here, index)]
+        first = [known.index_of[a] for a, _, _ in made]
+        second = [known.index_of[b] for _, b, _ in made]
+        keys = [min(i, j) * size + max(i, j) for i, j in zip(first, second)]
+        if not seen.isdisjoint(keys):
+            again = next(k for k, key in enumerate(keys) if key in seen)
+            a, b, _ = made[again]
+            raise InputError(f"expected each pair once, found {a} and {b} again in "
+                             f"correlation {index + 1}", here("between"))
+        seen.update(keys)
+        pairs.extend(made)
+        firsts.extend(first)
+        seconds.extend(second)
+    if pairs:
+        _check_definite(names, pairs, np.array(firsts, dtype=np.intp),
+                        np.array(seconds, dtype=np.intp), where("correlations"))
     return tuple(pairs)
 
 
@@ -55,6 +68,7 @@ class _Names(list[str]):
     def __init__(self, names: Sequence[str]) -> None:
         super().__init__(names)
         self.known = set(names)
+        self.index_of = {name: k for k, name in enumerate(names)}
 
     def __contains__(self, name: object) -> bool:
         return name in self.known
@@ -112,9 +126,10 @@ def _block(entry: dict[str, Any], names: Sequence[str], here: Callable[..., Loca
                          f"{'both' if 'r' in entry else 'neither'}", here("between"))
     values = _block_matrix(entry, len(between), here, index)
     rows, columns = np.triu_indices(len(between), 1)
-    keep = values[rows, columns] != 0.0
-    return [(between[i], between[j], float(values[i, j]))
-            for i, j in zip(rows[keep].tolist(), columns[keep].tolist())]
+    upper = values[rows, columns]
+    keep = upper != 0.0
+    return [(between[i], between[j], r) for i, j, r in
+            zip(rows[keep].tolist(), columns[keep].tolist(), upper[keep].tolist())]
 
 
 def _block_matrix(entry: dict[str, Any], n: int, here: Callable[..., Location],
@@ -161,12 +176,16 @@ def matrix(names: Sequence[str], pairs: Sequence[tuple[str, str, float]]) -> np.
 
 
 def _check_definite(names: Sequence[str], pairs: Sequence[tuple[str, str, float]],
-                    where: Location) -> None:
-    if not pairs:
-        return
-    order = {name: j for j, name in enumerate(names)}
-    involved = sorted({n for a, b, _ in pairs for n in (a, b)}, key=order.__getitem__)
-    sub = matrix(involved, pairs)
+                    first: np.ndarray, second: np.ndarray, where: Location) -> None:
+    """The matrix of the inputs that take part in a pair (rows in the order of
+    ``names``) factored once; on failure, the pairs along the offending eigen-direction."""
+    involved = np.unique(np.concatenate([first, second]))  # sorted: the order of names
+    position = np.empty(len(names), dtype=np.intp)
+    position[involved] = np.arange(involved.size)
+    sub = np.eye(involved.size)
+    r = np.fromiter((p[2] for p in pairs), dtype=float, count=len(pairs))
+    sub[position[first], position[second]] = r
+    sub[position[second], position[first]] = r
     try:  # positive definite (the usual case): one Cholesky factorization says so
         np.linalg.cholesky(sub)
         return
@@ -176,7 +195,7 @@ def _check_definite(names: Sequence[str], pairs: Sequence[tuple[str, str, float]
     if values[0] >= -1e-10:
         return
     weight = np.abs(vectors[:, 0])
-    culprits = {involved[i] for i in np.flatnonzero(weight > 0.1 * weight.max())}
+    culprits = {names[int(involved[i])] for i in np.flatnonzero(weight > 0.1 * weight.max())}
     named = [f"{a}-{b} ({r:g})" for a, b, r in pairs if a in culprits and b in culprits]
     raise InputError(f"expected a positive semi-definite correlation matrix, found the "
                      f"smallest eigenvalue {values[0]:.3g}; the pairs {', '.join(named)} "

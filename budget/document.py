@@ -11,7 +11,7 @@ import math
 from typing import Any
 
 from .analysis import Result
-from .gum import MeasurandBudget
+from .gum import CorrelationTerms, MeasurandBudget
 from .montecarlo import MeasurandSimulation
 from .chained import chain_document
 from .register import certificates_document, traceability_statement
@@ -120,8 +120,7 @@ def measurand_document(budget: MeasurandBudget, simulation: MeasurandSimulation 
         "U": budget.expanded_uncertainty,
         "interval": list(budget.interval),
         "contributions": [_contribution(c) for c in budget.contributions],
-        "correlation_terms": [{"inputs": list(t.inputs), "r": t.r, "variance": t.variance,
-                               "share": t.share} for t in budget.correlation_terms],
+        "correlation_terms": _correlation_rows(budget.correlation_terms),
         "dof_rule": budget.dof_rule,
         "u_first_order": budget.first_order_uncertainty,
         "second_order_variance": budget.second_order_variance,
@@ -130,6 +129,18 @@ def measurand_document(budget: MeasurandBudget, simulation: MeasurandSimulation 
     if simulation is not None:
         document["monte_carlo"] = simulation_document(simulation)
     return document
+
+
+def _correlation_rows(terms: Any) -> list[dict[str, Any]]:
+    """One object per correlated pair, made from the columns in one pass."""
+    if not isinstance(terms, CorrelationTerms):
+        return [{"inputs": list(t.inputs), "r": t.r, "variance": t.variance,
+                 "share": t.share} for t in terms]
+    names = terms.names
+    return [{"inputs": [names[a], names[b]], "r": r, "variance": v, "share": s}
+            for a, b, r, v, s in zip(terms.first.tolist(), terms.second.tolist(),
+                                     terms.r.tolist(), terms.variance.tolist(),
+                                     terms.share.tolist())]
 
 
 def _contribution(c: Any) -> dict[str, Any]:

@@ -22,12 +22,12 @@ applied is stated in words (``dof_rule``) on every output.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
-__all__ = ["Component", "Grouping", "effective_dof", "grouping"]
+__all__ = ["Component", "Grouping", "effective_dof", "grouping", "pair_indices"]
 
 WS = "Welch-Satterthwaite, GUM eq. (G.2b)"
 
@@ -45,48 +45,89 @@ class Component:
 class Grouping:
     singles: np.ndarray  # indices of inputs that are components on their own
     groups: tuple[Component, ...]
+    # the stated correlation pairs as index arrays, and the group of each (-1 when r = 0)
+    first: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.intp))
+    second: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.intp))
+    r: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    pair_group: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.intp))
 
 
-def grouping(model: Any) -> Grouping:
-    """The Welch–Satterthwaite components of ``model``'s inputs."""
+Indexed = tuple[np.ndarray, np.ndarray, np.ndarray]
+
+
+def pair_indices(model: Any) -> Indexed:
+    """``model.correlations`` as arrays: first and second input index, r."""
+    index = {item.name: k for k, item in enumerate(model.inputs)}
+    pairs = model.correlations
+    count = len(pairs)
+    return (np.fromiter((index[a] for a, _, _ in pairs), dtype=np.intp, count=count),
+            np.fromiter((index[b] for _, b, _ in pairs), dtype=np.intp, count=count),
+            np.fromiter((r for _, _, r in pairs), dtype=float, count=count))
+
+
+def grouping(model: Any, indexed: Indexed | None = None) -> Grouping:
+    """The Welch–Satterthwaite components of ``model``'s inputs (``indexed``: the
+    correlation pairs as :func:`pair_indices` gives them, if already known)."""
     inputs = model.inputs
     index = {item.name: k for k, item in enumerate(inputs)}
-    parent = list(range(len(inputs)))
-
-    def root(i: int) -> int:
-        while parent[i] != i:
-            parent[i] = parent[parent[i]]
-            i = parent[i]
-        return i
-
-    links = [(a, b) for a, b, r in model.correlations if r != 0.0]
-    links += [(s.inputs[0], name) for s in model.estimated_together for name in s.inputs[1:]]
-    for a, b in links:
-        parent[root(index[a])] = root(index[b])
-    members: dict[int, list[int]] = {}
-    for i in range(len(inputs)):
-        members.setdefault(root(i), []).append(i)
-    declared = {frozenset(index[n] for n in s.inputs): s.dof for s in model.estimated_together}
+    first, second, r = pair_indices(model) if indexed is None else indexed
+    linked = r != 0.0
+    sets = [[index[n] for n in s.inputs] for s in model.estimated_together]
+    a = np.concatenate([first[linked], *(np.full(len(m) - 1, m[0]) for m in sets)])
+    b = np.concatenate([second[linked], *(np.array(m[1:], dtype=np.intp) for m in sets)])
+    labels = _components(len(inputs), a.astype(np.intp), b.astype(np.intp))
+    counts = np.bincount(labels, minlength=len(inputs))
+    singles = np.flatnonzero(counts[labels] == 1)
+    roots = np.flatnonzero(counts > 1)  # the smallest member of each group, ascending
+    order = np.argsort(labels, kind="stable")
+    starts = np.searchsorted(labels[order], roots)
+    declared = {frozenset(m): s.dof for m, s in zip(sets, model.estimated_together)}
+    dofs = np.array([item.dof for item in inputs], dtype=float)
     groups = []
-    for group in (g for g in members.values() if len(g) > 1):
-        key = frozenset(group)
-        dof = declared[key] if key in declared else min(inputs[i].dof for i in group)
-        groups.append(Component(members=tuple(group), dof=dof, declared=key in declared))
-    singles = np.array(sorted(g[0] for g in members.values() if len(g) == 1), dtype=int)
-    return Grouping(singles=singles, groups=tuple(groups))
+    for root, start in zip(roots.tolist(), starts.tolist()):
+        members = order[start:start + int(counts[root])]
+        key = frozenset(members.tolist())
+        dof = declared[key] if key in declared else float(dofs[members].min())
+        groups.append(Component(members=tuple(members.tolist()), dof=dof,
+                                declared=key in declared))
+    number = np.full(len(inputs), -1, dtype=np.intp)
+    number[roots] = np.arange(roots.size)
+    pair_group = np.where(linked, number[labels[first]], -1) if first.size else first
+    return Grouping(singles=singles, groups=tuple(groups), first=first, second=second, r=r,
+                    pair_group=pair_group)
 
 
-def _variances(model: Any, found: Grouping, parts: np.ndarray) -> list[float]:
+def _components(n: int, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """The connected components of n nodes joined by the edges (a, b): the smallest node
+    of each node's component. Roots are hooked onto smaller roots and paths compressed,
+    in whole-array steps (no loop over edges, no recursion)."""
+    labels = np.arange(n)
+    while a.size:
+        la, lb = labels[a], labels[b]
+        differ = la != lb
+        if not differ.any():
+            break
+        la, lb = la[differ], lb[differ]
+        np.minimum.at(labels, np.maximum(la, lb), np.minimum(la, lb))
+        while True:
+            jumped = labels[labels]
+            if np.array_equal(jumped, labels):
+                break
+            labels = jumped
+    return labels
+
+
+def _variances(found: Grouping, parts: np.ndarray) -> list[float]:
     """Σ_{i,j∈g} c_i c_j u_i u_j r_ij for every group (pairs not stated have r = 0)."""
-    where = {i: g for g, group in enumerate(found.groups) for i in group.members}
-    index = {item.name: k for k, item in enumerate(model.inputs)}
-    terms: list[list[float]] = [[float(parts[i]) ** 2 for i in group.members]
-                                for group in found.groups]
-    for a, b, r in model.correlations:
-        i, j = index[a], index[b]
-        if r != 0.0:
-            terms[where[i]].append(2.0 * float(parts[i] * parts[j]) * r)
-    return [max(math.fsum(t), 0.0) for t in terms]
+    keep = found.pair_group >= 0
+    cross = 2.0 * (parts[found.first[keep]] * parts[found.second[keep]]) * found.r[keep]
+    owner = found.pair_group[keep]
+    order = np.argsort(owner, kind="stable")
+    cross, owner = cross[order], owner[order]
+    bounds = np.searchsorted(owner, np.arange(len(found.groups) + 1))
+    return [max(math.fsum([*(float(parts[i]) ** 2 for i in group.members),
+                           *cross[bounds[g]:bounds[g + 1]].tolist()]), 0.0)
+            for g, group in enumerate(found.groups)]
 
 
 def effective_dof(model: Any, name: str, parts: np.ndarray, combined: float,
@@ -99,7 +140,7 @@ def effective_dof(model: Any, name: str, parts: np.ndarray, combined: float,
     finite = np.isfinite(dofs) & (single > 0)
     denominator = float(np.sum(single[finite] ** 4 / dofs[finite]))
     kinds: dict[str, list[tuple[str, str]]] = {"set": [], "infinite": [], "smallest": []}
-    for group, variance in zip(found.groups, _variances(model, found, parts)):
+    for group, variance in zip(found.groups, _variances(found, parts)):
         if variance <= 0.0:
             continue
         names = ", ".join(model.inputs[i].name for i in group.members)

@@ -18,17 +18,18 @@ Method:
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, overload
 
 import numpy as np
 
-from .dof import Grouping, effective_dof, grouping
+from .dof import Grouping, effective_dof, grouping, pair_indices
 from .errors import Location, PropagationError
 from .model import Model
 
-__all__ = ["Contribution", "CorrelationTerm", "MeasurandBudget", "Budget", "propagate",
-           "coverage_factor", "welch_satterthwaite"]
+__all__ = ["Contribution", "CorrelationTerm", "CorrelationTerms", "MeasurandBudget", "Budget",
+           "propagate", "coverage_factor", "welch_satterthwaite"]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -53,13 +54,61 @@ class CorrelationTerm:
     share: float  # percentage of u_c²
 
 
+class CorrelationTerms(Sequence[CorrelationTerm]):
+    """The correlation terms of one measurand, kept as columns: a block of 1000 correlated
+    inputs has 499,500 of them. Reads as a sequence of :class:`CorrelationTerm` (made when
+    asked for); ``names[first[k]]``, ``names[second[k]]`` are the inputs of term k."""
+
+    __slots__ = ("names", "first", "second", "r", "variance", "share")
+
+    def __init__(self, names: Sequence[str], first: np.ndarray, second: np.ndarray,
+                 r: np.ndarray, variance: np.ndarray, share: np.ndarray) -> None:
+        self.names, self.first, self.second = tuple(names), first, second
+        self.r, self.variance, self.share = r, variance, share
+
+    def __len__(self) -> int:
+        return int(self.first.size)
+
+    @overload
+    def __getitem__(self, k: int) -> CorrelationTerm: ...
+
+    @overload
+    def __getitem__(self, k: slice) -> tuple[CorrelationTerm, ...]: ...
+
+    def __getitem__(self, k: int | slice) -> CorrelationTerm | tuple[CorrelationTerm, ...]:
+        if isinstance(k, slice):
+            return tuple(self[j] for j in range(*k.indices(len(self))))
+        j = range(len(self))[k]
+        return CorrelationTerm(inputs=(self.names[int(self.first[j])],
+                                       self.names[int(self.second[j])]),
+                               r=float(self.r[j]), variance=float(self.variance[j]),
+                               share=float(self.share[j]))
+
+    def __iter__(self) -> Iterator[CorrelationTerm]:
+        names = self.names
+        for a, b, r, v, s in zip(self.first.tolist(), self.second.tolist(), self.r.tolist(),
+                                 self.variance.tolist(), self.share.tolist()):
+            yield CorrelationTerm(inputs=(names[a], names[b]), r=r, variance=v, share=s)
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, Sequence):
+            return NotImplemented
+        return tuple(self) == tuple(other)
+
+    def __hash__(self) -> int:
+        return hash(tuple(self))
+
+    def __repr__(self) -> str:
+        return f"<{len(self)} correlation terms>"
+
+
 @dataclass(frozen=True, slots=True, kw_only=True)
 class MeasurandBudget:
     name: str
     unit: str
     estimate: float
     contributions: tuple[Contribution, ...]
-    correlation_terms: tuple[CorrelationTerm, ...]
+    correlation_terms: CorrelationTerms
     combined_uncertainty: float
     first_order_uncertainty: float
     second_order_variance: float | None
@@ -187,13 +236,16 @@ def propagate(model: Model, coverage: float | None = None, *,
     """The GUM budget of every measurand of ``model``."""
     from .evaluation import jacobian_at_estimates
 
+    where = Location(file=model.source, table="settings" if coverage is None else None,
+                     key="coverage")  # the file's setting, or an argument
     coverage = model.settings.coverage_probability if coverage is None else coverage
     if not 0.0 < coverage < 1.0:
-        raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}")
+        raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}",
+                               where)
     values, jac = jacobian_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
-    groups = grouping(model)
     pairs = _Pairs(model)
+    groups = grouping(model, (pairs.first, pairs.second, pairs.r))
     warnings: list[str] = list(model.warnings)
     extra = _second_order(model, second_order, warnings)
     budgets = tuple(
@@ -218,7 +270,7 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
     scale = float(np.max(np.abs(parts), initial=0.0)) or 1.0
     scaled = parts / scale
     terms = pairs.terms(scaled)
-    first = float(np.sum(scaled ** 2)) + math.fsum(t[3] for t in terms)
+    first = float(np.sum(scaled ** 2)) + math.fsum(terms.tolist())
     if first < 0.0:
         raise PropagationError(f"the variance of '{measurand.name}' came out negative "
                                f"({first * scale * scale:.3g}); check the correlations",
@@ -231,7 +283,7 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
                                "beyond the floating-point range (±1.8e308)",
                                _equation(model, measurand))
     with np.errstate(over="ignore"):
-        terms = [(a, b, rho, v * scale * scale) for a, b, rho, v in terms]
+        terms = terms * scale * scale
         first, variance = first * scale * scale, variance * scale * scale
     # ν_eff does not depend on the scale: computed in units of the largest contribution
     nu, rule, notes = effective_dof(model, measurand.name, scaled, combined / scale, groups)
@@ -247,10 +299,9 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
                      sensitivity=float(c[j]), contribution=float(abs(parts[j])),
                      share=float(share[j]))
         for j, i in enumerate(model.inputs))
-    correlation_terms = tuple(
-        CorrelationTerm(inputs=(a, b), r=rho, variance=v,
-                        share=100.0 * (v / combined) / combined if combined > 0 else 0.0)
-        for a, b, rho, v in terms)
+    correlation_terms = CorrelationTerms(
+        pairs.names, pairs.first, pairs.second, pairs.r, terms,
+        100.0 * (terms / combined) / combined if combined > 0 else np.zeros_like(terms))
     return MeasurandBudget(
         name=measurand.name, unit=measurand.unit, estimate=estimate,
         contributions=contributions, correlation_terms=correlation_terms,
@@ -305,18 +356,14 @@ class _Pairs:
     cost of the correlation terms grows with the number of pairs, not with n²."""
 
     def __init__(self, model: Model) -> None:
-        index = {item.name: j for j, item in enumerate(model.inputs)}
-        self.pairs = model.correlations
-        self.first = np.array([index[a] for a, _, _ in self.pairs], dtype=np.intp)
-        self.second = np.array([index[b] for _, b, _ in self.pairs], dtype=np.intp)
-        self.r = np.array([r for _, _, r in self.pairs], dtype=float)
+        self.names = tuple(item.name for item in model.inputs)
+        self.first, self.second, self.r = pair_indices(model)
+        self.pairs = bool(self.r.size)
 
-    def terms(self, parts: np.ndarray) -> list[tuple[str, str, float, float]]:
-        """(a, b, r_ab, 2 c_a u_a c_b u_b r_ab) for each stated pair."""
-        if not self.pairs:
-            return []
-        variances = 2.0 * parts[self.first] * parts[self.second] * self.r
-        return [(a, b, rho, float(v)) for (a, b, rho), v in zip(self.pairs, variances)]
+    def terms(self, parts: np.ndarray) -> np.ndarray:
+        """2 c_a u_a c_b u_b r_ab for each stated pair (a, b)."""
+        terms: np.ndarray = 2.0 * (parts[self.first] * parts[self.second]) * self.r
+        return terms
 
     def covariance(self, scaled: np.ndarray) -> np.ndarray:
         """J U_x Jᵀ from the columns c_i u_i of ``scaled`` (measurands × inputs)."""
@@ -341,10 +388,10 @@ def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray
 
     count = sum(1 for i in model.inputs if i.standard_uncertainty > 0)
     if count > MAX_SECOND_ORDER_INPUTS:
-        raise PropagationError(f"{model.source}: expected at most {MAX_SECOND_ORDER_INPUTS} "
-                               f"inputs with an uncertainty for the second-order terms (they need "
-                               f"N² second and N³ third derivatives; limits: {LIMITS_PAGE}), "
-                               f"found {count}")
+        raise PropagationError(f"expected at most {MAX_SECOND_ORDER_INPUTS} inputs with an "
+                               f"uncertainty for the second-order terms (they need N² second "
+                               f"and N³ third derivatives; limits: {LIMITS_PAGE}), found {count}",
+                               Location(file=model.source))
     return second_order_variances(model)
 
 

@@ -41,7 +41,7 @@ import numpy as np
 
 from .distributions import Normal, StudentT
 from .limits import check_trials
-from .errors import SimulationError
+from .errors import Location, SimulationError
 from .evaluation import compile_model
 from .formatting import decimal_exponent
 from .gum import Budget
@@ -394,9 +394,10 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
         if refused:
             shapes = ", ".join(f"{i.name} ({i.distribution.name})" for i in refused)
             raise SimulationError(
-                f"{model.source}: [[correlations]]: cannot draw correlated {shapes}; "
-                "correlate only inputs with a normal, rectangular, triangular, arcsine, "
-                "trapezoidal or student_t distribution")
+                "expected correlated inputs with a normal, rectangular, triangular, arcsine, "
+                f"trapezoidal or student_t distribution (others cannot be drawn correlated), "
+                f"found {shapes}", Location(file=model.source, table="correlations",
+                                            key="between"))
         t_members = [i for i in odd if isinstance(i.distribution, StudentT)]
         copula = [i for i in odd if not isinstance(i.distribution, StudentT)]
         if copula:
@@ -542,10 +543,12 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     coverage = settings.coverage_probability if coverage is None else coverage
     digits = settings.digits if digits is None else digits
     workers = workers or min(2, os.cpu_count() or 1)
+    trials_at = Location(file=model.source, table="settings" if trials is None else None,
+                         key="trials")  # the file's setting, or an argument
     if trials is None:
         adaptive = adaptive or settings.trials == "adaptive"
         trials = 0 if settings.trials == "adaptive" else int(settings.trials)
-    check_trials(trials)
+    check_trials(trials, trials_at)
     if adaptive:
         check_adaptive(coverage)
     sampler = _Sampler(model, seed)
@@ -555,7 +558,8 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     else:
         if trials < 2 or trials < 1.0 / (1.0 - coverage):
             raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
-                                  f"trials for a {100 * coverage:.10g} % interval, found {trials}")
+                                  f"trials for a {100 * coverage:.10g} % interval, found {trials}",
+                                  trials_at)
         ticker = (lambda n, total=trials: progress(n, total)) if progress else None
         if not _keeps(keep_samples, trials, len(model.measurands), coverage):
             from .streaming import stream
@@ -718,9 +722,10 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, 
         share = bad / total
         if share > NONFINITE_LIMIT:
             raise SimulationError(
-                f"{model.source}: {bad} of {total} Monte Carlo trials ({100 * share:.2g} %) "
+                f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) "
                 f"gave a non-finite model value (limit {100 * NONFINITE_LIMIT:g} %); the "
-                "input distributions reach outside the equations' domain")
+                "input distributions reach outside the equations' domain",
+                Location(file=model.source))
         warnings.append(f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) gave a "
                         "non-finite model value and were left out")
     if streamed is not None:
@@ -757,8 +762,9 @@ def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray | None, cove
     measurand = model.measurands[k]
     count = int(moments[0])
     if count < 2:
-        raise SimulationError(f"{model.source}: too few finite Monte Carlo values for "
-                              f"'{measurand.name}'")
+        raise SimulationError(f"expected at least 2 finite Monte Carlo values, found {count}",
+                              Location(file=model.source, table=f"measurands.{measurand.name}",
+                                       key="equation", line=measurand.line))
     mean = float(moments[1])
     sd = _spread(y, mean, float(moments[2]) / (moments[0] - 1))
     if streamed is not None:

@@ -56,6 +56,15 @@ CASES = {
                                   "campaign.toml:34: [certificate] coverage: expected a "
                                   "coverage probability in [1e-06, 1 - 1e-09] (limits: "
                                   "docs/limits.md), found 1e-300"),
+    # the demo model whose charges come from records defines Q_pre; the runs table written
+    # for the typed-in model sets it per run, which would be silently ignored
+    "runs_column_names_a_definition": (
+        _replace('model = "coulometric-purity.toml"',
+                 'model = "coulometric-purity-records.toml"'),
+        "campaign.toml:13: [characterization] runs: expected run columns named like inputs "
+        "of the model in 'determinations.csv', found 'Q_pre', which the model defines "
+        "(Q_pre = Q_pre_stop - Q_pre_ep): a run cannot set it, give the columns of its "
+        "inputs"),
 }
 
 

@@ -295,3 +295,19 @@ def test_json_document_lists_each_fit_with_its_covariance():
     typed = result_document(evaluate(load_model(MODELS / "reference" /
                                                 "gum-h1-end-gauge.toml"), trials=0))
     assert typed["records"] is None
+
+
+def test_demo_determination_from_records_agrees_with_its_typed_in_run():
+    from conftest import MODELS
+
+    # the demo's D1 from its raw records (coulometric-purity-records.toml) and as the
+    # typed-in numbers the campaign certifies from (coulometric-purity.toml, whose
+    # estimates are D1's row of determinations.csv): the same determination, so the two
+    # values must agree well within either u_c (the records were generated from D1's
+    # numbers, models/generate_records.py)
+    records = propagate(load_model(MODELS / "vics-as-25a" / "coulometric-purity-records.toml"))
+    typed = propagate(load_model(MODELS / "vics-as-25a" / "coulometric-purity.toml"))
+    a, b = records.measurand("w"), typed.measurand("w")
+    assert abs(a.estimate - b.estimate) < 0.1 * min(a.combined_uncertainty,
+                                                    b.combined_uncertainty)
+    assert a.combined_uncertainty == pytest.approx(b.combined_uncertainty, rel=0.1)

@@ -177,3 +177,58 @@ def test_a_bad_correlation_block_is_one_clean_error(table, message):
         parse_model(_BLOCK + "[[correlations]]\n" + table + "\n", name="b.toml")
     text = str(caught.value)
     assert text.startswith("b.toml:") and text.split(" ", 1)[1] == message
+
+
+def test_a_dense_correlated_block_of_300_inputs_agrees_with_numpy():
+    # independent computation: u_c² = (c∘u)ᵀ R (c∘u) (GUM 5.2.2) with numpy on the matrix
+    # as written, r_ij = 0.6^|i-j| (positive definite), every pair stated
+    n = 300
+    a = 1.0 + np.arange(n) % 5
+    u = 0.001 * (1 + np.arange(n) % 3)
+    r = 0.6 ** np.abs(np.subtract.outer(np.arange(n), np.arange(n)))
+    rows = ", ".join("[" + ", ".join(repr(x) for x in row) + "]" for row in r.tolist())
+    text = ('title = "dense block"\n[measurands.y]\nequation = "'
+            + " + ".join(f"{a[i]:g} * x_{i}" for i in range(n)) + '"\n'
+            + "".join(f"[inputs.x_{i}]\nvalue = 1.0\nu = {float(u[i])!r}\n" for i in range(n))
+            + "[[correlations]]\nbetween = [" + ", ".join(f'"x_{i}"' for i in range(n))
+            + f"]\nmatrix = [{rows}]\n")
+    budget = propagate(parse_model(text)).measurands[0]
+    expected = math.sqrt((a * u) @ r @ (a * u))
+    assert budget.combined_uncertainty == pytest.approx(expected, rel=1e-12)
+    assert len(budget.correlation_terms) == n * (n - 1) // 2
+    total = math.fsum(c.share for c in budget.contributions) + math.fsum(
+        t.share for t in budget.correlation_terms)
+    assert total == pytest.approx(100.0, rel=1e-9)
+    term = budget.correlation_terms[n - 1]  # x_1 with x_2, after the n - 1 pairs of x_0
+    assert term.inputs == ("x_1", "x_2")
+    assert term.variance == pytest.approx(2 * a[1] * u[1] * a[2] * u[2] * 0.6, rel=1e-14)
+
+
+def _union_find(n: int, edges: list[tuple[int, int]]) -> list[int]:
+    parent = list(range(n))
+
+    def root(i: int) -> int:
+        while parent[i] != i:
+            i = parent[i]
+        return i
+
+    for x, y in edges:
+        rx, ry = root(x), root(y)
+        parent[max(rx, ry)] = min(rx, ry)
+    return [min(j for j in range(n) if root(j) == root(i)) for i in range(n)]
+
+
+@pytest.mark.parametrize("seed", range(12))
+def test_groups_of_correlated_inputs_are_the_connected_components(seed):
+    from budget.dof import _components
+
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(2, 60))
+    count = int(rng.integers(0, 2 * n))
+    edges = [(int(x), int(y)) for x, y in rng.integers(0, n, size=(count, 2))]
+    if seed % 3 == 0:  # a chain through the inputs in a shuffled order
+        order = rng.permutation(n).tolist()
+        edges = list(zip(order[:-1], order[1:]))
+    a = np.array([x for x, _ in edges], dtype=np.intp)
+    b = np.array([y for _, y in edges], dtype=np.intp)
+    assert _components(n, a, b).tolist() == _union_find(n, edges)

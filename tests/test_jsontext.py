@@ -1,0 +1,92 @@
+"""The column-wise JSON writer gives exactly the standard library's text.
+
+Reference: ``json.dumps(json_safe(document), indent=2, allow_nan=False)`` (Python's own
+encoder, the form the documents had before the writer existed), on the documents of
+shipped models, on a correlated block, and on random documents with hostile values.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from budget.analysis import evaluate
+from budget.document import json_safe, result_document
+from budget.jsontext import json_text
+from budget.model import load_model, parse_model
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def _reference(document: Any) -> str:
+    return json.dumps(json_safe(document), indent=2, allow_nan=False)
+
+
+@pytest.mark.parametrize("path", ["models/vics-as-25a/coulometric-purity.toml",
+                                  "models/reference/gum-h1-end-gauge.toml",
+                                  "models/reference/eurachem-a2-naoh.toml"])
+def test_shipped_models_are_written_as_the_standard_library_writes_them(path: str) -> None:
+    document = result_document(evaluate(load_model(ROOT / path), trials=2000, seed=1))
+    assert json_text(document) == _reference(document)
+
+
+def test_a_correlated_block_is_written_as_the_standard_library_writes_it() -> None:
+    names = ", ".join(f'"x_{i}"' for i in range(12))
+    text = ('title = "block"\n[measurands.y]\nequation = "'
+            + " + ".join(f"{i + 1} * x_{i}" for i in range(12)) + '"\n'
+            + "".join(f"[inputs.x_{i}]\nvalue = {i}.5\nu = 0.{i + 1}\n" for i in range(12))
+            + f"[[correlations]]\nbetween = [{names}]\nr = 0.3\n")
+    document = result_document(evaluate(parse_model(text), trials=0))
+    assert len(document["measurands"][0]["correlation_terms"]) == 66
+    assert json_text(document) == _reference(document)
+
+
+HOSTILE: dict[str, Any] = {
+    "floats": [math.nan, math.inf, -math.inf, 0.1, -0.0, 1e308, 5e-324, np.float64(2.5)],
+    "rows": [{"a": 1.0, "b": math.nan, "c": "x\x7f\u202e\n\"", "d": [1, "t", None]},
+             {"a": math.inf, "b": 2, "c": "é", "d": []}],
+    "same keys, a nested table": [{"k": {"z": 1}}, {"k": {"z": 2}}],
+    "different keys": [{"k": 1}, {"j": 2}],
+    "empty": [[], {}, [{}], ""],
+    "tuple rows": ({"x": (1.5, math.nan)}, {"x": (2, 3)}),
+    "100%": [{"50%": True, "e": False}, {"50%": False, "e": None}],
+    1: "int key", 2.5: "float key", None: "null key", False: "bool key",
+}
+
+
+def test_hostile_values_are_written_as_the_standard_library_writes_them() -> None:
+    assert json_text(HOSTILE) == _reference(HOSTILE)
+
+
+def test_unwritable_values_are_refused_as_the_standard_library_refuses_them() -> None:
+    for bad in ({"x": object()}, [{"a": {1, 2}}, {"a": {3}}], {(1, 2): 1}):
+        with pytest.raises(TypeError):
+            _reference(bad)
+        with pytest.raises(TypeError):
+            json_text(bad)
+
+
+_SCALARS = (st.none() | st.booleans() | st.integers() | st.floats()
+            | st.text(max_size=6))
+_DOCUMENTS = st.recursive(
+    _SCALARS,
+    lambda inner: (st.lists(inner, max_size=4)
+                   | st.dictionaries(st.text(max_size=4), inner, max_size=4)
+                   | st.lists(st.fixed_dictionaries({"a": inner, "b": _SCALARS,
+                                                     "c": st.lists(_SCALARS, max_size=3)}),
+                              max_size=4)),
+    max_leaves=30)
+
+
+@settings(max_examples=300, deadline=None)
+@given(_DOCUMENTS)
+def test_random_documents_are_written_as_the_standard_library_writes_them(
+        document: Any) -> None:
+    assert json_text(document) == _reference(document)
