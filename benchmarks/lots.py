@@ -76,8 +76,8 @@ def main() -> None:
 
     start = time.perf_counter()
     for m in masses[:200]:
-        inputs = tuple(replace(i, estimate=float(m)) if i.name == "m_KHP" else i
-                       for i in model.inputs)
+        inputs = tuple(replace(i, distribution=replace(i.distribution, estimate=float(m)))
+                       if i.name == "m_KHP" else i for i in model.inputs)
         propagate(replace(model, inputs=inputs))
     print(f"  for scale, propagate of a fresh model per lot: "
           f"{1e6 * (time.perf_counter() - start) / 200:.0f} µs per lot")

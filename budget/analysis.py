@@ -110,8 +110,10 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
         notes = (f"{model.source}: [settings] reported_interval = \"{method}\" but no Monte "
                  "Carlo run (trials = 0): the GUM interval is reported",)
         method = "gum"
+    stated = replace(where, key="reported_interval",  # an argument, or the file's setting
+                     table=None if reported_interval else "settings")
     chosen = tuple(
-        reported(b, simulation.measurands[k] if simulation else None, method, model.source)
+        reported(b, simulation.measurands[k] if simulation else None, method, stated)
         for k, b in enumerate(budget.measurands))
     return Result(model=model, budget=budget, simulation=simulation, digits=digits,
                   reported=chosen, notes=notes)

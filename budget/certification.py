@@ -375,8 +375,9 @@ def _with_monte_carlo(cert: Certification, char: Characterization | None,
                 "reported_interval = \"monte_carlo\" would state the Monte Carlo interval")))
     elif simulation is None:
         raise SimulationError(
-            f"{campaign.source}: [certificate] reported_interval: expected a Monte Carlo run "
-            f"of the characterization for \"{method}\" (trials > 0, one method), found none")
+            f"expected a Monte Carlo run of the characterization for \"{method}\" (trials > 0, "
+            "one method), found none",
+            Location(file=campaign.source, table="certificate", key="reported_interval"))
     else:
         interval = simulation.interval if method == "monte_carlo" else \
             simulation.shortest_interval
@@ -532,10 +533,9 @@ def _model_at_mean(campaign: Campaign, repeatability: float | None = None) -> Mo
     for item in campaign.model.inputs:
         if item.name in campaign.run_inputs:
             mean = float(campaign.runs.values(item.name).mean())
-            item = replace(item, estimate=mean,
-                           distribution=replace(item.distribution, estimate=mean))
+            item = replace(item, distribution=replace(item.distribution, estimate=mean))
         if item.name in campaign.scatter_covers:
-            item = replace(item, standard_uncertainty=0.0, dof=math.inf, type="A",
+            item = replace(item, dof=math.inf, type="A",
                            distribution=CoveredByScatter(item.estimate, repeatability),
                            basis=_covered_basis(repeatability, campaign.unit, item.basis))
         inputs.append(item)

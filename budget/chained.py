@@ -100,8 +100,7 @@ def read_link(name: str, data: dict[str, Any], base: Path, where: Any,
                          f"'{measurand}' of {upstream.source} ('{item.unit}'), found "
                          f"'{unit.text}'", where("unit"))
     estimate = _value(upstream, measurand) * float(theirs.factor / unit.factor)
-    placeholder = Input(name=name, estimate=estimate, unit=unit.text,
-                        standard_uncertainty=0.0, distribution=Exact(estimate),
+    placeholder = Input(name=name, unit=unit.text, distribution=Exact(estimate),
                         dof=math.inf, type="B", basis=f"result of {upstream.source}",
                         description=str(data.get("description", "")),
                         source=str(data.get("source", upstream.source)))
@@ -331,8 +330,8 @@ def _saved_input(c: dict[str, Any], warnings: list[str]) -> Input:
             warnings.append(f"input '{c['input']}' of the saved result is drawn as normal "
                             f"in Monte Carlo (the document names '{shape}', which it does "
                             "not describe fully)")
-    return Input(name=str(c["input"]), estimate=estimate, unit=str(c.get("unit", "1")),
-                 standard_uncertainty=u, distribution=made, dof=dof,
+    return Input(name=str(c["input"]), unit=str(c.get("unit", "1")), distribution=made,
+                 dof=dof,
                  type=str(c.get("type", "B")), basis=f"from a saved result, {shape}")
 
 

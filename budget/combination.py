@@ -30,7 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import NDArray
 
-from .errors import PropagationError
+from .errors import Location, PropagationError
 
 __all__ = ["RULES", "Consistency", "Combined", "gls_mean", "plain_mean", "consistency",
            "dersimonian_laird", "paule_mandel", "combine"]
@@ -173,8 +173,19 @@ def paule_mandel(values: Array | list[float], covariance: Array | list[list[floa
 
 
 def combine(values: Array | list[float], covariance: Array | list[list[float]],
-            rule: str = "weighted") -> Combined:
-    """One value from the results by ``rule`` (one of :data:`RULES`) and its check."""
+            rule: str = "weighted", *, where: Location | None = None) -> Combined:
+    """One value from the results by ``rule`` (one of :data:`RULES`) and its check;
+    ``where`` (the file and table that chose the results) is given to every error."""
+    try:
+        return _combine(values, covariance, rule)
+    except PropagationError as exc:
+        if where is None or exc.location is not None:
+            raise
+        raise PropagationError(exc.message, where) from exc
+
+
+def _combine(values: Array | list[float], covariance: Array | list[list[float]],
+             rule: str) -> Combined:
     if rule not in RULES:
         raise PropagationError(f"expected a combination rule of {', '.join(RULES)}, found "
                                f"'{rule}'")

@@ -20,7 +20,7 @@ then map a spec keyword to it in ``statements.py``.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any, Protocol
 
 import numpy as np
@@ -45,6 +45,14 @@ class Distribution(Protocol):
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray: ...
 
     def ppf(self, p: np.ndarray) -> np.ndarray: ...
+
+
+def _derive(owner: Any, standard_uncertainty: float, estimate: float | None = None) -> None:
+    """Store the standard uncertainty (and a derived estimate) once, when the frozen
+    distribution is built: inputs read them on every access, for up to 10⁵ inputs."""
+    object.__setattr__(owner, "standard_uncertainty", standard_uncertainty)
+    if estimate is not None:
+        object.__setattr__(owner, "estimate", estimate)
 
 
 def _valid(owner: Any, *, widths: tuple[str, ...] = (), fraction: str | None = None,
@@ -97,16 +105,14 @@ class Normal:
 class Rectangular:
     estimate: float
     half_width: float
+    standard_uncertainty: float = field(init=False, repr=False, compare=False)
     name = "rectangular"
     gaussian = False
     has_ppf = True
 
     def __post_init__(self) -> None:
         _valid(self, widths=("half_width",))
-
-    @property
-    def standard_uncertainty(self) -> float:
-        return self.half_width / _SQRT3
+        _derive(self, self.half_width / _SQRT3)
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
         values = rng.random(size)
@@ -122,16 +128,14 @@ class Rectangular:
 class Triangular:
     estimate: float
     half_width: float
+    standard_uncertainty: float = field(init=False, repr=False, compare=False)
     name = "triangular"
     gaussian = False
     has_ppf = True
 
     def __post_init__(self) -> None:
         _valid(self, widths=("half_width",))
-
-    @property
-    def standard_uncertainty(self) -> float:
-        return self.half_width / _SQRT6
+        _derive(self, self.half_width / _SQRT6)
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
         values = rng.random(size)
@@ -153,16 +157,14 @@ class Triangular:
 class Arcsine:
     estimate: float
     half_width: float
+    standard_uncertainty: float = field(init=False, repr=False, compare=False)
     name = "arcsine"
     gaussian = False
     has_ppf = True
 
     def __post_init__(self) -> None:
         _valid(self, widths=("half_width",))
-
-    @property
-    def standard_uncertainty(self) -> float:
-        return self.half_width / _SQRT2
+        _derive(self, self.half_width / _SQRT2)
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
         values = rng.random(size)
@@ -183,16 +185,14 @@ class Trapezoidal:
     estimate: float
     half_width: float
     beta: float
+    standard_uncertainty: float = field(init=False, repr=False, compare=False)
     name = "trapezoidal"
     gaussian = False
     has_ppf = True
 
     def __post_init__(self) -> None:
         _valid(self, widths=("half_width",), fraction="beta")
-
-    @property
-    def standard_uncertainty(self) -> float:
-        return self.half_width * math.sqrt((1.0 + self.beta ** 2) / 6.0)
+        _derive(self, self.half_width * math.sqrt((1.0 + self.beta ** 2) / 6.0))
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
         values = rng.random(size)
@@ -226,16 +226,14 @@ class CurvilinearTrapezoid:
     estimate: float
     half_width: float
     inexactness: float
+    standard_uncertainty: float = field(init=False, repr=False, compare=False)
     name = "curvilinear_trapezoid"
     gaussian = False
     has_ppf = False
 
     def __post_init__(self) -> None:
         _valid(self, widths=("half_width", "inexactness"))
-
-    @property
-    def standard_uncertainty(self) -> float:
-        return math.sqrt(self.half_width ** 2 / 3.0 + self.inexactness ** 2 / 9.0)
+        _derive(self, math.sqrt(self.half_width ** 2 / 3.0 + self.inexactness ** 2 / 9.0))
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
         lower = self.estimate - self.half_width
@@ -312,6 +310,11 @@ class CoveredByScatter:
     gaussian = True
     has_ppf = True
 
+    def __post_init__(self) -> None:
+        _valid(self)
+        if self.repeatability is not None:
+            _valid(self, widths=("repeatability",))
+
     @property
     def standard_uncertainty(self) -> float:
         return 0.0
@@ -331,18 +334,30 @@ class AtomicWeightSum:
     centres: tuple[float, ...]
     half_widths: tuple[float, ...]
     scale: float = 1.0  # g/mol → the input's unit
+    estimate: float = field(init=False, repr=False, compare=False)
+    standard_uncertainty: float = field(init=False, repr=False, compare=False)
     name = "rectangular (atomic weights)"
     gaussian = False
     has_ppf = False
 
-    @property
-    def estimate(self) -> float:
-        return self.scale * math.fsum(n * c for n, c in zip(self.counts, self.centres))
+    def __post_init__(self) -> None:
+        from .errors import InputError
 
-    @property
-    def standard_uncertainty(self) -> float:
-        return self.scale * math.sqrt(math.fsum(
-            (n * a / _SQRT3) ** 2 for n, a in zip(self.counts, self.half_widths)))
+        if not len(self.counts) == len(self.centres) == len(self.half_widths):
+            raise InputError(f"AtomicWeightSum: expected as many counts, centres and "
+                             f"half-widths, found {len(self.counts)}, {len(self.centres)} "
+                             f"and {len(self.half_widths)}")
+        numbers = (*self.counts, *self.centres, self.scale)
+        if not all(math.isfinite(x) for x in numbers) or min(self.counts, default=0) < 0:
+            raise InputError(f"AtomicWeightSum: expected finite counts ≥ 0, centres and "
+                             f"scale, found {numbers!r}")
+        if not all(math.isfinite(h) and h >= 0 for h in self.half_widths):
+            raise InputError(f"AtomicWeightSum: expected half_widths ≥ 0 and finite, found "
+                             f"{self.half_widths!r}")
+        _derive(self, self.scale * math.sqrt(math.fsum(
+                    (n * a / _SQRT3) ** 2 for n, a in zip(self.counts, self.half_widths))),
+                estimate=self.scale * math.fsum(n * c for n, c in zip(self.counts,
+                                                                      self.centres)))
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
         total = np.full(size, self.estimate)

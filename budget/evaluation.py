@@ -29,8 +29,8 @@ def compile_model(model: Model) -> Program:
     try:
         return Program([m.graph for m in model.measurands], [i.name for i in model.inputs])
     except (ValueError, KeyError) as exc:
-        raise PropagationError(f"{model.source}: the equations cannot be compiled: {exc}"
-                               ) from exc
+        raise PropagationError(f"the equations cannot be compiled: {exc}",
+                               Location(file=model.source)) from exc
 
 
 def estimates(model: Model) -> np.ndarray:
@@ -73,24 +73,26 @@ def second_order_variances(model: Model) -> np.ndarray:
     result = []
     for measurand in model.measurands:
         f = measurand.expression
+        where = Location(file=model.source, table=f"measurands.{measurand.name}",
+                         key="equation", line=measurand.line)
         total = 0.0
         first = {i.name: sympy.diff(f, i.symbol) for i in active}
         for a in active:
             for b in active:
                 d_ab = sympy.diff(first[a.name], b.symbol)
                 d_abb = sympy.diff(d_ab, b.symbol)
-                value = (0.5 * _at(d_ab, point) ** 2
-                         + _at(first[a.name], point) * _at(d_abb, point))
+                value = (0.5 * _at(d_ab, point, where) ** 2
+                         + _at(first[a.name], point, where) * _at(d_abb, point, where))
                 total += value * a.standard_uncertainty ** 2 * b.standard_uncertainty ** 2
         result.append(total)
     return np.array(result)
 
 
-def _at(expr: Any, point: dict[str, Any]) -> float:
+def _at(expr: Any, point: dict[str, Any], where: Location) -> float:
     if expr == 0:
         return 0.0
     value = complex(expr.xreplace(point).evalf())
     if value.imag != 0.0 or not math.isfinite(value.real):
-        raise PropagationError(f"a higher-order derivative is not finite at the estimates: "
-                               f"{expr}")
+        raise PropagationError(f"expected higher-order derivatives finite at the estimates, "
+                               f"found {expr} = {value:g}", where)
     return value.real

@@ -243,9 +243,12 @@ def propagate(model: Model, coverage: float | None = None, *,
 def _propagate(model: Model, coverage: float | None, second_order: bool) -> Budget:
     from .evaluation import jacobian_at_estimates
 
+    where = Location(file=model.source, table="settings" if coverage is None else None,
+                     key="coverage")  # the file's setting, or an argument
     coverage = model.settings.coverage_probability if coverage is None else coverage
     if not 0.0 < coverage < 1.0:
-        raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}")
+        raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}",
+                               where)
     values, jac = jacobian_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
     pairs = _Pairs(model)
@@ -392,10 +395,10 @@ def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray
 
     count = sum(1 for i in model.inputs if i.standard_uncertainty > 0)
     if count > MAX_SECOND_ORDER_INPUTS:
-        raise PropagationError(f"{model.source}: expected at most {MAX_SECOND_ORDER_INPUTS} "
-                               f"inputs with an uncertainty for the second-order terms (they need "
-                               f"N² second and N³ third derivatives; limits: {LIMITS_PAGE}), "
-                               f"found {count}")
+        raise PropagationError(f"expected at most {MAX_SECOND_ORDER_INPUTS} inputs with an "
+                               f"uncertainty for the second-order terms (they need N² second "
+                               f"and N³ third derivatives; limits: {LIMITS_PAGE}), found {count}",
+                               Location(file=model.source))
     return second_order_variances(model)
 
 

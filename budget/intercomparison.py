@@ -146,7 +146,9 @@ def evaluate_methods(campaign: "Campaign", primary: "Characterization",
         if not p.agrees:
             warnings.append(f"methods '{p.first}' and '{p.second}' do not agree (E_n = "
                             f"{p.E_n:.2f}, ζ = {p.zeta:.2f}, with the shared inputs)")
-    combined, nu, shares = _combined(plan, results, x, covariance, warnings)
+    combined, nu, shares = _combined(plan, results, x, covariance, warnings,
+                                     Location(file=campaign.source, table="combination",
+                                              key="methods"))
     check = _all_consistent(x, covariance)
     simulation = None
     if combined is not None and found.samples is not None:
@@ -394,14 +396,14 @@ def _ratio(difference: float, variance: float) -> float:
 
 
 def _combined(plan: "MethodsPlan", results: list[MethodResult], x: np.ndarray,
-              v: np.ndarray, warnings: list[str]
+              v: np.ndarray, warnings: list[str], where: Location
               ) -> tuple[Combined | None, float, tuple[tuple[str, float], ...]]:
     if plan.rule is None:
         return None, math.inf, ()
     labels = [m.label for m in results]
     chosen = [labels.index(label) for label in plan.combined]
     sub = v[np.ix_(chosen, chosen)]
-    combined = combine(x[chosen], sub, plan.rule)
+    combined = combine(x[chosen], sub, plan.rule, where=where)
     warnings.extend(combined.warnings)
     w = np.array(combined.weights)
     used = sub + combined.tau ** 2 * np.eye(len(chosen))

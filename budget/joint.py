@@ -94,12 +94,13 @@ def join(members: Sequence[Member],
             if key not in rename:
                 rename[key] = joint_name(*key)
                 merged[rename[key]] = replace(item, name=rename[key])
-    return _assemble(members, merged, rename, factor, shared, title)
+    return _assemble(members, merged, rename, factor, shared, title, where)
 
 
 def _assemble(members: Sequence[Member], merged: dict[str, Input],
               rename: dict[tuple[str, str], str], factor: dict[tuple[str, str], Fraction],
-              shared: Sequence[tuple[str, Sequence[tuple[str, str]]]], title: str) -> Joint:
+              shared: Sequence[tuple[str, Sequence[tuple[str, str]]]], title: str,
+              where: Location) -> Joint:
     measurands: list[Measurand] = []
     placed: list[tuple[tuple[str, str], str]] = []
     correlations: list[tuple[str, str, float]] = []
@@ -121,14 +122,14 @@ def _assemble(members: Sequence[Member], merged: dict[str, Input],
     names = ", ".join(m.name for m in members)
     model = Model(title=title or "joint evaluation of " + names, description="",
                   inputs=tuple(merged.values()), definitions=(),
-                  measurands=tuple(measurands), correlations=_distinct(correlations),
-                  estimated_together=_sets(sets), settings=first.settings,
+                  measurands=tuple(measurands), correlations=_distinct(correlations, where),
+                  estimated_together=_sets(sets, where), settings=first.settings,
                   source="joint evaluation of " + ", ".join(m.model.source for m in members))
     return Joint(model=model, inputs=tuple(rename.items()), measurands=tuple(placed),
                  shared=tuple((n, tuple(u)) for n, u in shared))
 
 
-def _sets(sets: list[Together]) -> tuple[Together, ...]:
+def _sets(sets: list[Together], where: Location) -> tuple[Together, ...]:
     """The members' ``[[estimated_together]]`` sets, renamed; one set per input."""
     made: dict[frozenset[str], Together] = {}
     owner: dict[str, frozenset[str]] = {}
@@ -137,18 +138,19 @@ def _sets(sets: list[Together]) -> tuple[Together, ...]:
         for name in item.inputs:
             if owner.setdefault(name, key) != key:
                 raise InputError(f"expected a shared input in one set of inputs estimated "
-                                 f"together, found '{name}' in two different sets")
+                                 f"together, found '{name}' in two different sets", where)
         made.setdefault(key, item)
     return tuple(made.values())
 
 
-def _distinct(pairs: list[tuple[str, str, float]]) -> tuple[tuple[str, str, float], ...]:
+def _distinct(pairs: list[tuple[str, str, float]], where: Location
+              ) -> tuple[tuple[str, str, float], ...]:
     seen: dict[frozenset[str], tuple[str, str, float]] = {}
     for a, b, r in pairs:
         key = frozenset((a, b))
         if key in seen and not math.isclose(seen[key][2], r, rel_tol=1e-12):
             raise InputError(f"expected one correlation between the shared inputs '{a}' and "
-                             f"'{b}', found {seen[key][2]:g} and {r:g}")
+                             f"'{b}', found {seen[key][2]:g} and {r:g}", where)
         seen[key] = (a, b, r)
     return tuple(seen.values())
 

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
-import math
 import re
 import tomllib
 from dataclasses import dataclass, field, replace
@@ -52,22 +51,13 @@ _MEASURAND_KEYS = ("equation", "unit", "description")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
 
 
-def _agree(name: str, field: str, value: float, source: float) -> None:
-    if value == source or math.isclose(value, source, rel_tol=1e-12, abs_tol=1e-300):
-        return
-    raise InputError(f"expected {field} {value!r} of input '{name}' to be its distribution's, "
-                     f"found {source!r}; change the distribution (with_value, "
-                     "with_uncertainty, with_distribution), not the field")
-
-
 @dataclass(frozen=True, slots=True, kw_only=True)
 class Input:
-    """An input quantity X_i: estimate, standard uncertainty and distribution."""
+    """An input quantity X_i: its distribution (which holds the estimate and the widths),
+    ν, Type A/B and where it came from."""
 
     name: str
-    estimate: float
     unit: str
-    standard_uncertainty: float
     distribution: Any
     dof: float
     type: str
@@ -77,11 +67,24 @@ class Input:
     molar_mass: Any = None
 
     def __post_init__(self) -> None:
-        """The distribution is the one source of the estimate and the standard uncertainty:
-        the two fields repeat it for speed and may not disagree with it."""
-        _agree(self.name, "estimate", self.estimate, self.distribution.estimate)
-        _agree(self.name, "standard_uncertainty", self.standard_uncertainty,
-               self.distribution.standard_uncertainty)
+        """A distribution object (it validated its own parameters) and ν > 0."""
+        if not (hasattr(self.distribution, "estimate")
+                and hasattr(self.distribution, "standard_uncertainty")):
+            raise InputError(f"expected a budget.distributions object for input "
+                             f"'{self.name}', found {self.distribution!r}")
+        if not self.dof > 0:  # also refuses NaN
+            raise InputError(f"expected degrees of freedom > 0 for input '{self.name}', "
+                             f"found {self.dof!r}")
+
+    @property
+    def estimate(self) -> float:
+        """x_i, held by the distribution (computed once when it was built)."""
+        return float(self.distribution.estimate)
+
+    @property
+    def standard_uncertainty(self) -> float:
+        """u(x_i), held by the distribution (computed once when it was built)."""
+        return float(self.distribution.standard_uncertainty)
 
     @property
     def symbol(self) -> Any:
@@ -449,10 +452,9 @@ class _Reader:
         unit_where = self.where("inputs." + name, "unit")
         unit = parse_unit(statement.unit if statement.unit is not None else "1", unit_where)
         distribution = _in_unit(statement, unit, unit_where)
-        made = Input(name=name, estimate=float(distribution.estimate), unit=unit.text,
-                     standard_uncertainty=float(distribution.standard_uncertainty),
-                     distribution=distribution, dof=statement.dof, type=statement.type,
-                     basis=statement.basis, description=str(data.get("description", "")),
+        made = Input(name=name, unit=unit.text, distribution=distribution,
+                     dof=statement.dof, type=statement.type, basis=statement.basis,
+                     description=str(data.get("description", "")),
                      source=str(data.get("source", "")), molar_mass=statement.molar_mass)
         if use is not None:
             stated = use.certificate.value(use.stated, where)

@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import math
 import os
+import threading
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any, Callable, cast
@@ -40,7 +41,7 @@ import numpy as np
 
 from .distributions import Normal, StudentT
 from .limits import check_trials
-from .errors import SimulationError
+from .errors import Location, SimulationError
 from .evaluation import compile_model
 from .formatting import decimal_exponent
 from .gum import Budget
@@ -57,6 +58,7 @@ BLOCK = 1 << 16
 GENERATOR = "SFC64"
 _BLOCK_BYTES = 1 << 25
 _SLICE = 1 << 13  # evaluation works on slices that stay in the processor's cache
+_CHUNK = 1 << 15  # normal draws are scaled in chunks of rows of about 256 kB
 NONFINITE_LIMIT = 0.01
 # A fixed run keeps every value (8 bytes per trial and measurand) up to this many values;
 # longer runs (with p > ½) are streamed: moments, a histogram and exact tails (streaming.py)
@@ -253,39 +255,43 @@ class _Sampler:
                         for key, matrix in _group_matrices(model, self.groups).items()}
         self.sets = _set_slots(model)
         self.plan = _plan(model, self.groups)
+        self.local = threading.local()  # each thread's buffers for the normal inputs
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
-        values, normals = self.draw(index, size)
+        values = self.draw(index, size)
         out = np.empty((len(self.model.measurands), size)) if out is None else out
         for start in range(0, size, _SLICE):  # cache-sized slices of the drawn block
             stop = min(size, start + _SLICE)
-            part = [v if np.ndim(v) == 0 else v[start:stop] for v in values]
-            for slots, z, mean, sd in normals:  # scaled slice by slice, in cache
-                scaled = z[:, start:stop] * sd
-                scaled += mean
-                for row, slot in enumerate(slots):
-                    part[slot] = scaled[row]
+            part = values if size <= _SLICE else [
+                v[start:stop] if isinstance(v, np.ndarray) else v for v in values]
             for k, y in enumerate(self.program.evaluate(part)):
                 out[k, start:stop] = y
         return out
 
-    def draw(self, index: int, size: int) -> tuple[list[Any], list[Any]]:
-        """The inputs of block ``index``: values (arrays or fixed numbers) and the runs of
-        independent normal inputs as standard normals with their slots, means and sds.
+    def draw(self, index: int, size: int) -> list[Any]:
+        """The inputs of block ``index``: arrays, or numbers for exact inputs.
 
-        A run of k consecutive independent normal inputs is drawn in one call as k × size
-        numbers: the same stream as k calls of ``size`` each."""
+        A run of k consecutive independent normal inputs is drawn by rows into one
+        reused k × size buffer (the same stream as k calls of ``size`` each), each chunk
+        of rows scaled and shifted while it is in the cache."""
         rng = np.random.Generator(np.random.SFC64(
             np.random.SeedSequence(self.seed, spawn_key=(index,))))
         values: list[Any] = [None] * len(self.model.inputs)
-        normals: list[Any] = []
-        for kind, item in self.plan:
+        for number, (kind, item) in enumerate(self.plan):
             if kind == "fixed":
                 values[item] = self.model.inputs[item].estimate
             elif kind == "normal":
                 slots, mean, sd = item
-                normals.append((slots, rng.standard_normal((len(slots), size)), mean, sd))
+                z = self._buffer(number, len(slots), size)
+                rows = max(1, _CHUNK // size)
+                for first in range(0, len(slots), rows):
+                    chunk = z[first:first + rows]
+                    rng.standard_normal(out=chunk)
+                    chunk *= sd[first:first + rows]
+                    chunk += mean[first:first + rows]
+                for slot, row in zip(slots, z):
+                    values[slot] = row
             elif kind == "single":
                 values[item] = self.model.inputs[item].distribution.sample(rng, size)
             else:
@@ -293,7 +299,17 @@ class _Sampler:
                 for slot, column in zip(item, _correlated(self.model, item, factor, rng,
                                                           size, self.sets)):
                     values[slot] = column
-        return values, normals
+        return values
+
+    def _buffer(self, number: int, rows: int, size: int) -> np.ndarray:
+        """This thread's buffer for the run ``number`` of the plan (reused block after
+        block: the values of a block are dead once it is evaluated)."""
+        buffers: dict[int, np.ndarray] = getattr(self.local, "buffers", None) or {}
+        self.local.buffers = buffers
+        found = buffers.get(number)
+        if found is None or found.shape[1] != size:
+            found = buffers[number] = np.empty((rows, size))
+        return found
 
 
 def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:
@@ -378,9 +394,10 @@ def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
         if refused:
             shapes = ", ".join(f"{i.name} ({i.distribution.name})" for i in refused)
             raise SimulationError(
-                f"{model.source}: [[correlations]]: cannot draw correlated {shapes}; "
-                "correlate only inputs with a normal, rectangular, triangular, arcsine, "
-                "trapezoidal or student_t distribution")
+                "expected correlated inputs with a normal, rectangular, triangular, arcsine, "
+                f"trapezoidal or student_t distribution (others cannot be drawn correlated), "
+                f"found {shapes}", Location(file=model.source, table="correlations",
+                                            key="between"))
         t_members = [i for i in odd if isinstance(i.distribution, StudentT)]
         copula = [i for i in odd if not isinstance(i.distribution, StudentT)]
         if copula:
@@ -526,10 +543,12 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     coverage = settings.coverage_probability if coverage is None else coverage
     digits = settings.digits if digits is None else digits
     workers = workers or min(2, os.cpu_count() or 1)
+    trials_at = Location(file=model.source, table="settings" if trials is None else None,
+                         key="trials")  # the file's setting, or an argument
     if trials is None:
         adaptive = adaptive or settings.trials == "adaptive"
         trials = 0 if settings.trials == "adaptive" else int(settings.trials)
-    check_trials(trials)
+    check_trials(trials, trials_at)
     if adaptive:
         check_adaptive(coverage)
     sampler = _Sampler(model, seed)
@@ -539,7 +558,8 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     else:
         if trials < 2 or trials < 1.0 / (1.0 - coverage):
             raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
-                                  f"trials for a {100 * coverage:.10g} % interval, found {trials}")
+                                  f"trials for a {100 * coverage:.10g} % interval, found {trials}",
+                                  trials_at)
         ticker = (lambda n, total=trials: progress(n, total)) if progress else None
         if not _keeps(keep_samples, trials, len(model.measurands), coverage):
             from .streaming import stream
@@ -702,9 +722,10 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, 
         share = bad / total
         if share > NONFINITE_LIMIT:
             raise SimulationError(
-                f"{model.source}: {bad} of {total} Monte Carlo trials ({100 * share:.2g} %) "
+                f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) "
                 f"gave a non-finite model value (limit {100 * NONFINITE_LIMIT:g} %); the "
-                "input distributions reach outside the equations' domain")
+                "input distributions reach outside the equations' domain",
+                Location(file=model.source))
         warnings.append(f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) gave a "
                         "non-finite model value and were left out")
     if streamed is not None:
@@ -741,8 +762,9 @@ def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray | None, cove
     measurand = model.measurands[k]
     count = int(moments[0])
     if count < 2:
-        raise SimulationError(f"{model.source}: too few finite Monte Carlo values for "
-                              f"'{measurand.name}'")
+        raise SimulationError(f"expected at least 2 finite Monte Carlo values, found {count}",
+                              Location(file=model.source, table=f"measurands.{measurand.name}",
+                                       key="equation", line=measurand.line))
     mean = float(moments[1])
     sd = _spread(y, mean, float(moments[2]) / (moments[0] - 1))
     if streamed is not None:

@@ -388,7 +388,5 @@ def made_input(item: Made, in_set: bool) -> Any:
         distribution = dist.StudentT(item.estimate, u, item.dof)
     else:
         distribution = dist.Normal(item.estimate, u)
-    return Input(name=item.name, estimate=item.estimate, unit=item.unit,
-                 standard_uncertainty=float(distribution.standard_uncertainty),
-                 distribution=distribution, dof=item.dof, type=item.type, basis=item.basis,
-                 source=item.source)
+    return Input(name=item.name, unit=item.unit, distribution=distribution, dof=item.dof,
+                 type=item.type, basis=item.basis, source=item.source)

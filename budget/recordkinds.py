@@ -111,6 +111,7 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
         notes.extend(result.background.notes)
         views = _views(result.background, labels)
         notes.extend(_shared(made, result, parts, names))
+        _unstated_noise(made, name, data, result.background, units["y"])
     text = _corrections(name, data, here, made, source, f"({' '.join(inner)})")
     if result.rule_error != 0.0:
         made.inputs.append(Made(name=f"{name}_rule", estimate=result.rule_error, unit=unit,
@@ -157,6 +158,20 @@ def _shared(made: Generated, result: Charge, raw: Made, names: tuple[str, ...]
                       for k, n in enumerate(names))
     return [f"{result.shared} readings lie in both the integration and the background "
             f"window: {shown} (from the shared readings, GUM 5.2)"]
+
+
+def _unstated_noise(made: Generated, name: str, data: dict[str, Any], background: Derived,
+                    unit: str) -> None:
+    """Without ``current_u`` the integral counts its readings as exact: say so when the
+    background fit shows that they scatter."""
+    if "current_u" in data:
+        return
+    s = background.fits[0][1].residual_sd
+    if math.isfinite(s) and s > 0.0:
+        made.warnings.append(
+            f"[records.{name}]: no current_u, so the integrated readings are taken as "
+            f"exact, yet the readings of the background fit scatter by s = {s:.3g} {unit}; "
+            "state current_u (the standard uncertainty of each reading)")
 
 
 def _corrections(name: str, data: dict[str, Any], here: Where, made: Generated,

@@ -15,7 +15,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from .errors import InputError, SimulationError
+from .errors import InputError, Location, SimulationError
 
 __all__ = ["METHODS", "Reported", "reported", "gum_reported"]
 
@@ -62,19 +62,18 @@ def gum_reported(name: str, unit: str, estimate: float, u: float, k: float,
                     coverage_probability=coverage, coverage_factor=k)
 
 
-def reported(budget: Any, simulation: Any, method: str, where: str) -> Reported:
+def reported(budget: Any, simulation: Any, method: str, where: Location) -> Reported:
     """The reported result of one measurand (``budget``: MeasurandBudget, ``simulation``:
-    MeasurandSimulation or None); ``where`` names the file for the error message."""
+    MeasurandSimulation or None); ``where``: the file and key that chose ``method``."""
     if method not in METHODS:
-        raise InputError(f"{where}: reported_interval: expected one of {', '.join(METHODS)}, "
-                         f"found {method!r}")
+        raise InputError(f"expected one of {', '.join(METHODS)}, found {method!r}", where)
     if method == "gum":
         return gum_reported(budget.name, budget.unit, budget.estimate,
                             budget.combined_uncertainty, budget.coverage_factor,
                             budget.coverage_probability)
     if simulation is None:
-        raise SimulationError(f"{where}: reported_interval: expected Monte Carlo trials for "
-                              f"\"{method}\", found trials = 0")
+        raise SimulationError(f"expected Monte Carlo trials for \"{method}\", found "
+                              "trials = 0", where)
     interval = simulation.interval if method == "monte_carlo" else simulation.shortest_interval
     return Reported(name=budget.name, unit=budget.unit, method=method,
                     estimate=simulation.mean,

@@ -36,7 +36,6 @@ def scaled_distribution(distribution: Any, factor: float) -> Any:
 def scaled_input(item: Any, factor: float) -> Any:
     distribution = scaled_distribution(item.distribution, factor)
     return replace(item, distribution=distribution,
-                   standard_uncertainty=item.standard_uncertainty * factor,
                    basis=f"{item.basis} (uncertainty × {factor:g}, what-if)")
 
 
@@ -85,8 +84,7 @@ def input_with_value(item: Any, value: float) -> Any:
     if isinstance(item.distribution, dist.AtomicWeightSum):
         raise InputError("expected an input with its own estimate, found a formula whose "
                          "molar mass comes from the atomic weights", _where(item, "value"))
-    return replace(item, estimate=value, distribution=replace(item.distribution,
-                                                               estimate=value),
+    return replace(item, distribution=replace(item.distribution, estimate=value),
                    basis=f"{item.basis} (estimate {value:g}, what-if)")
 
 
@@ -103,6 +101,5 @@ def input_with_distribution(item: Any, distribution: Any) -> Any:
         raise InputError(f"expected a shape name or a budget.distributions object, found "
                          f"{distribution!r}", _where(item, "distribution"))
     dof = distribution.dof if isinstance(distribution, dist.StudentT) else item.dof
-    return replace(item, distribution=distribution, estimate=distribution.estimate,
-                   standard_uncertainty=distribution.standard_uncertainty, dof=dof,
+    return replace(item, distribution=distribution, dof=dof,
                    basis=f"{distribution.name} (what-if)")

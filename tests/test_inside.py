@@ -5,6 +5,7 @@ and no library message tells the user about a command-line flag (the command add
 from __future__ import annotations
 
 import ast
+import dataclasses
 import math
 import re
 
@@ -12,7 +13,22 @@ import pytest
 
 from budget import distributions as dist
 from budget.errors import BudgetError
+from budget.model import Input, parse_model
 from conftest import ROOT
+
+EVERY_CLASS = {
+    dist.Normal: lambda: dist.Normal(1.0, 0.2),
+    dist.Rectangular: lambda: dist.Rectangular(1.0, 0.3),
+    dist.Triangular: lambda: dist.Triangular(1.0, 0.3),
+    dist.Arcsine: lambda: dist.Arcsine(1.0, 0.3),
+    dist.Trapezoidal: lambda: dist.Trapezoidal(1.0, 0.3, 0.5),
+    dist.CurvilinearTrapezoid: lambda: dist.CurvilinearTrapezoid(1.0, 0.3, 0.05),
+    dist.StudentT: lambda: dist.StudentT(1.0, 0.2, 4.0),
+    dist.Exact: lambda: dist.Exact(1.0),
+    dist.CoveredByScatter: lambda: dist.CoveredByScatter(1.0, 0.01),
+    dist.AtomicWeightSum: lambda: dist.AtomicWeightSum((8.0, 2.0), (12.011, 1.008),
+                                                       (0.001, 0.0001)),
+}
 
 
 @pytest.mark.parametrize(("build", "message"), [
@@ -28,6 +44,14 @@ from conftest import ROOT
                                                     "inexactness ≥ 0 and finite, found -0.1"),
     (lambda: dist.StudentT(0, 1, 0), "StudentT: expected dof > 0, found 0"),
     (lambda: dist.Exact(math.inf), "Exact: expected a finite estimate, found inf"),
+    (lambda: dist.CoveredByScatter(1.0, -0.1), "CoveredByScatter: expected repeatability ≥ 0 "
+                                               "and finite, found -0.1"),
+    (lambda: dist.AtomicWeightSum((1.0,), (12.0,), (-0.1,)), "AtomicWeightSum: expected "
+                                                             "half_widths ≥ 0 and finite, "
+                                                             "found (-0.1,)"),
+    (lambda: dist.AtomicWeightSum((1.0, 2.0), (12.0,), (0.1,)), "AtomicWeightSum: expected as "
+                                                                "many counts, centres and "
+                                                                "half-widths, found 2, 1 and 1"),
 ])
 def test_distributions_refuse_impossible_parameters(build, message) -> None:
     with pytest.raises(BudgetError) as caught:
@@ -61,3 +85,60 @@ def test_library_messages_name_no_command_line_flag() -> None:
             if flag.search(text):
                 found.append(f"{path.name}:{line}: {text!r}")
     assert not found, "\n".join(found)
+
+
+def test_every_distribution_class_is_covered_here() -> None:
+    assert set(EVERY_CLASS) == {getattr(dist, name) for name in dist.__all__
+                                if name != "Distribution"}
+
+
+@pytest.mark.parametrize("kind", sorted(EVERY_CLASS, key=lambda k: k.__name__),
+                         ids=lambda k: k.__name__)
+def test_every_distribution_validates_in_its_constructor(kind) -> None:
+    made = EVERY_CLASS[kind]()
+    with pytest.raises(BudgetError):
+        dataclasses.replace(made, **{f.name: math.nan for f in dataclasses.fields(made)
+                                     if f.init and isinstance(getattr(made, f.name), float)})
+
+
+def test_the_standard_uncertainty_is_computed_once_when_built() -> None:
+    """u(x) of a shape is a stored value (the numeric path reads it for 10⁵ inputs), and a
+    changed copy (a what-if) derives it again: GUM 4.3.7 a/√3, 4.3.9 a/√6."""
+    flat = dist.Rectangular(1.0, 0.3)
+    assert "standard_uncertainty" in {f.name for f in dataclasses.fields(flat)}
+    assert flat.standard_uncertainty == 0.3 / math.sqrt(3.0)
+    wider = dataclasses.replace(flat, half_width=0.6)
+    assert wider.standard_uncertainty == 0.6 / math.sqrt(3.0)
+    assert dataclasses.replace(dist.Triangular(0.0, 0.6)).standard_uncertainty == \
+        0.6 / math.sqrt(6.0)
+    mass = EVERY_CLASS[dist.AtomicWeightSum]()
+    assert mass.estimate == pytest.approx(8 * 12.011 + 2 * 1.008, rel=1e-15)
+    assert repr(flat) == "Rectangular(estimate=1.0, half_width=0.3)"
+
+
+def test_an_input_holds_its_estimate_and_uncertainty_only_in_its_distribution() -> None:
+    names = {f.name for f in dataclasses.fields(Input)}
+    assert "estimate" not in names and "standard_uncertainty" not in names
+    item = Input(name="x", unit="g", distribution=dist.Rectangular(2.0, 0.3), dof=math.inf,
+                 type="B", basis="test")
+    assert (item.estimate, item.standard_uncertainty) == (2.0, 0.3 / math.sqrt(3.0))
+    with pytest.raises(BudgetError, match="expected degrees of freedom > 0 for input 'x', "
+                                          "found nan"):
+        Input(name="x", unit="g", distribution=dist.Normal(2.0, 0.3), dof=math.nan,
+              type="B", basis="test")
+    with pytest.raises(BudgetError, match="expected a budget.distributions object"):
+        Input(name="x", unit="g", distribution=2.0, dof=math.inf, type="B", basis="test")
+
+
+def test_what_ifs_change_the_distribution_and_the_input_follows() -> None:
+    model = parse_model('title = "t"\n[measurands.y]\nequation = "2 * x"\n[inputs.x]\n'
+                        'value = 1.0\nhalf_width = 0.3\ndistribution = "rectangular"\n',
+                        "m.toml")
+    moved = model.with_value("x", 5.0).input("x")
+    assert (moved.estimate, moved.distribution.estimate) == (5.0, 5.0)
+    halved = model.with_uncertainty("x", factor=0.5).input("x")
+    assert halved.distribution.half_width == 0.15
+    assert halved.standard_uncertainty == pytest.approx(0.15 / math.sqrt(3.0), rel=1e-15)
+    normal = model.with_distribution("x", "normal").input("x")
+    assert normal.distribution == dist.Normal(1.0, 0.3 / math.sqrt(3.0))
+    assert normal.standard_uncertainty == pytest.approx(0.3 / math.sqrt(3.0), rel=1e-15)

@@ -309,9 +309,9 @@ def test_correlated_input_without_an_inverse_is_refused():
     with pytest.raises(SimulationError) as caught:
         simulate(m, propagate(m), trials=1000)
     assert str(caught.value) == (
-        "test.toml: [[correlations]]: cannot draw correlated a (curvilinear_trapezoid); "
-        "correlate only inputs with a normal, rectangular, triangular, arcsine, trapezoidal "
-        "or student_t distribution")
+        "test.toml: [correlations] between: expected correlated inputs with a normal, "
+        "rectangular, triangular, arcsine, trapezoidal or student_t distribution (others "
+        "cannot be drawn correlated), found a (curvilinear_trapezoid)")
 
 
 def test_correlated_student_t_inputs_are_normals_over_independent_chi_roots():
