@@ -29,6 +29,7 @@ from .tomlkeys import check_keys
 from .limits import (LIMITS_PAGE, MAX_FILE_BYTES, check_digits, check_probability,
                      check_seed, check_strings, check_trials, shorten)
 from .expressions import Term, build, names_in, parse_expression
+from .gcpause import paused_collection
 from .register import (CertificateUse, Register, agreement_warnings, date_warnings,
                        load_register, read_date)
 from .statements import STATEMENT_WAYS, read_statement
@@ -281,6 +282,12 @@ def parse_model(data: bytes | str, name: str = "<string>", *, register: Path | N
     """Parse model text (or bytes); ``overrides`` replace ``[settings]`` values."""
     text = decode(data, name)
     raw = data if isinstance(data, bytes) else data.encode("utf-8")
+    with paused_collection():
+        return _parse_text(text, raw, name, register, overrides)
+
+
+def _parse_text(text: str, raw: bytes, name: str, register: Path | None,
+                overrides: dict[str, Any]) -> Model:
     document = read_toml(text, name)
     try:
         reader = _Reader(text, name, document)

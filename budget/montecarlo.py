@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import math
 import os
+import threading
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from typing import Any, Callable, cast
@@ -57,6 +58,7 @@ BLOCK = 1 << 16
 GENERATOR = "SFC64"
 _BLOCK_BYTES = 1 << 25
 _SLICE = 1 << 13  # evaluation works on slices that stay in the processor's cache
+_CHUNK = 1 << 15  # normal draws are scaled in chunks of rows of about 256 kB
 NONFINITE_LIMIT = 0.01
 # A fixed run keeps every value (8 bytes per trial and measurand) up to this many values;
 # longer runs (with p > ½) are streamed: moments, a histogram and exact tails (streaming.py)
@@ -253,39 +255,43 @@ class _Sampler:
                         for key, matrix in _group_matrices(model, self.groups).items()}
         self.sets = _set_slots(model)
         self.plan = _plan(model, self.groups)
+        self.local = threading.local()  # each thread's buffers for the normal inputs
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
-        values, normals = self.draw(index, size)
+        values = self.draw(index, size)
         out = np.empty((len(self.model.measurands), size)) if out is None else out
         for start in range(0, size, _SLICE):  # cache-sized slices of the drawn block
             stop = min(size, start + _SLICE)
-            part = [v if np.ndim(v) == 0 else v[start:stop] for v in values]
-            for slots, z, mean, sd in normals:  # scaled slice by slice, in cache
-                scaled = z[:, start:stop] * sd
-                scaled += mean
-                for row, slot in enumerate(slots):
-                    part[slot] = scaled[row]
+            part = values if size <= _SLICE else [
+                v[start:stop] if isinstance(v, np.ndarray) else v for v in values]
             for k, y in enumerate(self.program.evaluate(part)):
                 out[k, start:stop] = y
         return out
 
-    def draw(self, index: int, size: int) -> tuple[list[Any], list[Any]]:
-        """The inputs of block ``index``: values (arrays or fixed numbers) and the runs of
-        independent normal inputs as standard normals with their slots, means and sds.
+    def draw(self, index: int, size: int) -> list[Any]:
+        """The inputs of block ``index``: arrays, or numbers for exact inputs.
 
-        A run of k consecutive independent normal inputs is drawn in one call as k × size
-        numbers: the same stream as k calls of ``size`` each."""
+        A run of k consecutive independent normal inputs is drawn by rows into one
+        reused k × size buffer (the same stream as k calls of ``size`` each), each chunk
+        of rows scaled and shifted while it is in the cache."""
         rng = np.random.Generator(np.random.SFC64(
             np.random.SeedSequence(self.seed, spawn_key=(index,))))
         values: list[Any] = [None] * len(self.model.inputs)
-        normals: list[Any] = []
-        for kind, item in self.plan:
+        for number, (kind, item) in enumerate(self.plan):
             if kind == "fixed":
                 values[item] = self.model.inputs[item].estimate
             elif kind == "normal":
                 slots, mean, sd = item
-                normals.append((slots, rng.standard_normal((len(slots), size)), mean, sd))
+                z = self._buffer(number, len(slots), size)
+                rows = max(1, _CHUNK // size)
+                for first in range(0, len(slots), rows):
+                    chunk = z[first:first + rows]
+                    rng.standard_normal(out=chunk)
+                    chunk *= sd[first:first + rows]
+                    chunk += mean[first:first + rows]
+                for slot, row in zip(slots, z):
+                    values[slot] = row
             elif kind == "single":
                 values[item] = self.model.inputs[item].distribution.sample(rng, size)
             else:
@@ -293,7 +299,17 @@ class _Sampler:
                 for slot, column in zip(item, _correlated(self.model, item, factor, rng,
                                                           size, self.sets)):
                     values[slot] = column
-        return values, normals
+        return values
+
+    def _buffer(self, number: int, rows: int, size: int) -> np.ndarray:
+        """This thread's buffer for the run ``number`` of the plan (reused block after
+        block: the values of a block are dead once it is evaluated)."""
+        buffers: dict[int, np.ndarray] = getattr(self.local, "buffers", None) or {}
+        self.local.buffers = buffers
+        found = buffers.get(number)
+        if found is None or found.shape[1] != size:
+            found = buffers[number] = np.empty((rows, size))
+        return found
 
 
 def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:

@@ -322,8 +322,9 @@ def _fold(first: Callable[[Any, Any], Any], ufunc: np.ufunc, operands: list[Any]
     a new array after the first step, so the later steps write into it."""
     total = first(operands[0], operands[1])
     for term in operands[2:]:
-        if isinstance(total, np.ndarray) and total.ndim == 1 and total.dtype == np.float64 and (
-                np.ndim(term) == 0 or np.shape(term) == total.shape):
+        if type(total) is np.ndarray and total.dtype == np.float64 and total.ndim == 1 and (
+                isinstance(term, float)
+                or (type(term) is np.ndarray and term.shape == total.shape)):
             ufunc(total, term, out=total)
         else:
             total = first(total, term)

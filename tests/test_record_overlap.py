@@ -72,23 +72,32 @@ def _agrees(value, reference, standard_error):
     return abs(value - reference) <= 5.0 * standard_error
 
 
-def test_constant_background_in_the_integration_window_against_monte_carlo(tmp_path):
-    # the whole record is integrated and its second half is the background window: the
-    # shared readings make r(Q_int, Q_bg) ≈ √(n_bg/n) ≈ 0.71, and ignoring it would make
-    # u(Q_int − Q_bg) about √3 times too large
+@pytest.mark.parametrize("background", ["constant", "line"])
+def test_fitted_background_in_the_integration_window_against_monte_carlo(tmp_path,
+                                                                        background):
+    # the whole record is integrated and its second half is the background window (a
+    # constant: the mean, ν = n − 1; a line: numpy least squares, ν = n − 2, integrated
+    # over the window by hand). For the constant the shared readings make
+    # r(Q_int, Q_bg) ≈ √(n_bg/n) ≈ 0.71, and ignoring it would make u(Q_int − Q_bg) about
+    # √3 times too large
     t = np.arange(0.0, 100.5, 1.0)
-    truth = np.where(t < 40.0, 2.0, 0.0) + 0.05
+    truth = np.where(t < 40.0, 2.0, 0.0) + 0.05 + 2e-4 * t
     sigma, tail, trials = 0.01, t >= 50.0, 20_000
+    degree = {"constant": 0, "line": 1}[background]
+    design = np.vander(t[tail], degree + 1, increasing=True)
     rng = np.random.default_rng(11)
 
     def residual_sd(i):
-        return float(np.std(i[tail], ddof=1))
+        residual = i[tail] - design @ np.linalg.lstsq(design, i[tail], rcond=None)[0]
+        return float(np.sqrt(residual @ residual / (tail.sum() - degree - 1)))
 
     record = _scaled_to(sigma, residual_sd, truth, rng.normal(0.0, sigma, t.size))
-    model, u = _budget(tmp_path, t, record, "constant", (50, 100), sigma, "Q_int - Q_bg")
+    model, u = _budget(tmp_path, t, record, background, (50, 100), sigma, "Q_int - Q_bg")
     noisy = truth + rng.normal(0.0, sigma, (trials, t.size))
     q_int = trapezoid(noisy, t, axis=1)
-    q_bg = noisy[:, tail].mean(axis=1) * (t[-1] - t[0])
+    coefficients = np.linalg.lstsq(design, noisy[:, tail].T, rcond=None)[0]
+    integrals = np.array([100.0, 100.0 ** 2 / 2])[:degree + 1]  # ∫ t^k dt over 0–100 s
+    q_bg = integrals @ coefficients
     r_mc = float(np.corrcoef(q_int, q_bg)[0, 1])
     r = _r(model, "Q_int", "Q_bg")
     assert _agrees(r, r_mc, (1 - r_mc ** 2) / math.sqrt(trials)), (r, r_mc)
@@ -98,7 +107,7 @@ def test_constant_background_in_the_integration_window_against_monte_carlo(tmp_p
     u_int, u_bg = (model.input(n).standard_uncertainty for n in ("Q_int", "Q_bg"))
     assert not _agrees(math.hypot(u_int, u_bg), u_mc, se)  # independence would fail
     assert [s.inputs for s in model.estimated_together] == [("Q_int", "Q_bg")]
-    assert model.estimated_together[0].dof == tail.sum() - 1  # the fit's ν
+    assert model.estimated_together[0].dof == tail.sum() - degree - 1  # the fit's ν
 
 
 def _decay(x, amplitude, tau, offset):
