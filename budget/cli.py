@@ -136,7 +136,8 @@ def _out(text: str, *, data: bool = False) -> None:
     if data and text.isascii():
         # JSON text is ASCII with every control character escaped but DEL (which only
         # a string can hold): written as it is, tens of megabytes at once
-        sys.stdout.write(text.replace("\x7f", "\\u007f") + "\n")
+        sys.stdout.write(text.replace("\x7f", "\\u007f") if "\x7f" in text else text)
+        sys.stdout.write("\n")
         sys.stdout.flush()
         return
     from .console import for_stream
@@ -321,10 +322,12 @@ def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | N
 def _print_result(result: Any, as_json: bool) -> None:
     if as_json:
         from .document import result_document
+        from .gcpause import paused_collection
         from .jsontext import json_text
 
-        _out(json_text(result_document(result)),
-             data=True)
+        with paused_collection():
+            text = json_text(result_document(result, columns=True))
+        _out(text, data=True)
     else:
         from .table import render
 

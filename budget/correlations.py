@@ -16,7 +16,7 @@ import numpy as np
 from .errors import InputError, Location, did_you_mean
 from .tomlkeys import check_keys
 
-__all__ = ["read", "matrix"]
+__all__ = ["read", "matrix", "indexed_pairs"]
 
 _KEYS = ("between", "r", "matrix")
 _PAIR_KEYS = ("between", "r")
@@ -35,18 +35,18 @@ def read(entries: Any, names: Sequence[str],
     seen: set[int] = set()
     known = _Names(names)
     size = len(names)
-    firsts: list[int] = []
-    seconds: list[int] = []
+    columns: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
     for index, entry in enumerate(entries):
         here: Callable[..., Location] = \
             lambda key=None, i=index: where("correlations", key, i)  # noqa: E731
         block = isinstance(entry, dict) and (
             "matrix" in entry or (isinstance(entry.get("between"), list)
                                   and len(entry["between"]) > 2))
-        made = _block(entry, known, here, index) if block else [_one(entry, known, here, index)]
-        first = [known.index_of[a] for a, _, _ in made]
-        second = [known.index_of[b] for _, b, _ in made]
-        keys = [min(i, j) * size + max(i, j) for i, j in zip(first, second)]
+        made, first, second, r = (_block(entry, known, here, index) if block
+                                  else _single(_one(entry, known, here, index), known))
+        keys = (np.minimum(first, second) * size + np.maximum(first, second)).tolist() \
+            if block else [min(int(first[0]), int(second[0])) * size
+                           + max(int(first[0]), int(second[0]))]
         if not seen.isdisjoint(keys):
             again = next(k for k, key in enumerate(keys) if key in seen)
             a, b, _ = made[again]
@@ -54,12 +54,46 @@ def read(entries: Any, names: Sequence[str],
                              f"correlation {index + 1}", here("between"))
         seen.update(keys)
         pairs.extend(made)
-        firsts.extend(first)
-        seconds.extend(second)
-    if pairs:
-        _check_definite(names, pairs, np.array(firsts, dtype=np.intp),
-                        np.array(seconds, dtype=np.intp), where("correlations"))
-    return tuple(pairs)
+        columns.append((first, second, r))
+    if not pairs:
+        return ()
+    first, second, r = (np.concatenate(c) for c in zip(*columns))
+    _check_definite(names, pairs, first, second, r, where("correlations"))
+    made_pairs = tuple(pairs)
+    remember(made_pairs, names, (first, second, r))
+    return made_pairs
+
+
+_Indexed = tuple[np.ndarray, np.ndarray, np.ndarray]
+_KNOWN: dict[int, tuple[tuple[tuple[str, str, float], ...], tuple[str, ...], _Indexed]] = {}
+
+
+def remember(pairs: tuple[tuple[str, str, float], ...], names: Sequence[str],
+             indexed: _Indexed) -> None:
+    """Keep the index arrays of ``pairs`` (over ``names``) for :func:`indexed_pairs`."""
+    while len(_KNOWN) >= 8:
+        del _KNOWN[next(iter(_KNOWN))]
+    _KNOWN[id(pairs)] = (pairs, tuple(names), indexed)
+
+
+def indexed_pairs(pairs: tuple[tuple[str, str, float], ...],
+                  names: Sequence[str]) -> _Indexed:
+    """First and second input index and r of each pair: those found while reading, if
+    these are the same pairs over the same names, else looked up."""
+    known = _KNOWN.get(id(pairs))
+    if known is not None and known[0] is pairs and known[1] == tuple(names):
+        return known[2]
+    index = {name: k for k, name in enumerate(names)}
+    count = len(pairs)
+    return (np.fromiter((index[a] for a, _, _ in pairs), dtype=np.intp, count=count),
+            np.fromiter((index[b] for _, b, _ in pairs), dtype=np.intp, count=count),
+            np.fromiter((r for _, _, r in pairs), dtype=float, count=count))
+
+
+def _single(pair: tuple[str, str, float], known: "_Names"
+            ) -> tuple[list[tuple[str, str, float]], np.ndarray, np.ndarray, np.ndarray]:
+    return ([pair], np.array([known.index_of[pair[0]]], dtype=np.intp),
+            np.array([known.index_of[pair[1]]], dtype=np.intp), np.array([pair[2]]))
 
 
 class _Names(list[str]):
@@ -102,8 +136,9 @@ def _one(entry: Any, names: Sequence[str], here: Callable[..., Location],
     return between[0], between[1], float(r)
 
 
-def _block(entry: dict[str, Any], names: Sequence[str], here: Callable[..., Location],
-           index: int) -> list[tuple[str, str, float]]:
+def _block(entry: dict[str, Any], names: "_Names", here: Callable[..., Location],
+           index: int) -> tuple[list[tuple[str, str, float]], np.ndarray, np.ndarray,
+                                np.ndarray]:
     """A block of inputs estimated with one correlation matrix: ``between`` n names and
     either ``r`` (every pair) or ``matrix`` (n × n, symmetric, unit diagonal)."""
     check_keys(entry, _KEYS, here, within=f"in correlation {index + 1}")
@@ -128,8 +163,11 @@ def _block(entry: dict[str, Any], names: Sequence[str], here: Callable[..., Loca
     rows, columns = np.triu_indices(len(between), 1)
     upper = values[rows, columns]
     keep = upper != 0.0
-    return [(between[i], between[j], r) for i, j, r in
-            zip(rows[keep].tolist(), columns[keep].tolist(), upper[keep].tolist())]
+    rows, columns, upper = rows[keep], columns[keep], upper[keep]
+    at = np.array([names.index_of[name] for name in between], dtype=np.intp)
+    pairs = [(between[i], between[j], r) for i, j, r in
+             zip(rows.tolist(), columns.tolist(), upper.tolist())]
+    return pairs, at[rows], at[columns], upper
 
 
 def _block_matrix(entry: dict[str, Any], n: int, here: Callable[..., Location],
@@ -176,14 +214,14 @@ def matrix(names: Sequence[str], pairs: Sequence[tuple[str, str, float]]) -> np.
 
 
 def _check_definite(names: Sequence[str], pairs: Sequence[tuple[str, str, float]],
-                    first: np.ndarray, second: np.ndarray, where: Location) -> None:
+                    first: np.ndarray, second: np.ndarray, r: np.ndarray,
+                    where: Location) -> None:
     """The matrix of the inputs that take part in a pair (rows in the order of
     ``names``) factored once; on failure, the pairs along the offending eigen-direction."""
     involved = np.unique(np.concatenate([first, second]))  # sorted: the order of names
     position = np.empty(len(names), dtype=np.intp)
     position[involved] = np.arange(involved.size)
     sub = np.eye(involved.size)
-    r = np.fromiter((p[2] for p in pairs), dtype=float, count=len(pairs))
     sub[position[first], position[second]] = r
     sub[position[second], position[first]] = r
     try:  # positive definite (the usual case): one Cholesky factorization says so

@@ -31,7 +31,10 @@ def dof_or_null(dof: float) -> float | None:
     return None if math.isinf(dof) else float(dof)
 
 
-def result_document(result: Result) -> dict[str, Any]:
+def result_document(result: Result, *, columns: bool = False) -> dict[str, Any]:
+    """The JSON result document (``columns``: the correlation terms as a
+    :class:`~budget.jsontext.Columns` for :func:`~budget.jsontext.json_text`, not a
+    list of objects; the text is the same)."""
     from . import provenance
 
     model = result.model
@@ -47,7 +50,8 @@ def result_document(result: Result) -> dict[str, Any]:
         "coverage": result.budget.measurands[0].coverage_probability,
         "seed": seed,
         "measurands": [
-            {**measurand_document(b, simulation.measurands[k] if simulation else None),
+            {**measurand_document(b, simulation.measurands[k] if simulation else None,
+                                  columns=columns),
              "reported": reported_document(result.reported_for(b.name))}
             for k, b in enumerate(result.budget.measurands)],
         "reported_interval": (result.reported[0].method if result.reported else "gum"),
@@ -108,8 +112,8 @@ def _convention(result: Result) -> str | None:
     return result.model.settings.atomic_weights if used else None
 
 
-def measurand_document(budget: MeasurandBudget, simulation: MeasurandSimulation | None
-               ) -> dict[str, Any]:
+def measurand_document(budget: MeasurandBudget, simulation: MeasurandSimulation | None,
+                       *, columns: bool = False) -> dict[str, Any]:
     document: dict[str, Any] = {
         "name": budget.name,
         "unit": budget.unit,
@@ -120,7 +124,8 @@ def measurand_document(budget: MeasurandBudget, simulation: MeasurandSimulation 
         "U": budget.expanded_uncertainty,
         "interval": list(budget.interval),
         "contributions": [_contribution(c) for c in budget.contributions],
-        "correlation_terms": _correlation_rows(budget.correlation_terms),
+        "correlation_terms": (_correlation_columns(budget.correlation_terms) if columns
+                              else _correlation_rows(budget.correlation_terms)),
         "dof_rule": budget.dof_rule,
         "u_first_order": budget.first_order_uncertainty,
         "second_order_variance": budget.second_order_variance,
@@ -141,6 +146,20 @@ def _correlation_rows(terms: Any) -> list[dict[str, Any]]:
             for a, b, r, v, s in zip(terms.first.tolist(), terms.second.tolist(),
                                      terms.r.tolist(), terms.variance.tolist(),
                                      terms.share.tolist())]
+
+
+def _correlation_columns(terms: Any) -> Any:
+    """The correlation terms as columns: the same JSON text without an object per pair."""
+    from .jsontext import Columns
+
+    if not isinstance(terms, CorrelationTerms):
+        return _correlation_rows(terms)
+    names = terms.names
+    pairs = list(zip([names[a] for a in terms.first.tolist()],
+                     [names[b] for b in terms.second.tolist()]))
+    return Columns(keys=("inputs", "r", "variance", "share"),
+                   columns=(pairs, terms.r.tolist(), terms.variance.tolist(),
+                            terms.share.tolist()))
 
 
 def _contribution(c: Any) -> dict[str, Any]:

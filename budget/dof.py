@@ -57,12 +57,9 @@ Indexed = tuple[np.ndarray, np.ndarray, np.ndarray]
 
 def pair_indices(model: Any) -> Indexed:
     """``model.correlations`` as arrays: first and second input index, r."""
-    index = {item.name: k for k, item in enumerate(model.inputs)}
-    pairs = model.correlations
-    count = len(pairs)
-    return (np.fromiter((index[a] for a, _, _ in pairs), dtype=np.intp, count=count),
-            np.fromiter((index[b] for _, b, _ in pairs), dtype=np.intp, count=count),
-            np.fromiter((r for _, _, r in pairs), dtype=float, count=count))
+    from .correlations import indexed_pairs
+
+    return indexed_pairs(model.correlations, [item.name for item in model.inputs])
 
 
 def grouping(model: Any, indexed: Indexed | None = None) -> Grouping:

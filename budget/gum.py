@@ -234,6 +234,13 @@ def welch_satterthwaite(combined: float, components: np.ndarray, dofs: np.ndarra
 def propagate(model: Model, coverage: float | None = None, *,
               second_order: bool = False) -> Budget:
     """The GUM budget of every measurand of ``model``."""
+    from .gcpause import paused_collection
+
+    with paused_collection():
+        return _propagate(model, coverage, second_order)
+
+
+def _propagate(model: Model, coverage: float | None, second_order: bool) -> Budget:
     from .evaluation import jacobian_at_estimates
 
     where = Location(file=model.source, table="settings" if coverage is None else None,

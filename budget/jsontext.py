@@ -15,12 +15,23 @@ texts on every shipped model and on hostile values.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from json.encoder import encode_basestring_ascii
 from typing import Any
 
-__all__ = ["json_text"]
+__all__ = ["json_text", "Columns"]
 
 _INDENT = "  "
+_CHUNK = 65_536  # rows formatted at a time, so that their texts never all exist at once
+
+
+@dataclass(frozen=True)
+class Columns:
+    """A list of rows given as columns (``columns[k][i]`` is row i's value of
+    ``keys[k]``): written as the list of objects it stands for, without making them."""
+
+    keys: tuple[str, ...]
+    columns: tuple[list[Any], ...]
 
 
 def json_text(document: Any) -> str:
@@ -71,6 +82,11 @@ def _value(value: Any, level: int, out: list[str]) -> None:
         out.append(text)
     elif isinstance(value, dict):
         _object(value, level, out)
+    elif isinstance(value, Columns):
+        if not value.columns or not value.columns[0]:
+            out.append("[]")
+        elif not _write_columns(value.keys, list(value.columns), level, out):
+            raise TypeError("Columns of values that are not numbers, strings or lists")
     elif isinstance(value, (list, tuple)):
         if not value:
             out.append("[]")
@@ -106,15 +122,28 @@ def _rows(rows: list[Any] | tuple[Any, ...], level: int, out: list[str]) -> bool
     keys = tuple(first)
     if not all(type(row) is dict and tuple(row) == keys for row in rows):  # same order
         return False
-    columns = [[row[key] for row in rows] for key in keys]
-    texts = [_column(column, level + 2) for column in columns]
-    if any(text is None for text in texts):
-        return False
+    return _write_columns(keys, [[row[key] for row in rows] for key in keys], level, out)
+
+
+def _write_columns(keys: tuple[Any, ...], columns: list[list[Any]], level: int,
+                   out: list[str]) -> bool:
+    """Rows of scalars (or lists of them) from their columns, a chunk at a time."""
     template = "{" + ",".join(_pad(level + 2) + _key(key).replace("%", "%%") + ": %s"
                               for key in keys) + _pad(level + 1) + "}"
     inner = _pad(level + 1)
-    out.append("[" + inner + ("," + inner).join([template % row for row in zip(*texts)])
-               + _pad(level) + "]")
+    written: list[str] = []
+    for start in range(0, len(columns[0]), _CHUNK):
+        texts = []
+        for column in columns:
+            text = _column(column[start:start + _CHUNK], level + 2)
+            if text is None:
+                return False
+            texts.append(text)
+        written.append(("," + inner).join([template % row for row in zip(*texts)]))
+    out.append("[" + inner)
+    for k, part in enumerate(written):
+        out.append("," + inner + part if k else part)
+    out.append(_pad(level) + "]")
     return True
 
 

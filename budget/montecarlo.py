@@ -546,6 +546,8 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     while a fixed run has at most ``KEEP_LIMIT`` values, longer runs are streamed."""
     settings = model.settings
     seed = settings.seed if seed is None else seed
+    coverage_at = Location(file=model.source, table="settings" if coverage is None else None,
+                           key="coverage")
     coverage = settings.coverage_probability if coverage is None else coverage
     digits = settings.digits if digits is None else digits
     workers = workers or min(2, os.cpu_count() or 1)
@@ -556,7 +558,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
         trials = 0 if settings.trials == "adaptive" else int(settings.trials)
     check_trials(trials, trials_at)
     if adaptive:
-        check_adaptive(coverage)
+        check_adaptive(coverage, coverage_at)
     sampler = _Sampler(model, seed)
     if adaptive:
         samples, warnings, moments, kept = _adaptive(sampler, coverage, digits, workers,
@@ -707,7 +709,7 @@ def _spread(y: np.ndarray | None, mean: float, variance: float) -> float:
     return scale * float(np.std((finite - mean) / scale, ddof=1))
 
 
-def check_adaptive(coverage: float) -> None:
+def check_adaptive(coverage: float, where: Location | None = None) -> None:
     """Refuse a coverage whose adaptive batches (≥ 100/(1 − p) trials) pass the cap."""
     batch = math.ceil(100.0 / (1.0 - coverage))
     if 2 * batch > ADAPTIVE_LIMIT:
@@ -715,7 +717,7 @@ def check_adaptive(coverage: float) -> None:
             f"expected a coverage probability whose adaptive batches fit the limit of "
             f"{ADAPTIVE_LIMIT:,} trials (p below {1 - 200 / ADAPTIVE_LIMIT:.7g}; JCGM 101 "
             f"7.9 asks for batches of 100/(1 - p) = {batch:,} trials here), found {coverage:g}"
-            "; give a fixed number of trials instead")
+            "; give a fixed number of trials instead", where)
 
 
 def _batch_stats(chunk: np.ndarray, coverage: float, done: np.ndarray | None = None,

@@ -26,7 +26,7 @@ from .audit_view import audit_view
 from .certificate_page import certificate_page
 from .equations_view import model_view, sensitivity_view
 from .svg import bar_chart, histogram
-from .table import contribution_cells, result_statement
+from .cells import contribution_cells, result_statement
 from .typeset import equation_mathml, name_html, name_text
 from .unit_display import display_unit, unit_ratio
 

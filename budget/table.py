@@ -7,6 +7,7 @@ import textwrap
 from typing import Any
 
 from .analysis import Result
+from .cells import SHORT_DISTRIBUTION, contribution_cells, result_statement
 from .formatting import (format_dof, format_number, format_pair, format_percent,
                          format_statistic)
 from .gum import MeasurandBudget
@@ -18,12 +19,6 @@ __all__ = ["render", "render_certification", "result_statement", "contribution_c
            "SHORT_DISTRIBUTION"]
 
 WIDTH = 100
-SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
-                      "triangular": "triangular", "arcsine": "arcsine",
-                      "trapezoidal": "trapezoidal", "curvilinear_trapezoid": "curv. trap.",
-                      "student_t": "t", "exact": "exact",
-                      "covered_by_scatter": "in the scatter",
-                      "rectangular (atomic weights)": "atomic wts"}
 _HEAD = ("input", "estimate", "unit", "u(x)", "distribution", "type", "ν", "c",
          "|c|·u(x)", "share %")
 
@@ -76,20 +71,6 @@ _CELLS = ("input", "estimate", "unit", "u", "distribution", "type", "dof", "sens
           "contribution", "share")
 
 
-def contribution_cells(c: Any, digits: int) -> dict[str, str]:
-    """One budget row as display strings (GUM 7.2.6); the table and the report share it."""
-    estimate, u = (format_pair(c.estimate, c.standard_uncertainty, digits)
-                   if c.standard_uncertainty > 0 else (f"{c.estimate:.10g}", "0"))
-    if c.distribution == "covered_by_scatter":  # never "exact": its term is s/√n of the runs
-        u = "in s/√n"
-    return {"input": c.input, "estimate": estimate, "unit": c.unit, "u": u,
-            "distribution": SHORT_DISTRIBUTION.get(c.distribution, c.distribution),
-            "type": c.type, "dof": format_dof(c.dof),
-            "sensitivity": format_number(c.sensitivity, 4),
-            "contribution": format_number(c.contribution, digits),
-            "share": format_percent(c.share)}
-
-
 def _rows(b: MeasurandBudget, digits: int) -> list[str]:
     rows = [list(_HEAD)]
     for c in b.contributions:
@@ -125,12 +106,6 @@ def _bar(share: float, width: int) -> str:
     cells = max(0.0, min(100.0, share)) / 100.0 * width
     full = int(cells)
     return "█" * full + ("▌" if cells - full >= 0.5 else "")
-
-
-def result_statement(b: MeasurandBudget, digits: int, unit: str | None = None) -> str:
-    value, expanded = format_pair(b.estimate, b.expanded_uncertainty, digits)
-    return (f"{b.name} = ({value} ± {expanded}) {unit or b.unit}, k = {b.coverage_factor:.2f}, "
-            f"coverage probability {100 * b.coverage_probability:g} %")
 
 
 def _summary(b: MeasurandBudget, digits: int) -> list[str]:

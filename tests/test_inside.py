@@ -142,3 +142,35 @@ def test_what_ifs_change_the_distribution_and_the_input_follows() -> None:
     normal = model.with_distribution("x", "normal").input("x")
     assert normal.distribution == dist.Normal(1.0, 0.3 / math.sqrt(3.0))
     assert normal.standard_uncertainty == pytest.approx(0.3 / math.sqrt(3.0), rel=1e-15)
+
+
+def _imports(path) -> set[str]:
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    return {node.module or "" for node in ast.walk(tree) if isinstance(node, ast.ImportFrom)}
+
+
+@pytest.mark.parametrize("name", ["report.py", "certification_view.py", "audit_view.py",
+                                  "methods_output.py", "studies_output.py", "batch_view.py",
+                                  "notebook.py", "certificate_page.py", "equations_view.py",
+                                  "difference_view.py"])
+def test_html_views_take_their_cells_from_the_shared_module_not_the_terminal(name) -> None:
+    """The terminal table (table.py) and the report share budget/cells.py; no HTML view
+    imports the terminal module."""
+    assert "table" not in _imports(ROOT / "budget" / name)
+
+
+def test_the_report_uses_the_shared_cells() -> None:
+    assert "cells" in _imports(ROOT / "budget" / "report.py")
+    assert "cells" in _imports(ROOT / "budget" / "table.py")
+
+
+def test_explain_analysis_and_rendering_are_split() -> None:
+    """explanation.py computes; explanation_view.py writes the text and the JSON document
+    (explanation.py reaches it only lazily, for the notebook's summary() and to_dict())."""
+    analysis = ast.parse((ROOT / "budget" / "explanation.py").read_text(encoding="utf-8"))
+    top = {node.module for node in analysis.body if isinstance(node, ast.ImportFrom)}
+    assert not top & {"explanation_view", "table", "report", "console"}
+    view = _imports(ROOT / "budget" / "explanation_view.py")
+    assert "explanation" in view
+    functions = {node.name for node in analysis.body if isinstance(node, ast.FunctionDef)}
+    assert not {f for f in functions if f.startswith(("render", "format"))}

@@ -19,6 +19,7 @@ from hypothesis import strategies as st
 
 from budget.analysis import evaluate
 from budget.document import json_safe, result_document
+from budget import jsontext
 from budget.jsontext import json_text
 from budget.model import load_model, parse_model
 
@@ -37,15 +38,20 @@ def test_shipped_models_are_written_as_the_standard_library_writes_them(path: st
     assert json_text(document) == _reference(document)
 
 
-def test_a_correlated_block_is_written_as_the_standard_library_writes_it() -> None:
+def test_a_correlated_block_is_written_as_the_standard_library_writes_it(
+        monkeypatch: pytest.MonkeyPatch) -> None:
     names = ", ".join(f'"x_{i}"' for i in range(12))
     text = ('title = "block"\n[measurands.y]\nequation = "'
             + " + ".join(f"{i + 1} * x_{i}" for i in range(12)) + '"\n'
             + "".join(f"[inputs.x_{i}]\nvalue = {i}.5\nu = 0.{i + 1}\n" for i in range(12))
             + f"[[correlations]]\nbetween = [{names}]\nr = 0.3\n")
-    document = result_document(evaluate(parse_model(text), trials=0))
+    result = evaluate(parse_model(text), trials=0)
+    document = result_document(result)
     assert len(document["measurands"][0]["correlation_terms"]) == 66
     assert json_text(document) == _reference(document)
+    # the command line's form: correlation terms as columns, written in chunks
+    monkeypatch.setattr(jsontext, "_CHUNK", 5)
+    assert json_text(result_document(result, columns=True)) == _reference(document)
 
 
 HOSTILE: dict[str, Any] = {

@@ -164,7 +164,8 @@ def test_adaptive_batches_beyond_the_cap_are_refused() -> None:
     with pytest.raises(SimulationError) as caught:
         evaluate(model, adaptive=True, coverage=0.999999)
     assert str(caught.value).startswith(
-        "expected a coverage probability whose adaptive batches fit the limit of 20,000,000 "
+        "<string>: coverage: expected a coverage probability whose adaptive batches fit the "
+        "limit of 20,000,000 "
         "trials (p below 0.99999; JCGM 101 7.9 asks for batches of 100/(1 - p) = "
         "100,000,000 trials here), found 0.999999")
 

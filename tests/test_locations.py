@@ -103,6 +103,16 @@ def test_monte_carlo_errors_name_the_file_and_the_key() -> None:
     assert caught.value.location == Location(file="d.toml")
 
 
+def test_an_adaptive_coverage_beyond_the_limit_names_the_setting() -> None:
+    from budget.montecarlo import simulate
+
+    model = parse_model(PAIR.format(r=0.0) + "[settings]\ncoverage = 0.99999999\n", "m.toml")
+    with pytest.raises(BudgetError) as caught:
+        simulate(model, adaptive=True)
+    assert str(caught.value).startswith("m.toml: [settings] coverage: expected a coverage "
+                                        "probability whose adaptive batches fit the limit")
+
+
 def test_no_engine_message_spells_its_file_by_hand() -> None:
     """A place is a Location (so the CLI, the JSON and the tests see it), never a
     ``f"{model.source}: …"`` prefix written into the message."""
