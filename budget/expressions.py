@@ -76,15 +76,50 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
         raise ModelSyntaxError(f"expected an expression nested at most {MAX_NESTING} deep "
                                f"(limits: {LIMITS_PAGE}), found deeper nesting", where
                                ) from exc
-    _check_depth(tree.body, where)
-    nodes = list(ast.walk(tree))
+    nodes, deepest = _walk(tree)
+    if deepest > MAX_NESTING:
+        raise ModelSyntaxError(f"expected an expression nested at most {MAX_NESTING} "
+                               f"deep (brackets, powers, function calls and signs; "
+                               f"limits: {LIMITS_PAGE}), found deeper nesting", where)
     for node in nodes:  # constructs first, so that '(lambda: x)()' is named a lambda
         if type(node) in _FORBIDDEN:
             raise ModelSyntaxError(f"expected arithmetic only, found {_FORBIDDEN[type(node)]}"
                                    f" in '{text.strip()}'", where)
     for node in nodes:
-        _check_node(node, text, where)
+        if type(node) not in _PLAIN_NODES:
+            _check_node(node, text, where)
+    setattr(tree, _NAMES, _names(nodes))
     return tree
+
+
+_NAMES = "_budget_names"  # the names used as quantities, found while checking the tree
+_PLAIN_NODES = frozenset({ast.Load, ast.Add, ast.Sub, ast.Mult, ast.Div, ast.Pow, ast.USub,
+                          ast.UAdd})  # nothing for _check_node to refuse
+
+
+def _walk(tree: ast.Expression) -> tuple[list[ast.AST], int]:
+    """Every node below ``tree`` in the order of ``ast.walk`` (breadth first) and the
+    deepest nesting (the body at 1; a left operand continuing a sum or product chain at
+    its parent's depth, every other child one deeper), without recursion."""
+    nodes: list[ast.AST] = [tree.body]
+    depths = [1]
+    k = 0
+    while k < len(nodes):
+        node, depth = nodes[k], depths[k]
+        k += 1
+        kind = type(node)
+        if kind is ast.BinOp:
+            left = node.left  # type: ignore[attr-defined]
+            nodes += (left, node.op, node.right)  # type: ignore[attr-defined]
+            depths += (depth if _same_chain(node, left) else depth + 1, depth + 1, depth + 1)
+        elif kind is ast.Name:
+            nodes.append(node.ctx)  # type: ignore[attr-defined]
+            depths.append(depth + 1)
+        elif kind is not ast.Constant:
+            children = list(ast.iter_child_nodes(node))
+            nodes += children
+            depths += [depth + 1] * len(children)
+    return nodes, max(depths)
 
 
 # Characters the grammar knows: these give their own message (a comparison, a string…);
@@ -120,21 +155,6 @@ def _same_chain(parent: ast.AST, child: ast.AST) -> bool:
     """A left operand continuing a sum or product chain adds no nesting level."""
     return (isinstance(parent, ast.BinOp) and isinstance(child, ast.BinOp)
             and any(isinstance(parent.op, c) and isinstance(child.op, c) for c in _CHAINS))
-
-
-def _check_depth(root: ast.AST, where: Location) -> None:
-    """Refuse nesting deeper than MAX_NESTING, walking without recursion."""
-    stack: list[tuple[ast.AST, int]] = [(root, 1)]
-    while stack:
-        node, depth = stack.pop()
-        if depth > MAX_NESTING:
-            raise ModelSyntaxError(f"expected an expression nested at most {MAX_NESTING} "
-                                   f"deep (brackets, powers, function calls and signs; "
-                                   f"limits: {LIMITS_PAGE}), found deeper nesting", where)
-        for child in ast.iter_child_nodes(node):
-            step = 0 if isinstance(node, ast.BinOp) and child is node.left \
-                and _same_chain(node, child) else 1
-            stack.append((child, depth + step))
 
 
 def _check_node(node: ast.AST, text: str, where: Location) -> None:
@@ -185,9 +205,14 @@ def _op_text(op: ast.AST) -> str:
 
 def names_in(tree: ast.AST) -> list[str]:
     """Names used as quantities (not function names), in order of first appearance."""
+    found = getattr(tree, _NAMES, None)
+    return list(found) if found is not None else _names(list(ast.walk(tree)))
+
+
+def _names(nodes: list[ast.AST]) -> list[str]:
     called: set[int] = set()
     names: list[ast.Name] = []
-    for node in ast.walk(tree):  # one walk: it is run on every definition
+    for node in nodes:
         if isinstance(node, ast.Call):
             called.add(id(node.func))
         elif isinstance(node, ast.Name):

@@ -97,6 +97,11 @@ class Unit:
     def __format__(self, spec: str) -> str:
         return self.text
 
+    def __hash__(self) -> int:
+        # by the text alone (equal units have equal texts): hashing the exponents would
+        # hash Fractions in Python on every cached product of a 10⁴-term model
+        return hash(self.text)
+
 
 DIMENSIONLESS = Unit((), Fraction(1), "1")
 

@@ -232,3 +232,44 @@ def test_groups_of_correlated_inputs_are_the_connected_components(seed):
     a = np.array([x for x, _ in edges], dtype=np.intp)
     b = np.array([y for _, y in edges], dtype=np.intp)
     assert _components(n, a, b).tolist() == _union_find(n, edges)
+
+
+def _reference_depth(root: ast.AST) -> int:
+    """The nesting depth as the reader counted it before it walked a tree once."""
+    deepest, stack = 0, [(root, 1)]
+    while stack:
+        node, depth = stack.pop()
+        deepest = max(deepest, depth)
+        for child in ast.iter_child_nodes(node):
+            same = (isinstance(node, ast.BinOp) and child is node.left
+                    and isinstance(child, ast.BinOp)
+                    and any(isinstance(node.op, c) and isinstance(child.op, c)
+                            for c in ((ast.Add, ast.Sub), (ast.Mult, ast.Div))))
+            stack.append((child, depth + (0 if same else 1)))
+    return deepest
+
+
+@pytest.mark.parametrize("text", [
+    "a", "2.5", "-a", "a + b - c * d / e ** f", "sqrt(a * (b + c)) - -(d)",
+    "((((a))))", "a * (b + (c * (d - e)))", "air_density(t, p, h, x) / f(a)",
+    "a ** b ** c", "-(-(-(-a)))", "log(exp(sin(cos(a + 1))))", "x[0] + y.z",
+    "(lambda: x)()", "a < b", "+a * -b"])
+def test_one_walk_finds_the_nodes_and_depth_of_the_standard_walk(text):
+    from budget.expressions import _walk
+
+    tree = ast.parse(text, mode="eval")
+    nodes, deepest = _walk(tree)
+    assert nodes == list(ast.walk(tree))[1:]
+    assert deepest == _reference_depth(tree.body)
+
+
+def test_the_compiled_toml_parser_reads_every_shipped_model_as_the_standard_one():
+    import tomllib
+
+    tomli = pytest.importorskip("tomli")
+    root = Path(__file__).resolve().parent.parent / "models"
+    texts = [path.read_text(encoding="utf-8") for path in sorted(root.rglob("*.toml"))]
+    texts.append(defined_mean(50))
+    assert len(texts) > 10
+    for text in texts:
+        assert tomli.loads(text) == tomllib.loads(text)
