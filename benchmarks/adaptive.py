@@ -1,8 +1,9 @@
 """The adaptive procedure (JCGM 101 7.9) against a fixed run of the trials it needed
 (issue 18, item 7), side by side in one process: the EURACHEM A2 model at --digits 3.
 
-Prints the trials the adaptive run took, both times (min and median of the rounds) and
-the median of the per-round ratios adaptive / fixed. Run:
+Prints the trials the adaptive run took, both times, wall and CPU (all threads; min and
+median of the rounds), the median of the per-round ratios adaptive / fixed and the load
+average. Run:
 
     python benchmarks/adaptive.py [rounds] [digits]
 """
@@ -35,20 +36,27 @@ def main() -> None:
     simulate(model, budget, trials=100_000, seed=1)  # warm up
     print(f"machine: {platform.platform()}, {os.cpu_count()} cores; load average {load()}")
     adaptive, fixed, trials = [], [], 0
+    adaptive_cpu, fixed_cpu = [], []
     for _ in range(rounds):
-        start = time.perf_counter()
+        start, cpu = time.perf_counter(), time.process_time()
         result = simulate(model, budget, adaptive=True, digits=digits, seed=1)
         adaptive.append(time.perf_counter() - start)
+        adaptive_cpu.append(time.process_time() - cpu)
         trials = result.trials
-        start = time.perf_counter()
+        start, cpu = time.perf_counter(), time.process_time()
         simulate(model, budget, trials=trials, digits=digits, seed=1)
         fixed.append(time.perf_counter() - start)
+        fixed_cpu.append(time.process_time() - cpu)
     ratios = [a / f for a, f in zip(adaptive, fixed)]
+    cpu_ratios = [a / f for a, f in zip(adaptive_cpu, fixed_cpu)]
     print(f"EURACHEM A2, --adaptive --digits {digits}: {trials:,} trials")
-    print(f"  adaptive: min {min(adaptive):.2f} s, median {statistics.median(adaptive):.2f} s")
-    print(f"  fixed run of the same trials: min {min(fixed):.2f} s, median "
-          f"{statistics.median(fixed):.2f} s")
-    print(f"  adaptive / fixed: median of per-round ratios {statistics.median(ratios):.2f}")
+    for name, wall, cpu in (("adaptive", adaptive, adaptive_cpu),
+                            ("fixed run of the same trials", fixed, fixed_cpu)):
+        print(f"  {name}: wall min {min(wall):.2f} s, median {statistics.median(wall):.2f} s; "
+              f"CPU min {min(cpu):.2f} s, median {statistics.median(cpu):.2f} s")
+    print(f"  adaptive / fixed: median of per-round ratios, wall "
+          f"{statistics.median(ratios):.2f}, CPU {statistics.median(cpu_ratios):.2f}")
+    print(f"load average after: {load()}")
 
 
 if __name__ == "__main__":

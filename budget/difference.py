@@ -76,7 +76,7 @@ class InputChange:
     after: Term | None
     share_before: float  # percent of u_c² (A)
     share_after: float  # percent of u_c² (B)
-    delta: float  # change of the variance term
+    variance_change: float  # change of the variance term
     from_uncertainty: float  # c_B²(u_B² − u_A²)
     from_sensitivity: float  # u_A²(c_B² − c_A²)
 
@@ -87,13 +87,13 @@ class MeasurandChange:
     unit: str
     before: MeasurandSide
     after: MeasurandSide
-    inputs: tuple[InputChange, ...]  # largest |delta| first
-    correlation_delta: float
-    higher_order_delta: float
+    inputs: tuple[InputChange, ...]  # largest |variance_change| first
+    correlation_change: float
+    higher_order_change: float
     correlation_what: tuple[str, ...] = ()  # coefficients added, removed or changed
 
     @property
-    def variance_delta(self) -> float:
+    def variance_change(self) -> float:
         """u_c²(B) − u_c²(A)."""
         a, b = self.before.combined_uncertainty, self.after.combined_uncertainty
         return b * b - a * a
@@ -141,7 +141,7 @@ class Difference:
         from .notebook import table_html
 
         rows = [[m.name, c.input, c.status, format_percent(c.share_before),
-                 format_percent(c.share_after), f"{c.delta:+.3g}", "; ".join(c.what)]
+                 format_percent(c.share_after), f"{c.variance_change:+.3g}", "; ".join(c.what)]
                 for m in self.measurands for c in m.inputs]
         return table_html(f"{self.before.label} → {self.after.label}",
                           ["measurand", "input", "status", "share before / %",
@@ -149,12 +149,13 @@ class Difference:
                           notes=list(self.notes))
 
     def to_frame(self) -> Any:
-        """One row per measurand and input (``share_before``, ``share_after``, ``delta`` …)."""
+        """One row per measurand and input (``share_before``, ``share_after``,
+        ``variance_change`` …: the JSON names)."""
         from .notebook import frame
 
         rows = [{"measurand": m.name, "input": c.input, "status": c.status,
                  "share_before": c.share_before, "share_after": c.share_after,
-                 "delta": c.delta, "from_uncertainty": c.from_uncertainty,
+                 "variance_change": c.variance_change, "from_uncertainty": c.from_uncertainty,
                  "from_sensitivity": c.from_sensitivity, "what": "; ".join(c.what)}
                 for m in self.measurands for c in m.inputs]
         return frame(rows, ["measurand", "input"], {
@@ -284,10 +285,10 @@ def _measurand_change(a: MeasurandSide, b: MeasurandSide) -> MeasurandChange:
     u_a, u_b = a.combined_uncertainty, b.combined_uncertainty
     var_a, var_b = u_a * u_a, u_b * u_b
     inputs = [_input_change(n, terms_a.get(n), terms_b.get(n), var_a, var_b) for n in names]
-    inputs.sort(key=lambda c: -abs(c.delta))
+    inputs.sort(key=lambda c: -abs(c.variance_change))
     return MeasurandChange(name=a.name, unit=a.unit, before=a, after=b, inputs=tuple(inputs),
-                           correlation_delta=b.correlation_variance - a.correlation_variance,
-                           higher_order_delta=b.higher_order_variance
+                           correlation_change=b.correlation_variance - a.correlation_variance,
+                           higher_order_change=b.higher_order_variance
                            - a.higher_order_variance,
                            correlation_what=_correlations_changed(a, b))
 
@@ -332,7 +333,7 @@ def _input_change(name: str, a: Term | None, b: Term | None, var_a: float,
             from_u, from_c = c2b * (u2b - u2a), u2a * (c2b - c2a)
     return InputChange(input=name, status=status, what=what, before=a, after=b,
                        share_before=_share(before, var_a), share_after=_share(after, var_b),
-                       delta=after - before, from_uncertainty=from_u,
+                       variance_change=after - before, from_uncertainty=from_u,
                        from_sensitivity=from_c)
 
 

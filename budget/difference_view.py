@@ -34,13 +34,13 @@ def headline(m: MeasurandChange, digits: int) -> str:
 
 def causes(m: MeasurandChange, most: int = 5) -> list[str]:
     """The largest causes of the change of u_c², each with its part of the change."""
-    total = m.variance_delta
-    rows = [(c.delta, _cause(c)) for c in m.inputs if c.delta != 0.0]
-    if m.correlation_delta:
+    total = m.variance_change
+    rows = [(c.variance_change, _cause(c)) for c in m.inputs if c.variance_change != 0.0]
+    if m.correlation_change:
         what = f" ({'; '.join(m.correlation_what)})" if m.correlation_what else ""
-        rows.append((m.correlation_delta, "correlation terms" + what))
-    if m.higher_order_delta:
-        rows.append((m.higher_order_delta, "higher-order terms"))
+        rows.append((m.correlation_change, "correlation terms" + what))
+    if m.higher_order_change:
+        rows.append((m.higher_order_change, "higher-order terms"))
     rows.sort(key=lambda r: -abs(r[0]))
     lines = []
     for delta, text in rows[:most]:
@@ -62,10 +62,10 @@ def render_difference(diff: Difference, digits: int = 2) -> str:
     lines = [f"A: {diff.before.label}", f"B: {diff.after.label}", ""]
     for m in diff.measurands:
         lines.append(headline(m, digits))
-        if m.variance_delta == 0.0:
+        if m.variance_change == 0.0:
             lines.append("  u_c² is unchanged.")
         else:
-            lines.append(f"  u_c² changed by {m.variance_delta:+.3g} {m.unit}²; the "
+            lines.append(f"  u_c² changed by {m.variance_change:+.3g} {m.unit}²; the "
                          "largest causes:")
             lines += ["    " + line for line in causes(m)]
         if not math.isclose(m.before.coverage_factor, m.after.coverage_factor, rel_tol=1e-4):
@@ -92,7 +92,7 @@ def _table(m: MeasurandChange) -> list[str]:
     lines = [f"Inputs of {m.name}, largest change first", head, "-" * len(head)]
     for c in m.inputs:
         lines.append(f"{c.input[:14]:<14} {c.status:<9} {format_percent(c.share_before):>9} "
-                     f"{format_percent(c.share_after):>9} {c.delta:>+16.3g}  "
+                     f"{format_percent(c.share_after):>9} {c.variance_change:>+16.3g}  "
                      + "; ".join(c.what))
     lines.append("")
     return lines
@@ -120,18 +120,18 @@ def difference_document(diff: Difference) -> dict[str, Any]:
         return {
             "name": m.name, "unit": m.unit,
             "before": _side_totals(a), "after": _side_totals(b),
-            "variance_change": m.variance_delta,
+            "variance_change": m.variance_change,
             "U_change_from_u": m.expanded_change_from_uncertainty,
             "U_change_from_k": m.expanded_change_from_coverage_factor,
-            "correlation_change": m.correlation_delta,
-            "higher_order_change": m.higher_order_delta,
+            "correlation_change": m.correlation_change,
+            "higher_order_change": m.higher_order_change,
             "correlations_changed": list(m.correlation_what),
             "causes": causes(m, most=len(m.inputs) + 2),
             "inputs": [{"input": c.input, "status": c.status, "what": list(c.what),
                         "share_before": c.share_before, "share_after": c.share_after,
                         "variance_before": c.before.variance if c.before else 0.0,
                         "variance_after": c.after.variance if c.after else 0.0,
-                        "variance_change": c.delta,
+                        "variance_change": c.variance_change,
                         "from_uncertainty": c.from_uncertainty,
                         "from_sensitivity": c.from_sensitivity} for c in m.inputs]}
 

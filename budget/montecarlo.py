@@ -20,7 +20,10 @@ Method:
 * 7.9: the adaptive procedure, batches of at least two blocks (≥ max(J, 10⁴) trials,
   drawn on both workers) until twice the standard deviation of the batch means, standard
   deviations and interval ends is within the numerical tolerance δ; the statistics run
-  batch by batch (no pass over all values so far at each step).
+  batch by batch (no pass over all values so far at each step; a batch's interval ends
+  are selected among its values beyond the cut points), and the workers draw the next
+  blocks while a batch is checked.
+* Runs longer than ``KEEP_LIMIT`` values keep no array of all values (streaming.py).
 * 8.2: validation of the GUM result: d_low = |y − U_p − y_low|, d_high = |y + U_p −
   y_high|, validated when both are ≤ δ.
 
@@ -33,9 +36,10 @@ from __future__ import annotations
 import math
 import os
 import threading
-from concurrent.futures import ThreadPoolExecutor
+from collections import deque
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field
-from typing import Any, Callable, cast
+from typing import Any, Callable, Generator, cast
 
 import numpy as np
 
@@ -226,7 +230,9 @@ def _from_tails(tails: list[Any], m: int, p: float) -> tuple[Any, ...] | None:
     high = np.concatenate([block[1] for block in tails])
     if low.size < tail or high.size < tail:
         return None
-    return _pick(np.sort(low)[:tail], np.sort(high)[high.size - tail:], m, p)
+    with ThreadPoolExecutor(max_workers=2) as pool:  # np.sort lets the other thread run
+        low_sorted, high_sorted = pool.map(np.sort, (low, high))
+    return _pick(low_sorted[:tail], high_sorted[high.size - tail:], m, p)
 
 
 def _intervals(values: np.ndarray, p: float) -> tuple[tuple[float, float],
@@ -609,38 +615,70 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
     workers. Running statistics: each batch leaves its moments, its four results (mean,
     sd, interval ends) and its tail values beyond the first batch's cut points, so a
     convergence check costs one batch, never all the values so far, and the final
-    intervals sort the tails only; the batches are joined once, at the end."""
+    intervals sort the tails only. The workers draw the next blocks while a batch is
+    checked (blocks depend on their index only, so drawing ahead changes nothing), into
+    one array reserved for the cap whose pages are touched only as they are written."""
     j = math.ceil(100.0 / (1.0 - coverage))
     # at least two blocks per batch, so that both workers draw (the same on any number
     # of cores: the batch size never depends on the workers)
     per_batch = max(2, -(-max(j, 10_000) // sampler.size))
     size = per_batch * sampler.size
-    n_out = len(sampler.model.measurands)
-    batches: list[np.ndarray] = []
+    most = max(1, ADAPTIVE_LIMIT // size)  # batches: the last one keeps (h + 2)·M ≤ cap
+    samples = np.empty((len(sampler.model.measurands), most * size))
     stats: list[np.ndarray] = []  # per batch: (n_out, 4) mean, sd, low, high
     moments: np.ndarray | None = None  # (n_out, 3): count, mean, M2 of all batches
     tails: _Tails | None = None
     kept: list[Any] = []
-    while True:
-        h = len(batches)
-        chunk = np.empty((n_out, size))
-        ticker = (lambda n, total=size * (h + 1): progress(n, total)) if progress else None
-        done, found = _run_blocks(sampler, h * per_batch, per_batch, (h + 1) * size, chunk,
-                                  ticker, workers, tails)
-        if h == 0 and coverage > 0.5 and np.isfinite(chunk).all():
-            tails = _Tails(chunk, coverage)
-            found = [tails.collect(chunk)]
-        kept.extend(found)
-        moments = done if moments is None else _combine([moments, done])
-        batches.append(chunk)
-        stats.append(_batch_stats(chunk, coverage))
-        stop = h >= 1 and _converged(moments, np.array(stats), digits)
-        if stop or (h + 2) * size > ADAPTIVE_LIMIT:
-            warnings = [] if stop else [
-                f"adaptive Monte Carlo stopped at {(h + 1) * size} trials before its "
-                f"numerical tolerance was reached (limit {ADAPTIVE_LIMIT})"]
-            return (np.concatenate(batches, axis=1), warnings, moments,
-                    kept if tails is not None else [])
+    blocks = _ahead(sampler, samples, most * per_batch, workers)
+    try:
+        for h in range(most):
+            chunk = samples[:, h * size:(h + 1) * size]
+            done = _combine([next(blocks) for _ in range(per_batch)])
+            if progress:
+                progress(size, (h + 1) * size)  # trials done since the last call
+            if h == 0 and coverage > 0.5 and np.isfinite(chunk).all():
+                tails = _Tails(chunk, coverage)
+            pieces = tails.collect(chunk) if tails is not None else None
+            if pieces is not None:
+                kept.append(pieces)
+            moments = done if moments is None else _combine([moments, done])
+            stats.append(_batch_stats(chunk, coverage, done, pieces))
+            if h >= 1 and _converged(moments, np.array(stats), digits):
+                return samples[:, :(h + 1) * size], [], moments, kept
+    finally:
+        blocks.close()
+    assert moments is not None
+    return (samples, [f"adaptive Monte Carlo stopped at {most * size} trials before its "
+                      f"numerical tolerance was reached (limit {ADAPTIVE_LIMIT})"],
+            moments, kept)
+
+
+def _ahead(sampler: _Sampler, samples: np.ndarray, count: int, workers: int
+           ) -> Generator[np.ndarray, None, None]:
+    """The moments of blocks 0, 1, … (each drawn into its place in ``samples``), in
+    order, with up to two blocks per worker drawn ahead; closing it stops the drawing."""
+    block = sampler.size
+
+    def work(b: int) -> np.ndarray:
+        view = samples[:, b * block:(b + 1) * block]
+        sampler.block(b, block, view)
+        return _block_moments(view)
+
+    if workers <= 1:
+        yield from map(work, range(count))
+        return
+    with ThreadPoolExecutor(max_workers=workers) as pool:
+        pending: deque[Future[np.ndarray]] = deque()
+        try:
+            for b in range(count):
+                pending.append(pool.submit(work, b))
+                while len(pending) > 2 * workers:
+                    yield pending.popleft().result()
+            while pending:
+                yield pending.popleft().result()
+        finally:
+            for future in pending:
+                future.cancel()
 
 
 def _unresolved(estimate: float, u: float, delta: float,
@@ -682,7 +720,17 @@ def check_adaptive(coverage: float, where: Location | None = None) -> None:
             "; give a fixed number of trials instead", where)
 
 
-def _batch_stats(chunk: np.ndarray, coverage: float) -> np.ndarray:
+def _batch_stats(chunk: np.ndarray, coverage: float, done: np.ndarray | None = None,
+                 pieces: list[tuple[np.ndarray, np.ndarray]] | None = None) -> np.ndarray:
+    """Per measurand: mean, standard deviation and interval ends of one batch. With the
+    batch's moments (``done``) and its values beyond the cut points (``pieces``) of an
+    all-finite batch, the ends are selected among those few values (the same order
+    statistics: every value beyond a cut is there)."""
+    if done is not None and pieces is not None and np.all(done[:, 0] == chunk.shape[1]):
+        found = [_batch_ends(low, high, chunk.shape[1], coverage) for low, high in pieces]
+        if all(f is not None for f in found):
+            sd = np.sqrt(done[:, 2] / (done[:, 0] - 1))
+            return np.column_stack([done[:, 1], sd, np.array(found, dtype=float)])
     rows = []
     for y in chunk:
         finite = y[np.isfinite(y)]
@@ -692,6 +740,18 @@ def _batch_stats(chunk: np.ndarray, coverage: float) -> np.ndarray:
         low, high = coverage_interval(finite.copy(), coverage)
         rows.append([finite.mean(), finite.std(ddof=1), low, high])
     return np.array(rows)
+
+
+def _batch_ends(low: np.ndarray, high: np.ndarray, m: int, p: float
+               ) -> tuple[float, float] | None:
+    """The JCGM 101 7.7.2 interval of m values from the values at or below the low cut
+    and at or above the high cut, or None when one side holds too few."""
+    lo, hi = _indices(m, p)
+    above = m - 1 - hi  # values above the upper end
+    if lo >= low.size or above >= high.size:
+        return None
+    upper = high.size - 1 - above
+    return (float(np.partition(low, lo)[lo]), float(np.partition(high, upper)[upper]))
 
 
 def _converged(moments: np.ndarray, stats: np.ndarray, digits: int) -> bool:

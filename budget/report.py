@@ -320,11 +320,11 @@ def render_difference_report(difference: Any, digits: int = 2) -> str:
             f"and by {m.expanded_change_from_coverage_factor:+.3g} "
             f"{m.unit} through the coverage factor k.")
         return {"name": m.name, "unit": m.unit, "headline": headline(m, digits),
-                "causes": causes(m) if m.variance_delta else [], "through_k": through_k,
+                "causes": causes(m) if m.variance_change else [], "through_k": through_k,
                 "inputs": [{"input": c.input, "status": c.status,
                             "share_before": format_percent(c.share_before),
                             "share_after": format_percent(c.share_after),
-                            "delta": f"{c.delta:+.3g}", "what": "; ".join(c.what)}
+                            "delta": f"{c.variance_change:+.3g}", "what": "; ".join(c.what)}
                            for c in m.inputs]}
 
     view = {"title": f"{difference.before.title or difference.before.label} → "

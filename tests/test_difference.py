@@ -63,17 +63,17 @@ def test_the_decomposition_adds_up_to_the_change_of_uc2(pair):
     u2b = 0.01 ** 2 + (2 * 0.04) ** 2 + 0.03 ** 2 / 3
     assert y.before.combined_uncertainty ** 2 == pytest.approx(u2a, rel=1e-12)
     assert y.after.combined_uncertainty ** 2 == pytest.approx(u2b, rel=1e-12)
-    assert math.fsum(c.delta for c in y.inputs) + y.correlation_delta + \
-        y.higher_order_delta == pytest.approx(u2b - u2a, rel=1e-12)
+    assert math.fsum(c.variance_change for c in y.inputs) + y.correlation_change + \
+        y.higher_order_change == pytest.approx(u2b - u2a, rel=1e-12)
     by_name = {c.input: c for c in y.inputs}
-    assert by_name["b"].delta == pytest.approx(4 * (0.04 ** 2 - 0.02 ** 2), rel=1e-12)
-    assert by_name["b"].from_uncertainty == pytest.approx(by_name["b"].delta, rel=1e-12)
+    assert by_name["b"].variance_change == pytest.approx(4 * (0.04 ** 2 - 0.02 ** 2), rel=1e-12)
+    assert by_name["b"].from_uncertainty == pytest.approx(by_name["b"].variance_change, rel=1e-12)
     assert by_name["b"].from_sensitivity == 0.0
     assert by_name["b"].what == ("u 0.02 → 0.04 g (× 2)",)
     assert by_name["a"].what == ("value 1 → 1.1 g",)
-    assert by_name["a"].delta == 0.0
+    assert by_name["a"].variance_change == 0.0
     assert by_name["c"].status == "removed" and by_name["d"].status == "added"
-    assert by_name["c"].delta == pytest.approx(-0.03 ** 2 / 3, rel=1e-12)
+    assert by_name["c"].variance_change == pytest.approx(-0.03 ** 2 / 3, rel=1e-12)
     assert y.inputs[0].input == "b"  # the largest change first
 
 
@@ -95,7 +95,7 @@ def test_a_saved_result_compares_like_its_model(pair, cli, tmp_path):
     saved.write_text(stdout)
     diff = compare(load_side(saved), load_side(pair[0]))
     (y,) = diff.measurands
-    assert y.variance_delta == 0.0
+    assert y.variance_change == 0.0
     assert all(c.status == "unchanged" for c in y.inputs)
     assert "both come from the same model file (same SHA-256)" in diff.notes
 
@@ -132,7 +132,7 @@ def test_measurands_in_another_unit_are_converted(pair, tmp_path):
     other.write_text(A.replace('unit = "g"\n\n[inputs.a]', 'unit = "mg"\n\n[inputs.a]'))
     diff = compare(load_side(pair[0]), load_side(other))
     (y,) = diff.measurands
-    assert y.variance_delta == pytest.approx(0.0, abs=1e-15)
+    assert y.variance_change == pytest.approx(0.0, abs=1e-15)
     assert y.after.unit == "g"
 
 

@@ -275,7 +275,7 @@ def test_a_comparison_shows_itself_too(tmp_path: Any) -> None:
     assert diff.summary() and diff.to_dict()["measurands"]
     _check_html(diff._repr_html_())
     frame = diff.to_frame()
-    assert {"share_before", "share_after", "delta"} <= set(frame.columns)
+    assert {"share_before", "share_after", "variance_change"} <= set(frame.columns)
     with pytest.raises(KeyError, match="did you mean 'c_NaOH'"):
         diff.measurand("c_NaOh")
     assert before.input("V_T").standard_uncertainty == 0.013

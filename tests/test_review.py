@@ -184,8 +184,8 @@ def test_compare_names_a_changed_correlation_coefficient(tmp_path):
     (tmp_path / "b.toml").write_text(TWO.format(u_b=0.5, r=0.2), encoding="utf-8")
     diff = compare(load_side(tmp_path / "a.toml"), load_side(tmp_path / "b.toml"))
     s = diff.measurands[0]
-    assert math.isclose(s.correlation_delta, 0.06 - 0.12, rel_tol=1e-9)
-    assert math.isclose(s.variance_delta, (0.09 + 0.25 + 0.06) - (0.09 + 0.16 + 0.12),
+    assert math.isclose(s.correlation_change, 0.06 - 0.12, rel_tol=1e-9)
+    assert math.isclose(s.variance_change, (0.09 + 0.25 + 0.06) - (0.09 + 0.16 + 0.12),
                         rel_tol=1e-9)
     assert "correlation terms (r(a,b) 0.5 → 0.2)" in causes(s)[1]
     document = difference_document(diff)

@@ -155,3 +155,33 @@ def test_report_histogram_from_a_streamed_run(monkeypatch):
                     gum_interval=g.interval, interval=s.interval,
                     shortest=s.shortest_interval, unit="", label="streamed")
     assert svg.count("<rect") > 30  # the bars, not the "values do not spread" note
+
+
+def test_adaptive_same_on_any_number_of_workers():
+    """The adaptive procedure draws ahead on its workers; batches and results depend on
+    the seed only (JCGM 101 7.9 batches of whole blocks)."""
+    m = model(_TWO)
+    b = propagate(m)
+    one = simulate(m, b, adaptive=True, digits=1, seed=4, workers=1)
+    two = simulate(m, b, adaptive=True, digits=1, seed=4, workers=2)
+    assert one.trials == two.trials and one.adaptive
+    for x, y in zip(one.measurands, two.measurands):
+        assert (x.mean, x.standard_uncertainty, x.interval, x.shortest_interval) == (
+            y.mean, y.standard_uncertainty, y.interval, y.shortest_interval)
+        assert np.array_equal(x.samples, y.samples)
+
+
+def test_batch_interval_ends_from_the_tails_equal_a_full_selection():
+    """A batch's interval ends selected among its values beyond the cut points are the
+    JCGM 101 7.7.2 ends of the whole batch (exact); mean and sd from its moments."""
+    rng = np.random.default_rng(8)
+    chunk = np.vstack([rng.standard_normal(131_072), rng.lognormal(0.0, 0.5, 131_072)])
+    tails = montecarlo._Tails(chunk[:, :65_536], 0.95)
+    pieces = tails.collect(chunk)
+    done = montecarlo._block_moments(chunk)
+    fast = montecarlo._batch_stats(chunk, 0.95, done, pieces)
+    slow = montecarlo._batch_stats(chunk, 0.95)
+    assert np.array_equal(fast[:, 2:], slow[:, 2:])
+    assert np.allclose(fast[:, :2], slow[:, :2], rtol=1e-12, atol=0)
+    for k, y in enumerate(chunk):
+        assert tuple(fast[k, 2:]) == _full_sort(y, 0.95)[0]
