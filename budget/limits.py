@@ -184,6 +184,8 @@ def check_strings(document: dict[str, Any],
 
 def _refuse(text: str, allowed: str, where: Callable[[str | None, str | None], Location],
             path: str, key: str) -> None:
+    if _UNSAFE.search(text) is None:  # the usual case, in one scan
+        return
     position = control_character(text, allowed)
     if position is None:
         return

@@ -766,11 +766,13 @@ class LineIndex:
         return None
 
     def _key(self, key: str, start: int, end: int) -> int | None:
-        if end - start > 64:  # a long table: index its keys once
-            found = self._keys(start, end).get(key)
-            return None if found is None else found + 1
+        found = self._keys(start, end).get(key)  # each table's keys indexed once
+        if found is not None:
+            return found + 1
+        if end - start > 64:
+            return None
         pattern = re.compile(r"\s*[\"']?" + re.escape(key) + r"[\"']?\s*=")
-        for number in range(start, end):
+        for number in range(start, end):  # a key the index does not know ("a"b" = …)
             if pattern.match(self.lines[number]):
                 return number + 1
         return None

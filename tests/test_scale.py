@@ -76,6 +76,7 @@ def test_monte_carlo_of_a_3000_input_sum_matches_the_root_sum_of_squares():
     "-a + " + " - ".join(f"x{i}" for i in range(450)),
     "(\n" + " + ".join(f"x{i}*y{i}" for i in range(450)) + "\n) * ü",
     "sqrt(" + " + ".join(f"x{i} ** 2" for i in range(450)) + ")",
+    "ä1 * é + " + " + ".join(f"x{i} * é" for i in range(450)),  # byte columns ≠ characters
 ])
 def test_long_texts_parse_to_the_tree_python_builds(text):
     # Python's own parser still manages 450 terms: the split parse must equal it,
