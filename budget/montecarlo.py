@@ -307,6 +307,10 @@ class _Sampler:
                     values[slot] = column
         return values
 
+    def release(self) -> None:
+        """Drop this thread's buffers (the first block runs alone, before the workers)."""
+        self.local.buffers = {}
+
     def _buffer(self, number: int, rows: int, size: int) -> np.ndarray:
         """This thread's buffer for the run ``number`` of the plan (reused block after
         block: the values of a block are dead once it is evaluated)."""
@@ -597,6 +601,7 @@ def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
     if blocks < 4 or coverage <= 0.5:
         return _run_blocks(sampler, 0, blocks, trials, samples, ticker, workers)
     first, _ = _run_blocks(sampler, 0, 1, trials, samples, ticker, 1)
+    sampler.release()
     head = samples[:, :sampler.size]
     if not np.isfinite(head).all():
         rest, _ = _run_blocks(sampler, 1, blocks - 1, trials, samples[:, sampler.size:],
