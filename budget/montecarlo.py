@@ -323,8 +323,10 @@ class _Sampler:
 
 
 def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:
-    """How each group of inputs is drawn, in group order (the order of the stream):
-    consecutive independent normal inputs joined into runs drawn by one call."""
+    """How the inputs of a block are drawn, in the order of its stream: the groups
+    (correlated inputs, other distributions) in model order, then every independent
+    normal input in model order as one run drawn by rows into one buffer (so a model
+    that mixes normal and other inputs still draws its normals in a few calls)."""
     plan: list[tuple[str, Any]] = []
     run: list[int] = []
 
@@ -338,15 +340,12 @@ def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:
 
     for group in groups:
         item = model.inputs[group[0]]
-        if len(group) == 1 and item.standard_uncertainty > 0 and isinstance(
-                item.distribution, Normal):
+        if len(group) == 1 and item.standard_uncertainty == 0:
+            plan.append(("fixed", group[0]))  # draws nothing: the run goes on
+        elif len(group) == 1 and isinstance(item.distribution, Normal):
             run.append(group[0])
-            continue
-        close()
-        if len(group) > 1:
-            plan.append(("group", group))
         else:
-            plan.append(("fixed" if item.standard_uncertainty == 0 else "single", group[0]))
+            plan.append(("group", group) if len(group) > 1 else ("single", group[0]))
     close()
     return plan
 
