@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 
 from .datafiles import FORMAT_KEYS, FileFormat, parse_declared_format
-from .errors import BudgetError, CampaignError, Location, did_you_mean
+from .errors import BudgetError, CampaignError, Location, close_match, did_you_mean
 from .tomlkeys import check_keys
 from .limits import (LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, as_float,
                      check_probability, check_strings, shorten)
@@ -31,7 +31,7 @@ _TOP = ("title", "material", "unit", "description", "producer", "characterizatio
         "register")
 _SECTIONS = {
     "characterization": ("model", "measurand", "runs", "scatter_covers", "label",
-                         "estimate_factor", *FORMAT_KEYS),
+                         "estimate_factor", "label_columns", *FORMAT_KEYS),
     "homogeneity": ("data", "value_unit", *FORMAT_KEYS),
     "stability": ("data", "shelf_life", "u_short_term", "value_unit", "time_unit",
                   "time_origin", *FORMAT_KEYS,
@@ -265,12 +265,23 @@ def _format(r: _Reader, data: dict[str, Any], table: str) -> FileFormat:
 def _runs(r: _Reader, char: dict[str, Any], model: Model) -> Runs:
     path = r.file(char, "runs", "characterization")
     return read_runs_file(r, path, _format(r, char, "characterization"), model,
-                          "characterization")
+                          "characterization", declared=label_columns(r, char, "characterization"))
+
+
+def label_columns(r: _Reader, data: dict[str, Any], table: str, nth: int = 0
+                  ) -> tuple[str, ...]:
+    """The ``label_columns`` key: run columns declared labels though named like an input."""
+    found = data.get("label_columns", [])
+    if not isinstance(found, list) or not all(isinstance(c, str) for c in found):
+        raise r.fail(f"expected a list of column names, found {found!r}", table,
+                     "label_columns", nth)
+    return tuple(found)
 
 
 def read_runs_file(r: _Reader, path: Path, fmt: FileFormat, model: Model, table: str,
-                   nth: int = 0) -> Runs:
-    """A runs table whose input columns are converted into the model inputs' units."""
+                   nth: int = 0, declared: tuple[str, ...] = ()) -> Runs:
+    """A runs table whose input columns are converted into the model inputs' units; a
+    label column named like an input or definition, or nearly so, is refused."""
     from .studydata import read_runs
 
     runs = read_runs(path, fmt, model, str(path))
@@ -284,11 +295,32 @@ def read_runs_file(r: _Reader, path: Path, fmt: FileFormat, model: Model, table:
                          f"'{path.name}', found '{name}', which the model defines "
                          f"({name} = {defined[name]}): a run cannot set it, give the "
                          "columns of its inputs", table, "runs", nth)
+    _near_misses(r, path, runs, model, declared, (table, nth))
     for name in runs.names:
         if model.input(name).molar_mass is not None:
             raise r.fail(f"expected run columns for measured inputs, found '{name}', which "
                          "a formula gives", table, "runs", nth)
     return runs
+
+
+def _near_misses(r: _Reader, path: Path, runs: Runs, model: Model,
+                 declared: tuple[str, ...], where: tuple[str, int]) -> None:
+    """Refuse a label column whose name nearly names an input or definition (a typo would
+    otherwise leave the model's estimate in force for every run)."""
+    table, nth = where
+    for name in declared:
+        if name not in dict(runs.labels):
+            raise r.fail(f"expected a column of '{path.name}', found '{name}'"
+                         f"{did_you_mean(name, dict(runs.labels))}", table, "label_columns",
+                         nth)
+    names = [i.name for i in model.inputs] + [d.name for d in model.definitions]
+    for name, _ in runs.labels:
+        close = None if name in declared else close_match(name, names)
+        if close is not None:
+            raise r.fail(f"expected the columns of '{path.name}' to name inputs of the "
+                         f"model or labels, found column '{name}', a near miss of '{close}' "
+                         f"(did you mean '{close}'? a label so named must be listed in "
+                         "label_columns)", table, "runs", nth)
 
 
 def _run_warnings(r: _Reader, char: dict[str, Any], model: Model, runs: Runs) -> list[str]:

@@ -205,6 +205,8 @@ def certification_document(cert: Any) -> dict[str, Any]:
             "runs": list(char.runs), "mean": char.mean, "s": char.s, "n": char.n,
             "u_B": char.model_uncertainty, "u": char.standard_uncertainty,
             "labels": list(char.labels),
+            "run_inputs": list(campaign.run_inputs),
+            "label_columns": [name for name, _ in campaign.runs.labels],
             "dof": dof_or_null(char.dof), "dof_B": dof_or_null(char.model_dof),
             "scatter_covers": list(campaign.scatter_covers),
             "repeatability": char.s / math.sqrt(char.n),  # s/√n, covers scatter_covers

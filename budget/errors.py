@@ -30,7 +30,7 @@ __all__ = [
     "BudgetError", "ModelSyntaxError", "UnknownNameError", "UnitError", "InputError",
     "CampaignError", "DataFileError", "NotFoundError", "PropagationError", "SimulationError",
     "Location",
-    "did_you_mean",
+    "did_you_mean", "close_match",
 ]
 
 
@@ -101,7 +101,15 @@ class SimulationError(BudgetError):
     """The Monte Carlo simulation cannot give a trustworthy result."""
 
 
+def close_match(name: str, candidates: Iterable[str]) -> str | None:
+    """The candidate closest to ``name`` (difflib ratio ≥ 0.6, or equal ignoring case)."""
+    pool = sorted(candidates)
+    folded = [c for c in pool if c.lower() == name.lower() and c != name]
+    close = folded or difflib.get_close_matches(name, pool, n=1, cutoff=0.6)
+    return close[0] if close else None
+
+
 def did_you_mean(name: str, candidates: Iterable[str]) -> str:
     """A ``" (did you mean 'x'?)"`` suffix, or an empty string when nothing is close."""
-    close = difflib.get_close_matches(name, sorted(candidates), n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""
+    close = close_match(name, candidates)
+    return f" (did you mean '{close}'?)" if close else ""

@@ -135,7 +135,7 @@ def _check_text(text: str, where: Location) -> None:
         raise ModelSyntaxError(f"expected an expression of at most {MAX_EXPRESSION_CHARS:,} "
                                f"characters (limits: {LIMITS_PAGE}), found {len(text):,}",
                                where)
-    for column, char in enumerate(text, start=1):
+    for column, char in enumerate([] if _KNOWN.issuperset(text) else text, start=1):
         if char not in _KNOWN:
             hint = " (comments are not part of an expression)" if char == "#" else ""
             raise ModelSyntaxError(f"expected only names, numbers, + - * / ** and "

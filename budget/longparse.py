@@ -74,6 +74,7 @@ class _Splitter:
         self.line_starts = [0]
         for line in self.lines:
             self.line_starts.append(self.line_starts[-1] + len(line))
+        self.ascii = [line.isascii() for line in self.lines]
 
     def expression(self, i: int, j: int) -> ast.expr:
         """The tree of tokens i … j-1 (recursion only per level of long groups)."""
@@ -182,8 +183,10 @@ class _Splitter:
     def position(self, offset: int) -> tuple[int, int]:
         """1-based line and UTF-8 byte column of a character offset (as ``ast`` counts)."""
         line = _bisect(self.line_starts, offset)
-        within = self.lines[line][:offset - self.line_starts[line]]
-        return line + 1, len(within.encode("utf-8"))
+        column = offset - self.line_starts[line]
+        if self.ascii[line]:  # one byte per character: no need to encode the line's start
+            return line + 1, column
+        return line + 1, len(self.lines[line][:column].encode("utf-8"))
 
     def locate(self, node: ast.expr, start: int, end: int) -> None:
         node.lineno, node.col_offset = self.position(start)

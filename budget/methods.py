@@ -31,9 +31,10 @@ __all__ = ["ModelMethod", "Impurity", "MassBalance", "MethodsPlan", "read_method
            "PRIMARY"]
 
 PRIMARY = "characterization"
-_METHOD_KEYS = ("label", "kind", "model", "measurand", "runs", "scatter_covers", "impurity")
+_METHOD_KEYS = ("label", "kind", "model", "measurand", "runs", "scatter_covers", "impurity",
+                "label_columns")
 _IMPURITY_KEYS = ("label", "model", "measurand", "runs", "scatter_covers", "value", "u",
-                  "expanded", "k", "dof")
+                  "expanded", "k", "dof", "label_columns")
 _COMBINATION_KEYS = ("rule", "methods")
 
 
@@ -184,7 +185,7 @@ def _model_method(r: _Reader, entry: dict[str, Any], label: str, table: str, nth
     runs: Any = None
     run_inputs: tuple[str, ...] = ()
     if runs_required or "runs" in entry:
-        runs, run_inputs = _runs(r, _file(r, entry, "runs", table, nth), model, table, nth)
+        runs, run_inputs = _runs(r, entry, model, table, nth)
     covers = entry.get("scatter_covers", [])
     inputs = [i.name for i in model.inputs]
     if not isinstance(covers, list) or not all(isinstance(c, str) for c in covers):
@@ -218,12 +219,14 @@ def _file(r: _Reader, entry: dict[str, Any], key: str, table: str, nth: int) -> 
     return path
 
 
-def _runs(r: _Reader, path: Path, model: Model, table: str, nth: int
+def _runs(r: _Reader, entry: dict[str, Any], model: Model, table: str, nth: int
           ) -> tuple[Any, tuple[str, ...]]:
-    from .campaign import read_runs_file
+    from .campaign import label_columns, read_runs_file
     from .datafiles import FileFormat
 
-    runs = read_runs_file(r, path, FileFormat(), model, table, nth)
+    path = _file(r, entry, "runs", table, nth)
+    runs = read_runs_file(r, path, FileFormat(), model, table, nth,
+                          label_columns(r, entry, table, nth))
     return runs, runs.names
 
 

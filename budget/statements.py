@@ -103,7 +103,7 @@ def read_statement(data: dict[str, Any], where: Callable[[str | None], Location]
     """Read one input table; ``where(key)`` gives the location of a key (None: the table)."""
     check_keys(data, INPUT_KEYS, where)
     table = _Table(data, where)
-    ways = [w for w in _WAYS if any(table.has(k) for k in w)]
+    ways = [w for w in _WAYS if not data.keys().isdisjoint(w)]
     if not ways:
         raise InputError("expected one way of stating the uncertainty (u, expanded, "
                          "half_width, lower + upper, observations, exact, formula or "

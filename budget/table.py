@@ -158,6 +158,13 @@ def _correlations(result: Result) -> list[str]:
     return lines
 
 
+def _run_columns(campaign: Any) -> str:
+    """Which runs columns set inputs and which are read as labels."""
+    labels = [name for name, _ in campaign.runs.labels]
+    return (f"  note: run columns giving inputs: {', '.join(campaign.run_inputs)}; read as "
+            f"labels: {', '.join(labels) if labels else 'none'}")
+
+
 def _certified_monte_carlo(cert: Any, unit: str, digits: int) -> list[str]:
     """The Monte Carlo of the certified value, and which interval the certificate states."""
     lines = []
@@ -212,6 +219,7 @@ def render_certification(cert: Any, digits: int = 2) -> str:
               f"s = {format_number(char.s, digits)}, "
               f"u_B = {format_number(char.model_uncertainty, digits)},"
               f" u_char = {format_number(char.standard_uncertainty, digits)} {unit}"]
+    lines.append(_run_columns(campaign))
     if campaign.scatter_covers:
         lines.append(f"  covered by the run-to-run scatter (Type A, s/√n = "
                      f"{format_number(char.s / math.sqrt(char.n), digits)} {unit}), no term "

@@ -76,6 +76,7 @@ def test_monte_carlo_of_a_3000_input_sum_matches_the_root_sum_of_squares():
     "-a + " + " - ".join(f"x{i}" for i in range(450)),
     "(\n" + " + ".join(f"x{i}*y{i}" for i in range(450)) + "\n) * ü",
     "sqrt(" + " + ".join(f"x{i} ** 2" for i in range(450)) + ")",
+    "ä1 * é + " + " + ".join(f"x{i} * é" for i in range(450)),  # byte columns ≠ characters
 ])
 def test_long_texts_parse_to_the_tree_python_builds(text):
     # Python's own parser still manages 450 terms: the split parse must equal it,
@@ -266,10 +267,29 @@ def test_one_walk_finds_the_nodes_and_depth_of_the_standard_walk(text):
 def test_the_compiled_toml_parser_reads_every_shipped_model_as_the_standard_one():
     import tomllib
 
-    tomli = pytest.importorskip("tomli")
+    rtoml = pytest.importorskip("rtoml")
     root = Path(__file__).resolve().parent.parent / "models"
     texts = [path.read_text(encoding="utf-8") for path in sorted(root.rglob("*.toml"))]
-    texts.append(defined_mean(50))
+    texts += [defined_mean(50), 'b = -0.0\nc = inf\nd = 1979-05-27\n'
+              'e = 1979-05-27T07:32:00Z\nf = """x\ny"""\ng = [1, 2.5, "s"]\n']
     assert len(texts) > 10
     for text in texts:
-        assert tomli.loads(text) == tomllib.loads(text)
+        assert rtoml.loads(text) == tomllib.loads(text)  # datetimes: the same instant
+
+
+@pytest.mark.parametrize("text", ["a = " + "[" * 200 + "]" * 200, f"a = {2 ** 70}",
+                                  "a = 1\na = 2", "[t]\nx = 1\n[t]\ny = 2", "a = 01",
+                                  "a = 1979-02-30", "a = 1e400"])
+def test_documents_the_compiled_parser_declines_are_read_or_refused_by_the_standard_one(
+        text):
+    import tomllib
+
+    from budget.model import _loads
+
+    try:
+        expected = tomllib.loads(text)
+    except (tomllib.TOMLDecodeError, RecursionError) as exc:
+        with pytest.raises(type(exc)):
+            _loads(text)
+    else:
+        assert _loads(text) == expected
