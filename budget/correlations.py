@@ -183,8 +183,7 @@ def _block_matrix(entry: dict[str, Any], n: int, here: Callable[..., Location],
     rows = entry["matrix"]
     shape_ok = isinstance(rows, list) and len(rows) == n and all(
         isinstance(row, list) and len(row) == n for row in rows)
-    numbers_ok = shape_ok and not any(isinstance(x, bool) or not isinstance(x, (int, float))
-                                      for row in rows for x in row)
+    numbers_ok = shape_ok and all(set(map(type, row)) <= {int, float} for row in rows)
     if not numbers_ok:
         raise InputError(f"expected matrix = {n} rows of {n} numbers (one per input of "
                          f"between) in correlation {index + 1}, found another shape or a "

@@ -159,6 +159,9 @@ def character_name(char: str) -> str:
 _MULTILINE = ("description", "note")
 
 
+_TEXTUAL = (str, dict, list)  # what TOML values may hold a string
+
+
 def check_strings(document: dict[str, Any],
                   where: Callable[[str | None, str | None], Location]) -> None:
     """Refuse control characters in every key and string of a TOML document.
@@ -174,8 +177,8 @@ def check_strings(document: dict[str, Any],
             for key, item in value.items():
                 _refuse(str(key), "", where, f"{path}.{key}" if path else str(key), str(key))
                 stack.append((f"{path}.{key}" if path else str(key), item))
-        elif isinstance(value, list):
-            stack.extend((path, item) for item in value)
+        elif isinstance(value, list):  # numbers (a matrix of 10⁶) need no look
+            stack.extend([(path, item) for item in value if type(item) in _TEXTUAL])
         elif isinstance(value, str):
             last = path.rsplit(".", 1)[-1]
             free = last in _MULTILINE or path.startswith("certificate.")

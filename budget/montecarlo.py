@@ -307,6 +307,10 @@ class _Sampler:
                     values[slot] = column
         return values
 
+    def release(self) -> None:
+        """Drop this thread's buffers (the first block runs alone, before the workers)."""
+        self.local.buffers = {}
+
     def _buffer(self, number: int, rows: int, size: int) -> np.ndarray:
         """This thread's buffer for the run ``number`` of the plan (reused block after
         block: the values of a block are dead once it is evaluated)."""
@@ -319,8 +323,10 @@ class _Sampler:
 
 
 def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:
-    """How each group of inputs is drawn, in group order (the order of the stream):
-    consecutive independent normal inputs joined into runs drawn by one call."""
+    """How the inputs of a block are drawn, in the order of its stream: the groups
+    (correlated inputs, other distributions) in model order, then every independent
+    normal input in model order as one run drawn by rows into one buffer (so a model
+    that mixes normal and other inputs still draws its normals in a few calls)."""
     plan: list[tuple[str, Any]] = []
     run: list[int] = []
 
@@ -334,15 +340,12 @@ def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:
 
     for group in groups:
         item = model.inputs[group[0]]
-        if len(group) == 1 and item.standard_uncertainty > 0 and isinstance(
-                item.distribution, Normal):
+        if len(group) == 1 and item.standard_uncertainty == 0:
+            plan.append(("fixed", group[0]))  # draws nothing: the run goes on
+        elif len(group) == 1 and isinstance(item.distribution, Normal):
             run.append(group[0])
-            continue
-        close()
-        if len(group) > 1:
-            plan.append(("group", group))
         else:
-            plan.append(("fixed" if item.standard_uncertainty == 0 else "single", group[0]))
+            plan.append(("group", group) if len(group) > 1 else ("single", group[0]))
     close()
     return plan
 
@@ -597,6 +600,7 @@ def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
     if blocks < 4 or coverage <= 0.5:
         return _run_blocks(sampler, 0, blocks, trials, samples, ticker, workers)
     first, _ = _run_blocks(sampler, 0, 1, trials, samples, ticker, 1)
+    sampler.release()
     head = samples[:, :sampler.size]
     if not np.isfinite(head).all():
         rest, _ = _run_blocks(sampler, 1, blocks - 1, trials, samples[:, sampler.size:],

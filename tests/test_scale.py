@@ -267,10 +267,29 @@ def test_one_walk_finds_the_nodes_and_depth_of_the_standard_walk(text):
 def test_the_compiled_toml_parser_reads_every_shipped_model_as_the_standard_one():
     import tomllib
 
-    tomli = pytest.importorskip("tomli")
+    rtoml = pytest.importorskip("rtoml")
     root = Path(__file__).resolve().parent.parent / "models"
     texts = [path.read_text(encoding="utf-8") for path in sorted(root.rglob("*.toml"))]
-    texts.append(defined_mean(50))
+    texts += [defined_mean(50), 'b = -0.0\nc = inf\nd = 1979-05-27\n'
+              'e = 1979-05-27T07:32:00Z\nf = """x\ny"""\ng = [1, 2.5, "s"]\n']
     assert len(texts) > 10
     for text in texts:
-        assert tomli.loads(text) == tomllib.loads(text)
+        assert rtoml.loads(text) == tomllib.loads(text)  # datetimes: the same instant
+
+
+@pytest.mark.parametrize("text", ["a = " + "[" * 200 + "]" * 200, f"a = {2 ** 70}",
+                                  "a = 1\na = 2", "[t]\nx = 1\n[t]\ny = 2", "a = 01",
+                                  "a = 1979-02-30", "a = 1e400"])
+def test_documents_the_compiled_parser_declines_are_read_or_refused_by_the_standard_one(
+        text):
+    import tomllib
+
+    from budget.model import _loads
+
+    try:
+        expected = tomllib.loads(text)
+    except (tomllib.TOMLDecodeError, RecursionError) as exc:
+        with pytest.raises(type(exc)):
+            _loads(text)
+    else:
+        assert _loads(text) == expected
