@@ -189,17 +189,71 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
             and item.distribution.name == "student_t"):
         reasons.append(f"a dominant input with few degrees of freedom: {top.input} "
                        f"(ν = {item.dof:g}) is drawn from a t distribution with heavy tails")
-    shift = abs(simulation.mean - budget.estimate)
-    spread = abs(simulation.standard_uncertainty - budget.combined_uncertainty)
-    if shift > v.tolerance or spread > 0.05 * budget.combined_uncertainty:
-        reasons.append(f"nonlinearity: the Monte Carlo mean differs from the estimate by "
-                       f"{format_number(shift, 2)} and its standard deviation from u_c by "
-                       f"{format_number(spread, 2)} {unit}")
+    linear = is_linear(model, budget.name)
+    found = None if linear else _nonlinearity(budget, simulation, v.tolerance, unit)
+    reasons += [found] if found else []
     if len(reasons) == 1:
-        reasons.append("no single cause stands out; a longer run (the adaptive procedure of "
-                       "JCGM 101 7.9) shows whether "
+        reasons.append("no single cause stands out; "
+                       + ("the model is linear in its uncertain inputs, so nonlinearity is "
+                          "not one; " if linear else "")
+                       + "a longer run (the adaptive procedure of JCGM 101 7.9) shows whether "
                        "the difference is Monte Carlo noise")
     return tuple(reasons)
+
+
+def _nonlinearity(budget: Any, simulation: Any, tolerance: float, unit: str) -> str | None:
+    """The nonlinearity reason, given only when the Monte Carlo mean or standard deviation
+    differs from the GUM figure by more than both the numerical tolerance δ (JCGM 101 8.2)
+    and three standard errors of that Monte Carlo figure (its own noise)."""
+    n = max(simulation.trials, 2)
+    s = simulation.standard_uncertainty
+    shift = abs(simulation.mean - budget.estimate)
+    spread = abs(s - budget.combined_uncertainty)
+    noise_mean = 3 * s / math.sqrt(n)
+    noise_sd = 3 * _sd_standard_error(simulation.samples, s, n)
+    if shift <= max(tolerance, noise_mean) and spread <= max(tolerance, noise_sd):
+        return None
+    return (f"nonlinearity: the Monte Carlo mean differs from the estimate by "
+            f"{format_number(shift, 2)} and its standard deviation from u_c by "
+            f"{format_number(spread, 2)} {unit}, beyond δ and three standard errors of the "
+            f"Monte Carlo figures ({format_number(noise_mean, 2)}, "
+            f"{format_number(noise_sd, 2)})")
+
+
+def _sd_standard_error(samples: Any, s: float, n: int) -> float:
+    """Standard error of a sample standard deviation: s·√((κ − 1)/(4n)), κ the kurtosis
+    of the samples when kept, else 3 (Gaussian) — the delta method [M]."""
+    kurtosis = 3.0
+    if samples is not None and np.ndim(samples) == 1 and len(samples) > 3 and s > 0:
+        centred = (np.asarray(samples, dtype=float) - float(np.mean(samples))) / s
+        kurtosis = float(np.mean(centred ** 4))
+    return s * math.sqrt(max(kurtosis - 1.0, 0.0) / (4 * n))
+
+
+def is_linear(model: Model, name: str) -> bool:
+    """True when the measurand is an affine function of the inputs that have an
+    uncertainty (definitions substituted): every second derivative is then zero, so the
+    GUM law is exact and nonlinearity cannot explain a Monte Carlo difference
+    (JCGM 100 5.1.2). Decided on the expression graph in one pass; a product or power that
+    happens to cancel counts as nonlinear (the safe side)."""
+    from . import algebra as alg
+
+    uncertain = {i.name for i in model.inputs if i.standard_uncertainty > 0}
+    graph = next(m.graph for m in model.measurands if m.name == name)
+
+    def step(node: alg.Node, args: list[int]) -> int:  # 0 constant, 1 affine, 2 other
+        if node.kind == "symbol":
+            return int(node.name in uncertain)
+        if node.kind == "add":
+            return max(args, default=0)
+        if node.kind == "mul":
+            return 2 if max(args, default=0) == 2 or args.count(1) > 1 else max(args, default=0)
+        if node.kind == "pow":
+            unit_power = node.args[1].kind == "number" and alg.exact_value(node.args[1]) == 1
+            return 0 if max(args) == 0 else (args[0] if unit_power and args[1] == 0 else 2)
+        return 0 if max(args, default=0) == 0 else 2  # number; call of a function
+
+    return alg.fold(graph, step) < 2
 
 
 def draw_inputs(model: Model, rng: np.random.Generator, size: int) -> list[Any]:

@@ -43,7 +43,7 @@ from typing import Any, Callable, Generator, cast
 
 import numpy as np
 
-from .distributions import Normal, StudentT
+from .distributions import Normal, Rectangular, StudentT
 from .limits import check_trials
 from .errors import Location, SimulationError
 from .evaluation import compile_model
@@ -287,15 +287,17 @@ class _Sampler:
         for number, (kind, item) in enumerate(self.plan):
             if kind == "fixed":
                 values[item] = self.model.inputs[item].estimate
-            elif kind == "normal":
-                slots, mean, sd = item
+            elif kind in ("normal", "uniform"):
+                # normal: z·sd + mean; rectangular: u·2a + (x − a), as Rectangular.sample
+                slots, shift, scale = item
+                fill = rng.standard_normal if kind == "normal" else rng.random
                 z = self._buffer(number, len(slots), size)
                 rows = max(1, _CHUNK // size)
                 for first in range(0, len(slots), rows):
                     chunk = z[first:first + rows]
-                    rng.standard_normal(out=chunk)
-                    chunk *= sd[first:first + rows]
-                    chunk += mean[first:first + rows]
+                    fill(out=chunk)
+                    chunk *= scale[first:first + rows]
+                    chunk += shift[first:first + rows]
                 for slot, row in zip(slots, z):
                     values[slot] = row
             elif kind == "single":
@@ -306,6 +308,10 @@ class _Sampler:
                                                           size, self.sets)):
                     values[slot] = column
         return values
+
+    def release(self) -> None:
+        """Drop this thread's buffers (the first block runs alone, before the workers)."""
+        self.local.buffers = {}
 
     def _buffer(self, number: int, rows: int, size: int) -> np.ndarray:
         """This thread's buffer for the run ``number`` of the plan (reused block after
@@ -319,31 +325,43 @@ class _Sampler:
 
 
 def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:
-    """How each group of inputs is drawn, in group order (the order of the stream):
-    consecutive independent normal inputs joined into runs drawn by one call."""
+    """How the inputs of a block are drawn, in the order of its stream: the groups
+    (correlated inputs, other distributions) in model order, consecutive independent
+    rectangular inputs among them as one run, then every independent normal input in
+    model order as one run; a run is drawn by rows into one buffer (the same stream as
+    one call per input), so a model of many inputs draws them in a few calls."""
     plan: list[tuple[str, Any]] = []
-    run: list[int] = []
+    normals: list[int] = []
+    uniforms: list[int] = []
 
-    def close() -> None:
-        if run:
-            items = [model.inputs[i] for i in run]
-            mean = np.array([[i.estimate] for i in items], dtype=float)
-            sd = np.array([[cast(Normal, i.distribution).sd] for i in items], dtype=float)
-            plan.append(("normal", (tuple(run), mean, sd)))
-            run.clear()
+    def close(kind: str, run: list[int]) -> None:
+        if not run:
+            return
+        items = [model.inputs[i] for i in run]
+        if kind == "normal":
+            shift = [i.estimate for i in items]
+            scale = [cast(Normal, i.distribution).sd for i in items]
+        else:
+            widths = [cast(Rectangular, i.distribution).half_width for i in items]
+            shift = [i.estimate - a for i, a in zip(items, widths)]
+            scale = [2.0 * a for a in widths]
+        plan.append((kind, (tuple(run), np.array(shift, dtype=float)[:, None],
+                            np.array(scale, dtype=float)[:, None])))
+        run.clear()
 
     for group in groups:
         item = model.inputs[group[0]]
-        if len(group) == 1 and item.standard_uncertainty > 0 and isinstance(
-                item.distribution, Normal):
-            run.append(group[0])
-            continue
-        close()
-        if len(group) > 1:
-            plan.append(("group", group))
+        if len(group) == 1 and item.standard_uncertainty == 0:
+            plan.append(("fixed", group[0]))  # draws nothing: the runs go on
+        elif len(group) == 1 and isinstance(item.distribution, Normal):
+            normals.append(group[0])
+        elif len(group) == 1 and isinstance(item.distribution, Rectangular):
+            uniforms.append(group[0])
         else:
-            plan.append(("fixed" if item.standard_uncertainty == 0 else "single", group[0]))
-    close()
+            close("uniform", uniforms)
+            plan.append(("group", group) if len(group) > 1 else ("single", group[0]))
+    close("uniform", uniforms)
+    close("normal", normals)
     return plan
 
 
@@ -597,6 +615,7 @@ def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
     if blocks < 4 or coverage <= 0.5:
         return _run_blocks(sampler, 0, blocks, trials, samples, ticker, workers)
     first, _ = _run_blocks(sampler, 0, 1, trials, samples, ticker, 1)
+    sampler.release()
     head = samples[:, :sampler.size]
     if not np.isfinite(head).all():
         rest, _ = _run_blocks(sampler, 1, blocks - 1, trials, samples[:, sampler.size:],

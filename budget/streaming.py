@@ -78,6 +78,7 @@ def stream(sampler: "_Sampler", trials: int, coverage: float,
     """Run ``trials`` trials (coverage above ½) keeping no array of all the values."""
     size = min(sampler.size, trials)
     pilot = sampler.block(0, size)
+    sampler.release()
     values = _finite(pilot)
     edges = [_edges(y) for y in values]
     level = cut_level(1.0 - coverage, max(values.shape[1], 1))
@@ -99,7 +100,9 @@ def stream(sampler: "_Sampler", trials: int, coverage: float,
     if missing and m >= 2:
         wide = [_histogram_cuts(histograms[k], m, coverage) if k in missing
                 else (math.nan, math.nan) for k in range(len(edges))]
-        again = [_tails(sampler.block(0, size), wide), *_blocks(
+        first_tails = _tails(sampler.block(0, size), wide)
+        sampler.release()
+        again = [first_tails, *_blocks(
             sampler, trials, workers, None, lambda view: _tails(view, wide))]
         for k in missing:
             intervals[k] = _exact([b[k] for b in again], m, coverage)

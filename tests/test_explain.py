@@ -110,3 +110,62 @@ def test_interaction_shows_in_the_variance_based_indices():
     assert x1.linear_share == pytest.approx(100.0)
     assert any(note.startswith("X1: variance-based index") for note in e.sobol_notes)
     assert not e.validated and any("nonlinearity" in r for r in e.reasons)
+
+
+SUM = """
+    title = "sum"
+    [measurands.y]
+    equation = "X1 + X2 - 2 * X3 / c"
+    [inputs.X1]
+    value = 10
+    u = 0.3
+    [inputs.X2]
+    value = 5
+    distribution = "rectangular"
+    half_width = 0.5
+    [inputs.X3]
+    value = 1
+    u = 0.2
+    [inputs.c]
+    value = 4
+    exact = true
+"""
+
+
+def test_a_linear_model_never_gets_a_nonlinearity_reason():
+    # a sum is linear: the GUM law is exact (JCGM 100 5.1.2), any difference from a short
+    # Monte Carlo run is noise; before the fix most seeds named nonlinearity
+    m = model(SUM)
+    failed = 0
+    for seed in range(20):
+        (e,) = explain(evaluate(m, trials=2000, seed=seed), sobol_trials=256)
+        assert not any(r.startswith("nonlinearity") for r in e.reasons), (seed, e.reasons)
+        failed += not e.validated
+    assert failed >= 5  # the runs do differ from the GUM figures beyond δ
+
+
+def test_a_strongly_nonlinear_model_gets_the_reason():
+    # y = x² at x = 1 ± 0.5: E[y] = x² + u² = 1.25 (exact for a Gaussian x), u_c = 2·x·u = 1
+    # while the true standard deviation is √(4x²u² + 2u⁴) = 1.06 [C]
+    m = model("""
+        title = "square"
+        [measurands.y]
+        equation = "x**2"
+        [inputs.x]
+        value = 1
+        u = 0.5
+    """)
+    (e,) = explain(evaluate(m, trials=100_000, seed=1), sobol_trials=256)
+    (reason,) = [r for r in e.reasons if r.startswith("nonlinearity")]
+    assert "differs from the estimate by 0.25" in reason
+
+
+@pytest.mark.parametrize(("equation", "linear"), [
+    ("X1 + X2 - 2 * X3 / c", True), ("(X1 + X2) * c**2 / 3", True), ("X1 * X2", False),
+    ("X1**2 + X2", False), ("exp(X1)", False), ("X1 / X3", False), ("X1**1 + sqrt(c)", True),
+])
+def test_linearity_is_read_from_the_expression_graph(equation, linear):
+    from budget.explanation import is_linear
+
+    text = SUM.replace('equation = "X1 + X2 - 2 * X3 / c"', f'equation = "{equation}"')
+    assert is_linear(model(text), "y") is linear

@@ -185,3 +185,42 @@ def test_batch_interval_ends_from_the_tails_equal_a_full_selection():
     assert np.allclose(fast[:, :2], slow[:, :2], rtol=1e-12, atol=0)
     for k, y in enumerate(chunk):
         assert tuple(fast[k, 2:]) == _full_sort(y, 0.95)[0]
+
+
+def test_runs_of_inputs_draw_the_same_numbers_as_one_call_per_input():
+    """Independent normal and rectangular inputs drawn by rows into one buffer are the
+    numbers of ``Distribution.sample`` called input by input on the same stream."""
+    from budget.distributions import Normal, Rectangular
+
+    m = model("""
+        title = "mixed"
+        [measurands.Y]
+        equation = "A + B + C + D + E"
+        [inputs.A]
+        value = 1
+        u = 0.1
+        [inputs.B]
+        value = 2
+        distribution = "rectangular"
+        half_width = 0.3
+        [inputs.C]
+        value = 3
+        distribution = "rectangular"
+        half_width = 0.2
+        [inputs.D]
+        value = 4
+        u = 0.4
+        [inputs.E]
+        value = 5
+        distribution = "triangular"
+        half_width = 0.5
+    """)
+    sampler = montecarlo._Sampler(m, 21)
+    values = sampler.draw(3, 1000)
+    rng = np.random.Generator(np.random.SFC64(np.random.SeedSequence(21, spawn_key=(3,))))
+    order = ["B", "C", "E", "A", "D"]  # other inputs in model order, then the normals
+    names = [i.name for i in m.inputs]
+    for name in order:
+        item = m.inputs[names.index(name)]
+        assert isinstance(item.distribution, (Normal, Rectangular)) or name == "E"
+        assert np.array_equal(values[names.index(name)], item.distribution.sample(rng, 1000))
