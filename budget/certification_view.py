@@ -10,7 +10,7 @@ from typing import Any, Callable
 import numpy as np
 
 from .formatting import (format_dof, format_number, format_pair, format_percent,
-                         format_statistic)
+                         format_statistic, shown_share)
 from .unit_display import display_unit
 from .svg import bar_chart, points_with_bars, trend_plot
 
@@ -39,7 +39,7 @@ def certification_view(cert: Any) -> dict[str, Any]:
         "components": [{"name": _LABELS[name], "u": rounded(u),
                         "share": format_percent(cert.shares[name])}
                        for name, u in cert.components],
-        "component_chart": bar_chart([(_LABELS[n].split(" (")[0], cert.shares[n])
+        "component_chart": bar_chart([(_LABELS[n].split(" (")[0], shown_share(cert.shares[n]))
                                       for n, _ in cert.components], "%",
                                      "shares of u_CRM²"),
         "characterization": _characterization(char, campaign.scatter_covers, unit, digits),

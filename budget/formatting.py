@@ -14,7 +14,7 @@ import math
 from decimal import ROUND_HALF_UP, Decimal, localcontext
 
 __all__ = ["decimal_exponent", "round_pair", "format_pair", "format_number",
-           "format_dof", "format_percent", "format_statistic"]
+           "format_dof", "format_percent", "format_statistic", "shown_share", "SHARE_FLOOR"]
 
 
 def decimal_exponent(u: float, digits: int = 2) -> int:
@@ -87,7 +87,18 @@ def format_statistic(x: float, spec: str) -> str:
     return "not computable" if math.isnan(x) else format(x, spec)
 
 
+SHARE_FLOOR = 1e-12
+"""Shares (in % of u_c²) smaller than this in magnitude are shown as 0: what is left of a
+zero or cancelled contribution after floating-point rounding, not a contribution."""
+
+
+def shown_share(share: float) -> float:
+    """The share as displayed: 0 below :data:`SHARE_FLOOR` (JSON keeps the number)."""
+    return 0.0 if abs(share) < SHARE_FLOOR else share
+
+
 def format_percent(share: float) -> str:
+    share = shown_share(share)
     if share == 0:
         return "0"
     if abs(share) < 0.1:

@@ -22,7 +22,7 @@ from collections.abc import Iterable, Sequence
 from typing import TYPE_CHECKING, Any, Protocol, TypeVar
 
 from .errors import NotFoundError, did_you_mean
-from .formatting import format_number, format_pair, format_percent
+from .formatting import format_number, format_pair, format_percent, shown_share
 
 if TYPE_CHECKING:
     from .analysis import Result
@@ -187,7 +187,8 @@ def certification_html(cert: Certification, digits: int = 2) -> str:
     value, expanded = short(cert.certified_value, cert.expanded_uncertainty, digits)
     unit = cert.campaign.unit
     rows.append(["u_CRM", format_number(cert.standard_uncertainty, digits), "100"])
-    chart = bar_chart([(n.replace("_", " "), s) for n, s in shares.items() if s > 0], "%",
+    chart = bar_chart([(n.replace("_", " "), s) for n, s in shares.items() if shown_share(s) > 0],
+                      "%",
                       "shares of u_CRM²")
     return table_html(f"{cert.campaign.title}: ({value} ± {expanded}) {unit}, "
                       f"k = {cert.coverage_factor:.3g}",

@@ -17,7 +17,7 @@ from markupsafe import Markup
 
 from .analysis import Result
 from .document import CAUTION
-from .formatting import format_dof, format_number, format_pair, format_percent
+from .formatting import format_dof, format_number, format_pair, format_percent, shown_share
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
 from .output import files_of_campaign, files_of_model, write_atomic
@@ -173,9 +173,9 @@ def budget_view(b: MeasurandBudget, digits: int,
     unit = display_unit(b.unit)
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
     chart_rows = [(name_text(c.input), c.share) for c in
-                  sorted(b.contributions, key=lambda c: -c.share) if c.share > 0]
-    chart_rows += [(f"r({name_text(t.inputs[0])}, {name_text(t.inputs[1])})", t.share)
-                   for t in b.correlation_terms]
+                  sorted(b.contributions, key=lambda c: -c.share) if shown_share(c.share) > 0]
+    chart_rows += [(f"r({name_text(t.inputs[0])}, {name_text(t.inputs[1])})",
+                    shown_share(t.share)) for t in b.correlation_terms]
     return {
         "name": b.name, "shown": Markup(name_html(b.name)), "unit": unit,
         "statement": result_statement(b, digits, unit=unit),

@@ -9,7 +9,7 @@ from typing import Any
 from .analysis import Result
 from .cells import SHORT_DISTRIBUTION, contribution_cells, result_statement
 from .formatting import (format_dof, format_number, format_pair, format_percent,
-                         format_statistic)
+                         format_statistic, shown_share)
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
 from .unit_display import terminal_unit
@@ -103,7 +103,7 @@ def _fit(cell: str, width: int, right: bool) -> str:
 
 
 def _bar(share: float, width: int) -> str:
-    cells = max(0.0, min(100.0, share)) / 100.0 * width
+    cells = max(0.0, min(100.0, shown_share(share))) / 100.0 * width
     full = int(cells)
     return "█" * full + ("▌" if cells - full >= 0.5 else "")
 

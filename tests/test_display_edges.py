@@ -1,0 +1,55 @@
+"""How the edges of a budget are displayed: a share left over from floating-point
+rounding of a zero contribution is shown as 0 (the JSON keeps the number)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from budget.formatting import SHARE_FLOOR, format_percent
+
+# c(X2) = X3 - 0.3 at X3 = 0.1 + 0.2 is 5.55e-17 (binary rounding of 0.1 + 0.2, IEEE 754),
+# so X2 carries a share of about 6.5e-32 % of u_c²: zero in any sense a chemist uses
+TINY = """
+title = "tiny share"
+[measurands.y]
+equation = "X1 + X2 * (X3 - 0.3)"
+[inputs.X1]
+value = 1
+u = 0.1
+[inputs.X2]
+value = 2
+u = 0.1
+[inputs.X3]
+value = 0.30000000000000004
+u = 0.1
+"""
+
+
+def _tiny(tmp_path: Path) -> str:
+    path = tmp_path / "tiny.toml"
+    path.write_text(TINY, encoding="utf-8")
+    return str(path)
+
+
+def test_a_rounding_residue_share_is_shown_as_zero(cli, tmp_path: Path) -> None:
+    path = _tiny(tmp_path)
+    code, stdout, _ = cli("run", path, "--json", "--trials", "0")
+    shares = {c["input"]: c["share"] for c in json.loads(stdout)["measurands"][0]
+              ["contributions"]}
+    assert 0 < shares["X2"] < 1e-28  # the JSON keeps the computed number
+    code, stdout, _ = cli("run", path, "--trials", "0")
+    (row,) = [line for line in stdout.splitlines() if line.startswith("X2 ")]
+    assert row.rstrip().endswith(" 0") and "<" not in row
+    html = tmp_path / "tiny.html"
+    code, _, _ = cli("run", path, "--trials", "0", "--html", str(html))
+    text = html.read_text(encoding="utf-8")
+    assert code == 0 and "e-32" not in text and "e-31" not in text
+    code, stdout, _ = cli("explain", path, "--trials", "0")
+    assert "the others: X2 0 %" in stdout
+
+
+def test_the_display_floor_keeps_small_real_shares() -> None:
+    assert format_percent(SHARE_FLOOR / 2) == format_percent(-SHARE_FLOOR / 2) == "0"
+    assert format_percent(2 * SHARE_FLOOR) == "< 0.1"
+    assert format_percent(-0.05) == "-0.05"
