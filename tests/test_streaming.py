@@ -233,7 +233,7 @@ def test_sums_of_consecutive_inputs_reduced_over_rows_give_the_same_numbers(oper
     from budget.evaluation import compile_model
 
     n = 300
-    text = "\n".join([f'title = "t"\n[measurands.Y]\nequation = "3 + '
+    text = "\n".join(['title = "t"\n[measurands.Y]\nequation = "3 + '
                       + operator.join(f"x_{i}" for i in range(n)) + ' + z"']
                      + [f"[inputs.x_{i}]\nvalue = {1 + 0.001 * i}\nu = 0.01" for i in range(n)]
                      + ['[inputs.z]\nvalue = 1\ndistribution = "rectangular"\nhalf_width = 1'])
