@@ -137,21 +137,25 @@ def _one_shot() -> None:
         click.get_current_context().call_on_close(gc.enable)
 
 
-def _out(text: str, *, data: bool = False) -> None:
-    """Standard output, or an error when it is closed (the result would be lost)."""
+def _out(text: str | list[str], *, data: bool = False) -> None:
+    """Standard output, or an error when it is closed (the result would be lost).
+    ``data``: JSON text, possibly in parts (a document may be a hundred megabytes)."""
     if sys.stdout is None or getattr(sys.stdout, "closed", False):
         click.echo("error: standard output is closed; the result could not be written",
                    err=True)
         sys.exit(1)
+    parts = text if isinstance(text, list) else [text]
     if _quiet() and not data:
         return
-    if data and text.isascii():
+    if data and all(part.isascii() for part in parts):
         # JSON text is ASCII with every control character escaped but DEL (which only
-        # a string can hold): written as it is, tens of megabytes at once
-        sys.stdout.write(text.replace("\x7f", "\\u007f") if "\x7f" in text else text)
+        # a string can hold): written as it is, part by part
+        for part in parts:
+            sys.stdout.write(part.replace("\x7f", "\\u007f") if "\x7f" in part else part)
         sys.stdout.write("\n")
         sys.stdout.flush()
         return
+    text = "".join(parts)
     from .console import for_stream
     from .limits import terminal_text
 
@@ -336,11 +340,11 @@ def _print_result(result: Any, as_json: bool) -> None:
     if as_json:
         from .document import result_document
         from .gcpause import paused_collection
-        from .jsontext import json_text
+        from .jsontext import json_parts
 
         with paused_collection():
-            text = json_text(result_document(result, columns=True))
-        _out(text, data=True)
+            parts = json_parts(result_document(result, columns=True))
+        _out(parts, data=True)
     else:
         from .table import render
 

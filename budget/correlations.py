@@ -44,6 +44,10 @@ def read(entries: Any, names: Sequence[str],
                                   and len(entry["between"]) > 2))
         made, first, second, r = (_block(entry, known, here, index) if block
                                   else _single(_one(entry, known, here, index), known))
+        if index == len(entries) - 1 and not seen:  # the only entry: nothing to compare
+            pairs.extend(made)
+            columns.append((first, second, r))
+            break
         keys = (np.minimum(first, second) * size + np.maximum(first, second)).tolist() \
             if block else [min(int(first[0]), int(second[0])) * size
                            + max(int(first[0]), int(second[0]))]

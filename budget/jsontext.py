@@ -19,7 +19,7 @@ from dataclasses import dataclass
 from json.encoder import encode_basestring_ascii
 from typing import Any
 
-__all__ = ["json_text", "Columns"]
+__all__ = ["json_text", "json_parts", "Columns"]
 
 _INDENT = "  "
 _CHUNK = 65_536  # rows formatted at a time, so that their texts never all exist at once
@@ -36,9 +36,14 @@ class Columns:
 
 def json_text(document: Any) -> str:
     """``document`` as indented JSON text (ASCII; NaN and ±∞ as ``null``)."""
+    return "".join(json_parts(document))
+
+
+def json_parts(document: Any) -> list[str]:
+    """The text of :func:`json_text` in parts, to be written one after the other."""
     out: list[str] = []
     _value(document, 0, out)
-    return "".join(out)
+    return out
 
 
 def _pad(level: int) -> str:

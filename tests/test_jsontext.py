@@ -96,3 +96,23 @@ _DOCUMENTS = st.recursive(
 def test_random_documents_are_written_as_the_standard_library_writes_them(
         document: Any) -> None:
     assert json_text(document) == _reference(document)
+
+
+def test_the_command_line_writes_the_same_text(tmp_path: Path) -> None:
+    import re
+
+    from click.testing import CliRunner
+
+    from budget.cli import main
+
+    names = ", ".join(f'"x_{i}"' for i in range(5))
+    path = tmp_path / "block.toml"
+    path.write_text('title = "block"\n[measurands.y]\nequation = "x_0 + 2 * x_1 + x_2 - x_3 '
+                    '+ x_4"\n' + "".join(f"[inputs.x_{i}]\nvalue = {i}.5\nu = 0.{i + 1}\n"
+                                         for i in range(5))
+                    + f"[[correlations]]\nbetween = [{names}]\nr = 0.4\n", encoding="utf-8")
+    shown = CliRunner().invoke(main, ["run", str(path), "--json", "--trials", "0"])
+    assert shown.exit_code == 0
+    document = result_document(evaluate(load_model(path), trials=0))
+    undated = re.compile(r'"date": "[^"]*"')
+    assert undated.sub("", shown.stdout) == undated.sub("", _reference(document) + "\n")
