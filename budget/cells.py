@@ -8,6 +8,7 @@ from __future__ import annotations
 from typing import TYPE_CHECKING, Any
 
 from .formatting import format_dof, format_number, format_pair, format_percent
+from .unit_display import display_unit, spaced_unit
 
 if TYPE_CHECKING:
     from .gum import MeasurandBudget
@@ -38,5 +39,6 @@ def contribution_cells(c: Any, digits: int) -> dict[str, str]:
 
 def result_statement(b: MeasurandBudget, digits: int, unit: str | None = None) -> str:
     value, expanded = format_pair(b.estimate, b.expanded_uncertainty, digits)
-    return (f"{b.name} = ({value} ± {expanded}) {unit or b.unit}, k = {b.coverage_factor:.2f}, "
+    shown = spaced_unit(display_unit(b.unit) if unit is None else unit)
+    return (f"{b.name} = ({value} ± {expanded}){shown}, k = {b.coverage_factor:.2f}, "
             f"coverage probability {100 * b.coverage_probability:g} %")

@@ -30,7 +30,7 @@ from .evaluation import compile_model
 from .formatting import format_number, format_percent
 from .gum import propagate
 from .model import Model
-from .unit_display import display_unit
+from .unit_display import display_unit, spaced_unit
 
 __all__ = ["Driver", "SobolIndex", "Explanation", "explain", "draw_inputs"]
 
@@ -161,7 +161,7 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
     if simulation is None or simulation.validation is None:
         return ("no Monte Carlo run (trials = 0): the linear approximation was not checked",)
     v = simulation.validation
-    unit = display_unit(budget.unit)
+    unit = spaced_unit(display_unit(budget.unit))
     reasons = []
     top = ranked[0]
     item = model.input(top.input)
@@ -171,10 +171,10 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
         return (f"Monte Carlo cannot validate the GUM result: {v.reason}",)
     if v.validated:
         return (f"Monte Carlo validates the GUM result: both interval ends agree within "
-                f"δ = {format_number(v.tolerance, 1)} {unit} (JCGM 101 8.2)",)
+                f"δ = {format_number(v.tolerance, 1)}{unit} (JCGM 101 8.2)",)
     side = "wider" if gum_width > mc_width else "narrower"
     reasons.append(f"the GUM interval is {side} than the Monte Carlo one "
-                   f"({format_number(gum_width, 3)} vs {format_number(mc_width, 3)} "
+                   f"({format_number(gum_width, 3)} vs {format_number(mc_width, 3)}"
                    f"{unit}; d_low = {format_number(v.d_low, 2)}, d_high = "
                    f"{format_number(v.d_high, 2)}, δ = {format_number(v.tolerance, 1)})")
     if top.share >= 40 and not item.distribution.gaussian and item.distribution.name != "student_t":
@@ -215,7 +215,7 @@ def _nonlinearity(budget: Any, simulation: Any, tolerance: float, unit: str) -> 
         return None
     return (f"nonlinearity: the Monte Carlo mean differs from the estimate by "
             f"{format_number(shift, 2)} and its standard deviation from u_c by "
-            f"{format_number(spread, 2)} {unit}, beyond δ and three standard errors of the "
+            f"{format_number(spread, 2)}{unit}, beyond δ and three standard errors of the "
             f"Monte Carlo figures ({format_number(noise_mean, 2)}, "
             f"{format_number(noise_sd, 2)})")
 

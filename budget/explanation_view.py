@@ -7,7 +7,7 @@ from typing import Any
 
 from .explanation import Driver, Explanation
 from .formatting import format_number, format_pair, format_percent
-from .unit_display import terminal_unit
+from .unit_display import spaced_unit, terminal_unit
 
 __all__ = ["render", "explanation_document"]
 
@@ -20,8 +20,8 @@ def render(explanations: tuple[Explanation, ...], digits: int = 2) -> str:
 
 def _text(e: Explanation, digits: int) -> str:
     value, expanded = format_pair(e.estimate, e.expanded_uncertainty, digits)
-    unit = terminal_unit(e.unit)
-    lines = [f"{e.name} = ({value} ± {expanded}) {unit}  (k = {e.coverage_factor:.3g})", ""]
+    unit = spaced_unit(terminal_unit(e.unit))
+    lines = [f"{e.name} = ({value} ± {expanded}){unit}  (k = {e.coverage_factor:.3g})", ""]
     first = e.drivers[0]
     lines.append(f"1. {first.input} dominates: {format_percent(first.share)} % of u_c² "
                  f"({first.distribution}, Type {first.type}).")
@@ -40,7 +40,7 @@ def _text(e: Explanation, digits: int) -> str:
     lines += ["", "What would reduce U:"]
     for d in e.drivers:
         halved = format_pair(e.estimate, d.halved_expanded_uncertainty, digits)[1]
-        lines.append(f"  - halving u({d.input}) gives U = {halved} {unit} (now {expanded})")
+        lines.append(f"  - halving u({d.input}) gives U = {halved}{unit} (now {expanded})")
         if e.target is not None:
             lines.append("    " + _target_text(e, d, digits))
     if e.sobol:
@@ -54,15 +54,14 @@ def _text(e: Explanation, digits: int) -> str:
 
 def _target_text(e: Explanation, d: Driver, digits: int) -> str:
     target = format_pair(e.estimate, e.target or 0.0, digits)[1]
+    unit = spaced_unit(terminal_unit(e.unit))
     if d.needed_standard_uncertainty is None or d.reached_expanded_uncertainty is None:
-        return (f"U = {target} {terminal_unit(e.unit)} cannot be reached by improving "
-                f"{d.input} alone")
+        return f"U = {target}{unit} cannot be reached by improving {d.input} alone"
     reached = format_pair(e.estimate, d.reached_expanded_uncertainty, digits)[1]
     needed = format_number(d.needed_standard_uncertainty, 2)
-    return (f"for U = {target} {terminal_unit(e.unit)}: u({d.input}) ≤ {needed} "
-            f"{terminal_unit(d.unit)} (now {format_number(d.standard_uncertainty, 2)}; "
-            f"rerun gives U = "
-            f"{reached})")
+    return (f"for U = {target}{unit}: u({d.input}) ≤ {needed}"
+            f"{spaced_unit(terminal_unit(d.unit))} "
+            f"(now {format_number(d.standard_uncertainty, 2)}; rerun gives U = {reached})")
 
 
 def explanation_document(explanations: tuple[Explanation, ...]) -> dict[str, Any]:

@@ -261,17 +261,23 @@ class _Sampler:
                         for key, matrix in _group_matrices(model, self.groups).items()}
         self.sets = _set_slots(model)
         self.plan = _plan(model, self.groups)
+        # input slot → row of the normal inputs' buffer (the last run of the plan)
+        self.rows = ({slot: row for row, slot in enumerate(self.plan[-1][1][0])}
+                     if self.plan and self.plan[-1][0] == "normal" else {})
         self.local = threading.local()  # each thread's buffers for the normal inputs
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
         values = self.draw(index, size)
         out = np.empty((len(self.model.measurands), size)) if out is None else out
+        normals = self.plan[-1] if self.plan and self.plan[-1][0] == "normal" else None
+        matrix = self.local.buffers[len(self.plan) - 1] if normals else None
         for start in range(0, size, _SLICE):  # cache-sized slices of the drawn block
             stop = min(size, start + _SLICE)
             part = values if size <= _SLICE else [
                 v[start:stop] if isinstance(v, np.ndarray) else v for v in values]
-            for k, y in enumerate(self.program.evaluate(part)):
+            rows = (self.rows, matrix[:, start:stop]) if matrix is not None else None
+            for k, y in enumerate(self.program.evaluate(part, rows)):
                 out[k, start:stop] = y
         return out
 

@@ -74,6 +74,13 @@ class Program:
                        for i, ((kind, args, payload), done) in enumerate(zip(self.ops,
                                                                              self.release))
                        if kind != "const"]
+        # sums and products that begin (after a number) with a run of consecutive inputs
+        self._ranges: dict[int, tuple[float | None, int, int, tuple[int, ...]]] = {}
+        for at, kind, args, _, _ in self._steps:
+            if kind in ("add", "mul"):
+                found = _input_run(args, self._filled, len(self.symbols))
+                if found is not None:
+                    self._ranges[at] = found
 
     def _last_uses(self) -> list[tuple[int, ...]]:
         """For each operation, the slots no longer needed once it has run."""
@@ -180,15 +187,22 @@ class Program:
             return args[0] if kind == "add" or constant == neutral else args[0]
         return self._emit(kind, tuple(args), None)
 
-    def evaluate(self, values: Sequence[Any]) -> list[Any]:
+    def evaluate(self, values: Sequence[Any],
+                 rows: tuple[dict[int, int], np.ndarray] | None = None) -> list[Any]:
         """The outputs for input values (scalars, or equal-length float64 arrays).
 
         Intermediate arrays are dropped as soon as no later operation needs them, so a
-        large model evaluated on a block of trials holds only its live values."""
+        large model evaluated on a block of trials holds only its live values. ``rows``
+        (input slot → row of a 2-D array holding those inputs' values) lets a sum or
+        product of consecutive inputs run as one reduction over the rows: the same
+        additions in the same order (numpy reduces a non-contiguous axis in order)."""
         slots: list[Any] = list(values) + self._filled[len(values):]
         with np.errstate(all="ignore"):
             for at, kind, args, payload, done in self._steps:
-                slots[at] = _apply(kind, [slots[a] for a in args], payload)
+                found = rows is not None and at in self._ranges and _reduced(
+                    kind, self._ranges[at], rows, slots)
+                slots[at] = found if found is not False else _apply(
+                    kind, [slots[a] for a in args], payload)
                 for slot in done:
                     slots[slot] = None
         return [slots[i] for i in self.outputs]
@@ -315,6 +329,44 @@ def _apply(kind: str, operands: list[Any], payload: Any) -> Any:
     if kind == "call":
         return _FORWARD[payload](operands[0])
     return payload  # const
+
+
+def _input_run(args: tuple[int, ...], filled: list[Any], inputs: int
+               ) -> tuple[float | None, int, int, tuple[int, ...]] | None:
+    """(the leading number or None, first and last input of the run of at least two
+    consecutive inputs that follows it, the operands after the run), or None."""
+    start = 1 if args[0] >= inputs and isinstance(filled[args[0]], float) else 0
+    end = start
+    while end < len(args) and args[end] < inputs and (end == start
+                                                      or args[end] == args[end - 1] + 1):
+        end += 1
+    if end - start < 2:
+        return None
+    return (filled[args[0]] if start else None, args[start], args[end - 1], args[end:])
+
+
+def _reduced(kind: str, span: tuple[float | None, int, int, tuple[int, ...]],
+             rows: tuple[dict[int, int], np.ndarray], slots: list[Any]) -> Any:
+    """A sum or product whose operands begin with consecutive rows of ``rows``: one
+    reduction over the rows (started from the leading number), then the other operands
+    in order; False when the inputs are not consecutive rows."""
+    number, low, high, rest = span
+    row_of, matrix = rows
+    first, last = row_of.get(low), row_of.get(high)
+    if first is None or last is None or last - first != high - low:
+        return False
+    ufunc = np.add if kind == "add" else np.multiply
+    block = matrix[first:last + 1]
+    total: Any = (ufunc.reduce(block, axis=0) if number is None
+                  else ufunc.reduce(block, axis=0, initial=number))
+    for term in rest:
+        value = slots[term]
+        if isinstance(value, float) or (type(value) is np.ndarray
+                                        and value.shape == total.shape):
+            ufunc(total, value, out=total)
+        else:
+            total = ufunc(total, value)
+    return total
 
 
 def _fold(first: Callable[[Any, Any], Any], ufunc: np.ufunc, operands: list[Any]) -> Any:

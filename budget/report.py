@@ -28,7 +28,7 @@ from .equations_view import model_view, sensitivity_view
 from .svg import bar_chart, histogram
 from .cells import contribution_cells, result_statement
 from .typeset import equation_mathml, name_html, name_text
-from .unit_display import display_unit, unit_ratio
+from .unit_display import display_unit, spaced_unit, unit_ratio
 
 __all__ = ["render_report", "write_report", "render_certification_report",
            "write_certification_report", "render_difference_report",
@@ -145,11 +145,12 @@ def _reported_statement(result: Result, b: MeasurandBudget, digits: int, unit: s
     chosen = result.reported_for(b.name)
     if not chosen.monte_carlo:
         return result_statement(b, digits, unit=unit)
+    unit = spaced_unit(unit)
     value = format_pair(chosen.estimate, chosen.standard_uncertainty, digits)[0]
     low, high = (format_pair(x, chosen.standard_uncertainty, digits)[0]
                  for x in chosen.interval)
-    return (f"{b.name} = {value} {unit}, {chosen.coverage_text} coverage "
-            f"interval [{low}, {high}] {unit}")
+    return (f"{b.name} = {value}{unit}, {chosen.coverage_text} coverage "
+            f"interval [{low}, {high}]{unit}")
 
 
 def _measurand_view(result: Result, k: int, b: MeasurandBudget) -> dict[str, Any]:

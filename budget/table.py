@@ -12,7 +12,7 @@ from .formatting import (format_dof, format_number, format_pair, format_percent,
                          format_statistic, shown_share)
 from .gum import MeasurandBudget
 from .montecarlo import MeasurandSimulation
-from .unit_display import terminal_unit
+from .unit_display import spaced_unit, terminal_unit
 
 __all__ = ["render", "render_certification", "result_statement", "contribution_cells",
            "reported_lines",
@@ -37,7 +37,8 @@ def render(result: Result) -> str:
 def _measurand(result: Result, b: MeasurandBudget, s: MeasurandSimulation | None) -> list[str]:
     model_measurand = result.model.measurands[[m.name for m in result.model.measurands]
                                               .index(b.name)]
-    heading = f"{b.name} = {model_measurand.equation}   [{terminal_unit(b.unit)}]"
+    unit = terminal_unit(b.unit)
+    heading = f"{b.name} = {model_measurand.equation}" + (f"   [{unit}]" if unit else "")
     lines = [heading if len(heading) <= WIDTH else heading[:WIDTH - 1] + "…"]
     if model_measurand.description:
         lines.append(model_measurand.description[:WIDTH])
@@ -110,10 +111,10 @@ def _bar(share: float, width: int) -> str:
 
 def _summary(b: MeasurandBudget, digits: int) -> list[str]:
     value, u = format_pair(b.estimate, b.combined_uncertainty, digits)
-    unit = terminal_unit(b.unit)
-    lines = [f"GUM:  y = {value} {unit}   u_c = {u} {unit}   ν_eff = {format_dof(b.dof)}"
+    unit = spaced_unit(terminal_unit(b.unit))
+    lines = [f"GUM:  y = {value}{unit}   u_c = {u}{unit}   ν_eff = {format_dof(b.dof)}"
              f"   k = {b.coverage_factor:.3g}",
-             f"      {result_statement(b, digits, unit=unit)}"]
+             f"      {result_statement(b, digits, unit=unit.strip())}"]
     if "; " in b.dof_rule:  # more than Welch-Satterthwaite input by input: say which rule
         lines += textwrap.wrap("ν_eff: " + b.dof_rule.split("; ", 1)[1], WIDTH,
                                initial_indent="      ", subsequent_indent="      ")
@@ -130,15 +131,15 @@ def _monte_carlo(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> lis
     short_low, short_high = (format_pair(x, reference, digits + 1)[0]
                              for x in s.shortest_interval)
     p = f"{100 * b.coverage_probability:g} %"
-    unit = terminal_unit(b.unit)
-    lines = [f"MC:   {s.trials:,} trials   y = {mean} {unit}   u = {u} {unit}",
+    unit = spaced_unit(terminal_unit(b.unit))
+    lines = [f"MC:   {s.trials:,} trials   y = {mean}{unit}   u = {u}{unit}",
              f"      {p} interval [{low}, {high}]   shortest [{short_low}, {short_high}]"]
     v = s.validation
     if v is not None:
         verdict = "validated" if v.validated else "NOT validated"
         lines.append(f"      GUM result {verdict} (JCGM 101 8.2): d_low = "
                      f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
-                     f"δ = {format_number(v.tolerance, 1)} {unit}")
+                     f"δ = {format_number(v.tolerance, 1)}{unit}")
         if v.reason:
             lines.append(f"      validation not possible: {v.reason}")
     return lines

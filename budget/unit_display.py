@@ -12,7 +12,11 @@ import codecs
 import re
 import sys
 
-__all__ = ["display_unit", "terminal_unit", "unit_ratio"]
+__all__ = ["DIMENSIONLESS", "display_unit", "spaced_unit", "terminal_unit", "unit_ratio"]
+
+DIMENSIONLESS = ("", "1")
+"""Unit texts of a dimensionless quantity: displayed as nothing, as a chemist writes a
+ratio or a count, in the terminal and the reports alike."""
 
 _NAMES = {
     "degC": "°C", "degree_Celsius": "°C", "celsius": "°C", "degF": "°F", "deg": "°",
@@ -81,8 +85,8 @@ def _symbols(text: str) -> str:
 def display_unit(text: str, encoding: str | None = None) -> str:
     """The unit as symbols; with ``encoding``, as written when the symbols do not fit it."""
     stripped = text.strip()
-    if stripped in ("", "1"):
-        return "1"
+    if stripped in DIMENSIONLESS:
+        return ""
     shown = _symbols(stripped)
     if encoding is not None:
         try:
@@ -91,6 +95,11 @@ def display_unit(text: str, encoding: str | None = None) -> str:
         except (LookupError, UnicodeEncodeError):
             return stripped
     return shown
+
+
+def spaced_unit(shown: str) -> str:
+    """A displayed unit to write after a number: ``" g"``, or nothing when dimensionless."""
+    return f" {shown}" if shown else ""
 
 
 def terminal_unit(text: str) -> str:
@@ -102,12 +111,12 @@ def terminal_unit(text: str) -> str:
 def unit_ratio(numerator: str, denominator: str) -> str:
     """The unit of a derivative, numerator unit per denominator unit, both as displayed:
     ``unit_ratio("%", "g")`` → ``%/g``; ``unit_ratio("%", "kg/m³")`` → ``%·m³/kg``."""
-    if denominator == "1":
+    if denominator in DIMENSIONLESS:
         return numerator
     if numerator == denominator:
-        return "1"
+        return ""
     simple_den = not any(c in denominator for c in "/·()")
-    if numerator == "1":
+    if numerator in DIMENSIONLESS:
         return f"1/{denominator}" if simple_den else f"1/({denominator})"
     top = f"({numerator})" if "/" in numerator else numerator
     if simple_den:

@@ -53,3 +53,23 @@ def test_the_display_floor_keeps_small_real_shares() -> None:
     assert format_percent(SHARE_FLOOR / 2) == format_percent(-SHARE_FLOOR / 2) == "0"
     assert format_percent(2 * SHARE_FLOOR) == "< 0.1"
     assert format_percent(-0.05) == "-0.05"
+
+
+def test_a_dimensionless_unit_is_shown_as_nothing(cli, tmp_path: Path) -> None:
+    # TINY states no unit: y and every input are dimensionless (unit "1")
+    path = _tiny(tmp_path)
+    code, stdout, _ = cli("run", path, "--trials", "20000")
+    lines = stdout.splitlines()
+    assert lines[3] == "y = X1 + X2 * (X3 - 0.3)"  # no "[1]"
+    (row,) = [line for line in lines if line.startswith("X1 ")]
+    assert row.split()[:3] == ["X1", "1.00", "0.10"]  # the unit column is empty
+    assert "y = (1.00 ± 0.44), k = 1.96" in stdout and " 1 " not in stdout
+    assert all(line == line.rstrip() for line in lines)
+    code, stdout, _ = cli("explain", path, "--trials", "0", "--target", "0.3")
+    assert stdout.startswith("y = (1.00 ± 0.44)  (k = 1.96)")
+    assert "for U = 0.30: u(X3) ≤ " in stdout
+    html = tmp_path / "tiny.html"
+    cli("run", path, "--trials", "20000", "--html", str(html))
+    text = html.read_text(encoding="utf-8")
+    assert "Budget of <var>y</var></h2>" in text and "<td>1</td>" not in text
+    assert " / </th>" not in text and "()" not in text

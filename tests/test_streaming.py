@@ -224,3 +224,25 @@ def test_runs_of_inputs_draw_the_same_numbers_as_one_call_per_input():
         item = m.inputs[names.index(name)]
         assert isinstance(item.distribution, (Normal, Rectangular)) or name == "E"
         assert np.array_equal(values[names.index(name)], item.distribution.sample(rng, 1000))
+
+
+@pytest.mark.parametrize("operator", [" + ", " * "])
+def test_sums_of_consecutive_inputs_reduced_over_rows_give_the_same_numbers(operator):
+    """A sum or product of consecutive normal inputs runs as one reduction over the rows
+    of their buffer: the same values, to the last bit, as the operation term by term."""
+    from budget.evaluation import compile_model
+
+    n = 300
+    text = "\n".join(['title = "t"\n[measurands.Y]\nequation = "3 + '
+                      + operator.join(f"x_{i}" for i in range(n)) + ' + z"']
+                     + [f"[inputs.x_{i}]\nvalue = {1 + 0.001 * i}\nu = 0.01" for i in range(n)]
+                     + ['[inputs.z]\nvalue = 1\ndistribution = "rectangular"\nhalf_width = 1'])
+    m = model(text)
+    sampler = montecarlo._Sampler(m, 5)
+    assert sampler.rows  # the normal inputs are the buffer's rows
+    program = compile_model(m)
+    assert program._ranges  # the sum is seen as a range of inputs
+    for size in (1000, 20_000):  # one slice, several slices
+        fast = sampler.block(2, size)
+        slow = program.evaluate(sampler.draw(2, size))[0]
+        assert np.array_equal(fast[0], slow)
