@@ -26,18 +26,32 @@ def _cell(value: Any) -> Any:
 
 
 def budget_tables(document: dict[str, Any]) -> list[Sheet]:
-    """The budget table (one row per measurand and input) and the measurands' totals."""
+    """The budget table (one row per measurand and input, then one per correlation term,
+    as in the terminal and JSON budgets) and the measurands' totals."""
     keys: list[str] = []
     for measurand in document["measurands"]:
         for row in measurand["contributions"]:
             keys += [k for k in row if k not in keys]
-    rows = [[m["name"], m["unit"], *(_cell(c.get(k)) for k in keys)]
-            for m in document["measurands"] for c in m["contributions"]]
+    correlated = any(m.get("correlation_terms") for m in document["measurands"])
+    extra = ["r", "variance"] if correlated else []
+    rows = []
+    for m in document["measurands"]:
+        rows += [[m["name"], m["unit"], *(_cell(c.get(k)) for k in keys),
+                  *([None] * len(extra))] for c in m["contributions"]]
+        rows += [_term_row(m, t, keys) for t in m.get("correlation_terms") or []]
     totals_keys = ["name", "unit", "value", "u", "dof", "k", "U"]
     totals = [[m.get(k) for k in totals_keys] + [*m["interval"]]
               for m in document["measurands"]]
-    return [("budget", ["measurand", "measurand_unit", *keys], rows),
+    return [("budget", ["measurand", "measurand_unit", *keys, *extra], rows),
             ("measurands", [*totals_keys, "interval_low", "interval_high"], totals)]
+
+
+def _term_row(m: dict[str, Any], term: dict[str, Any], keys: list[str]) -> list[Any]:
+    """A correlation term 2·c_i·c_j·r·u_i·u_j as a budget row: named ``r(x_i, x_j)``, its
+    share of u_c² in ``share``, r and the term in the ``r`` and ``variance`` columns."""
+    a, b = term["inputs"]
+    known = {"input": f"r({a}, {b})", "distribution": "correlation", "share": term["share"]}
+    return [m["name"], m["unit"], *(known.get(k) for k in keys), term["r"], term["variance"]]
 
 
 def certification_tables(document: dict[str, Any]) -> list[Sheet]:
