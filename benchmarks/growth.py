@@ -15,10 +15,11 @@ through 2n/3 definitions (w_i per determination, running sums S_i, a chain) — 
   3. the 10⁴-input models with 10⁵ Monte Carlo trials (whole command; --no-monte-carlo
      leaves it out);
   4. 1000 inputs in one correlated block (499,500 pairs, positive definite), whole
-     command with --trials 0: stated as one r for every pair, as the full 1000 × 1000
-     matrix, and (one run, --pair-tables) as 499,500 [[correlations]] tables.
+     command with --trials 0: stated as one r for every pair and as the full 1000 × 1000
+     matrix (as 499,500 [[correlations]] tables the file would be 27 MB, over the 16 MiB
+     limit of a model file, docs/limits.md).
 
-Run: python benchmarks/growth.py [repeats] [--no-monte-carlo] [--pair-tables]
+Run: python benchmarks/growth.py [repeats] [--no-monte-carlo]
 (repeats: runs per figure below 10⁵ inputs, default 3; 10⁵ inputs run twice.)
 """
 
@@ -35,7 +36,7 @@ from typing import Callable
 
 sys.path.insert(0, os.path.dirname(__file__))
 
-from generate import (correlated_block, correlated_block_stated, defined_mean,  # noqa: E402
+from generate import (correlated_block_stated, defined_mean,  # noqa: E402
                       mean_of_determinations, product_model, sum_model)
 from measure import command, load  # noqa: E402
 
@@ -105,13 +106,11 @@ def _path(folder: Path, shape: str, n: int) -> Path:
     return folder / f"{shape.replace(' ', '_').replace(',', '')}-{n}.toml"
 
 
-def correlated_blocks(folder: Path, repeats: int, pair_tables: bool) -> None:
+def correlated_blocks(folder: Path, repeats: int) -> None:
     print("\n4. 1000 inputs in one correlated block (499,500 pairs), budget run MODEL "
           "--json --trials 0")
     forms = [("one r for every pair", correlated_block_stated(1000, form="r"), repeats),
              ("the full matrix", correlated_block_stated(1000, form="matrix"), repeats)]
-    if pair_tables:
-        forms.append(("499,500 pair tables", correlated_block(1000), 1))
     for name, text, runs_wanted in forms:
         path = folder / f"block-{len(text)}.toml"
         path.write_text(text)
@@ -143,7 +142,7 @@ def main() -> None:
             runs = command(["run", str(path), "--json", "--trials", "100000"],
                            repeats=repeats)
             print(f"   {shape:20s}: {runs.text()}", flush=True)
-    correlated_blocks(folder, repeats, "--pair-tables" in sys.argv)
+    correlated_blocks(folder, repeats)
     print(f"\nload average at the end {load()}")
 
 
