@@ -25,7 +25,8 @@ from . import longparse
 from .algebra import Node
 from .errors import Location, ModelSyntaxError, UnitError, UnknownNameError, did_you_mean
 from .limits import (LIMITS_PAGE, MAX_EXACT_DIGITS, MAX_EXPONENT, MAX_EXPRESSION_CHARS,
-                     MAX_NESTING, MAX_NUMBER_DIGITS, character_name, shorten)
+                     MAX_NESTING, MAX_NUMBER_DIGITS, character_name, excerpt, offset_in,
+                     shorten)
 from .units import DIMENSIONLESS, dimension_text, parse_unit
 
 __all__ = ["Term", "parse_expression", "names_in", "build", "FUNCTIONS"]
@@ -70,7 +71,8 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
         tree = longparse.parse(text.strip())
     except SyntaxError as exc:
         raise ModelSyntaxError(f"expected an arithmetic expression, found "
-                               f"'{shorten(text.strip())}' (syntax error at column "
+                               f"'{_near(text.strip(), exc.lineno, exc.offset)}' (syntax "
+                               f"error at column "
                                f"{exc.offset or 0})", where) from exc
     except (RecursionError, MemoryError) as exc:
         raise ModelSyntaxError(f"expected an expression nested at most {MAX_NESTING} deep "
@@ -157,6 +159,17 @@ def _same_chain(parent: ast.AST, child: ast.AST) -> bool:
             and any(isinstance(parent.op, c) and isinstance(child.op, c) for c in _CHAINS))
 
 
+def _near(text: str, line: int | None, column: int | None) -> str:
+    """An excerpt of ``text`` around a 1-based line and column (a SyntaxError's)."""
+    return excerpt(text, offset_in(text, line, (column or 1) - 1))
+
+
+def _at_node(text: str, node: ast.AST) -> str:
+    """An excerpt of ``text`` around where ``node`` starts."""
+    return excerpt(text, offset_in(text, getattr(node, "lineno", 1),
+                                   getattr(node, "col_offset", 0)))
+
+
 def _check_node(node: ast.AST, text: str, where: Location) -> None:
     if isinstance(node, ast.Constant) and isinstance(node.value, float) \
             and not math.isfinite(node.value):
@@ -164,9 +177,11 @@ def _check_node(node: ast.AST, text: str, where: Location) -> None:
                                f"'{ast.get_source_segment(text.strip(), node)}' (beyond the "
                                f"floating-point range of ±1.8e308)", where)
     if isinstance(node, ast.BinOp) and isinstance(node.op, ast.BitXor):
-        raise ModelSyntaxError(f"'^' is not a power in '{text.strip()}': write '**'", where)
+        raise ModelSyntaxError(f"'^' is not a power in '{_at_node(text.strip(), node)}': write "
+                               "'**'", where)
     if isinstance(node, ast.BinOp) and type(node.op) not in _BINARY:
-        raise ModelSyntaxError(f"expected one of + - * / ** in '{text.strip()}', found "
+        raise ModelSyntaxError(f"expected one of + - * / ** in "
+                               f"'{_at_node(text.strip(), node)}', found "
                                f"'{_op_text(node.op)}'", where)
     if isinstance(node, ast.UnaryOp) and not isinstance(node.op, (ast.USub, ast.UAdd)):
         raise ModelSyntaxError(f"expected unary + or -, found '{_op_text(node.op)}' in "
@@ -263,7 +278,8 @@ class _Builder:
         self.dimensionless = DIMENSIONLESS
 
     def segment(self, node: ast.AST) -> str:
-        return ast.get_source_segment(self.text, node) or ast.unparse(node)
+        """The source of ``node`` for a message (start … end when long)."""
+        return excerpt(ast.get_source_segment(self.text, node) or ast.unparse(node))
 
     def visit(self, node: ast.AST) -> Term:
         if isinstance(node, ast.Constant):
@@ -280,7 +296,8 @@ class _Builder:
 
     def name(self, node: ast.Name) -> Term:
         if node.id not in self.table:
-            raise UnknownNameError(f"unknown quantity '{node.id}' in '{self.text}'"
+            raise UnknownNameError(f"unknown quantity '{node.id}' in "
+                                   f"'{_at_node(self.text, node)}'"
                                    f"{did_you_mean(node.id, self.table)}", self.where)
         return self.table[node.id]
 

@@ -21,7 +21,7 @@ __all__ = ["MAX_FILE_BYTES", "MAX_DATA_BYTES", "MAX_EXPRESSION_CHARS", "MAX_NEST
            "MAX_TRIALS", "MAX_SECOND_ORDER_INPUTS", "DIGITS", "PROBABILITY",
            "MIN_RELIABILITY", "MAX_SEED", "LIMITS_PAGE", "check_seed", "check_probability",
            "check_digits", "check_trials", "as_float", "terminal_text", "control_character",
-           "shorten", "check_strings", "character_name", "parse_number"]
+           "shorten", "excerpt", "offset_in", "check_strings", "character_name", "parse_number"]
 
 LIMITS_PAGE = "docs/limits.md"
 MAX_FILE_BYTES = 16 * 2 ** 20  # a model or campaign file
@@ -111,6 +111,28 @@ def _shown(value: Any) -> str:
     if isinstance(value, int) and not isinstance(value, bool):
         return _count(value)
     return shorten(repr(value))
+
+
+def excerpt(text: str, at: int | None = None, width: int = 80) -> str:
+    """A source text quoted in a message: whole when at most ``width`` characters, else a
+    window of ``width`` characters around position ``at`` (or, without one, the start and
+    the end), each cut side marked '…' — a 10⁴-term equation is never quoted in full."""
+    if len(text) <= width:
+        return text
+    if at is None:
+        half = (width - 1) // 2
+        return f"{text[:half].rstrip()} … {text[-half:].lstrip()}"
+    start = min(max(0, at - width // 2), len(text) - width)
+    end = start + width
+    return ("…" if start > 0 else "") + text[start:end] + ("…" if end < len(text) else "")
+
+
+def offset_in(text: str, line: int | None, column: int | None) -> int:
+    """The character offset in ``text`` of a 1-based line and 0-based column (as in
+    ``ast`` nodes and ``SyntaxError``)."""
+    lines = text.split("\n")
+    before = sum(len(s) + 1 for s in lines[:max(0, (line or 1) - 1)])
+    return before + (column or 0)
 
 
 def shorten(text: str, width: int = 80) -> str:
