@@ -133,8 +133,19 @@ def _rows(rows: list[Any] | tuple[Any, ...], level: int, out: list[str]) -> bool
 def _write_columns(keys: tuple[Any, ...], columns: list[list[Any]], level: int,
                    out: list[str]) -> bool:
     """Rows of scalars (or lists of them) from their columns, a chunk at a time."""
-    template = "{" + ",".join(_pad(level + 2) + _key(key).replace("%", "%%") + ": %s"
-                              for key in keys) + _pad(level + 1) + "}"
+    slots, flat = [], []
+    for column in columns:
+        width = _fixed_width(column)
+        if width:  # lists of one length (a pair of names): one column per position
+            flat += [[items[i] for items in column] for i in range(width)]
+            slots.append("[" + ",".join([_pad(level + 3) + "%s"] * width)
+                         + _pad(level + 2) + "]")
+        else:
+            flat.append(column)
+            slots.append("%s")
+    columns = flat
+    template = "{" + ",".join(_pad(level + 2) + _key(key).replace("%", "%%") + ": " + slot
+                              for key, slot in zip(keys, slots)) + _pad(level + 1) + "}"
     inner = _pad(level + 1)
     written: list[str] = []
     for start in range(0, len(columns[0]), _CHUNK):
@@ -150,6 +161,18 @@ def _write_columns(keys: tuple[Any, ...], columns: list[list[Any]], level: int,
         out.append("," + inner + part if k else part)
     out.append(_pad(level) + "]")
     return True
+
+
+def _fixed_width(column: list[Any]) -> int:
+    """The common length of a column of non-empty lists of strings, else 0."""
+    if type(column[0]) not in (list, tuple) or not column[0]:
+        return 0
+    width = len(column[0])
+    if width > 8 or {type(items) for items in column} - {list, tuple} \
+            or set(map(len, column)) != {width} \
+            or {type(item) for items in column for item in items} != {str}:
+        return 0
+    return width
 
 
 def _column(values: list[Any], level: int) -> list[str] | None:

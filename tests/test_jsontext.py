@@ -63,6 +63,9 @@ HOSTILE: dict[str, Any] = {
     "empty": [[], {}, [{}], ""],
     "tuple rows": ({"x": (1.5, math.nan)}, {"x": (2, 3)}),
     "100%": [{"50%": True, "e": False}, {"50%": False, "e": None}],
+    "pairs": [{"a": ["x", "y"], "n": 1, "b": ("p", "q", "r")},
+              {"a": ["z", "\u00e9"], "n": 2, "b": ("s", "t", "u")}],
+    "uneven": [{"a": ["x", "y"]}, {"a": ["z"]}, {"a": []}],
     1: "int key", 2.5: "float key", None: "null key", False: "bool key",
 }
 
