@@ -76,3 +76,21 @@ def test_the_demo_lists_its_label_columns(cli) -> None:
     code, stdout, stderr = cli("certify", "--trials", "0", str(DEMO / "campaign.toml"))
     assert code == 0, stderr
     assert "read as labels: id, unit, date\n" in stdout
+
+
+def test_the_runs_of_a_further_method_are_checked_too(cli, tmp_path: Path) -> None:
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    runs = folder / "titrations.csv"
+    runs.write_text(runs.read_text(encoding="utf-8").replace(",m_x,", ",m_X,", 1),
+                    encoding="utf-8")
+    path = folder / "campaign-methods.toml"
+    code, _, stderr = cli("certify", "--trials", "0", str(path))
+    assert code == 1 and "[method] runs: expected the columns of 'titrations.csv'" in stderr
+    assert "found column 'm_X', a near miss of 'm_x'" in stderr
+    text = path.read_text(encoding="utf-8")
+    path.write_text(text.replace('runs = "titrations.csv"',
+                                 'runs = "titrations.csv"\nlabel_columns = ["m_X"]', 1),
+                    encoding="utf-8")
+    code, _, stderr = cli("certify", "--trials", "0", str(path))
+    assert code == 0 and "near miss" not in stderr, stderr
