@@ -16,15 +16,16 @@ lowest and the m − q highest of the m values (q = ⌊pm + ½⌋): when each si
 many, they are sorted and the intervals are exactly those of a full sort. When a side kept
 too few (the pilot misjudged the tail), the histogram's exact counts give a cut point that
 surely holds enough, and a second pass over the same blocks (same streams, so the same
-values) collects that side again. Memory is one block per worker plus about 1.25·(1 − p)
+values) collects that side again. Memory is one block per worker plus a little over (1 − p)
 of the values per side, whatever M.
 """
 
 from __future__ import annotations
 
+import itertools
 import math
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, Any, Callable, Iterator
 
 import numpy as np
@@ -68,9 +69,11 @@ class _Block:
 
 
 def cut_level(share: float, pilot: int) -> float:
-    """The probability below the low cut point (and above the high one): 1.25·(1 − p)
-    plus five standard errors of a quantile estimated from ``pilot`` values."""
-    return min(0.45, 1.25 * share + 5.0 * math.sqrt(share / pilot))
+    """The probability below the low cut point (and above the high one): 1 − p plus
+    five standard errors of the probability below a quantile estimated from ``pilot``
+    values, so that a side keeps too few values about once in three million runs (and
+    then the second pass gives the same exact result)."""
+    return min(0.45, share + 5.0 * math.sqrt(share * (1.0 - share) / pilot))
 
 
 def stream(sampler: "_Sampler", trials: int, coverage: float,
@@ -88,10 +91,19 @@ def stream(sampler: "_Sampler", trials: int, coverage: float,
     first = _summary(pilot, edges, cuts, several)
     if progress:
         progress(size)
-    blocks = [first, *_blocks(sampler, trials, workers, progress,
-                              lambda view: _summary(view, edges, cuts, several))]
+    counts = [np.zeros(HISTOGRAM_BINS, dtype=np.int64) for _ in edges]
+    outside = np.zeros((len(edges), 2), dtype=np.int64)
+    blocks: list[_Block] = []
+    for found in itertools.chain([first], _blocks(
+            sampler, trials, workers, progress,
+            lambda view: _summary(view, edges, cuts, several))):
+        for k, c in enumerate(found.counts):  # summed as they come: one histogram kept
+            counts[k] += c
+        outside += np.array(found.outside, dtype=np.int64)
+        blocks.append(replace(found, counts=[], outside=[]))
     moments, comoment = _moments(blocks)
-    histograms = tuple(_histogram(edges[k], blocks, k) for k in range(len(edges)))
+    histograms = tuple(Binned(edges=e, counts=c, below=int(o[0]), above=int(o[1]))
+                       for e, c, o in zip(edges, counts, outside))
     kept = [[b.kept[k] for b in blocks] for k in range(len(edges))]
     blocks.clear()
     m = int(moments[0, 0])
@@ -206,12 +218,6 @@ def _correlation(moments: np.ndarray, comoment: np.ndarray | None) -> np.ndarray
     np.fill_diagonal(correlation, 1.0)
     found: np.ndarray = correlation
     return found
-
-
-def _histogram(edges: np.ndarray, blocks: list[_Block], k: int) -> Binned:
-    counts = np.sum([b.counts[k] for b in blocks], axis=0)
-    return Binned(edges=edges, counts=counts, below=sum(b.outside[k][0] for b in blocks),
-                  above=sum(b.outside[k][1] for b in blocks))
 
 
 def _exact(sides: list[tuple[np.ndarray, np.ndarray]], m: int, p: float
