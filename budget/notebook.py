@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING, Any, Protocol, TypeVar
 
 from .errors import NotFoundError, did_you_mean
 from .formatting import format_number, format_pair, format_percent, shown_share
+from .unit_display import display_unit, spaced_unit
 
 if TYPE_CHECKING:
     from .analysis import Result
@@ -126,14 +127,15 @@ def simulation_text(s: MeasurandSimulation, digits: int = 2) -> str:
     reference = s.standard_uncertainty
     low, high = (short(x, reference, digits + 1)[0] for x in s.interval)
     short_low, short_high = (short(x, reference, digits + 1)[0] for x in s.shortest_interval)
-    lines = [f"{s.name}: {s.trials:,} trials   y = {mean} {s.unit}   u = {u} {s.unit}",
+    unit = spaced_unit(display_unit(s.unit))
+    lines = [f"{s.name}: {s.trials:,} trials   y = {mean}{unit}   u = {u}{unit}",
              f"  interval [{low}, {high}]   shortest [{short_low}, {short_high}]"]
     v = s.validation
     if v is not None:
         verdict = "validated" if v.validated else "NOT validated"
         lines.append(f"  GUM result {verdict} (JCGM 101 8.2): d_low = "
                      f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
-                     f"δ = {format_number(v.tolerance, 1)} {s.unit}")
+                     f"δ = {format_number(v.tolerance, 1)}{unit}")
     return "\n".join(lines)
 
 
@@ -143,7 +145,8 @@ def simulation_html(items: Sequence[MeasurandSimulation], digits: int = 2) -> st
         mean, u = short(s.mean, s.standard_uncertainty, digits + 1)
         v = s.validation
         verdict = "-" if v is None else ("validated" if v.validated else "not validated")
-        rows.append([s.name, f"{s.trials:,}", f"{mean} {s.unit}", f"{u} {s.unit}",
+        unit = spaced_unit(display_unit(s.unit))
+        rows.append([s.name, f"{s.trials:,}", f"{mean}{unit}", f"{u}{unit}",
                      f"[{s.interval[0]:.7g}, {s.interval[1]:.7g}]",
                      f"[{s.shortest_interval[0]:.7g}, {s.shortest_interval[1]:.7g}]", verdict])
     return table_html("Monte Carlo (JCGM 101)",
@@ -167,7 +170,8 @@ def result_html(result: Result) -> str:
 
 def explanation_html(e: Explanation, digits: int = 2) -> str:
     rows = [[d.input, format_percent(d.share), d.distribution, d.type,
-             f"{format_number(d.standard_uncertainty, digits)} {d.unit}",
+             f"{format_number(d.standard_uncertainty, digits)}"
+             f"{spaced_unit(display_unit(d.unit))}",
              short(e.estimate, d.halved_expanded_uncertainty, digits)[1]]
             for d in e.drivers]
     rows += [[name, format_percent(share), "", "", "", ""] for name, share in e.others]
@@ -175,7 +179,9 @@ def explanation_html(e: Explanation, digits: int = 2) -> str:
              f"{format_percent(e.type_b_share)} %", *e.reasons]
     return table_html(f"What dominates u_c²({e.name})",
                       ["input", "share of u_c² / %", "distribution", "type", "u(x_i)",
-                       f"U if u(x_i) halved / {e.unit}"], rows, notes=notes)
+                       "U if u(x_i) halved" + (f" / {display_unit(e.unit)}"
+                                               if display_unit(e.unit) else "")],
+                      rows, notes=notes)
 
 
 def certification_html(cert: Certification, digits: int = 2) -> str:

@@ -73,3 +73,14 @@ def test_a_dimensionless_unit_is_shown_as_nothing(cli, tmp_path: Path) -> None:
     text = html.read_text(encoding="utf-8")
     assert "Budget of <var>y</var></h2>" in text and "<td>1</td>" not in text
     assert " / </th>" not in text and "()" not in text
+
+
+def test_the_notebook_shows_a_dimensionless_unit_as_nothing(tmp_path: Path) -> None:
+    from budget.analysis import evaluate
+    from budget.model import load_model
+    from budget.notebook import simulation_text
+
+    result = evaluate(load_model(_tiny(tmp_path)), trials=20000)
+    text = simulation_text(result.simulation.measurands[0])
+    assert all(line == line.rstrip() and not line.endswith(" 1") for line in text.splitlines())
+    assert "u = 0.224\n" in text  # u_c = √(0.1² + 0.2²) = 0.2236 [C]
