@@ -238,6 +238,12 @@ def _check_definite(names: Sequence[str], pairs: Sequence[tuple[str, str, float]
     weight = np.abs(vectors[:, 0])
     culprits = {names[int(involved[i])] for i in np.flatnonzero(weight > 0.1 * weight.max())}
     named = [f"{a}-{b} ({r:g})" for a, b, r in pairs if a in culprits and b in culprits]
+    if len(named) > _NAMED:  # a block of 1000 inputs would name 499,500 pairs
+        named = named[:_NAMED] + [f"and {len(named) - _NAMED:,} more pairs among "
+                                  f"{len(culprits):,} inputs"]
     raise InputError(f"expected a positive semi-definite correlation matrix, found the "
                      f"smallest eigenvalue {values[0]:.3g}; the pairs {', '.join(named)} "
                      f"cannot hold together", where)
+
+
+_NAMED = 12  # pairs named one by one in the message about a matrix that is not PSD

@@ -293,3 +293,18 @@ def test_documents_the_compiled_parser_declines_are_read_or_refused_by_the_stand
             _loads(text)
     else:
         assert _loads(text) == expected
+
+
+def test_a_large_block_that_is_not_positive_semi_definite_is_refused_in_one_short_line():
+    # every pair at r = -0.01 among 300 inputs: the matrix has the eigenvalue
+    # 1 - 0.01·299 < 0 along (1, 1, …, 1) (a fact of linear algebra)
+    from budget.errors import InputError
+
+    names = ", ".join(f'"x_{i}"' for i in range(300))
+    text = (sum_model(300) + f"[[correlations]]\nbetween = [{names}]\nr = -0.01\n")
+    with pytest.raises(InputError) as caught:
+        parse_model(text)
+    message = str(caught.value)
+    assert "smallest eigenvalue -1.99; the pairs x_0-x_1 (-0.01), x_0-x_2 (-0.01)" in message
+    assert message.endswith("and 44,838 more pairs among 300 inputs cannot hold together")
+    assert len(message) < 600
