@@ -75,7 +75,8 @@ _KNOWN: dict[int, tuple[tuple[tuple[str, str, float], ...], tuple[str, ...], _In
 def remember(pairs: tuple[tuple[str, str, float], ...], names: Sequence[str],
              indexed: _Indexed) -> None:
     """Keep the index arrays of ``pairs`` (over ``names``) for :func:`indexed_pairs`."""
-    while len(_KNOWN) >= 8:
+    while len(_KNOWN) >= 2:  # the model being read and one before it: a block's arrays
+        # and pairs take tens of megabytes, and only propagate needs them again
         del _KNOWN[next(iter(_KNOWN))]
     _KNOWN[id(pairs)] = (pairs, tuple(names), indexed)
 
