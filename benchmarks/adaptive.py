@@ -21,9 +21,9 @@ sys.path.insert(0, os.path.dirname(__file__))
 
 from measure import load  # noqa: E402
 
-from budget.gum import propagate  # noqa: E402
-from budget.model import load_model  # noqa: E402
-from budget.montecarlo import simulate  # noqa: E402
+from budget._gum import propagate  # noqa: E402
+from budget._model import load_model  # noqa: E402
+from budget._montecarlo import simulate  # noqa: E402
 
 MODEL = Path(__file__).resolve().parent.parent / "models" / "reference" / "eurachem-a2-naoh.toml"
 

@@ -17,8 +17,8 @@ sys.path.insert(0, os.path.dirname(__file__))
 
 from measure import load  # noqa: E402
 
-from budget.model import parse_model  # noqa: E402
-from budget.montecarlo import simulate  # noqa: E402
+from budget._model import parse_model  # noqa: E402
+from budget._montecarlo import simulate  # noqa: E402
 
 
 def text(n: int) -> str:

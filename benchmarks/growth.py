@@ -52,8 +52,8 @@ SHAPES: dict[str, tuple[Callable[[int], str], Callable[[int], int]]] = {
 
 _ENGINE = """
 import sys, time
-from budget.gum import propagate
-from budget.model import load_model
+from budget._gum import propagate
+from budget._model import load_model
 start = time.process_time()
 propagate(load_model(sys.argv[1]))
 print(time.process_time() - start)

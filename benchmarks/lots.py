@@ -25,7 +25,7 @@ sys.path.insert(0, os.path.dirname(__file__))
 from measure import load  # noqa: E402
 
 from budget.lots import propagate_lots  # noqa: E402
-from budget.model import load_model  # noqa: E402
+from budget._model import load_model  # noqa: E402
 
 MODEL = Path(__file__).resolve().parent.parent / "models" / "reference" / "eurachem-a2-naoh.toml"
 
@@ -72,7 +72,7 @@ def main() -> None:
           f"{statistics.median(per_u):.2f} µs per lot")
     print(f"  ratio budget / uncertainties: median of per-round ratios "
           f"{statistics.median(ratios):.3f}")
-    from budget.gum import propagate
+    from budget._gum import propagate
 
     start = time.perf_counter()
     for m in masses[:200]:

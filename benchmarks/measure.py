@@ -18,7 +18,7 @@ from dataclasses import dataclass
 _CHILD = """
 import os, resource, sys
 sys.argv = ["budget"] + sys.argv[1:]
-from budget.cli import main
+from budget._cli import main
 code = 0
 try:
     main()

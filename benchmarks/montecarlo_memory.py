@@ -1,7 +1,7 @@
 """Peak memory of long Monte Carlo runs of the demo model (issue 18, item 3: 10^8 trials
 in at most 400 MB), each a whole `budget run --json` command in a fresh process.
 
-Runs above 10^7 values are streamed (budget/streaming.py): moments, a histogram and the
+Runs above 10^7 values are streamed (budget/_streaming.py): moments, a histogram and the
 tails only. Prints wall and CPU time (min and median) and the peak resident memory of the
 whole command (Python start-up included), with the load average. Run:
 

@@ -23,9 +23,9 @@ sys.path.insert(0, os.path.dirname(__file__))
 from generate import linear_model  # noqa: E402
 from measure import load  # noqa: E402
 
-from budget.gum import propagate  # noqa: E402
-from budget.model import parse_model  # noqa: E402
-from budget.montecarlo import simulate  # noqa: E402
+from budget._gum import propagate  # noqa: E402
+from budget._model import parse_model  # noqa: E402
+from budget._montecarlo import simulate  # noqa: E402
 
 
 def bare_draws(trials: int, inputs: int) -> tuple[float, float]:

@@ -47,7 +47,7 @@ def write_record(folder: Path, points: int = 100_001) -> None:
 
 def typed_in(model_path: Path) -> str:
     """The same model with every generated input typed in (TOML text)."""
-    from budget.model import load_model
+    from budget._model import load_model
 
     model = load_model(model_path)
     text = re.sub(r"^\[records\.[^\]]+\]\n(?:(?!\[).*\n)*", "", model_path.read_text(),
@@ -111,7 +111,7 @@ def main() -> None:
         typed = folder / "typed-in.toml"
         typed.write_text(typed_in(from_record), encoding="utf-8")
         started = time.perf_counter()
-        from budget.model import load_model
+        from budget._model import load_model
 
         load_model(from_record)
         parse = time.perf_counter() - started

@@ -33,7 +33,7 @@ DEMO = ROOT / "models" / "vics-as-25a" / "coulometric-purity.toml"
 _CHILD = """
 import resource, sys
 sys.argv = ["budget"] + sys.argv[1:]
-from budget.cli import main
+from budget._cli import main
 try:
     main()
 except SystemExit as stop:
@@ -71,8 +71,8 @@ def main() -> None:
         seconds, _ = run([ "run", str(path), "--json", "--trials", "0"], repeats=2)
         print(f"   {3 * n + 3:6d}   {seconds:7.2f}")
     print("   the engine alone (parse + GUM propagation, in process, best of 3):")
-    from budget.gum import propagate
-    from budget.model import parse_model
+    from budget._gum import propagate
+    from budget._model import parse_model
 
     for n in (33, 100, 200, 300, 500, 1000):
         text = mean_of_determinations(n)

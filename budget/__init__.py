@@ -16,23 +16,23 @@ from importlib import import_module
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:  # the same names, eagerly, for type checkers only
-    from .analysis import Result as Result, evaluate as evaluate
-    from .campaign import Campaign as Campaign, load_campaign as load_campaign
-    from .certification import Certification as Certification, certify as certify
-    from .chemistry import air_density as air_density, molar_mass as molar_mass
-    from .combination import Combined as Combined, combine as combine
-    from .joint import Joint as Joint, Member as Member, join as join
-    from .document import (certification_document as certification_document,
+    from ._analysis import Result as Result, evaluate as evaluate
+    from ._campaign import Campaign as Campaign, load_campaign as load_campaign
+    from ._certification import Certification as Certification, certify as certify
+    from ._chemistry import air_density as air_density, molar_mass as molar_mass
+    from ._combination import Combined as Combined, combine as combine
+    from ._joint import Joint as Joint, Member as Member, join as join
+    from ._document import (certification_document as certification_document,
                            result_document as result_document)
-    from .errors import BudgetError as BudgetError, Location as Location
-    from .explanation import explain as explain
-    from .gum import (Budget as Budget, Contribution as Contribution,
+    from ._errors import BudgetError as BudgetError, Location as Location
+    from ._explanation import explain as explain
+    from ._gum import (Budget as Budget, Contribution as Contribution,
                       MeasurandBudget as MeasurandBudget, propagate as propagate)
-    from .model import (Input as Input, Measurand as Measurand, Model as Model,
+    from ._model import (Input as Input, Measurand as Measurand, Model as Model,
                         load_model as load_model, parse_model as parse_model)
-    from .montecarlo import (MeasurandSimulation as MeasurandSimulation,
+    from ._montecarlo import (MeasurandSimulation as MeasurandSimulation,
                              Simulation as Simulation, simulate as simulate)
-    from .report import (render_certification_report as render_certification_report,
+    from ._report import (render_certification_report as render_certification_report,
                          render_report as render_report)
 
 __version__ = "0.2.0"
@@ -48,18 +48,18 @@ __all__ = [
 ]
 
 _WHERE = {
-    "BudgetError": "errors", "Location": "errors", "Model": "model", "Input": "model",
-    "Measurand": "model", "load_model": "model", "parse_model": "model", "Budget": "gum",
-    "MeasurandBudget": "gum", "Contribution": "gum", "propagate": "gum",
-    "Simulation": "montecarlo", "MeasurandSimulation": "montecarlo",
-    "simulate": "montecarlo", "Result": "analysis", "evaluate": "analysis",
-    "result_document": "document", "molar_mass": "chemistry", "air_density": "chemistry",
-    "load_campaign": "campaign", "Campaign": "campaign", "certify": "certification",
-    "Certification": "certification", "certification_document": "document",
-    "explain": "explanation", "render_report": "report",
-    "render_certification_report": "report",
-    "combine": "combination", "Combined": "combination", "join": "joint", "Joint": "joint",
-    "Member": "joint",
+    "BudgetError": "_errors", "Location": "_errors", "Model": "_model", "Input": "_model",
+    "Measurand": "_model", "load_model": "_model", "parse_model": "_model", "Budget": "_gum",
+    "MeasurandBudget": "_gum", "Contribution": "_gum", "propagate": "_gum",
+    "Simulation": "_montecarlo", "MeasurandSimulation": "_montecarlo",
+    "simulate": "_montecarlo", "Result": "_analysis", "evaluate": "_analysis",
+    "result_document": "_document", "molar_mass": "_chemistry", "air_density": "_chemistry",
+    "load_campaign": "_campaign", "Campaign": "_campaign", "certify": "_certification",
+    "Certification": "_certification", "certification_document": "_document",
+    "explain": "_explanation", "render_report": "_report",
+    "render_certification_report": "_report",
+    "combine": "_combination", "Combined": "_combination", "join": "_joint", "Joint": "_joint",
+    "Member": "_joint",
 }
 
 

@@ -1,5 +1,5 @@
 """``python -m budget``: the same as the ``budget`` command."""
 
-from .cli import main
+from ._cli import main
 
 main(prog_name="budget")

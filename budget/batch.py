@@ -23,7 +23,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable
 
-from .errors import BudgetError, InputError, Location
+from ._errors import BudgetError, InputError, Location
 
 __all__ = ["BatchEntry", "Batch", "find_campaigns", "certify_folder", "batch_document",
            "batch_rows", "BATCH_COLUMNS"]
@@ -81,8 +81,8 @@ def _is_campaign(path: Path) -> bool:
 
 def certify_one(path: str, trials: int | None, seed: int | None) -> BatchEntry:
     """Certify one campaign file (in a worker process); errors become the entry."""
-    from .campaign import load_campaign
-    from .certification import certify
+    from ._campaign import load_campaign
+    from ._certification import certify
 
     try:
         cert = certify(load_campaign(path), trials=trials, seed=seed)
@@ -150,8 +150,8 @@ def batch_rows(batch: Batch) -> list[dict[str, Any]]:
 
 def batch_document(batch: Batch) -> dict[str, Any]:
     """The JSON document of ``budget certify-all``."""
-    from .document import CAUTION
-    from .provenance import versions
+    from ._document import CAUTION
+    from ._provenance import versions
 
     values = [e.certified_value for e in batch.certified if e.certified_value is not None]
     widths = [e.expanded_uncertainty for e in batch.certified
@@ -179,7 +179,7 @@ def _sd(values: list[float]) -> float | None:
 
 def render_batch(batch: Batch, digits: int = 2) -> str:
     """The terminal summary: one line per campaign, in date order."""
-    from .formatting import format_pair
+    from ._formatting import format_pair
 
     lines = [f"{len(batch.entries)} campaign(s) under {batch.folder}: "
              f"{len(batch.certified)} certified, "

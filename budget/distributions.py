@@ -59,7 +59,7 @@ def _valid(owner: Any, *, widths: tuple[str, ...] = (), fraction: str | None = N
            dof: str | None = None) -> None:
     """Refuse a distribution that cannot be drawn: a non-finite estimate, a negative or
     non-finite width, a shape parameter outside [0, 1], degrees of freedom ≤ 0."""
-    from .errors import InputError
+    from ._errors import InputError
 
     kind = type(owner).__name__
     estimate = owner.estimate
@@ -341,7 +341,7 @@ class AtomicWeightSum:
     has_ppf = False
 
     def __post_init__(self) -> None:
-        from .errors import InputError
+        from ._errors import InputError
 
         if not len(self.counts) == len(self.centres) == len(self.half_widths):
             raise InputError(f"AtomicWeightSum: expected as many counts, centres and "

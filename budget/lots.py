@@ -25,8 +25,8 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
-from .errors import InputError, Location
-from .model import Model
+from ._errors import InputError, Location
+from ._model import Model
 
 __all__ = ["LotBudgets", "propagate_lots"]
 
@@ -60,7 +60,7 @@ def propagate_lots(model: Model, estimates: Mapping[str, Sequence[float]],
     x = _columns(model, estimates, lots, lambda i: i.estimate)
     u = np.array(_columns(model, uncertainties or {}, lots,
                           lambda i: i.standard_uncertainty))  # (inputs, L)
-    from .evaluation import compile_model
+    from ._evaluation import compile_model
 
     values, jacobian = compile_model(model).gradient_many(x)  # (k, L), (k, n, L)
     parts = jacobian * u[None, :, :]  # c_i u_i, (k, n, L)
@@ -85,7 +85,7 @@ def _count(model: Model, estimates: Mapping[str, Sequence[float]],
     for table in (estimates, uncertainties):
         for name, column in table.items():
             if name not in names:
-                from .errors import did_you_mean
+                from ._errors import did_you_mean
 
                 raise InputError(f"expected an input of the model, found '{name}'"
                                  f"{did_you_mean(name, sorted(names))}", where)
@@ -123,7 +123,7 @@ def _welch_satterthwaite(combined: np.ndarray, parts: np.ndarray,
 
 def _coverage_factors(coverage: float, nu: np.ndarray) -> np.ndarray:
     """k = t_p(ν) for each lot, computed once per distinct truncated ν."""
-    from .gum import coverage_factor
+    from ._gum import coverage_factor
 
     key = np.where(np.isfinite(nu), np.maximum(1.0, np.floor(np.round(nu, 1))), math.inf)
     k = np.empty_like(key)

@@ -8,8 +8,8 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from budget.cli import main
-from budget.model import parse_model
+from budget._cli import main
+from budget._model import parse_model
 
 ROOT = Path(__file__).resolve().parent.parent
 MODELS = ROOT / "models"

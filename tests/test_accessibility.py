@@ -10,11 +10,11 @@ from importlib import resources
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.campaign import load_campaign
-from budget.certification import certify
-from budget.model import load_model
-from budget.report import render_certification_report, render_report
+from budget._analysis import evaluate
+from budget._campaign import load_campaign
+from budget._certification import certify
+from budget._model import load_model
+from budget._report import render_certification_report, render_report
 
 from conftest import MODELS
 

@@ -7,13 +7,13 @@ import math
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.audit_view import audit_view, element_rows
-from budget.equations_view import sensitivity_view
-from budget.explanation import explain
-from budget.model import load_model
-from budget.report import render_report
-from budget.typeset import name_html
+from budget._analysis import evaluate
+from budget._audit_view import audit_view, element_rows
+from budget._equations_view import sensitivity_view
+from budget._explanation import explain
+from budget._model import load_model
+from budget._report import render_report
+from budget._typeset import name_html
 
 from conftest import MODELS
 

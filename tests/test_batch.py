@@ -14,9 +14,9 @@ import pytest
 from click.testing import CliRunner
 
 from budget.batch import certify_folder, find_campaigns
-from budget.campaign import load_campaign
-from budget.certification import certify
-from budget.cli import main
+from budget._campaign import load_campaign
+from budget._certification import certify
+from budget._cli import main
 
 DEMO = Path(__file__).resolve().parent.parent / "models" / "vics-as-25a"
 

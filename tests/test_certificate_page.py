@@ -13,11 +13,11 @@ from pathlib import Path
 import pytest
 from scipy import stats
 
-from budget.campaign import load_campaign
-from budget.certificate_page import SAFETY_CAUTION, certificate_page, coverage_of
-from budget.certification import certify
-from budget.formatting import format_pair
-from budget.report import render_certification_report
+from budget._campaign import load_campaign
+from budget._certificate_page import SAFETY_CAUTION, certificate_page, coverage_of
+from budget._certification import certify
+from budget._formatting import format_pair
+from budget._report import render_certification_report
 
 from conftest import MODELS
 
@@ -120,7 +120,7 @@ def test_warnings_are_restated_in_the_certificates_unit(tmp_path):
 
 
 def test_a_further_methods_warning_in_mg_per_kg_is_restated_in_percent():
-    from budget.certificate_page import _restate
+    from budget._certificate_page import _restate
 
     # 1 mg/kg = 1e-6 = 1e-4 % (SI prefixes; common practice)
     text = ("method 'mass balance/water': 'w_H2O': Monte Carlo does not validate the GUM "

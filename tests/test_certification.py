@@ -10,9 +10,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from budget.campaign import load_campaign
-from budget.certification import anova, certify, trend
-from budget.errors import CampaignError
+from budget._campaign import load_campaign
+from budget._certification import anova, certify, trend
+from budget._errors import CampaignError
 
 from conftest import MODELS
 

@@ -8,9 +8,9 @@ import math
 
 import pytest
 
-from budget.chain import chain_rule
-from budget.gum import propagate
-from budget.model import load_model
+from budget._chain import chain_rule
+from budget._gum import propagate
+from budget._model import load_model
 
 from conftest import model
 from test_typeset import MODEL_FILES
@@ -111,7 +111,7 @@ def test_units_of_mixed_prefixes_are_converted():
 
 
 def test_a_derivative_through_air_density_has_a_value_but_no_formula():
-    from budget.equations_view import sensitivity_view
+    from budget._equations_view import sensitivity_view
 
     m = model("""
         title = "air density"
@@ -144,7 +144,7 @@ def test_a_derivative_through_air_density_has_a_value_but_no_formula():
 
 
 def test_a_wide_formula_is_folded_after_each_term():
-    from budget.equations_view import FOLD_WIDTH, _folded
+    from budget._equations_view import FOLD_WIDTH, _folded
 
     text = " + ".join(f"Q_post{i} * U_meas{i} * R_std{i}" for i in range(8))
     folded = _folded("<mi>y</mi>", text)
@@ -159,8 +159,8 @@ def test_each_printed_formula_evaluates_to_its_derivative(path):
     # two independent differentiations of the same text
     import ast
 
-    from budget.chain import _Quantity, _sweep
-    from budget.units import DIMENSIONLESS
+    from budget._chain import _Quantity, _sweep
+    from budget._units import DIMENSIONLESS
 
     loaded = load_model(path)
     for k in range(len(loaded.measurands)):
@@ -184,7 +184,7 @@ def test_a_model_of_thousands_of_inputs_gets_its_chains():
             f"s = \"{' + '.join(f'x{i}' for i in range(n))}\"\n"
             f"[inputs.n]\nvalue = {n}\nexact = true\n"
             + "".join(f"[inputs.x{i}]\nvalue = 1\nu = 0.01\n" for i in range(n)))
-    from budget.model import parse_model
+    from budget._model import parse_model
 
     m = parse_model(text)
     rule = chain_rule(m, 0)

@@ -25,9 +25,9 @@ import shutil
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.errors import BudgetError
-from budget.model import load_model
+from budget._analysis import evaluate
+from budget._errors import BudgetError
+from budget._model import load_model
 from conftest import MODELS
 
 CHAIN = MODELS / "chain"
@@ -161,7 +161,7 @@ def test_bad_links_are_errors(tmp_path, table, message):
 
 
 def test_the_report_shows_the_chain():
-    from budget.report import render_report
+    from budget._report import render_report
 
     page = render_report(evaluate(load_model(CHAIN / "acid-assay.toml"), trials=0))
     assert "Chained results" in page

@@ -8,10 +8,10 @@ import math
 import pytest
 import scipy.constants
 
-from budget.chemistry import (CONSTANTS, CONVENTIONS, air_density, atomic_weight,
+from budget._chemistry import (CONSTANTS, CONVENTIONS, air_density, atomic_weight,
                               molar_mass, parse_formula)
-from budget.errors import InputError
-from budget.gum import propagate
+from budget._errors import InputError
+from budget._gum import propagate
 
 from conftest import model
 

@@ -152,7 +152,7 @@ def test_adaptive_flag(cli):
 
 
 def test_progress_is_shown_on_a_terminal_only_after_a_second(monkeypatch, capsys):
-    from budget import cli as module
+    from budget import _cli as module
 
     monkeypatch.setattr(module.sys.stderr, "isatty", lambda: True, raising=False)
     progress = module._Progress(True)

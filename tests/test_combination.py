@@ -1,4 +1,4 @@
-"""budget.combination: GLS mean, plain mean, random effects, consistency check."""
+"""budget._combination: GLS mean, plain mean, random effects, consistency check."""
 
 from __future__ import annotations
 
@@ -11,9 +11,9 @@ from hypothesis import strategies as st
 from scipy.optimize import brentq
 from scipy.stats import chi2
 
-from budget.combination import (combine, consistency, dersimonian_laird, gls_mean,
+from budget._combination import (combine, consistency, dersimonian_laird, gls_mean,
                                 paule_mandel, plain_mean)
-from budget.errors import PropagationError
+from budget._errors import PropagationError
 
 # BCG vaccine trials (Colditz et al., JAMA 271 (1994) 698), the worked example of the R
 # package metafor (dat.bcg): TB positive / negative in the vaccinated and control groups.

@@ -12,8 +12,8 @@ from pathlib import Path
 import pytest
 from click.testing import CliRunner
 
-from budget.cli import main
-from budget.console import encodable
+from budget._cli import main
+from budget._console import encodable
 from conftest import MODELS
 
 A2 = str(MODELS / "reference" / "eurachem-a2-naoh.toml")

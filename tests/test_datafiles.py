@@ -1,4 +1,4 @@
-"""Data tables as laboratories keep them (budget/datafiles.py, datadates.py, workbooks.py):
+"""Data tables as laboratories keep them (budget/_datafiles.py, datadates.py, workbooks.py):
 separators, decimal commas, encodings, units in headers, missing values, dates, xlsx.
 
 Date arithmetic is checked against the standard library's ``datetime``; the length of a
@@ -15,10 +15,10 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from budget.datadates import elapsed, parse_dates
-from budget.datafiles import FileFormat, convert, read_table, split_header
-from budget.errors import BudgetError, DataFileError, Location, UnitError
-from budget.units import parse_unit
+from budget._datadates import elapsed, parse_dates
+from budget._datafiles import FileFormat, convert, read_table, split_header
+from budget._errors import BudgetError, DataFileError, Location, UnitError
+from budget._units import parse_unit
 
 
 def _write(tmp_path: Path, name: str, text: str, encoding: str = "utf-8") -> Path:
@@ -272,7 +272,7 @@ def test_any_table_reads_or_fails_with_a_budget_error(tmp_path, rows, separator,
 
 
 def test_record_files_read_decimal_commas_and_windows_1252(tmp_path):
-    from budget.recordfiles import read_columns
+    from budget._recordfiles import read_columns
 
     path = tmp_path / "r.csv"
     path.write_bytes("# Strom über die Zeit\nt [s];I / mA\n0;1,5\n1;1,25\n".encode("cp1252"))

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
-from budget.certification import anova, trend
+from budget._certification import anova, trend
 
 from conftest import MODELS
 

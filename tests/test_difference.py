@@ -13,8 +13,8 @@ import math
 
 import pytest
 
-from budget.difference import compare, load_side
-from budget.difference_view import difference_document, render_difference
+from budget._difference import compare, load_side
+from budget._difference_view import difference_document, render_difference
 
 A = """
 # budget A (invented)

@@ -6,7 +6,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
-from budget.formatting import SHARE_FLOOR, format_percent
+from budget._formatting import SHARE_FLOOR, format_percent
 
 # c(X2) = X3 - 0.3 at X3 = 0.1 + 0.2 is 5.55e-17 (binary rounding of 0.1 + 0.2, IEEE 754),
 # so X2 carries a share of about 6.5e-32 % of u_c²: zero in any sense a chemist uses
@@ -76,9 +76,9 @@ def test_a_dimensionless_unit_is_shown_as_nothing(cli, tmp_path: Path) -> None:
 
 
 def test_the_notebook_shows_a_dimensionless_unit_as_nothing(tmp_path: Path) -> None:
-    from budget.analysis import evaluate
-    from budget.model import load_model
-    from budget.notebook import simulation_text
+    from budget._analysis import evaluate
+    from budget._model import load_model
+    from budget._notebook import simulation_text
 
     result = evaluate(load_model(_tiny(tmp_path)), trials=20000)
     text = simulation_text(result.simulation.measurands[0])

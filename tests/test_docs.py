@@ -32,8 +32,8 @@ import jsonschema
 import pytest
 from click.testing import CliRunner
 
-from budget.cli import main
-from budget.model import parse_model
+from budget._cli import main
+from budget._model import parse_model
 
 ROOT = Path(__file__).resolve().parent.parent
 PAGES = [ROOT / "README.md", *sorted((ROOT / "docs").glob("*.md"))]
@@ -98,8 +98,8 @@ def _toml(body: str, scratch: Path) -> None:
         (folder / "doc-campaign.toml").write_text(body, encoding="utf-8")
         certify(load_campaign(folder / "doc-campaign.toml"), trials=0)
     elif "[certificates." in body:
-        from budget.errors import Location
-        from budget.register import load_register
+        from budget._errors import Location
+        from budget._register import load_register
 
         (scratch / "register.toml").write_text(body, encoding="utf-8")
         assert load_register(scratch / "register.toml", Location(), "iupac-2021-interval")

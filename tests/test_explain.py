@@ -8,8 +8,8 @@ import json
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.explanation import explain
+from budget._analysis import evaluate
+from budget._explanation import explain
 
 from conftest import MODELS, model
 
@@ -165,7 +165,7 @@ def test_a_strongly_nonlinear_model_gets_the_reason():
     ("X1**2 + X2", False), ("exp(X1)", False), ("X1 / X3", False), ("X1**1 + sqrt(c)", True),
 ])
 def test_linearity_is_read_from_the_expression_graph(equation, linear):
-    from budget.explanation import is_linear
+    from budget._explanation import is_linear
 
     text = SUM.replace('equation = "X1 + X2 - 2 * X3 / c"', f'equation = "{equation}"')
     assert is_linear(model(text), "y") is linear

@@ -7,10 +7,10 @@ import builtins
 import pytest
 import sympy
 
-from budget.chemistry import air_density
-from budget.errors import ModelSyntaxError
-from budget.gum import propagate
-from budget.model import parse_model
+from budget._chemistry import air_density
+from budget._errors import ModelSyntaxError
+from budget._gum import propagate
+from budget._model import parse_model
 
 from conftest import model
 

@@ -1,4 +1,4 @@
-"""Least-squares fits (budget/fits.py) against published examples and reference libraries."""
+"""Least-squares fits (budget/_fits.py) against published examples and reference libraries."""
 
 from __future__ import annotations
 
@@ -9,7 +9,7 @@ from typing import Any
 import numpy as np
 import pytest
 
-from budget.fits import FitError, exponential, polynomial, york
+from budget._fits import FitError, exponential, polynomial, york
 
 # JCGM 100:2008 (GUM) H.3, Table H.6: thermometer readings t_k / °C and corrections b_k / °C
 # [V: the eleven pairs as printed in the MSL GTC documentation of its GUM H3 example]
@@ -243,8 +243,8 @@ def test_gum_h3_model_file_fits_the_csv_and_predicts_at_30_degrees():
     # that fits the eleven pairs itself (models/reference/gum-h3-thermometer-fit.toml)
     from conftest import MODELS
 
-    from budget.gum import propagate
-    from budget.model import load_model
+    from budget._gum import propagate
+    from budget._model import load_model
 
     model = load_model(MODELS / "reference" / "gum-h3-thermometer-fit.toml")
     y1, y2 = model.input("y1"), model.input("y2")

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import pytest
 
-from budget.formatting import format_dof, format_pair, format_percent
+from budget._formatting import format_dof, format_pair, format_percent
 
 
 @pytest.mark.parametrize("value, u, digits, expected", [

@@ -22,13 +22,13 @@ from hypothesis import HealthCheck, given, settings, strategies as st
 
 from click.testing import CliRunner
 
-from budget.analysis import evaluate
-from budget.campaign import load_campaign
-from budget.certification import certify
-from budget.cli import main
-from budget.errors import BudgetError
-from budget.model import parse_model
-from budget.report import write_report
+from budget._analysis import evaluate
+from budget._campaign import load_campaign
+from budget._certification import certify
+from budget._cli import main
+from budget._errors import BudgetError
+from budget._model import parse_model
+from budget._report import write_report
 
 from conftest import MODELS
 

@@ -12,10 +12,10 @@ import uncertainties
 from hypothesis import given, settings, strategies as st
 from uncertainties import umath
 
-from budget.errors import PropagationError
-from budget.evaluation import symbolic_sensitivities
-from budget.gum import propagate
-from budget.model import parse_model
+from budget._errors import PropagationError
+from budget._evaluation import symbolic_sensitivities
+from budget._gum import propagate
+from budget._model import parse_model
 
 from conftest import model
 

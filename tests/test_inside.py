@@ -12,8 +12,8 @@ import re
 import pytest
 
 from budget import distributions as dist
-from budget.errors import BudgetError
-from budget.model import Input, parse_model
+from budget._errors import BudgetError
+from budget._model import Input, parse_model
 from conftest import ROOT
 
 EVERY_CLASS = {
@@ -79,7 +79,7 @@ def test_library_messages_name_no_command_line_flag() -> None:
     flag = re.compile(r"(?<![\w-])--[a-z][a-z-]+")
     found = []
     for path in sorted((ROOT / "budget").glob("*.py")):
-        if path.name == "cli.py":
+        if path.name == "_cli.py":
             continue
         for line, text in _strings(ast.parse(path.read_text(encoding="utf-8"))):
             if flag.search(text):
@@ -149,28 +149,40 @@ def _imports(path) -> set[str]:
     return {node.module or "" for node in ast.walk(tree) if isinstance(node, ast.ImportFrom)}
 
 
-@pytest.mark.parametrize("name", ["report.py", "certification_view.py", "audit_view.py",
-                                  "methods_output.py", "studies_output.py", "batch_view.py",
-                                  "notebook.py", "certificate_page.py", "equations_view.py",
-                                  "difference_view.py"])
+@pytest.mark.parametrize("name", ["_report.py", "_certification_view.py", "_audit_view.py",
+                                  "_methods_output.py", "_studies_output.py", "_batch_view.py",
+                                  "_notebook.py", "_certificate_page.py", "_equations_view.py",
+                                  "_difference_view.py"])
 def test_html_views_take_their_cells_from_the_shared_module_not_the_terminal(name) -> None:
-    """The terminal table (table.py) and the report share budget/cells.py; no HTML view
+    """The terminal table (_table.py) and the report share budget/_cells.py; no HTML view
     imports the terminal module."""
-    assert "table" not in _imports(ROOT / "budget" / name)
+    assert "_table" not in _imports(ROOT / "budget" / name)
 
 
 def test_the_report_uses_the_shared_cells() -> None:
-    assert "cells" in _imports(ROOT / "budget" / "report.py")
-    assert "cells" in _imports(ROOT / "budget" / "table.py")
+    assert "_cells" in _imports(ROOT / "budget" / "_report.py")
+    assert "_cells" in _imports(ROOT / "budget" / "_table.py")
 
 
 def test_explain_analysis_and_rendering_are_split() -> None:
-    """explanation.py computes; explanation_view.py writes the text and the JSON document
-    (explanation.py reaches it only lazily, for the notebook's summary() and to_dict())."""
-    analysis = ast.parse((ROOT / "budget" / "explanation.py").read_text(encoding="utf-8"))
+    """_explanation.py computes; _explanation_view.py writes the text and the JSON document
+    (_explanation.py reaches it only lazily, for the notebook's summary() and to_dict())."""
+    analysis = ast.parse((ROOT / "budget" / "_explanation.py").read_text(encoding="utf-8"))
     top = {node.module for node in analysis.body if isinstance(node, ast.ImportFrom)}
-    assert not top & {"explanation_view", "table", "report", "console"}
-    view = _imports(ROOT / "budget" / "explanation_view.py")
-    assert "explanation" in view
+    assert not top & {"_explanation_view", "_table", "_report", "_console"}
+    view = _imports(ROOT / "budget" / "_explanation_view.py")
+    assert "_explanation" in view
     functions = {node.name for node in analysis.body if isinstance(node, ast.FunctionDef)}
     assert not {f for f in functions if f.startswith(("render", "format"))}
+
+
+PUBLIC_MODULES = {"__init__", "__main__", "distributions", "lots", "batch"}
+
+
+def test_internal_modules_are_marked_private() -> None:
+    """The public API is budget.__all__ plus the public modules docs/api.md names; every
+    other module's name starts with an underscore (DEVELOPERS.md, Modules)."""
+    names = {p.stem for p in (ROOT / "budget").glob("*.py")}
+    assert not {n for n in names - PUBLIC_MODULES if not n.startswith("_")}
+    api = (ROOT / "docs" / "api.md").read_text(encoding="utf-8")
+    assert all(f"`budget.{n}`" in api for n in PUBLIC_MODULES - {"__init__", "__main__"})

@@ -1,4 +1,4 @@
-"""budget.joint: several models with shared inputs as one evaluation."""
+"""budget._joint: several models with shared inputs as one evaluation."""
 
 from __future__ import annotations
 
@@ -7,11 +7,11 @@ import math
 import numpy as np
 import pytest
 
-from budget.errors import InputError
-from budget.gum import propagate
-from budget.joint import Member, join
-from budget.model import parse_model
-from budget.montecarlo import simulate
+from budget._errors import InputError
+from budget._gum import propagate
+from budget._joint import Member, join
+from budget._model import parse_model
+from budget._montecarlo import simulate
 
 FIRST = """
 title = "first"
@@ -105,7 +105,7 @@ def test_sets_estimated_together_are_carried_and_merged() -> None:
     # that share both keep ONE set, two that share neither keep two renamed sets
     from conftest import MODELS
 
-    from budget.model import load_model
+    from budget._model import load_model
 
     model = load_model(MODELS / "reference" / "gum-h3-thermometer.toml")
     members = [Member(name="one", model=model), Member(name="two", model=model)]

@@ -17,11 +17,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from budget.analysis import evaluate
-from budget.document import json_safe, result_document
-from budget import jsontext
-from budget.jsontext import json_text
-from budget.model import load_model, parse_model
+from budget._analysis import evaluate
+from budget._document import json_safe, result_document
+from budget import _jsontext as jsontext
+from budget._jsontext import json_text
+from budget._model import load_model, parse_model
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -106,7 +106,7 @@ def test_the_command_line_writes_the_same_text(tmp_path: Path) -> None:
 
     from click.testing import CliRunner
 
-    from budget.cli import main
+    from budget._cli import main
 
     names = ", ".join(f'"x_{i}"' for i in range(5))
     path = tmp_path / "block.toml"

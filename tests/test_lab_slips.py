@@ -18,10 +18,10 @@ import pytest
 from conftest import MODELS, model
 from scipy import stats
 
-from budget.campaign import load_campaign
-from budget.certification import anova, certify
-from budget.errors import BudgetError, CampaignError
-from budget.plausibility import AIR_DENSITY_VALIDITY
+from budget._campaign import load_campaign
+from budget._certification import anova, certify
+from budget._errors import BudgetError, CampaignError
+from budget._plausibility import AIR_DENSITY_VALIDITY
 
 DEMO = MODELS / "vics-as-25a"
 FILES = tuple(p.name for p in sorted(DEMO.iterdir()) if p.is_file())

@@ -16,10 +16,10 @@ from fractions import Fraction
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.errors import BudgetError, InputError, SimulationError
-from budget.gum import propagate
-from budget.model import parse_model
+from budget._analysis import evaluate
+from budget._errors import BudgetError, InputError, SimulationError
+from budget._gum import propagate
+from budget._model import parse_model
 
 from conftest import ROOT
 
@@ -120,8 +120,8 @@ def test_a_root_that_is_not_1_1000_keeps_its_exponent() -> None:
     model = parse_model(text("a ** (1/1001)", unit="m"), name="root.toml")
     assert model.measurands[0].unit == "m**(1/1001)"
     # the unit text reads back as the same unit (pint parses it)
-    from budget.units import parse_unit
-    from budget.errors import Location
+    from budget._units import parse_unit
+    from budget._errors import Location
 
     assert parse_unit("m**(1/1001)", Location()).unit.dims == (("[length]",
                                                                  Fraction(1, 1001)),)
@@ -195,12 +195,12 @@ def test_bad_numbers_on_the_command_line_exit_2(cli, args, message) -> None:
 
 
 def test_ctrl_c_exits_130_without_a_traceback(cli, monkeypatch) -> None:
-    import budget.analysis
+    import budget._analysis
 
     def interrupted(*args, **kwargs):
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(budget.analysis, "evaluate", interrupted)
+    monkeypatch.setattr(budget._analysis, "evaluate", interrupted)
     code, stdout, stderr = cli("run", str(ROOT / "models/reference/eurachem-a2-naoh.toml"))
     assert (code, stdout, stderr) == (130, "", "error: interrupted\n")
 
@@ -209,7 +209,7 @@ def test_closed_standard_output_is_an_error() -> None:
     model = ROOT / "models/reference/eurachem-a2-naoh.toml"
     for closing in ("", "import os; os.close(1); "):  # closed before or after start-up
         done = subprocess.run(
-            [sys.executable, "-c", closing + "from budget.cli import main; main()", "check",
+            [sys.executable, "-c", closing + "from budget._cli import main; main()", "check",
              str(model)], preexec_fn=None if closing else (lambda: os.close(1)),
             stderr=subprocess.PIPE, text=True, timeout=60)
         assert done.returncode == 1
@@ -278,7 +278,7 @@ def test_control_characters_from_data_are_escaped_on_the_terminal(cli, tmp_path)
 
 
 def test_a_value_is_never_shown_with_more_digits_than_a_double_holds() -> None:
-    from budget.formatting import format_pair
+    from budget._formatting import format_pair
 
     # 17 significant digits: the precision of an IEEE 754 double (common practice)
     assert format_pair(1.0, 1e-200) == ("1.0000000000000000E+0", "1.0E-200")

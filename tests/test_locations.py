@@ -9,12 +9,12 @@ from pathlib import Path
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.combination import combine
-from budget.errors import BudgetError, Location, PropagationError
-from budget.gum import propagate
-from budget.joint import Member, join
-from budget.model import parse_model
+from budget._analysis import evaluate
+from budget._combination import combine
+from budget._errors import BudgetError, Location, PropagationError
+from budget._gum import propagate
+from budget._joint import Member, join
+from budget._model import parse_model
 
 ROOT = Path(__file__).resolve().parent.parent / "budget"
 
@@ -47,7 +47,7 @@ def test_combination_errors_name_the_table_that_chose_the_results() -> None:
 
 
 def test_intercomparison_gives_its_campaign_table_to_combine() -> None:
-    source = (ROOT / "intercomparison.py").read_text(encoding="utf-8")
+    source = (ROOT / "_intercomparison.py").read_text(encoding="utf-8")
     assert "combine(x[chosen], sub, plan.rule, where=where)" in source
     assert 'table="combination"' in source
 
@@ -84,7 +84,7 @@ def test_a_non_finite_higher_order_derivative_names_the_equation() -> None:
 
 
 def test_monte_carlo_errors_name_the_file_and_the_key() -> None:
-    from budget.montecarlo import simulate
+    from budget._montecarlo import simulate
 
     model = parse_model(PAIR.format(r=0.0), "m.toml")
     with pytest.raises(BudgetError) as caught:
@@ -104,7 +104,7 @@ def test_monte_carlo_errors_name_the_file_and_the_key() -> None:
 
 
 def test_an_adaptive_coverage_beyond_the_limit_names_the_setting() -> None:
-    from budget.montecarlo import simulate
+    from budget._montecarlo import simulate
 
     model = parse_model(PAIR.format(r=0.0) + "[settings]\ncoverage = 0.99999999\n", "m.toml")
     with pytest.raises(BudgetError) as caught:

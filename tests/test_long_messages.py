@@ -5,9 +5,9 @@ from __future__ import annotations
 
 import pytest
 
-from budget.errors import BudgetError
-from budget.limits import excerpt
-from budget.model import parse_model
+from budget._errors import BudgetError
+from budget._limits import excerpt
+from budget._model import parse_model
 
 N = 10_000
 SUM = " + ".join(f"x{i}" for i in range(N))

@@ -9,10 +9,10 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from budget.errors import InputError
-from budget.gum import propagate
+from budget._errors import InputError
+from budget._gum import propagate
 from budget.lots import propagate_lots
-from budget.model import load_model
+from budget._model import load_model
 
 MODELS = Path(__file__).resolve().parent.parent / "models"
 A2 = MODELS / "reference" / "eurachem-a2-naoh.toml"

@@ -13,9 +13,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from budget.campaign import load_campaign
-from budget.certification import certify
-from budget.errors import BudgetError, CampaignError, InputError
+from budget._campaign import load_campaign
+from budget._certification import certify
+from budget._errors import BudgetError, CampaignError, InputError
 
 from conftest import MODELS
 
@@ -329,9 +329,9 @@ def test_mutated_three_method_campaigns_fail_only_with_budget_errors(
 
 @pytest.mark.parametrize("rule", ["mean", "dersimonian-laird", "paule-mandel"])
 def test_declared_rule_reaches_the_certified_value(tmp_path: Path, rule: str) -> None:
-    # the campaign's rule gives the same value as budget.combination on the method
+    # the campaign's rule gives the same value as budget._combination on the method
     # covariance matrix (itself checked against published and independent computations)
-    from budget.combination import combine
+    from budget._combination import combine
 
     cert = certify(load_campaign(_write(tmp_path, TWO + f"""
 [combination]

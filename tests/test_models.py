@@ -43,8 +43,8 @@ def test_campaign_runs_end_to_end(path, cli):
 @pytest.mark.parametrize("path", _REGISTERS,
                          ids=[str(p.relative_to(MODELS)) for p in _REGISTERS])
 def test_register_loads(path):
-    from budget.errors import Location
-    from budget.register import load_register
+    from budget._errors import Location
+    from budget._register import load_register
 
     register = load_register(path, Location(file="test"), "iupac-2021-interval")
     assert register.certificates
@@ -59,9 +59,9 @@ def test_amount_content_times_molar_mass_is_the_mass_fraction():
     # the amount-content variant writes charges in mC, the mass in mg, the pressure in hPa
     # and the humidity in %: kappa * M must equal the mass-fraction model's w (same
     # determination D1) once the units are converted [C: w / % = kappa * M / 10]
-    from budget.chemistry import molar_mass
-    from budget.gum import propagate
-    from budget.model import load_model
+    from budget._chemistry import molar_mass
+    from budget._gum import propagate
+    from budget._model import load_model
 
     kappa = propagate(load_model(MODELS / "vics-as-25a" / "coulometric-amount-content.toml")
                       ).measurand("kappa").estimate
@@ -72,8 +72,8 @@ def test_amount_content_times_molar_mass_is_the_mass_fraction():
 
 def test_weight_titration_reproduces_the_demo_comparison_value():
     # invented demo data (../shared/demo/README.md): the weight titration gives 99.978 %
-    from budget.gum import propagate
-    from budget.model import load_model
+    from budget._gum import propagate
+    from budget._model import load_model
 
     w = propagate(load_model(MODELS / "vics-as-25a" / "weight-titration-comparison.toml")
                   ).measurand("w_x")

@@ -13,9 +13,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from budget.errors import SimulationError
-from budget.gum import propagate
-from budget.montecarlo import (BLOCK, coverage_interval, shortest_interval, simulate,
+from budget._errors import SimulationError
+from budget._gum import propagate
+from budget._montecarlo import (BLOCK, coverage_interval, shortest_interval, simulate,
                                tolerance)
 
 from conftest import model
@@ -201,7 +201,7 @@ def test_same_seed_same_numbers_whatever_the_workers():
 def test_blocks_do_not_depend_on_the_run_length():
     # block b draws from SeedSequence(seed, spawn_key=(b,)): the same numbers whatever the
     # number of trials, so a longer run extends a shorter one
-    from budget.montecarlo import _Sampler, _run_blocks
+    from budget._montecarlo import _Sampler, _run_blocks
 
     m = model(_additive("normal"))
     sampler = _Sampler(m, 3)

@@ -15,7 +15,7 @@ from typing import Any
 import pytest
 
 import budget
-from budget.document import result_document
+from budget._document import result_document
 
 from conftest import MODELS
 
@@ -93,7 +93,7 @@ def test_every_result_has_a_short_repr(result: Any, cert: Any) -> None:
 
 
 def test_summary_is_the_terminal_text(result: Any, cert: Any) -> None:
-    from budget.table import render, render_certification
+    from budget._table import render, render_certification
 
     assert result.summary().startswith(render(result))
     assert cert.summary().startswith(render_certification(cert, 2))
@@ -264,7 +264,7 @@ def test_a_notebook_session() -> None:
 
 
 def test_a_comparison_shows_itself_too(tmp_path: Any) -> None:
-    from budget.difference import compare, load_side
+    from budget._difference import compare, load_side
 
     before = budget.load_model(A2)
     changed = tmp_path / "changed.toml"

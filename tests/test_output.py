@@ -6,9 +6,9 @@ import os
 
 import pytest
 
-from budget import output
-from budget.errors import InputError
-from budget.output import write_atomic
+from budget import _output as output
+from budget._errors import InputError
+from budget._output import write_atomic
 
 
 def test_complete_write(tmp_path):

@@ -78,11 +78,11 @@ def headings(page: str) -> set[str]:
 
 @pytest.fixture(scope="module")
 def printed(tmp_path_factory):
-    from budget.analysis import evaluate
-    from budget.campaign import load_campaign
-    from budget.certification import certify
-    from budget.model import load_model
-    from budget.report import write_certification_report, write_report
+    from budget._analysis import evaluate
+    from budget._campaign import load_campaign
+    from budget._certification import certify
+    from budget._model import load_model
+    from budget._report import write_certification_report, write_report
 
     folder = tmp_path_factory.mktemp("print")
     budget_page, cert_page = folder / "budget.html", folder / "certificate.html"

@@ -16,7 +16,7 @@ import math
 import numpy as np
 from scipy.stats import t as student_t
 
-from budget.records import charge, checked_series, drift, inflection, intersection
+from budget._records import charge, checked_series, drift, inflection, intersection
 from conftest import MODELS
 
 SEEDS = 200

@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from budget.model import load_model
+from budget._model import load_model
 
 openpyxl = pytest.importorskip("openpyxl")
 
@@ -111,7 +111,7 @@ def test_every_fit_and_record_key_is_documented(page):
     import re
     from pathlib import Path
 
-    from budget.recordinputs import FIT_KEYS, RECORD_KEYS
+    from budget._recordinputs import FIT_KEYS, RECORD_KEYS
 
     text = (Path(__file__).resolve().parent.parent / page).read_text(encoding="utf-8")
     missing = [key for key in dict.fromkeys(FIT_KEYS + RECORD_KEYS)

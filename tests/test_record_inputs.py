@@ -11,8 +11,8 @@ import math
 import numpy as np
 import pytest
 
-from budget.gum import propagate
-from budget.model import load_model
+from budget._gum import propagate
+from budget._model import load_model
 
 _LINE = "x,y\n" + "".join(f"{x},{1.0 + 0.5 * x + 0.01 * (-1) ** x}\n" for x in range(8))
 _MODEL = 'title = "t"\n[measurands.y]\nequation = "{equation}"\n{tables}'
@@ -109,8 +109,8 @@ def test_bad_record_gives_one_error_line(case, tmp_path, cli):
 
 
 def test_report_shows_each_fit_with_its_residuals():
-    from budget.analysis import evaluate
-    from budget.report import render_report
+    from budget._analysis import evaluate
+    from budget._report import render_report
     from conftest import MODELS
 
     model = load_model(MODELS / "vics-as-25a" / "coulometric-purity-records.toml")
@@ -123,8 +123,8 @@ def test_report_shows_each_fit_with_its_residuals():
 
 
 def test_chart_of_a_long_record_draws_a_bounded_number_of_points():
-    from budget.fitchart import POINTS, fit_chart
-    from budget.fits import polynomial
+    from budget._fitchart import POINTS, fit_chart
+    from budget._fits import polynomial
 
     x = np.linspace(0.0, 1.0, 100_000)
     fit = polynomial(x, 2.0 * x + np.sin(40 * x) * 1e-3, 1)
@@ -133,8 +133,8 @@ def test_chart_of_a_long_record_draws_a_bounded_number_of_points():
 
 
 def test_csv_reader_keeps_file_rows_through_comments_blanks_and_separators(tmp_path):
-    from budget.errors import Location
-    from budget.recordfiles import read_columns
+    from budget._errors import Location
+    from budget._recordfiles import read_columns
 
     text = "# a comment\n\n t / s ;\"i (mA)\";note\n0;1.5e0;a\n\n1;2;b\n2;\"3\";c\n"
     path = tmp_path / "r.csv"
@@ -148,8 +148,8 @@ def test_csv_reader_keeps_file_rows_through_comments_blanks_and_separators(tmp_p
 
 def test_the_fast_and_the_careful_reader_agree_on_a_long_record(tmp_path, monkeypatch):
     # the file is read at C speed (numpy.loadtxt); the cell-by-cell reader gives the same
-    from budget.errors import Location
-    from budget.recordfiles import read_columns
+    from budget._errors import Location
+    from budget._recordfiles import read_columns
 
     rng = np.random.default_rng(0)
     values = rng.normal(size=(5000, 2))
@@ -160,7 +160,7 @@ def test_the_fast_and_the_careful_reader_agree_on_a_long_record(tmp_path, monkey
     assert np.array_equal(fast.values["x"], values[:, 0])
     assert np.array_equal(fast.values["y"], values[:, 1])
     assert fast.rows[0] == 2 and fast.rows[-1] == 5001
-    import budget.recordfiles as recordfiles
+    import budget._recordfiles as recordfiles
 
     monkeypatch.setattr(recordfiles, "_fast", lambda *args: None)
     careful = read_columns(path, "long.csv", ["x", "y"], Location())
@@ -243,7 +243,7 @@ def test_hostile_values_in_fit_and_record_tables_give_budget_errors_only(name, t
     import re
     import shutil
 
-    from budget.errors import BudgetError
+    from budget._errors import BudgetError
     from conftest import MODELS
 
     source = MODELS / name
@@ -270,7 +270,7 @@ def test_hostile_values_in_fit_and_record_tables_give_budget_errors_only(name, t
     (-0.0073, 0.0073, [-0.005, 0.0, 0.005]),
 ])
 def test_chart_ticks_are_round_numbers_inside_the_range(low, high, ticks):
-    from budget.fitchart import nice_ticks
+    from budget._fitchart import nice_ticks
 
     assert nice_ticks(low, high) == pytest.approx(ticks)
 
@@ -278,8 +278,8 @@ def test_chart_ticks_are_round_numbers_inside_the_range(low, high, ticks):
 def test_json_document_lists_each_fit_with_its_covariance():
     import json
 
-    from budget.analysis import evaluate
-    from budget.document import result_document
+    from budget._analysis import evaluate
+    from budget._document import result_document
     from conftest import MODELS
 
     model = load_model(MODELS / "reference" / "gum-h3-thermometer-fit.toml")

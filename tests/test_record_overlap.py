@@ -27,8 +27,8 @@ import pytest
 from scipy.integrate import trapezoid
 from scipy.optimize import curve_fit
 
-from budget.gum import propagate
-from budget.model import load_model
+from budget._gum import propagate
+from budget._model import load_model
 
 _MODEL = """title = "overlap"
 [measurands.q]

@@ -1,4 +1,4 @@
-"""Charge, end points and drift from records (budget/records.py) against scipy and algebra."""
+"""Charge, end points and drift from records (budget/_records.py) against scipy and algebra."""
 
 from __future__ import annotations
 
@@ -7,8 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from budget.fits import FitError, polynomial
-from budget.records import (
+from budget._fits import FitError, polynomial
+from budget._records import (
     charge,
     checked_series,
     drift,

@@ -6,8 +6,8 @@ from __future__ import annotations
 
 import pytest
 
-from budget.gum import propagate
-from budget.model import load_model
+from budget._gum import propagate
+from budget._model import load_model
 
 from conftest import MODELS, model
 

@@ -11,8 +11,8 @@ import math
 import pytest
 from scipy import stats
 
-from budget.gum import coverage_factor, propagate, welch_satterthwaite
-from budget.model import load_model
+from budget._gum import coverage_factor, propagate, welch_satterthwaite
+from budget._model import load_model
 
 from conftest import MODELS, model
 

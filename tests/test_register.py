@@ -17,12 +17,12 @@ import math
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.campaign import load_campaign
-from budget.certification import certify
-from budget.errors import BudgetError, Location
-from budget.model import load_model, parse_model
-from budget.register import load_register, validity
+from budget._analysis import evaluate
+from budget._campaign import load_campaign
+from budget._certification import certify
+from budget._errors import BudgetError, Location
+from budget._model import load_model, parse_model
+from budget._register import load_register, validity
 from conftest import MODELS
 
 DEMO = MODELS / "vics-as-25a"
@@ -264,7 +264,7 @@ def test_campaign_run_dates_are_checked_and_traceability_is_generated(tmp_path):
     assert ("input 'R_s': certificate 'R10' (CVCS-R-2025-0113) expired on 2025-05-07 (valid "
             "until 2025-05-06); expired on 2025-05-08 (valid until 2025-05-06) (a date of "
             "the runs)") in cert.warnings
-    from budget.document import certification_document
+    from budget._document import certification_document
 
     document = certification_document(cert)
     assert document["traceability_generated"].startswith(
@@ -289,7 +289,7 @@ def test_every_file_that_fed_a_certification_has_its_sha256(cli):
 
 
 def test_a_what_if_copy_never_carries_the_files_digest(cli):
-    from budget.document import result_document
+    from budget._document import result_document
 
     model = load_model(DEMO / "coulometric-purity.toml")
     changed = model.with_uncertainty("R_s", factor=0.5)
@@ -304,7 +304,7 @@ def test_a_what_if_copy_never_carries_the_files_digest(cli):
 
 
 def test_reports_list_the_certificates_and_the_generated_traceability():
-    from budget.report import render_certification_report, render_report
+    from budget._report import render_certification_report, render_report
 
     budget_page = render_report(evaluate(load_model(DEMO / "coulometric-purity.toml"),
                                          trials=0))

@@ -15,12 +15,12 @@ from pathlib import Path
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.formatting import format_pair
-from budget.model import parse_model
-from budget.report import render_report
-from budget.typeset import name_text
-from budget.unit_display import display_unit
+from budget._analysis import evaluate
+from budget._formatting import format_pair
+from budget._model import parse_model
+from budget._report import render_report
+from budget._typeset import name_text
+from budget._unit_display import display_unit
 
 from conftest import MODELS
 
@@ -64,7 +64,7 @@ def demo(tmp_path_factory):
     html = folder / "report.html"
     from click.testing import CliRunner
 
-    from budget.cli import main
+    from budget._cli import main
 
     runner = CliRunner()
     result = runner.invoke(main, ["run", str(DEMO), "--trials", "100000", "--html", str(html)])

@@ -20,13 +20,13 @@ import pytest
 from conftest import MODELS, model
 from scipy import stats
 
-from budget.analysis import evaluate
-from budget.campaign import load_campaign
-from budget.certification import certify
-from budget.document import certification_document, result_document
-from budget.errors import BudgetError
-from budget.report import render_certification_report, render_report
-from budget.table import render, render_certification
+from budget._analysis import evaluate
+from budget._campaign import load_campaign
+from budget._certification import certify
+from budget._document import certification_document, result_document
+from budget._errors import BudgetError
+from budget._report import render_certification_report, render_report
+from budget._table import render, render_certification
 
 DEMO = MODELS / "vics-as-25a"
 

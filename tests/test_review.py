@@ -10,8 +10,8 @@ from __future__ import annotations
 import datetime as dt
 import math
 
-from budget.campaign import load_campaign
-from budget.certification import certify
+from budget._campaign import load_campaign
+from budget._certification import certify
 from conftest import MODELS
 
 LAB = MODELS / "vics-as-25a-lab-files"
@@ -105,9 +105,9 @@ u = 0.05
 
 
 def _stages(tmp_path, a, b):
-    from budget.analysis import evaluate
-    from budget.chained import stages
-    from budget.model import load_model
+    from budget._analysis import evaluate
+    from budget._chained import stages
+    from budget._model import load_model
 
     (tmp_path / "stage1.toml").write_text(STAGE1.format(a=a, b=b), encoding="utf-8")
     (tmp_path / "stage2.toml").write_text(STAGE2, encoding="utf-8")
@@ -133,7 +133,7 @@ def test_stage_shares_include_the_earlier_models_own_correlation(tmp_path):
 def test_a_correlation_across_stages_is_a_row_of_its_own(tmp_path):
     # stage 1 correlates its b0 with x, which stage 2 shares as x2: the term
     # 2·c_b0·c_x·r·u_b0·u_x = 2·3·13·(−0.8)·0.02·0.05 = −0.0624 (hand computation)
-    from budget.chained import BETWEEN_STAGES
+    from budget._chained import BETWEEN_STAGES
 
     found, budget = _stages(tmp_path, "b0", "x")
     assert math.isclose(found[BETWEEN_STAGES].variance, -0.0624, rel_tol=1e-9)
@@ -177,8 +177,8 @@ def test_compare_names_a_changed_correlation_coefficient(tmp_path):
     # "correlation terms" without naming the coefficient that changed.
     # Hand computation (GUM eq. (16)): u_c²(s) = 0.09 + u_b² + 2·r·0.3·u_b, so the
     # correlation term goes 2·0.5·0.3·0.4 = 0.12 → 2·0.2·0.3·0.5 = 0.06 g².
-    from budget.difference import compare, load_side
-    from budget.difference_view import causes, difference_document
+    from budget._difference import compare, load_side
+    from budget._difference_view import causes, difference_document
 
     (tmp_path / "a.toml").write_text(TWO.format(u_b=0.4, r=0.5), encoding="utf-8")
     (tmp_path / "b.toml").write_text(TWO.format(u_b=0.5, r=0.2), encoding="utf-8")
@@ -196,7 +196,7 @@ def test_the_basis_of_an_input_with_finite_dof_names_the_t_it_is_drawn_from():
     # Found: the report's "Inputs and the basis of their uncertainty" and `explain` said
     # "standard uncertainty, normal" for `u` with `dof = 5`, which Monte Carlo draws as a
     # t with 5 degrees of freedom (JCGM 101 6.4.9; docs/uncertainty-rules.md).
-    from budget.model import parse_model
+    from budget._model import parse_model
 
     model = parse_model(TWO.format(u_b=0.4, r=0.5), "two.toml")
     inputs = {i.name: i for i in model.inputs}
@@ -211,9 +211,9 @@ def test_certificates_of_a_chained_stage_are_checked_on_that_stages_dates(tmp_pa
     # Found: the chained example's report listed the demo's certificates as "no
     # measurement date given", although the earlier model states `measured = 2025-05-06`;
     # an expired certificate then showed no problem in the report or the JSON.
-    from budget.analysis import evaluate
-    from budget.document import result_document
-    from budget.model import load_model
+    from budget._analysis import evaluate
+    from budget._document import result_document
+    from budget._model import load_model
 
     demo = MODELS / "vics-as-25a"
     for name in ("coulometric-purity.toml", "calibrations.toml"):
@@ -238,9 +238,9 @@ def test_a_saved_result_keeps_its_estimated_together_sets(tmp_path):
     # multivariate t (JCGM 102 6.5; docs/uncertainty-rules.md).
     import json
 
-    from budget.analysis import evaluate
-    from budget.document import result_document
-    from budget.model import load_model
+    from budget._analysis import evaluate
+    from budget._document import result_document
+    from budget._model import load_model
 
     stage1 = STAGE1.format(a="b0", b="b1") + '\n[[estimated_together]]\ninputs = ["b0", "b1"]\n'
     (tmp_path / "stage1.toml").write_text(stage1, encoding="utf-8")
@@ -262,9 +262,9 @@ def test_a_what_if_names_the_listed_model_digest_as_the_file_before_the_changes(
     # Digest checked against hashlib.
     import hashlib
 
-    from budget.analysis import evaluate
-    from budget.document import result_document
-    from budget.model import load_model
+    from budget._analysis import evaluate
+    from budget._document import result_document
+    from budget._model import load_model
 
     path = tmp_path / "two.toml"
     path.write_text(TWO.format(u_b=0.4, r=0.5), encoding="utf-8")

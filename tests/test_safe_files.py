@@ -11,9 +11,9 @@ from pathlib import Path
 
 import pytest
 
-from budget import output
-from budget.errors import BudgetError, InputError
-from budget.output import write_atomic
+from budget import _output as output
+from budget._errors import BudgetError, InputError
+from budget._output import write_atomic
 
 from conftest import MODELS
 
@@ -153,7 +153,7 @@ def test_the_option_allows_leaving_the_folder(cli, tmp_path: Path) -> None:
 
 
 def test_errors_never_echo_a_file_outside_the_run(tmp_path: Path) -> None:
-    from budget.campaign import load_campaign
+    from budget._campaign import load_campaign
 
     campaign = _campaign_with(tmp_path, "runs", "/etc/passwd")
     with pytest.raises(BudgetError) as caught:

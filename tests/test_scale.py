@@ -12,12 +12,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from budget.algebra import symbol, to_sympy
-from budget.gum import propagate
-from budget.longparse import parse
-from budget.model import parse_model
-from budget.montecarlo import simulate
-from budget.program import Program
+from budget._algebra import symbol, to_sympy
+from budget._gum import propagate
+from budget._longparse import parse
+from budget._model import parse_model
+from budget._montecarlo import simulate
+from budget._program import Program
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "benchmarks"))
 
@@ -86,9 +86,9 @@ def test_long_texts_parse_to_the_tree_python_builds(text):
 
 
 def test_a_long_text_with_a_forbidden_construct_is_still_refused():
-    from budget.errors import ModelSyntaxError
-    from budget.expressions import parse_expression
-    from budget.errors import Location
+    from budget._errors import ModelSyntaxError
+    from budget._expressions import parse_expression
+    from budget._errors import Location
 
     text = " + ".join(f"x{i}" for i in range(5000)) + " + (lambda: 1)()"
     with pytest.raises(ModelSyntaxError, match="found a lambda"):
@@ -172,7 +172,7 @@ def test_a_correlation_block_with_one_r_for_every_pair():
      "cannot hold together"),
 ])
 def test_a_bad_correlation_block_is_one_clean_error(table, message):
-    from budget.errors import BudgetError
+    from budget._errors import BudgetError
 
     with pytest.raises(BudgetError) as caught:
         parse_model(_BLOCK + "[[correlations]]\n" + table + "\n", name="b.toml")
@@ -221,7 +221,7 @@ def _union_find(n: int, edges: list[tuple[int, int]]) -> list[int]:
 
 @pytest.mark.parametrize("seed", range(12))
 def test_groups_of_correlated_inputs_are_the_connected_components(seed):
-    from budget.dof import _components
+    from budget._dof import _components
 
     rng = np.random.default_rng(seed)
     n = int(rng.integers(2, 60))
@@ -256,7 +256,7 @@ def _reference_depth(root: ast.AST) -> int:
     "a ** b ** c", "-(-(-(-a)))", "log(exp(sin(cos(a + 1))))", "x[0] + y.z",
     "(lambda: x)()", "a < b", "+a * -b"])
 def test_one_walk_finds_the_nodes_and_depth_of_the_standard_walk(text):
-    from budget.expressions import _walk
+    from budget._expressions import _walk
 
     tree = ast.parse(text, mode="eval")
     nodes, deepest = _walk(tree)
@@ -284,7 +284,7 @@ def test_documents_the_compiled_parser_declines_are_read_or_refused_by_the_stand
         text):
     import tomllib
 
-    from budget.model import _loads
+    from budget._model import _loads
 
     try:
         expected = tomllib.loads(text)
@@ -298,7 +298,7 @@ def test_documents_the_compiled_parser_declines_are_read_or_refused_by_the_stand
 def test_a_large_block_that_is_not_positive_semi_definite_is_refused_in_one_short_line():
     # every pair at r = -0.01 among 300 inputs: the matrix has the eigenvalue
     # 1 - 0.01·299 < 0 along (1, 1, …, 1) (a fact of linear algebra)
-    from budget.errors import InputError
+    from budget._errors import InputError
 
     names = ", ".join(f'"x_{i}"' for i in range(300))
     text = (sum_model(300) + f"[[correlations]]\nbetween = [{names}]\nr = -0.01\n")

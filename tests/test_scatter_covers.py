@@ -17,11 +17,11 @@ import numpy as np
 import pytest
 from conftest import MODELS
 
-from budget.campaign import load_campaign
-from budget.certification import certify
-from budget.document import certification_document
-from budget.report import render_certification_report
-from budget.table import render, render_certification
+from budget._campaign import load_campaign
+from budget._certification import certify
+from budget._document import certification_document
+from budget._report import render_certification_report
+from budget._table import render, render_certification
 
 DEMO = MODELS / "vics-as-25a"
 COVERED = ("Q_post", "Q_pre")

@@ -15,11 +15,11 @@ import numpy as np
 import pytest
 from conftest import MODELS, model
 
-from budget.analysis import evaluate
-from budget.gum import propagate
-from budget.model import load_model
-from budget.montecarlo import simulate
-from budget.report import render_report
+from budget._analysis import evaluate
+from budget._gum import propagate
+from budget._model import load_model
+from budget._montecarlo import simulate
+from budget._report import render_report
 
 # y1 = a + b, y2 = a - b with u(a) = 1, u(b) = 0.5: cov = 1 - 0.25, var = 1.25 each, so
 # r(y1, y2) = 0.75 / 1.25 = 0.60 (JCGM 102 6.2.1.3 by hand)

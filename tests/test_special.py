@@ -1,4 +1,4 @@
-"""The distribution functions of budget.special against scipy.special (reference library).
+"""The distribution functions of budget._special against scipy.special (reference library).
 
 Tolerance 1e-9 relative: far below the 3 to 4 digits a coverage factor or p-value is shown
 with; the incomplete beta function loses a few digits for very large degrees of freedom
@@ -11,7 +11,7 @@ import math
 import pytest
 from scipy import special
 
-from budget.special import betainc, f_sf, normal_ppf, t_cdf, t_ppf, t_two_sided_p
+from budget._special import betainc, f_sf, normal_ppf, t_cdf, t_ppf, t_two_sided_p
 
 
 @pytest.mark.parametrize("a, b, x", [(0.5, 0.5, 0.3), (2.0, 3.0, 0.7), (10.0, 0.5, 0.99),

@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from budget.campaign import load_campaign
-from budget.certification import certify, trend
-from budget.errors import CampaignError
-from budget.stability import pooled_trend
+from budget._campaign import load_campaign
+from budget._certification import certify, trend
+from budget._errors import CampaignError
+from budget._stability import pooled_trend
 
 from conftest import MODELS
 

@@ -7,7 +7,7 @@ import math
 
 import pytest
 
-from budget.errors import BudgetError
+from budget._errors import BudgetError
 
 from conftest import model
 
@@ -31,7 +31,7 @@ def _input(body: str):
      "normal"),
     # JCGM 101 6.4.9.7: U_p, level and nu: k = t_p(nu) = 2.570582 for nu = 5 [C: scipy]
     ("value = 1\nexpanded = 1\nlevel = 0.95\ndof = 5", 1 / 2.5705818366147395, 5.0,
-     "student_t"),  # budget.special's t quantile agrees with scipy to 1e-9
+     "student_t"),  # budget._special's t quantile agrees with scipy to 1e-9
     # GUM 4.3.7: rectangular a / sqrt 3
     ('value = 1\ndistribution = "rectangular"\nhalf_width = 0.3', 0.3 / math.sqrt(3),
      math.inf, "rectangular"),

@@ -1,4 +1,4 @@
-"""Streamed Monte Carlo runs (budget/streaming.py): no array of all values, the same
+"""Streamed Monte Carlo runs (budget/_streaming.py): no array of all values, the same
 results as a run that keeps them.
 
 The intervals are checked against their definitions in JCGM 101:2008 7.7.2 (the
@@ -15,10 +15,10 @@ import math
 import numpy as np
 import pytest
 
-from budget import montecarlo, streaming
-from budget.gum import propagate
-from budget.montecarlo import simulate
-from budget.svg import _rebinned, histogram
+from budget import _montecarlo as montecarlo, _streaming as streaming
+from budget._gum import propagate
+from budget._montecarlo import simulate
+from budget._svg import _rebinned, histogram
 
 from conftest import model
 
@@ -127,7 +127,7 @@ def test_same_results_on_any_number_of_workers(keep):
 def test_certification_and_methods_keep_their_values(monkeypatch):
     """The certified value's Monte Carlo reuses every value of the model's run, so the
     characterization keeps them above the limit too."""
-    from budget.analysis import evaluate
+    from budget._analysis import evaluate
 
     monkeypatch.setattr(montecarlo, "KEEP_LIMIT", 1000)
     m = model(_TWO)
@@ -230,7 +230,7 @@ def test_runs_of_inputs_draw_the_same_numbers_as_one_call_per_input():
 def test_sums_of_consecutive_inputs_reduced_over_rows_give_the_same_numbers(operator):
     """A sum or product of consecutive normal inputs runs as one reduction over the rows
     of their buffer: the same values, to the last bit, as the operation term by term."""
-    from budget.evaluation import compile_model
+    from budget._evaluation import compile_model
 
     n = 300
     text = "\n".join(['title = "t"\n[measurands.Y]\nequation = "3 + '

@@ -15,12 +15,12 @@ import pytest
 from conftest import MODELS, model
 from scipy import stats
 
-from budget.analysis import evaluate
-from budget.errors import InputError
-from budget.explanation import explain
-from budget.gum import propagate
-from budget.model import load_model
-from budget.montecarlo import simulate
+from budget._analysis import evaluate
+from budget._errors import InputError
+from budget._explanation import explain
+from budget._gum import propagate
+from budget._model import load_model
+from budget._montecarlo import simulate
 
 H3 = MODELS / "reference" / "gum-h3-thermometer.toml"
 
@@ -318,7 +318,7 @@ def test_h3_monte_carlo_validates_and_explain_says_t():
 def test_a_joint_evaluation_keeps_the_sets():
     # two models, each predicting from its own calibration line (JCGM 100 H.3 figures):
     # joined, each line is still one Welch-Satterthwaite component with nu = 9
-    from budget.joint import Member, join
+    from budget._joint import Member, join
 
     members = [Member(name=n, model=model(_line(at))) for n, at in (("a", 24.0), ("b", 30.0))]
     joint = join(members)

@@ -1,4 +1,4 @@
-"""One "unknown key" check for every TOML reader (budget/tomlkeys.py): each reader refuses
+"""One "unknown key" check for every TOML reader (budget/_tomlkeys.py): each reader refuses
 a misspelt key with the same message form, ``<file>:<line>: [table] key: expected a key
 among …, found '…' (did you mean '…'?)``, asserted whole here for the readers of the model
 file and by form for every reader (campaigns, registers and records are asserted whole in
@@ -11,9 +11,9 @@ from pathlib import Path
 
 import pytest
 
-from budget.errors import BudgetError
-from budget.model import load_model, parse_model
-from budget.tomlkeys import check_keys, unknown_key_message
+from budget._errors import BudgetError, Location
+from budget._model import load_model, parse_model
+from budget._tomlkeys import check_keys, unknown_key_message
 
 HEAD = 'title = "t"\n[measurands.y]\nequation = "a + b + c"\n'
 INPUTS = ('[inputs.a]\nvalue = 1.0\nu = 0.1\n[inputs.b]\nvalue = 2.0\nu = 0.1\n'
@@ -97,14 +97,14 @@ def test_the_message_is_written_once() -> None:
     assert unknown_key_message("sede", ("seed", "trials")) == \
         "expected a key among seed, trials, found 'sede' (did you mean 'seed'?)"
     with pytest.raises(BudgetError) as caught:
-        check_keys({"x": 1}, ("a", "b"), lambda key: __import__("budget.errors").errors
-                   .Location(file="f.toml", table="t", key=key), within="in set 2")
+        check_keys({"x": 1}, ("a", "b"),
+                   lambda key: Location(file="f.toml", table="t", key=key), within="in set 2")
     assert str(caught.value) == "f.toml: [t] x: expected a key in set 2 among a, b, found 'x'"
 
 
 def test_no_reader_words_its_own_unknown_key_check() -> None:
     root = Path(__file__).resolve().parent.parent / "budget"
-    own = [f"{p.name}:{n}" for p in sorted(root.glob("*.py")) if p.name != "tomlkeys.py"
+    own = [f"{p.name}:{n}" for p in sorted(root.glob("*.py")) if p.name != "_tomlkeys.py"
            for n, line in enumerate(p.read_text(encoding="utf-8").splitlines(), 1)
            if "unknown key" in line or "unknown top-level" in line]
     assert not own, own

@@ -11,11 +11,11 @@ from html.parser import HTMLParser
 
 import pytest
 
-from budget.analysis import evaluate
-from budget.model import load_model
-from budget.report import render_report
-from budget.typeset import equation_mathml, expression_mathml, name_parts, name_text
-from budget.unit_display import display_unit, unit_ratio
+from budget._analysis import evaluate
+from budget._model import load_model
+from budget._report import render_report
+from budget._typeset import equation_mathml, expression_mathml, name_parts, name_text
+from budget._unit_display import display_unit, unit_ratio
 
 from conftest import MODELS
 
@@ -120,9 +120,9 @@ def test_no_internal_object_reaches_any_report(reports, path):
 
 
 def test_no_internal_object_reaches_the_certification_report():
-    from budget.campaign import load_campaign
-    from budget.certification import certify
-    from budget.report import render_certification_report
+    from budget._campaign import load_campaign
+    from budget._certification import certify
+    from budget._report import render_certification_report
 
     text = render_certification_report(certify(load_campaign(
         MODELS / "vics-as-25a" / "campaign.toml"), trials=2000, seed=1))
@@ -170,7 +170,7 @@ def test_name_text():
 def test_terminal_units_follow_the_encoding_of_standard_output(monkeypatch):
     import sys
 
-    from budget.table import terminal_unit
+    from budget._table import terminal_unit
 
     class Narrow:
         encoding = "ascii"

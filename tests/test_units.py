@@ -7,11 +7,11 @@ from fractions import Fraction
 
 import pytest
 
-from budget.errors import UnitError
-from budget.gum import propagate
-from budget.unit_table import TABLE
-from budget.units import parse_unit, registry
-from budget.errors import Location
+from budget._errors import UnitError
+from budget._gum import propagate
+from budget._unit_table import TABLE
+from budget._units import parse_unit, registry
+from budget._errors import Location
 
 from conftest import model
 

@@ -43,8 +43,8 @@ FORBIDDEN = {
 
 # Data arrays of a fit or a record (the abscissa and ordinate columns, not estimates), and
 # the float of a number node of an expression graph (a constant as written, not a quantity).
-ALLOWED = {("fits", "Fit", "x"), ("fits", "Fit", "y"), ("records", "Series", "x"),
-           ("records", "Series", "y"), ("algebra", "Node", "value")}
+ALLOWED = {("_fits", "Fit", "x"), ("_fits", "Fit", "y"), ("_records", "Series", "x"),
+           ("_records", "Series", "y"), ("_algebra", "Node", "value")}
 
 
 def short_names(cls: type, module: str) -> list[str]:
@@ -70,9 +70,9 @@ def public_dataclasses() -> list[tuple[str, type]]:
 
 def test_the_walk_finds_the_result_classes() -> None:
     names = {f"{m}.{c.__name__}" for m, c in public_dataclasses()}
-    assert {"gum.MeasurandBudget", "difference.MeasurandSide", "combination.Combined",
-            "chain.Chain", "recordinputs.Made", "model.Input",
-            "certification.Certification"} <= names
+    assert {"_gum.MeasurandBudget", "_difference.MeasurandSide", "_combination.Combined",
+            "_chain.Chain", "_recordinputs.Made", "_model.Input",
+            "_certification.Certification"} <= names
 
 
 def test_no_public_dataclass_uses_a_short_name() -> None:

@@ -1,0 +1,879 @@
+"""Propagation of distributions by the Monte Carlo method (JCGM 101:2008).
+
+Method:
+
+* 6.4: every input is drawn from its own distribution; an input with finite ν as a
+  scaled and shifted t (6.4.9); correlated Gaussian inputs as one multivariate Gaussian
+  (6.4.8); the inputs of an ``[[estimated_together]]`` set with finite ν as one
+  multivariate t with the set's ν (JCGM 102 6.5); other correlated non-Gaussian inputs
+  through a Gaussian copula (a documented approximation, announced by a warning);
+  inputs without an inverse distribution function are refused when correlated.
+* 7.2-7.6: M trials in blocks; block b draws from its own stream
+  ``SeedSequence(seed, spawn_key=(b,))`` through numpy's SFC64 bit generator (chosen on
+  measurement, ``GENERATOR``), so the numbers depend on the seed and the model
+  only, never on the chunk size or the number of threads; blocks are evaluated on both
+  cores at once, by the model compiled once into a numeric program. A block holds
+  ``BLOCK`` trials, fewer for models with many inputs (``block_size``: at most 32 MB of
+  draws per block), so that memory stays bounded whatever the number of trials.
+* 7.7: the probabilistically symmetric interval (quantile indices by selection, not a
+  full sort) and the shortest interval (searched in the sorted tails only).
+* 7.9: the adaptive procedure, batches of at least two blocks (≥ max(J, 10⁴) trials,
+  drawn on both workers) until twice the standard deviation of the batch means, standard
+  deviations and interval ends is within the numerical tolerance δ; the statistics run
+  batch by batch (no pass over all values so far at each step; a batch's interval ends
+  are selected among its values beyond the cut points), and the workers draw the next
+  blocks while a batch is checked.
+* Runs longer than ``KEEP_LIMIT`` values keep no array of all values (streaming.py).
+* 8.2: validation of the GUM result: d_low = |y − U_p − y_low|, d_high = |y + U_p −
+  y_high|, validated when both are ≤ δ.
+
+Trials whose model value is not finite are dropped and counted; more than
+``NONFINITE_LIMIT`` of them is an error.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import threading
+from collections import deque
+from concurrent.futures import Future, ThreadPoolExecutor
+from dataclasses import dataclass, field
+from typing import Any, Callable, Generator, cast
+
+import numpy as np
+
+from .distributions import Normal, Rectangular, StudentT
+from ._limits import check_trials
+from ._errors import Location, SimulationError
+from ._evaluation import compile_model
+from ._formatting import decimal_exponent
+from ._gum import Budget
+from ._model import Model
+from ._streaming import Binned, Streamed
+
+__all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "KEEP_LIMIT", "Validation",
+           "MeasurandSimulation", "Simulation",
+           "simulate", "tolerance", "coverage_interval", "shortest_interval"]
+
+BLOCK = 1 << 16
+# numpy's SFC64 bit generator: measured here (benchmarks/generators.py) to draw normal
+# numbers about 25 % faster than the default PCG64, with the same SeedSequence seeding.
+GENERATOR = "SFC64"
+_BLOCK_BYTES = 1 << 25
+_SLICE = 1 << 13  # evaluation works on slices that stay in the processor's cache
+_CHUNK = 1 << 15  # normal draws are scaled in chunks of rows of about 256 kB
+NONFINITE_LIMIT = 0.01
+# A fixed run keeps every value (8 bytes per trial and measurand) up to this many values;
+# longer runs (with p > ½) are streamed: moments, a histogram and exact tails (streaming.py)
+KEEP_LIMIT = 10_000_000
+ADAPTIVE_LIMIT = 20_000_000
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Validation:
+    tolerance: float
+    d_low: float
+    d_high: float
+    validated: bool
+    reason: str = ""  # why validation was not possible (the spread is not resolved)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MeasurandSimulation:
+    name: str
+    unit: str
+    trials: int
+    mean: float
+    standard_uncertainty: float
+    interval: tuple[float, float]
+    shortest_interval: tuple[float, float]
+    validation: Validation | None
+    # every finite value in trial order (jointly with the other measurands), or None when
+    # the run was too long to keep them (``KEEP_LIMIT``): then ``histogram`` holds them
+    samples: np.ndarray | None = field(repr=False, compare=False)
+    histogram: Binned | None = field(default=None, repr=False, compare=False)
+
+    def __repr__(self) -> str:
+        from ._notebook import short
+
+        mean, u = short(self.mean, self.standard_uncertainty, 3)
+        verdict = "" if self.validation is None else (
+            ", GUM validated" if self.validation.validated else ", GUM NOT validated")
+        return (f"<MeasurandSimulation {self.name}: {self.trials:,} trials, y = {mean} "
+                f"{self.unit}, u = {u}{verdict}>")
+
+    def summary(self, digits: int = 2) -> str:
+        from ._notebook import simulation_text
+
+        return simulation_text(self, digits)
+
+    def _repr_html_(self) -> str:
+        from ._notebook import simulation_html
+
+        return simulation_html([self])
+
+    def to_frame(self) -> Any:
+        """One row (index ``name``): the JSON keys, intervals as ``*_low``/``*_high``."""
+        from ._notebook import simulation_frame
+
+        return simulation_frame([self], {})
+
+    def to_dict(self) -> dict[str, Any]:
+        from ._document import simulation_document
+
+        return simulation_document(self)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Simulation:
+    trials: int
+    seed: int
+    coverage_probability: float
+    adaptive: bool
+    nonfinite: int
+    measurands: tuple[MeasurandSimulation, ...]
+    output_correlation: tuple[tuple[float, ...], ...]
+    warnings: tuple[str, ...] = ()
+
+    def measurand(self, name: str) -> MeasurandSimulation:
+        """The simulation of measurand ``name`` (a ``KeyError`` with a "did you mean")."""
+        from ._notebook import lookup
+
+        return lookup(self.measurands, name, "measurand")
+
+    def __repr__(self) -> str:
+        names = ", ".join(m.name for m in self.measurands)
+        return f"<Simulation of {names}: {self.trials:,} trials, seed {self.seed}>"
+
+    def summary(self, digits: int = 2) -> str:
+        p = f"{100 * self.coverage_probability:g} %"
+        return "\n".join(m.summary(digits).replace("interval", f"{p} interval", 1)
+                         for m in self.measurands)
+
+    def _repr_html_(self) -> str:
+        from ._notebook import simulation_html
+
+        return simulation_html(self.measurands)
+
+    def to_frame(self) -> Any:
+        """One row per measurand; ``trials``, ``seed``, ``coverage`` in ``attrs``."""
+        from ._notebook import simulation_frame
+
+        return simulation_frame(self.measurands, {
+            "trials": self.trials, "seed": self.seed, "coverage": self.coverage_probability,
+            "adaptive": self.adaptive})
+
+    def to_dict(self) -> dict[str, Any]:
+        from ._document import simulation_document
+
+        return {"trials": self.trials, "seed": self.seed,
+                "coverage": self.coverage_probability, "adaptive": self.adaptive,
+                "measurands": {m.name: simulation_document(m) for m in self.measurands},
+                "warnings": list(self.warnings)}
+
+
+def block_size(model: Model) -> int:
+    """Trials per block: ``BLOCK``, halved until the draws of one block fit in 32 MB."""
+    drawn = max(1, sum(1 for i in model.inputs if i.standard_uncertainty > 0))
+    size = BLOCK
+    while size > 1024 and drawn * size * 8 > _BLOCK_BYTES:
+        size //= 2
+    return size
+
+
+def tolerance(u: float, digits: int) -> float:
+    """δ = ½·10^ℓ where u = c·10^ℓ and c has ``digits`` digits (JCGM 101 7.9.2)."""
+    if not math.isfinite(u) or u <= 0.0:
+        return 0.0
+    return 0.5 * 10.0 ** decimal_exponent(u, digits)
+
+
+def coverage_interval(values: np.ndarray, p: float) -> tuple[float, float]:
+    """Probabilistically symmetric interval (JCGM 101 7.7.2); ``values`` is reordered."""
+    lo, hi = _indices(values.size, p)
+    values.partition([lo, hi])
+    return float(values[lo]), float(values[hi])
+
+
+def _indices(m: int, p: float) -> tuple[int, int]:
+    q = _q(m, p)
+    r = (m - q) // 2 if (m - q) % 2 == 0 else (m - q + 1) // 2
+    r = max(r, 1)
+    return r - 1, min(r + q - 1, m - 1)
+
+
+def _q(m: int, p: float) -> int:
+    exact = p * m
+    q = int(round(exact)) if abs(exact - round(exact)) < 1e-9 else int(math.floor(exact + 0.5))
+    return min(max(q, 1), m - 1)
+
+
+def shortest_interval(values: np.ndarray, p: float) -> tuple[float, float]:
+    """Shortest 100p % interval (JCGM 101 7.7.3) from the sorted tails; reorders values."""
+    return _intervals(values, p)[1]
+
+
+def _pick(low: np.ndarray, high: np.ndarray, m: int,
+          p: float) -> tuple[tuple[Any, ...], tuple[Any, ...]]:
+    """Both intervals from the sorted ``m − q`` lowest and highest of M values."""
+    lo, hi = _indices(m, p)
+    best = int(np.argmin(high - low))
+    return (float(low[lo]), float(high[hi - _q(m, p)])), (float(low[best]), float(high[best]))
+
+
+def _from_tails(tails: list[Any], m: int, p: float) -> tuple[Any, ...] | None:
+    """Both intervals from the values kept below and above the cuts, when enough were."""
+    q = _q(m, p)
+    tail = m - q
+    low = np.concatenate([block[0] for block in tails])
+    high = np.concatenate([block[1] for block in tails])
+    if low.size < tail or high.size < tail:
+        return None
+    with ThreadPoolExecutor(max_workers=2) as pool:  # np.sort lets the other thread run
+        low_sorted, high_sorted = pool.map(np.sort, (low, high))
+    return _pick(low_sorted[:tail], high_sorted[high.size - tail:], m, p)
+
+
+def _intervals(values: np.ndarray, p: float) -> tuple[tuple[float, float],
+                                                     tuple[float, float]]:
+    """Both JCGM 101 7.7 intervals from one partition and two sorts of the tails."""
+    m = values.size
+    q = _q(m, p)
+    tail = m - q
+    if tail - 1 >= q:  # p ≤ 1/2: a full sort is as cheap
+        values.sort()
+        return _pick(values[:tail], values[q:], m, p)
+    values.partition([tail - 1, q])
+    return _pick(np.sort(values[:tail]), np.sort(values[q:]), m, p)
+
+
+class _Sampler:
+    """Draws the inputs of one block and evaluates the model on them."""
+
+    def __init__(self, model: Model, seed: int) -> None:
+        self.model, self.seed = model, seed
+        self.size = block_size(model)
+        self.program = compile_model(model)
+        self.groups = _groups(model)
+        self.warnings = _copula_warnings(model, self.groups)
+        self.factors = {key: _factor(matrix)
+                        for key, matrix in _group_matrices(model, self.groups).items()}
+        self.sets = _set_slots(model)
+        self.plan = _plan(model, self.groups)
+        # input slot → row of the normal inputs' buffer (the last run of the plan)
+        self.rows = ({slot: row for row, slot in enumerate(self.plan[-1][1][0])}
+                     if self.plan and self.plan[-1][0] == "normal" else {})
+        self.local = threading.local()  # each thread's buffers for the normal inputs
+
+    def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
+        """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
+        values = self.draw(index, size)
+        out = np.empty((len(self.model.measurands), size)) if out is None else out
+        normals = self.plan[-1] if self.plan and self.plan[-1][0] == "normal" else None
+        matrix = self.local.buffers[len(self.plan) - 1] if normals else None
+        for start in range(0, size, _SLICE):  # cache-sized slices of the drawn block
+            stop = min(size, start + _SLICE)
+            part = values if size <= _SLICE else [
+                v[start:stop] if isinstance(v, np.ndarray) else v for v in values]
+            rows = (self.rows, matrix[:, start:stop]) if matrix is not None else None
+            for k, y in enumerate(self.program.evaluate(part, rows)):
+                out[k, start:stop] = y
+        return out
+
+    def draw(self, index: int, size: int) -> list[Any]:
+        """The inputs of block ``index``: arrays, or numbers for exact inputs.
+
+        A run of k consecutive independent normal inputs is drawn by rows into one
+        reused k × size buffer (the same stream as k calls of ``size`` each), each chunk
+        of rows scaled and shifted while it is in the cache."""
+        rng = np.random.Generator(np.random.SFC64(
+            np.random.SeedSequence(self.seed, spawn_key=(index,))))
+        values: list[Any] = [None] * len(self.model.inputs)
+        for number, (kind, item) in enumerate(self.plan):
+            if kind == "fixed":
+                values[item] = self.model.inputs[item].estimate
+            elif kind in ("normal", "uniform"):
+                # normal: z·sd + mean; rectangular: u·2a + (x − a), as Rectangular.sample
+                slots, shift, scale = item
+                fill = rng.standard_normal if kind == "normal" else rng.random
+                z = self._buffer(number, len(slots), size)
+                rows = max(1, _CHUNK // size)
+                for first in range(0, len(slots), rows):
+                    chunk = z[first:first + rows]
+                    fill(out=chunk)
+                    chunk *= scale[first:first + rows]
+                    chunk += shift[first:first + rows]
+                for slot, row in zip(slots, z):
+                    values[slot] = row
+            elif kind == "single":
+                values[item] = self.model.inputs[item].distribution.sample(rng, size)
+            else:
+                factor = self.factors[tuple(item)]
+                for slot, column in zip(item, _correlated(self.model, item, factor, rng,
+                                                          size, self.sets)):
+                    values[slot] = column
+        return values
+
+    def release(self) -> None:
+        """Drop this thread's buffers (the first block runs alone, before the workers)."""
+        self.local.buffers = {}
+
+    def _buffer(self, number: int, rows: int, size: int) -> np.ndarray:
+        """This thread's buffer for the run ``number`` of the plan (reused block after
+        block: the values of a block are dead once it is evaluated)."""
+        buffers: dict[int, np.ndarray] = getattr(self.local, "buffers", None) or {}
+        self.local.buffers = buffers
+        found = buffers.get(number)
+        if found is None or found.shape[1] != size:
+            found = buffers[number] = np.empty((rows, size))
+        return found
+
+
+def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:
+    """How the inputs of a block are drawn, in the order of its stream: the groups
+    (correlated inputs, other distributions) in model order, consecutive independent
+    rectangular inputs among them as one run, then every independent normal input in
+    model order as one run; a run is drawn by rows into one buffer (the same stream as
+    one call per input), so a model of many inputs draws them in a few calls."""
+    plan: list[tuple[str, Any]] = []
+    normals: list[int] = []
+    uniforms: list[int] = []
+
+    def close(kind: str, run: list[int]) -> None:
+        if not run:
+            return
+        items = [model.inputs[i] for i in run]
+        if kind == "normal":
+            shift = [i.estimate for i in items]
+            scale = [cast(Normal, i.distribution).sd for i in items]
+        else:
+            widths = [cast(Rectangular, i.distribution).half_width for i in items]
+            shift = [i.estimate - a for i, a in zip(items, widths)]
+            scale = [2.0 * a for a in widths]
+        plan.append((kind, (tuple(run), np.array(shift, dtype=float)[:, None],
+                            np.array(scale, dtype=float)[:, None])))
+        run.clear()
+
+    for group in groups:
+        item = model.inputs[group[0]]
+        if len(group) == 1 and item.standard_uncertainty == 0:
+            plan.append(("fixed", group[0]))  # draws nothing: the runs go on
+        elif len(group) == 1 and isinstance(item.distribution, Normal):
+            normals.append(group[0])
+        elif len(group) == 1 and isinstance(item.distribution, Rectangular):
+            uniforms.append(group[0])
+        else:
+            close("uniform", uniforms)
+            plan.append(("group", group) if len(group) > 1 else ("single", group[0]))
+    close("uniform", uniforms)
+    close("normal", normals)
+    return plan
+
+
+def _groups(model: Model) -> list[list[int]]:
+    """Inputs joined by correlations (connected components), in model order."""
+    index = {item.name: j for j, item in enumerate(model.inputs)}
+    names = list(index)
+    parent = list(range(len(names)))
+
+    def root(i: int) -> int:
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    index = {name: k for k, name in enumerate(names)}
+    links = [(a, b) for a, b, _ in model.correlations]
+    links += [(s.inputs[0], name) for s in model.estimated_together for name in s.inputs[1:]]
+    for a, b in links:
+        parent[root(index[a])] = root(index[b])
+    groups: dict[int, list[int]] = {}
+    for i in range(len(names)):
+        groups.setdefault(root(i), []).append(i)
+    return sorted(groups.values(), key=lambda g: g[0])
+
+
+def _group_matrices(model: Model, groups: list[list[int]]) -> dict[tuple[int, ...], np.ndarray]:
+    """The correlation matrix of each group of inputs, in one pass over the pairs
+    (never the whole N × N matrix)."""
+    joint = [g for g in groups if len(g) > 1]
+    matrices = {tuple(g): np.eye(len(g)) for g in joint}
+    where = {model.inputs[slot].name: (tuple(g), j) for g in joint for j, slot in enumerate(g)}
+    for a, b, r in model.correlations:
+        key, i = where[a]
+        j = where[b][1]
+        matrices[key][i, j] = matrices[key][j, i] = r
+    return matrices
+
+
+def _set_slots(model: Model) -> dict[int, tuple[int, float]]:
+    """Input index → (number of its [[estimated_together]] set, the set's ν)."""
+    index = {item.name: k for k, item in enumerate(model.inputs)}
+    return {index[name]: (number, s.dof) for number, s in enumerate(model.estimated_together)
+            for name in s.inputs}
+
+
+def _copula_warnings(model: Model, groups: list[list[int]]) -> list[str]:
+    warnings = []
+    in_sets = _set_slots(model)
+    for group in (g for g in groups if len(g) > 1):
+        members = [model.inputs[i] for i in group if i not in in_sets]
+        odd = [i for i in members if not i.distribution.gaussian]
+        refused = [i for i in odd if not i.distribution.has_ppf]
+        if refused:
+            shapes = ", ".join(f"{i.name} ({i.distribution.name})" for i in refused)
+            raise SimulationError(
+                "expected correlated inputs with a normal, rectangular, triangular, arcsine, "
+                f"trapezoidal or student_t distribution (others cannot be drawn correlated), "
+                f"found {shapes}", Location(file=model.source, table="correlations",
+                                            key="between"))
+        t_members = [i for i in odd if isinstance(i.distribution, StudentT)]
+        copula = [i for i in odd if not isinstance(i.distribution, StudentT)]
+        if copula:
+            warnings.append(
+                f"correlation between non-Gaussian inputs "
+                f"({', '.join(i.name for i in copula)}): drawn through a Gaussian copula; "
+                "the correlation of the draws differs slightly from the stated r")
+        if t_members:
+            warnings.append(
+                f"correlated Student-t inputs ({', '.join(i.name for i in t_members)}): "
+                "drawn as correlated normals over independent √(χ²_ν/ν); the correlation "
+                "of the draws is somewhat below the stated r")
+        t_sets = {in_sets[i][0] for i in group if i in in_sets and math.isfinite(in_sets[i][1])}
+        if t_sets and (len(t_sets) > 1 or members):
+            names = ", ".join(model.inputs[i].name for i in group)
+            warnings.append(
+                f"inputs estimated together are correlated with inputs outside their set "
+                f"({names}): each set is drawn as its own multivariate t on one Gaussian "
+                "correlation structure; the correlation across sets differs slightly from "
+                "the stated r")
+    return warnings
+
+
+def _factor(r: np.ndarray) -> np.ndarray:
+    """F with F Fᵀ = r for a positive semi-definite r (singular ones included)."""
+    eigenvalues, vectors = np.linalg.eigh(r)
+    factor: np.ndarray = vectors * np.sqrt(np.clip(eigenvalues, 0.0, None))
+    return factor
+
+
+def _correlated(model: Model, group: list[int], factor: np.ndarray,
+                rng: np.random.Generator, size: int,
+                sets: dict[int, tuple[int, float]]) -> list[np.ndarray]:
+    """One group of jointly drawn inputs: a multivariate Gaussian z with the group's
+    correlations (JCGM 101 6.4.8); the members of an [[estimated_together]] set with
+    finite ν share one χ²_ν draw w and are z·√(ν/w), a multivariate t (JCGM 102 6.5);
+    a correlated Student-t input is its z over its own √(χ²_ν/ν) (exact t marginals, no
+    inverse CDF); other non-Gaussian members go through the Gaussian copula of their ppf."""
+    z = rng.standard_normal((size, len(group))) @ factor.T
+    scales: dict[int, np.ndarray] = {}
+    for number, nu in sorted({sets[slot] for slot in group if slot in sets}):
+        if math.isfinite(nu):
+            scales[number] = np.sqrt(nu / rng.chisquare(nu, size))
+    columns = []
+    for j, slot in enumerate(group):
+        item = model.inputs[slot]
+        if slot in sets:
+            column = z[:, j] * scales[sets[slot][0]] if sets[slot][0] in scales else z[:, j]
+            columns.append(item.estimate + item.standard_uncertainty * column)
+        elif item.distribution.gaussian:
+            columns.append(item.estimate + item.standard_uncertainty * z[:, j])
+        elif isinstance(item.distribution, StudentT):  # z / √(χ²_ν/ν): no inverse CDF
+            t = item.distribution
+            columns.append(t.estimate + t.scale * z[:, j]
+                           * np.sqrt(t.dof / rng.chisquare(t.dof, size)))
+        else:
+            from scipy.special import ndtr
+
+            columns.append(item.distribution.ppf(ndtr(z[:, j])))
+    return columns
+
+
+class _Tails:
+    """Cut values from a first block, below and above which every block keeps its values,
+    so that the coverage intervals need sorting only about 1.25·(1 − p)·M values per tail
+    instead of selecting among all M (checked afterwards; a full selection when short)."""
+
+    def __init__(self, view: np.ndarray, p: float) -> None:
+        share = 1.0 - p
+        level = min(0.45, 1.25 * share + 5.0 * math.sqrt(share / view.shape[1]))
+        self.low = np.quantile(view, level, axis=1)
+        self.high = np.quantile(view, 1.0 - level, axis=1)
+
+    def collect(self, view: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]]:
+        return [(y[y <= lo], y[y >= hi]) for y, lo, hi in zip(view, self.low, self.high)]
+
+
+def _run_blocks(sampler: _Sampler, first: int, count: int, trials: int, out: np.ndarray,
+                progress: Callable[[int], None] | None, workers: int,
+                tails: _Tails | None = None) -> tuple[np.ndarray, list[Any]]:
+    """Fill ``out[:, :]`` with blocks first … first+count-1 of a run of ``trials``;
+    the moments of all of them and, with ``tails``, each block's tail values."""
+    block = sampler.size
+    moments: list[np.ndarray] = []
+    kept: list[list[tuple[np.ndarray, np.ndarray]]] = []
+
+    def work(b: int) -> tuple[int, np.ndarray, list[Any]]:
+        start = b * block
+        size = min(block, trials - start)
+        view = out[:, start - first * block:start - first * block + size]
+        sampler.block(b, size, view)
+        return size, _block_moments(view), tails.collect(view) if tails else []
+
+    blocks = range(first, first + count)
+    results = map(work, blocks) if workers <= 1 else \
+        ThreadPoolExecutor(max_workers=workers).map(work, blocks)
+    for done, block_moments, block_tails in results:  # in block order
+        moments.append(block_moments)
+        kept.append(block_tails)
+        if progress:
+            progress(done)
+    return _combine(moments), (kept if tails else [])
+
+
+def _block_moments(view: np.ndarray) -> np.ndarray:
+    """Per measurand: count, mean and sum of squared deviations of the jointly finite
+    values of one block (computed while the block is in the cache)."""
+    finite = np.isfinite(view).all(axis=0)
+    data = view if finite.all() else view[:, finite]
+    n = data.shape[1]
+    mean = data.mean(axis=1) if n else np.zeros(view.shape[0])
+    centred = data - mean[:, None]
+    m2 = np.einsum("ij,ij->i", centred, centred)
+    return np.column_stack([np.full(view.shape[0], float(n)), mean, m2])
+
+
+def _combine(moments: list[np.ndarray]) -> np.ndarray:
+    """Chan et al.'s pairwise update, block by block in order: (n, mean, M2) per measurand."""
+    total = moments[0].copy()
+    for part in moments[1:]:
+        n_a, n_b = total[:, 0], part[:, 0]
+        n = n_a + n_b
+        with np.errstate(invalid="ignore", divide="ignore"):
+            delta = part[:, 1] - total[:, 1]
+            share = np.where(n > 0, n_b / np.where(n > 0, n, 1), 0.0)
+            total[:, 1] = total[:, 1] + delta * share
+            total[:, 2] = total[:, 2] + part[:, 2] + delta * delta * n_a * share
+        total[:, 0] = n
+    return total
+
+
+def simulate(model: Model, budget: Budget | None = None, *, trials: int | None = None,
+             adaptive: bool = False, seed: int | None = None, coverage: float | None = None,
+             digits: int | None = None, workers: int | None = None,
+             progress: Callable[[int, int], None] | None = None,
+             keep_samples: bool | None = None) -> Simulation:
+    """Monte Carlo propagation of distributions; validates ``budget`` when given.
+
+    ``keep_samples``: keep every value (``MeasurandSimulation.samples``); by default only
+    while a fixed run has at most ``KEEP_LIMIT`` values, longer runs are streamed."""
+    settings = model.settings
+    seed = settings.seed if seed is None else seed
+    coverage_at = Location(file=model.source, table="settings" if coverage is None else None,
+                           key="coverage")
+    coverage = settings.coverage_probability if coverage is None else coverage
+    digits = settings.digits if digits is None else digits
+    workers = workers or min(2, os.cpu_count() or 1)
+    trials_at = Location(file=model.source, table="settings" if trials is None else None,
+                         key="trials")  # the file's setting, or an argument
+    if trials is None:
+        adaptive = adaptive or settings.trials == "adaptive"
+        trials = 0 if settings.trials == "adaptive" else int(settings.trials)
+    check_trials(trials, trials_at)
+    if adaptive:
+        check_adaptive(coverage, coverage_at)
+    sampler = _Sampler(model, seed)
+    if adaptive:
+        samples, warnings, moments, kept = _adaptive(sampler, coverage, digits, workers,
+                                                     progress)
+    else:
+        if trials < 2 or trials < 1.0 / (1.0 - coverage):
+            raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
+                                  f"trials for a {100 * coverage:.10g} % interval, found {trials}",
+                                  trials_at)
+        ticker = (lambda n, total=trials: progress(n, total)) if progress else None
+        if not _keeps(keep_samples, trials, len(model.measurands), coverage):
+            from ._streaming import stream
+
+            found = stream(sampler, trials, coverage, ticker, workers)
+            return _summarise(model, budget, None, seed, coverage, digits, False,
+                              sampler.warnings, found.moments, streamed=found)
+        samples = np.empty((len(model.measurands), trials))
+        moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
+        warnings = []
+    return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
+                      sampler.warnings + warnings, moments, kept)
+
+
+def _keeps(keep_samples: bool | None, trials: int, measurands: int, coverage: float) -> bool:
+    """Whether a fixed run keeps every value: asked for, short enough, or p ≤ ½ (whose
+    shortest interval needs half of all values)."""
+    if keep_samples is not None:
+        return keep_samples
+    return trials * measurands <= KEEP_LIMIT or coverage <= 0.5
+
+
+def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
+               ticker: Callable[[int], None] | None, workers: int) -> tuple[np.ndarray, list[Any]]:
+    trials = samples.shape[1]
+    blocks = -(-trials // sampler.size)
+    if blocks < 4 or coverage <= 0.5:
+        return _run_blocks(sampler, 0, blocks, trials, samples, ticker, workers)
+    first, _ = _run_blocks(sampler, 0, 1, trials, samples, ticker, 1)
+    sampler.release()
+    head = samples[:, :sampler.size]
+    if not np.isfinite(head).all():
+        rest, _ = _run_blocks(sampler, 1, blocks - 1, trials, samples[:, sampler.size:],
+                              ticker, workers)
+        return _combine([first, rest]), []
+    tails = _Tails(head, coverage)
+    rest, kept = _run_blocks(sampler, 1, blocks - 1, trials, samples[:, sampler.size:],
+                             ticker, workers, tails)
+    return _combine([first, rest]), [tails.collect(head), *kept]
+
+
+def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
+              progress: Callable[[int, int], None] | None
+              ) -> tuple[np.ndarray, list[str], np.ndarray, list[Any]]:
+    """JCGM 101 7.9 with batches of whole blocks (≥ max(J, 10⁴) trials each), on all
+    workers. Running statistics: each batch leaves its moments, its four results (mean,
+    sd, interval ends) and its tail values beyond the first batch's cut points, so a
+    convergence check costs one batch, never all the values so far, and the final
+    intervals sort the tails only. The workers draw the next blocks while a batch is
+    checked (blocks depend on their index only, so drawing ahead changes nothing), into
+    one array reserved for the cap whose pages are touched only as they are written."""
+    j = math.ceil(100.0 / (1.0 - coverage))
+    # at least two blocks per batch, so that both workers draw (the same on any number
+    # of cores: the batch size never depends on the workers)
+    per_batch = max(2, -(-max(j, 10_000) // sampler.size))
+    size = per_batch * sampler.size
+    most = max(1, ADAPTIVE_LIMIT // size)  # batches: the last one keeps (h + 2)·M ≤ cap
+    samples = np.empty((len(sampler.model.measurands), most * size))
+    stats: list[np.ndarray] = []  # per batch: (n_out, 4) mean, sd, low, high
+    moments: np.ndarray | None = None  # (n_out, 3): count, mean, M2 of all batches
+    tails: _Tails | None = None
+    kept: list[Any] = []
+    blocks = _ahead(sampler, samples, most * per_batch, workers)
+    try:
+        for h in range(most):
+            chunk = samples[:, h * size:(h + 1) * size]
+            done = _combine([next(blocks) for _ in range(per_batch)])
+            if progress:
+                progress(size, (h + 1) * size)  # trials done since the last call
+            if h == 0 and coverage > 0.5 and np.isfinite(chunk).all():
+                tails = _Tails(chunk, coverage)
+            pieces = tails.collect(chunk) if tails is not None else None
+            if pieces is not None:
+                kept.append(pieces)
+            moments = done if moments is None else _combine([moments, done])
+            stats.append(_batch_stats(chunk, coverage, done, pieces))
+            if h >= 1 and _converged(moments, np.array(stats), digits):
+                return samples[:, :(h + 1) * size], [], moments, kept
+    finally:
+        blocks.close()
+    assert moments is not None
+    return (samples, [f"adaptive Monte Carlo stopped at {most * size} trials before its "
+                      f"numerical tolerance was reached (limit {ADAPTIVE_LIMIT})"],
+            moments, kept)
+
+
+def _ahead(sampler: _Sampler, samples: np.ndarray, count: int, workers: int
+           ) -> Generator[np.ndarray, None, None]:
+    """The moments of blocks 0, 1, … (each drawn into its place in ``samples``), in
+    order, with up to two blocks per worker drawn ahead; closing it stops the drawing."""
+    block = sampler.size
+
+    def work(b: int) -> np.ndarray:
+        view = samples[:, b * block:(b + 1) * block]
+        sampler.block(b, block, view)
+        return _block_moments(view)
+
+    if workers <= 1:
+        yield from map(work, range(count))
+        return
+    with ThreadPoolExecutor(max_workers=workers) as pool:
+        pending: deque[Future[np.ndarray]] = deque()
+        try:
+            for b in range(count):
+                pending.append(pool.submit(work, b))
+                while len(pending) > 2 * workers:
+                    yield pending.popleft().result()
+            while pending:
+                yield pending.popleft().result()
+        finally:
+            for future in pending:
+                future.cancel()
+
+
+def _unresolved(estimate: float, u: float, delta: float,
+                interval: tuple[float, float]) -> str:
+    """Why the Monte Carlo values cannot resolve the tolerance δ, or '' when they can.
+
+    Double-precision values near y are spaced by ε·|y|; when u_c is not a thousand such
+    spacings, or δ not ten, the drawn values are quantised and d_low, d_high say nothing.
+    """
+    spacing = float(np.spacing(max(abs(estimate), abs(interval[0]), abs(interval[1]))))
+    if u >= 1000.0 * spacing and delta >= 10.0 * spacing:
+        return ""
+    return (f"the spread is not resolved in double precision (u_c = {u:.2g} and δ = "
+            f"{delta:.2g} against a spacing of {spacing:.2g} between representable values "
+            f"near {max(abs(estimate), abs(interval[0]), abs(interval[1])):.3g})")
+
+
+def _spread(y: np.ndarray | None, mean: float, variance: float) -> float:
+    """The standard deviation; recomputed in scaled units when the variance over- or
+    underflows (values near 1e±200) and the values are kept, so that a representable
+    spread is never 0 or ∞."""
+    if 1e-280 < variance < 1e280 or y is None:
+        return math.sqrt(variance)
+    finite = y[np.isfinite(y)]
+    scale = float(np.max(np.abs(finite - mean))) if finite.size else 0.0
+    if scale == 0.0 or not math.isfinite(scale):
+        return math.sqrt(variance) if math.isfinite(variance) else math.inf
+    return scale * float(np.std((finite - mean) / scale, ddof=1))
+
+
+def check_adaptive(coverage: float, where: Location | None = None) -> None:
+    """Refuse a coverage whose adaptive batches (≥ 100/(1 − p) trials) pass the cap."""
+    batch = math.ceil(100.0 / (1.0 - coverage))
+    if 2 * batch > ADAPTIVE_LIMIT:
+        raise SimulationError(
+            f"expected a coverage probability whose adaptive batches fit the limit of "
+            f"{ADAPTIVE_LIMIT:,} trials (p below {1 - 200 / ADAPTIVE_LIMIT:.7g}; JCGM 101 "
+            f"7.9 asks for batches of 100/(1 - p) = {batch:,} trials here), found {coverage:g}"
+            "; give a fixed number of trials instead", where)
+
+
+def _batch_stats(chunk: np.ndarray, coverage: float, done: np.ndarray | None = None,
+                 pieces: list[tuple[np.ndarray, np.ndarray]] | None = None) -> np.ndarray:
+    """Per measurand: mean, standard deviation and interval ends of one batch. With the
+    batch's moments (``done``) and its values beyond the cut points (``pieces``) of an
+    all-finite batch, the ends are selected among those few values (the same order
+    statistics: every value beyond a cut is there)."""
+    if done is not None and pieces is not None and np.all(done[:, 0] == chunk.shape[1]):
+        found = [_batch_ends(low, high, chunk.shape[1], coverage) for low, high in pieces]
+        if all(f is not None for f in found):
+            sd = np.sqrt(done[:, 2] / (done[:, 0] - 1))
+            return np.column_stack([done[:, 1], sd, np.array(found, dtype=float)])
+    rows = []
+    for y in chunk:
+        finite = y[np.isfinite(y)]
+        if finite.size < 2:
+            rows.append([np.nan] * 4)
+            continue
+        low, high = coverage_interval(finite.copy(), coverage)
+        rows.append([finite.mean(), finite.std(ddof=1), low, high])
+    return np.array(rows)
+
+
+def _batch_ends(low: np.ndarray, high: np.ndarray, m: int, p: float
+               ) -> tuple[float, float] | None:
+    """The JCGM 101 7.7.2 interval of m values from the values at or below the low cut
+    and at or above the high cut, or None when one side holds too few."""
+    lo, hi = _indices(m, p)
+    above = m - 1 - hi  # values above the upper end
+    if lo >= low.size or above >= high.size:
+        return None
+    upper = high.size - 1 - above
+    return (float(np.partition(low, lo)[lo]), float(np.partition(high, upper)[upper]))
+
+
+def _converged(moments: np.ndarray, stats: np.ndarray, digits: int) -> bool:
+    """JCGM 101 7.9.4: twice the standard deviation of the h batch results over √h
+    within δ, δ from the standard deviation of all values so far (running moments)."""
+    h = stats.shape[0]
+    spread = 2.0 * stats.std(axis=0, ddof=1) / math.sqrt(h)  # (n_out, 4)
+    for k in range(moments.shape[0]):
+        count, m2 = moments[k, 0], moments[k, 2]
+        sd = math.sqrt(m2 / (count - 1)) if count > 1 else math.nan
+        delta = tolerance(sd, digits)
+        if not np.all(spread[k] <= delta):
+            return False
+    return True
+
+
+def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, seed: int,
+               coverage: float, digits: int, adaptive: bool, warnings: list[str],
+               moments: np.ndarray | None = None, kept: list[Any] | None = None,
+               streamed: Streamed | None = None) -> Simulation:
+    """The simulation from every value (``samples``) or from a streamed run."""
+    total = streamed.total if streamed is not None else samples.shape[1]  # type: ignore[union-attr]
+    if moments is None:
+        assert samples is not None
+        moments = _block_moments(samples)
+    bad = int(total - moments[0, 0])
+    if bad and samples is not None:
+        samples = samples[:, np.isfinite(samples).all(axis=0)]
+    if bad:
+        share = bad / total
+        if share > NONFINITE_LIMIT:
+            raise SimulationError(
+                f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) "
+                f"gave a non-finite model value (limit {100 * NONFINITE_LIMIT:g} %); the "
+                "input distributions reach outside the equations' domain",
+                Location(file=model.source))
+        warnings.append(f"{bad} of {total} Monte Carlo trials ({100 * share:.2g} %) gave a "
+                        "non-finite model value and were left out")
+    if streamed is not None:
+        correlation = streamed.correlation
+    else:
+        assert samples is not None
+        correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
+        correlation = np.nan_to_num(np.atleast_2d(correlation), nan=0.0)
+    results = tuple(
+        _one(model, budget, k, None if samples is None else samples[k], coverage, digits,
+             moments[k], [block[k] for block in kept] if kept and not bad else None,
+             streamed)
+        for k in range(moments.shape[0]))
+    for item in results:
+        if item.validation is not None and item.validation.reason:
+            warnings.append(f"'{item.name}': Monte Carlo cannot validate the GUM result: "
+                            f"{item.validation.reason}")
+        elif item.validation is not None and not item.validation.validated:
+            warnings.append(
+                f"'{item.name}': Monte Carlo does not validate the GUM result at "
+                f"{item.validation.tolerance:.2g} {item.unit} (d_low = "
+                f"{item.validation.d_low:.2g}, d_high = {item.validation.d_high:.2g}, "
+                "JCGM 101 8.2)")
+    return Simulation(trials=total, seed=seed, coverage_probability=coverage,
+                      adaptive=adaptive, nonfinite=bad, measurands=results,
+                      output_correlation=tuple(tuple(float(x) for x in row)
+                                               for row in correlation),
+                      warnings=tuple(warnings))
+
+
+def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray | None, coverage: float,
+         digits: int, moments: np.ndarray, tails: list[Any] | None = None,
+         streamed: Streamed | None = None) -> MeasurandSimulation:
+    measurand = model.measurands[k]
+    count = int(moments[0])
+    if count < 2:
+        raise SimulationError(f"expected at least 2 finite Monte Carlo values, found {count}",
+                              Location(file=model.source, table=f"measurands.{measurand.name}",
+                                       key="equation", line=measurand.line))
+    mean = float(moments[1])
+    sd = _spread(y, mean, float(moments[2]) / (moments[0] - 1))
+    if streamed is not None:
+        interval, shortest = streamed.intervals[k]
+    else:
+        assert y is not None
+        found = _from_tails(tails, count, coverage) if tails else None
+        # the intervals partition a copy: ``samples`` keep the trial order, jointly with
+        # the other measurands (issue 10: sorting row by row destroyed their correlation)
+        interval, shortest = found or _intervals(y.copy(), coverage)
+    validation = None
+    if budget is not None:
+        gum = budget.measurands[k]
+        delta = tolerance(gum.combined_uncertainty, digits)
+        d_low = abs(gum.estimate - gum.expanded_uncertainty - interval[0])
+        d_high = abs(gum.estimate + gum.expanded_uncertainty - interval[1])
+        reason = _unresolved(gum.estimate, gum.combined_uncertainty, delta, interval)
+        validation = Validation(tolerance=delta, d_low=d_low, d_high=d_high,
+                                validated=bool(d_low <= delta and d_high <= delta
+                                               and not reason), reason=reason)
+    return MeasurandSimulation(name=measurand.name, unit=measurand.unit, trials=count,
+                               mean=mean, standard_uncertainty=sd, interval=interval,
+                               shortest_interval=shortest, validation=validation,
+                               samples=y, histogram=None if streamed is None
+                               else streamed.histograms[k])
