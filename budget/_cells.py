@@ -1,6 +1,6 @@
 """The cells of a budget shared by every view: one budget row as display strings and the
 result statement (GUM 7.2.6 rounding through ``formatting``). The terminal table
-(``table.py``), the HTML report (``report.py``) and the notebook use these, so none of
+(``_table.py``), the HTML report (``_report.py``) and the notebook use these, so none of
 them imports another view."""
 
 from __future__ import annotations
@@ -12,8 +12,9 @@ from ._unit_display import display_unit, spaced_unit
 
 if TYPE_CHECKING:
     from ._gum import MeasurandBudget
+    from ._montecarlo import Validation
 
-__all__ = ["SHORT_DISTRIBUTION", "contribution_cells", "result_statement"]
+__all__ = ["SHORT_DISTRIBUTION", "contribution_cells", "result_statement", "validation_lines"]
 
 SHORT_DISTRIBUTION = {"normal": "normal", "rectangular": "rectangular",
                       "triangular": "triangular", "arcsine": "arcsine",
@@ -42,3 +43,17 @@ def result_statement(b: MeasurandBudget, digits: int, unit: str | None = None) -
     shown = spaced_unit(display_unit(b.unit) if unit is None else unit)
     return (f"{b.name} = ({value} ± {expanded}){shown}, k = {b.coverage_factor:.2f}, "
             f"coverage probability {100 * b.coverage_probability:g} %")
+
+
+def validation_lines(v: Validation | None, unit: str, indent: str) -> list[str]:
+    """The JCGM 101 8.2 verdict under a Monte Carlo result (terminal and notebook text);
+    ``unit`` is already spaced for writing after a number."""
+    if v is None:
+        return []
+    verdict = "validated" if v.validated else "NOT validated"
+    lines = [f"{indent}GUM result {verdict} (JCGM 101 8.2): d_low = "
+             f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
+             f"δ = {format_number(v.tolerance, 1)}{unit}"]
+    if v.reason:
+        lines.append(f"{indent}validation not possible: {v.reason}")
+    return lines

@@ -13,8 +13,8 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 
-from ._errors import InputError, Location, did_you_mean
-from ._tomlkeys import check_keys
+from ._errors import InputError, Location
+from ._tomlkeys import check_input_names, check_keys
 
 __all__ = ["read", "matrix", "indexed_pairs"]
 
@@ -124,13 +124,8 @@ def _one(entry: Any, names: Sequence[str], here: Callable[..., Location],
             or not all(isinstance(n, str) for n in between)):
         raise InputError(f"expected between = [\"name\", \"name\"] in correlation "
                          f"{index + 1}, found {between!r}", here("between"))
-    for name in between:
-        if name not in names:
-            raise InputError(f"unknown input '{name}' in correlation {index + 1}"
-                             f"{did_you_mean(name, names)}", here("between"))
-    if between[0] == between[1]:
-        raise InputError(f"expected two different inputs in correlation {index + 1}, found "
-                         f"'{between[0]}' twice", here("between"))
+    check_input_names(between, names, f"in correlation {index + 1}", here("between"),
+                      pair=True)
     r = entry.get("r")
     if isinstance(r, bool) or not isinstance(r, (int, float)) or not math.isfinite(r):
         raise InputError(f"expected a number r in [-1, 1] in correlation {index + 1}, found "
@@ -152,14 +147,7 @@ def _block(entry: dict[str, Any], names: "_Names", here: Callable[..., Location]
             or not all(isinstance(n, str) for n in between)):
         raise InputError(f"expected between = [\"name\", \"name\", …] in correlation "
                          f"{index + 1}, found {between!r}", here("between"))
-    for name in between:
-        if name not in names:
-            raise InputError(f"unknown input '{name}' in correlation {index + 1}"
-                             f"{did_you_mean(name, names)}", here("between"))
-    if len(set(between)) != len(between):
-        twice = next(n for n in between if between.count(n) > 1)
-        raise InputError(f"expected different inputs in correlation {index + 1}, found "
-                         f"'{twice}' twice", here("between"))
+    check_input_names(between, names, f"in correlation {index + 1}", here("between"))
     if ("r" in entry) == ("matrix" in entry):
         raise InputError(f"expected either r (one value for every pair) or matrix in "
                          f"correlation {index + 1} of {len(between)} inputs, found "

@@ -262,8 +262,9 @@ def _propagate(model: Model, coverage: float | None, second_order: bool) -> Budg
     core, scale = _scaled_covariance(jac, u, pairs, extra)
     with np.errstate(over="ignore"):
         covariance = core * scale * scale  # entries beyond ±1.8e308 are ∞ (JSON: null)
-    return Budget(model=model, measurands=budgets, output_covariance=_rows(covariance),
-                  output_correlation=_rows(_correlation(core)), jacobian=_rows(jac),
+    return Budget(model=model, measurands=budgets, output_covariance=matrix_rows(covariance),
+                  output_correlation=matrix_rows(correlation_of(core)),
+                  jacobian=matrix_rows(jac),
                   warnings=tuple(warnings))
 
 
@@ -402,7 +403,8 @@ def _second_order(model: Model, wanted: bool, warnings: list[str]) -> np.ndarray
     return second_order_variances(model)
 
 
-def _correlation(covariance: np.ndarray) -> np.ndarray:
+def correlation_of(covariance: np.ndarray) -> np.ndarray:
+    """The correlation matrix of a covariance matrix (0 where a variance is 0)."""
     sd = np.sqrt(np.clip(np.diag(covariance), 0.0, None))
     with np.errstate(all="ignore"):
         result = covariance / np.outer(sd, sd)
@@ -411,5 +413,6 @@ def _correlation(covariance: np.ndarray) -> np.ndarray:
     return result
 
 
-def _rows(array: np.ndarray) -> tuple[tuple[float, ...], ...]:
+def matrix_rows(array: np.ndarray) -> tuple[tuple[float, ...], ...]:
+    """A matrix as the nested tuples of plain floats kept by the frozen results."""
     return tuple(tuple(float(x) for x in row) for row in np.atleast_2d(array))

@@ -33,7 +33,8 @@ import numpy as np
 from ._analysis import evaluate
 from ._combination import Combined, Consistency, combine, consistency
 from ._errors import Location
-from ._gum import coverage_factor, propagate, welch_satterthwaite
+from ._gum import (correlation_of, coverage_factor, matrix_rows, propagate,
+                   welch_satterthwaite)
 from ._joint import Member, join
 
 if TYPE_CHECKING:
@@ -154,9 +155,9 @@ def evaluate_methods(campaign: "Campaign", primary: "Characterization",
     if combined is not None and found.samples is not None:
         simulation = _combined_mc(campaign, plan, results, combined, nu, found,
                                   np.array(offsets), seed)
-    return MethodsResult(methods=tuple(results), covariance=_rows(covariance),
-                         correlation=_rows(_correlation(covariance)),
-                         monte_carlo_covariance=None if mc is None else _rows(mc),
+    return MethodsResult(methods=tuple(results), covariance=matrix_rows(covariance),
+                         correlation=matrix_rows(correlation_of(covariance)),
+                         monte_carlo_covariance=None if mc is None else matrix_rows(mc),
                          pairs=pairs, shared=plan.shared, rule=plan.rule,
                          combined_methods=plan.combined, combined=combined, combined_dof=nu,
                          shares=shares, consistency=check, combined_monte_carlo=simulation)
@@ -414,19 +415,6 @@ def _combined(plan: "MethodsPlan", results: list[MethodResult], x: np.ndarray,
                              np.abs(w) * np.sqrt(np.diag(used)), dofs)
     return combined, nu, tuple((plan.combined[n], 100.0 * float(share[n]))
                                for n in range(len(chosen)))
-
-
-def _correlation(v: np.ndarray) -> np.ndarray:
-    sd = np.sqrt(np.clip(np.diag(v), 0.0, None))
-    with np.errstate(all="ignore"):
-        r = v / np.outer(sd, sd)
-    r[~np.isfinite(r)] = 0.0
-    np.fill_diagonal(r, 1.0)
-    return r
-
-
-def _rows(a: np.ndarray) -> tuple[tuple[float, ...], ...]:
-    return tuple(tuple(float(x) for x in row) for row in a)
 
 
 def characterization_value(primary: "Characterization", methods: MethodsResult

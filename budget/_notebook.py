@@ -21,6 +21,7 @@ import math
 from collections.abc import Iterable, Sequence
 from typing import TYPE_CHECKING, Any, Protocol, TypeVar
 
+from ._cells import validation_lines
 from ._errors import NotFoundError, did_you_mean
 from ._formatting import format_number, format_pair, format_percent, shown_share
 from ._unit_display import display_unit, spaced_unit
@@ -130,13 +131,7 @@ def simulation_text(s: MeasurandSimulation, digits: int = 2) -> str:
     unit = spaced_unit(display_unit(s.unit))
     lines = [f"{s.name}: {s.trials:,} trials   y = {mean}{unit}   u = {u}{unit}",
              f"  interval [{low}, {high}]   shortest [{short_low}, {short_high}]"]
-    v = s.validation
-    if v is not None:
-        verdict = "validated" if v.validated else "NOT validated"
-        lines.append(f"  GUM result {verdict} (JCGM 101 8.2): d_low = "
-                     f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
-                     f"δ = {format_number(v.tolerance, 1)}{unit}")
-    return "\n".join(lines)
+    return "\n".join(lines + validation_lines(s.validation, unit, "  "))
 
 
 def simulation_html(items: Sequence[MeasurandSimulation], digits: int = 2) -> str:

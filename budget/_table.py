@@ -7,7 +7,8 @@ import textwrap
 from typing import Any
 
 from ._analysis import Result
-from ._cells import SHORT_DISTRIBUTION, contribution_cells, result_statement
+from ._cells import (SHORT_DISTRIBUTION, contribution_cells, result_statement,
+                     validation_lines)
 from ._formatting import (format_dof, format_number, format_pair, format_percent,
                          format_statistic, shown_share)
 from ._gum import MeasurandBudget
@@ -134,15 +135,7 @@ def _monte_carlo(b: MeasurandBudget, s: MeasurandSimulation, digits: int) -> lis
     unit = spaced_unit(terminal_unit(b.unit))
     lines = [f"MC:   {s.trials:,} trials   y = {mean}{unit}   u = {u}{unit}",
              f"      {p} interval [{low}, {high}]   shortest [{short_low}, {short_high}]"]
-    v = s.validation
-    if v is not None:
-        verdict = "validated" if v.validated else "NOT validated"
-        lines.append(f"      GUM result {verdict} (JCGM 101 8.2): d_low = "
-                     f"{format_number(v.d_low, 2)}, d_high = {format_number(v.d_high, 2)}, "
-                     f"δ = {format_number(v.tolerance, 1)}{unit}")
-        if v.reason:
-            lines.append(f"      validation not possible: {v.reason}")
-    return lines
+    return lines + validation_lines(s.validation, unit, "      ")
 
 
 def _correlations(result: Result) -> list[str]:

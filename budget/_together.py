@@ -20,8 +20,8 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
-from ._errors import InputError, Location, did_you_mean
-from ._tomlkeys import check_keys
+from ._errors import InputError, Location
+from ._tomlkeys import check_input_names, check_keys
 
 __all__ = ["KEY", "Together", "read"]
 
@@ -79,14 +79,7 @@ def _names(entry: Any, names: list[str], here: Callable[..., Location],
             or not all(isinstance(n, str) for n in listed)):
         raise InputError(f"expected inputs = [\"name\", \"name\", …] (at least two) in set "
                          f"{index + 1}, found {listed!r}", here("inputs" if listed else None))
-    for name in listed:
-        if name not in names:
-            raise InputError(f"unknown input '{name}' in set {index + 1}"
-                             f"{did_you_mean(name, names)}", here("inputs"))
-    if len(set(listed)) != len(listed):
-        twice = next(n for n in listed if listed.count(n) > 1)
-        raise InputError(f"expected different inputs in set {index + 1}, found '{twice}' "
-                         "twice", here("inputs"))
+    check_input_names(listed, names, f"in set {index + 1}", here("inputs"))
     if "note" in entry and not isinstance(entry["note"], str):
         raise InputError(f"expected a string, found {entry['note']!r}", here("note"))
     return list(listed)

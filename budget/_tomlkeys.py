@@ -29,3 +29,19 @@ def check_keys(data: Iterable[str], allowed: Sequence[str], where: Callable[[str
         if key not in allowed:
             raise error(unknown_key_message(str(key), allowed, kind=kind, within=within),
                         where(key))
+
+
+def check_input_names(listed: list[str], names: Iterable[str], within: str,
+                      where: Location, *, pair: bool = False) -> None:
+    """Every name of ``listed`` (a ``between`` or ``inputs`` list) names an input, once;
+    ``within`` says which entry ("in correlation 3", "in set 1"); ``pair``: a list of
+    exactly two names."""
+    for name in listed:
+        if name not in names:
+            raise InputError(f"unknown input '{name}' {within}{did_you_mean(name, names)}",
+                             where)
+    if len(set(listed)) != len(listed):
+        twice = next(n for n in listed if listed.count(n) > 1)
+        two = "two " if pair else ""
+        raise InputError(f"expected {two}different inputs {within}, found '{twice}' twice",
+                         where)
