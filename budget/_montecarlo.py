@@ -45,6 +45,7 @@ import numpy as np
 
 from .distributions import Normal, Rectangular, StudentT
 from ._limits import check_trials
+from ._batched import Schedule
 from ._errors import Location, SimulationError
 from ._evaluation import compile_model
 from ._formatting import decimal_exponent
@@ -62,6 +63,7 @@ BLOCK = 1 << 16
 GENERATOR = "SFC64"
 _BLOCK_BYTES = 1 << 25
 _SLICE = 1 << 13  # evaluation works on slices that stay in the processor's cache
+_GROUP_BYTES = 1 << 21  # a grouped operation's arrays in a slice (_batched.Schedule)
 _CHUNK = 1 << 15  # normal draws are scaled in chunks of rows of about 256 kB
 NONFINITE_LIMIT = 0.01
 # A fixed run keeps every value (8 bytes per trial and measurand) up to this many values;
@@ -265,6 +267,12 @@ class _Sampler:
         self.rows = ({slot: row for row, slot in enumerate(self.plan[-1][1][0])}
                      if self.plan and self.plan[-1][0] == "normal" else {})
         self.local = threading.local()  # each thread's buffers for the normal inputs
+        # wide models: operations alike run as one array operation over rows (_batched)
+        self.runs = [n for n, (kind, _) in enumerate(self.plan) if kind in ("normal", "uniform")]
+        layout = {slot: (n, row) for n in self.runs
+                  for row, slot in enumerate(self.plan[n][1][0])}
+        self.schedule = Schedule(self.program, layout)
+        self.width = _width(self.schedule.widest)
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
@@ -272,12 +280,17 @@ class _Sampler:
         out = np.empty((len(self.model.measurands), size)) if out is None else out
         normals = self.plan[-1] if self.plan and self.plan[-1][0] == "normal" else None
         matrix = self.local.buffers[len(self.plan) - 1] if normals else None
-        for start in range(0, size, _SLICE):  # cache-sized slices of the drawn block
-            stop = min(size, start + _SLICE)
-            part = values if size <= _SLICE else [
-                v[start:stop] if isinstance(v, np.ndarray) else v for v in values]
+        buffers = getattr(self.local, "buffers", {})
+        for start, stop in _slices(size, self.width):  # cache-sized slices of the block
             rows = (self.rows, matrix[:, start:stop]) if matrix is not None else None
-            for k, y in enumerate(self.program.evaluate(part, rows)):
+            if self.schedule.widest > 1:
+                sources = {n: buffers[n][:, start:stop] for n in self.runs}
+                found = self.schedule.run(values, slice(start, stop), sources, rows)
+            else:
+                part = values if stop - start == size else [
+                    v[start:stop] if isinstance(v, np.ndarray) else v for v in values]
+                found = self.program.evaluate(part, rows)
+            for k, y in enumerate(found):
                 out[k, start:stop] = y
         return out
 
@@ -328,6 +341,27 @@ class _Sampler:
         if found is None or found.shape[1] != size:
             found = buffers[number] = np.empty((rows, size))
         return found
+
+
+def _width(widest: int) -> int:
+    """Trials per evaluated slice: ``_SLICE``, fewer when a group of operations alike is
+    wide, so that its (rows × trials) arrays stay near ``_GROUP_BYTES``."""
+    width = _SLICE
+    while width > 64 and widest * width * 8 > _GROUP_BYTES:
+        width //= 2
+    return width
+
+
+def _slices(size: int, width: int) -> Generator[tuple[int, int], None, None]:
+    """Slices of ``width`` within slices of ``_SLICE``; a last slice of one trial joins
+    the one before it (a reduction over one column is ordered otherwise by numpy), so a
+    single column is evaluated alone only where a ``_SLICE`` slice holds one trial."""
+    for low in range(0, size, _SLICE):
+        high = min(size, low + _SLICE)
+        starts = list(range(low, high, width))
+        if len(starts) > 1 and high - starts[-1] == 1:
+            starts.pop()
+        yield from zip(starts, starts[1:] + [high])
 
 
 def _plan(model: Model, groups: list[list[int]]) -> list[tuple[str, Any]]:

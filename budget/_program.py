@@ -346,7 +346,7 @@ def _input_run(args: tuple[int, ...], filled: list[Any], inputs: int
 
 
 def _reduced(kind: str, span: tuple[float | None, int, int, tuple[int, ...]],
-             rows: tuple[dict[int, int], np.ndarray], slots: list[Any]) -> Any:
+             rows: tuple[dict[int, int], np.ndarray], slots: list[Any] | dict[int, Any]) -> Any:
     """A sum or product whose operands begin with consecutive rows of ``rows``: one
     reduction over the rows (started from the leading number), then the other operands
     in order; False when the inputs are not consecutive rows."""

@@ -1,0 +1,268 @@
+"""A compiled program run as array operations over rows (Monte Carlo of wide models).
+
+Method: every operation of ``Program`` gets a level (one more than its deepest operand).
+Operations of one level with the same kind, payload and number of operands, whose
+operands at each position come from one source (the same value, numbers, or rows of one
+two-dimensional array: a run of drawn inputs or an earlier group's result), run as one
+numpy call on a (k × width) array instead of k calls. Only exactly rounded operations are
+grouped (+, ×, 1/x, x², √x) and every element sees the same operations in the same order
+as in ``Program.evaluate``, so the values are the same to the last bit. A sum or product
+whose operands begin with consecutive rows of a group is one reduction along the rows
+(numpy reduces an outer axis row after row, in order, when a row has at least two values;
+a single column falls back to the operation by operation fold).
+"""
+
+from __future__ import annotations
+
+from typing import Any, Sequence
+
+import numpy as np
+
+from ._program import Program, _apply, _reduced
+
+__all__ = ["Schedule"]
+
+_GROUPED = {"add", "mul", "pow"}
+_POWERS = (-1.0, 2.0, 0.5)  # the exponents ``_apply`` computes exactly (1/x, x·x, √x)
+_SMALLEST = 4  # fewer operations alike run one by one
+
+# where an operand comes from: ("one", slot), ("const", column), ("rows", source, index);
+# a source is ("input", run) (a drawn run's buffer) or ("group", number)
+Source = tuple[Any, ...]
+
+
+class Schedule:
+    """The steps of ``program`` by level, operations alike grouped into array operations.
+
+    ``layout`` maps an input slot to (run, row) when that input's values are row ``row``
+    of the two-dimensional array of draws ``run`` passed to ``run``."""
+
+    def __init__(self, program: Program, layout: dict[int, tuple[int, int]]) -> None:
+        self.program = program
+        self.inputs = len(program.symbols)
+        self.where: dict[int, Source] = {s: (("input", r), row) for s, (r, row)
+                                         in layout.items()}
+        self.items: list[tuple[Any, ...]] = []
+        self.widest = 1  # rows of the largest group
+        groups = 0
+        order = _readers(program)
+        for level in _levels(program):
+            for kind, members in _alike(program, level, self.where, order):
+                if kind != "group":
+                    self.items.extend(("step", *m) for m in members)
+                    continue
+                at, op, args, payload, _ = members[0]
+                operands = [self._operand([m[2][j] for m in members])
+                            for j in range(1 if op == "pow" else len(args))]
+                self.items.append(("group", groups, op, payload, operands, len(members)))
+                for row, member in enumerate(members):
+                    self.where[member[0]] = (("group", groups), row)
+                self.widest = max(self.widest, len(members))
+                groups += 1
+        self.items = [self._spans(item) for item in self.items]
+        # the inputs read one by one (the others are read as rows of their run)
+        self.direct = sorted({slot for item in self.items for slot in _reads(item)
+                              if slot < self.inputs} | {s for s in program.outputs
+                                                        if s < self.inputs})
+        self.release = _releases(self.items, program.outputs, self.where)
+
+    def _operand(self, slots: list[int]) -> Source:
+        if all(s == slots[0] for s in slots):
+            return ("one", slots[0])
+        if all(s in self.program.constants for s in slots):
+            return ("const", np.array([self.program.constants[s] for s in slots])[:, None])
+        source = self.where[slots[0]][0]
+        rows = np.array([self.where[s][1] for s in slots])
+        return ("rows", source, _index(rows))
+
+    def _spans(self, item: tuple[Any, ...]) -> tuple[Any, ...]:
+        """A sum or product step whose operands (after a number) begin with at least two
+        consecutive rows of one group: that span kept for a reduction."""
+        if item[0] != "step":
+            return item
+        if item[2] not in ("add", "mul"):
+            return (*item, None)
+        _, at, kind, args, payload, done = item
+        start = 1 if args[0] in self.program.constants else 0
+        first = self.where.get(args[start]) if start < len(args) else None
+        if first is None or first[0][0] != "group":
+            return (*item, None)
+        end = start + 1
+        while end < len(args) and self.where.get(args[end]) == (first[0], first[1] + end - start):
+            end += 1
+        if end - start < 2:
+            return (*item, None)
+        number = self.program.constants[args[0]] if start else None
+        return (*item, (number, first[0], first[1], first[1] + end - start, args[end:]))
+
+    def run(self, values: Sequence[Any], columns: slice, sources: dict[int, np.ndarray],
+            rows: tuple[dict[int, int], np.ndarray] | None = None) -> list[Any]:
+        """The outputs for the trials ``columns`` of a block: ``values`` as for
+        ``Program.evaluate`` (the block's 1-D arrays or numbers; only those read one by
+        one are sliced), ``sources`` the slice's columns of each run's draws."""
+        slots: list[Any] = list(values) + self.program._filled[len(values):]
+        for slot in self.direct:
+            if isinstance(slots[slot], np.ndarray):
+                slots[slot] = slots[slot][columns]
+        groups: dict[int, np.ndarray] = {}
+        width = next(iter(sources.values())).shape[1] if sources else 0
+
+        def value(slot: int) -> Any:
+            place = self.where.get(slot)
+            if place is None or place[0][0] == "input":
+                return slots[slot]
+            return groups[place[0][1]][place[1]]
+
+        def operand(source: Source) -> Any:
+            if source[0] == "one":
+                return value(source[1])
+            if source[0] == "const":
+                return source[1]
+            (kind, number), index = source[1], source[2]
+            return (sources if kind == "input" else groups)[number][index]
+
+        with np.errstate(all="ignore"):
+            for item, (free_slots, free_groups) in zip(self.items, self.release):
+                if item[0] == "group":
+                    _, number, kind, payload, operands, _ = item
+                    groups[number] = _apply(kind, [operand(s) for s in operands], payload)
+                else:
+                    _, at, kind, args, payload, _, span = item
+                    slots[at] = self._step(at, kind, args, payload, span, value, groups,
+                                           width, rows, slots)
+                for slot in free_slots:
+                    slots[slot] = None
+                for number in free_groups:
+                    del groups[number]
+            return [value(i) for i in self.program.outputs]
+
+    def _step(self, at: int, kind: str, args: tuple[int, ...], payload: Any,
+              span: tuple[Any, ...] | None, value: Any, groups: dict[int, np.ndarray],
+              width: int, rows: tuple[dict[int, int], np.ndarray] | None,
+              slots: list[Any]) -> Any:
+        """One operation as ``Program.evaluate`` runs it, or a reduction over group rows."""
+        ranges = self.program._ranges
+        if rows is not None and at in ranges:
+            found = _reduced(kind, ranges[at], rows,
+                             {term: value(term) for term in ranges[at][3]})
+            if found is not False:
+                return found
+        if span is not None and width >= 2:
+            number, (_, group), low, high, rest = span
+            ufunc = np.add if kind == "add" else np.multiply
+            block = groups[group][low:high]
+            total: Any = (ufunc.reduce(block, axis=0) if number is None
+                          else ufunc.reduce(block, axis=0, initial=number))
+            for term in rest:
+                ufunc(total, value(term), out=total)
+            return total
+        return _apply(kind, [value(a) for a in args], payload)
+
+
+def _levels(program: Program) -> list[list[tuple[Any, ...]]]:
+    """The steps of ``program`` by level (inputs and numbers are level 0)."""
+    depth: dict[int, int] = {}
+    levels: list[list[tuple[Any, ...]]] = []
+    for step in program._steps:
+        level = 1 + max((depth.get(a, 0) for a in step[2]), default=0)
+        depth[step[0]] = level
+        while len(levels) < level:
+            levels.append([])
+        levels[level - 1].append(step)
+    return levels
+
+
+def _readers(program: Program) -> dict[int, tuple[int, int]]:
+    """Slot → (its first reader, the position among that reader's operands)."""
+    order: dict[int, tuple[int, int]] = {}
+    for at, _, args, _, _ in program._steps:
+        for position, slot in enumerate(args):
+            order.setdefault(slot, (at, position))
+    return order
+
+
+def _alike(program: Program, level: list[tuple[Any, ...]], where: dict[int, Source],
+           order: dict[int, tuple[int, int]]) -> list[tuple[str, list[tuple[Any, ...]]]]:
+    """The steps of one level as groups of operations alike ("group") and the rest
+    ("step"); alike: same kind, payload, number of operands and source per position.
+    A group's rows follow the order in which they are read (a sum's operands in turn,
+    so that it reduces over consecutive rows)."""
+    buckets: dict[tuple[Any, ...], list[tuple[Any, ...]]] = {}
+    single: list[tuple[Any, ...]] = []
+    for step in level:
+        _, kind, args, payload, _ = step
+        if kind not in _GROUPED or (kind == "pow" and payload not in _POWERS):
+            single.append(step)
+            continue
+        used = args[:1] if kind == "pow" else args
+        key = (kind, payload, len(args), *(_origin(a, program, where) for a in used))
+        buckets.setdefault(key, []).append(step)
+    found: list[tuple[str, list[tuple[Any, ...]]]] = [("step", single)]
+    for key, members in buckets.items():
+        drawn = any(k[0] == "rows" for k in key[3:])
+        if len(members) >= _SMALLEST and drawn and _distinct_rows(members, key, where):
+            last = (len(program.symbols) + len(program.ops), 0)
+            found.append(("group", sorted(members, key=lambda m: order.get(m[0], last))))
+        else:
+            found.append(("step", members))
+    return found
+
+
+def _origin(slot: int, program: Program, where: dict[int, Source]) -> tuple[Any, ...]:
+    place = where.get(slot)
+    if place is not None:
+        return ("rows", place[0])
+    if slot in program.constants:
+        return ("const",)
+    return ("one", slot)
+
+
+def _distinct_rows(members: list[tuple[Any, ...]], key: tuple[Any, ...],
+                   where: dict[int, Source]) -> bool:
+    """Whether the members read different rows at some position drawn from rows (the
+    same value at every position would be one operation repeated)."""
+    return any(len({m[2][j] for m in members}) > 1
+               for j, k in enumerate(key[3:]) if k[0] == "rows")
+
+
+def _index(rows: np.ndarray) -> slice | np.ndarray:
+    """A slice when the rows are evenly spaced upwards, else the index array."""
+    if rows.size > 1:
+        step = int(rows[1] - rows[0])
+        if step > 0 and np.all(np.diff(rows) == step):
+            return slice(int(rows[0]), int(rows[-1]) + 1, step)
+    return rows
+
+
+def _releases(items: list[tuple[Any, ...]], outputs: tuple[int, ...],
+              where: dict[int, Source]) -> list[tuple[list[int], list[int]]]:
+    """After each item: the slots and the group arrays no later item (nor output) reads."""
+    last_slot: dict[int, int] = {}
+    last_group: dict[int, int] = {}
+    for position, item in enumerate(items):
+        for slot in _reads(item):
+            place = where.get(slot)
+            if place is not None and place[0][0] == "group":
+                last_group[place[0][1]] = position
+            elif place is None:
+                last_slot[slot] = position
+        if item[0] == "group":
+            for source in item[4]:
+                if source[0] == "rows" and source[1][0] == "group":
+                    last_group[source[1][1]] = position
+    keep_groups = {where[s][0][1] for s in outputs
+                   if s in where and where[s][0][0] == "group"}
+    release: list[tuple[list[int], list[int]]] = [([], []) for _ in items]
+    for slot, position in last_slot.items():
+        if slot not in outputs:
+            release[position][0].append(slot)
+    for group, position in last_group.items():
+        if group not in keep_groups:
+            release[position][1].append(group)
+    return release
+
+
+def _reads(item: tuple[Any, ...]) -> list[int]:
+    if item[0] == "group":
+        return [s[1] for s in item[4] if s[0] == "one"]
+    return list(item[3])
