@@ -21,11 +21,12 @@ if TYPE_CHECKING:  # the same names, eagerly, for type checkers only
     from ._certification import Certification as Certification, certify as certify
     from ._chemistry import air_density as air_density, molar_mass as molar_mass
     from ._combination import Combined as Combined, combine as combine
+    from ._difference import Difference as Difference, compare_budgets as compare_budgets
     from ._joint import Joint as Joint, Member as Member, join as join
     from ._document import (certification_document as certification_document,
                            result_document as result_document)
     from ._errors import BudgetError as BudgetError, Location as Location
-    from ._explanation import explain as explain
+    from ._explanation import Explanation as Explanation, explain as explain
     from ._gum import (Budget as Budget, Contribution as Contribution,
                       MeasurandBudget as MeasurandBudget, propagate as propagate)
     from ._model import (Input as Input, Measurand as Measurand, Model as Model,
@@ -43,7 +44,8 @@ __all__ = [
     "MeasurandSimulation", "simulate", "Result", "evaluate", "result_document",
     "molar_mass", "air_density", "load_campaign", "Campaign", "certify", "Certification",
     "certification_document", "explain", "render_report", "render_certification_report",
-    "combine", "Combined", "join", "Joint", "Member",
+    "combine", "Combined", "join", "Joint", "Member", "compare_budgets", "Difference",
+    "Explanation",
     "__version__",
 ]
 
@@ -56,7 +58,8 @@ _WHERE = {
     "result_document": "_document", "molar_mass": "_chemistry", "air_density": "_chemistry",
     "load_campaign": "_campaign", "Campaign": "_campaign", "certify": "_certification",
     "Certification": "_certification", "certification_document": "_document",
-    "explain": "_explanation", "render_report": "_report",
+    "explain": "_explanation", "Explanation": "_explanation",
+    "compare_budgets": "_difference", "Difference": "_difference", "render_report": "_report",
     "render_certification_report": "_report",
     "combine": "_combination", "Combined": "_combination", "join": "_joint", "Joint": "_joint",
     "Member": "_joint",

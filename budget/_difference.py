@@ -24,7 +24,7 @@ from typing import Any
 from ._errors import InputError, Location
 
 __all__ = ["Term", "Side", "InputChange", "MeasurandChange", "Difference", "compare",
-           "load_side", "side_from_document"]
+           "compare_budgets", "load_side", "side_from_document"]
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -233,6 +233,15 @@ def load_side(path: str | Path, *, trials: int = 0, seed: int | None = None) -> 
 
     result = evaluate(load_model(path), trials=trials, seed=seed)
     return side_from_document(result_document(result), str(path))
+
+
+def compare_budgets(before: str | Path, after: str | Path, *, trials: int = 0,
+                    seed: int | None = None) -> Difference:
+    """What changed from budget ``before`` to budget ``after`` and why U moved, as
+    ``budget compare A B``: each a model file (evaluated now, with ``trials`` Monte Carlo
+    trials) or a saved JSON result document."""
+    return compare(load_side(before, trials=trials, seed=seed),
+                   load_side(after, trials=trials, seed=seed))
 
 
 def compare(before: Side, after: Side) -> Difference:

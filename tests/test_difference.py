@@ -158,3 +158,21 @@ def test_render_lists_every_input(pair):
         assert f"\n{name} " in table
     assert difference_document(compare(load_side(pair[0]), load_side(pair[1])))[
         "schema_version"]
+
+
+def test_the_public_entry_point_gives_what_the_command_prints(pair, cli):
+    """budget.compare_budgets is the Python form of ``budget compare A B``."""
+    import budget
+
+    diff = budget.compare_budgets(pair[0], pair[1])
+    assert isinstance(diff, budget.Difference)
+    code, stdout, _ = cli("compare", str(pair[0]), str(pair[1]), "--json")
+    assert code == 0
+    assert json.loads(stdout) == json.loads(json.dumps(diff.to_dict()))
+    assert diff.summary().splitlines()[3] == \
+        "y: U 0.088 → 0.16 g (+84 %); u_c 0.045 → 0.082 g (+84 %); k 1.96 → 1.96"
+    frame = diff.to_frame()
+    assert list(frame.index.get_level_values("input"))[:1] == ["b"]
+    assert "variance_change" in frame.columns
+    with pytest.raises(KeyError, match="did you mean 'y'"):
+        diff.measurand("Y")
