@@ -96,10 +96,14 @@ class Schedule:
         return (*item, (number, first[0], first[1], first[1] + end - start, args[end:]))
 
     def run(self, values: Sequence[Any], columns: slice, sources: dict[int, np.ndarray],
-            rows: tuple[dict[int, int], np.ndarray] | None = None) -> list[Any]:
+            rows: tuple[dict[int, int], np.ndarray] | None = None,
+            scratch: dict[tuple[int, int, int], np.ndarray] | None = None) -> list[Any]:
         """The outputs for the trials ``columns`` of a block: ``values`` as for
         ``Program.evaluate`` (the block's 1-D arrays or numbers; only those read one by
-        one are sliced), ``sources`` the slice's columns of each run's draws."""
+        one are sliced), ``sources`` the slice's columns of each run's draws. ``scratch``
+        (one per thread, kept between calls) holds the groups' arrays, reused slice after
+        slice instead of fresh ones (whose pages the system would map anew each time)."""
+        work: dict[tuple[int, int, int], np.ndarray] = {} if scratch is None else scratch
         slots: list[Any] = list(values) + self.program._filled[len(values):]
         for slot in self.direct:
             if isinstance(slots[slot], np.ndarray):
@@ -113,19 +117,24 @@ class Schedule:
                 return slots[slot]
             return groups[place[0][1]][place[1]]
 
-        def operand(source: Source) -> Any:
+        def operand(source: Source, key: tuple[int, int, int]) -> Any:
             if source[0] == "one":
                 return value(source[1])
             if source[0] == "const":
                 return source[1]
             (kind, number), index = source[1], source[2]
-            return (sources if kind == "input" else groups)[number][index]
+            rows = (sources if kind == "input" else groups)[number]
+            if isinstance(index, slice):
+                return rows[index]
+            return np.take(rows, index, axis=0, out=_array(work, key, index.size, width))
 
         with np.errstate(all="ignore"):
             for item, (free_slots, free_groups) in zip(self.items, self.release):
                 if item[0] == "group":
                     _, number, kind, payload, operands, _ = item
-                    groups[number] = _apply(kind, [operand(s) for s in operands], payload)
+                    out = _array(work, (number, -1, width), item[5], width)
+                    groups[number] = _grouped(kind, payload, [
+                        operand(s, (number, j, width)) for j, s in enumerate(operands)], out)
                 else:
                     _, at, kind, args, payload, _, span = item
                     slots[at] = self._step(at, kind, args, payload, span, value, groups,
@@ -157,6 +166,31 @@ class Schedule:
                 ufunc(total, value(term), out=total)
             return total
         return _apply(kind, [value(a) for a in args], payload)
+
+
+def _array(work: dict[tuple[int, int, int], np.ndarray], key: tuple[int, int, int],
+           rows: int, width: int) -> np.ndarray:
+    """The scratch array ``key`` of rows × width, made once."""
+    found = work.get(key)
+    if found is None:
+        found = work[key] = np.empty((rows, width))
+    return found
+
+
+def _grouped(kind: str, payload: Any, operands: list[Any], out: np.ndarray) -> np.ndarray:
+    """``_apply`` of a group into ``out``: the same operations in the same order."""
+    if kind == "pow":
+        base = operands[0]
+        if payload == -1.0:
+            return np.divide(1.0, base, out=out)
+        if payload == 2.0:
+            return np.multiply(base, base, out=out)
+        return np.sqrt(base, out=out)
+    ufunc = np.add if kind == "add" else np.multiply
+    ufunc(operands[0], operands[1], out=out)
+    for term in operands[2:]:
+        ufunc(out, term, out=out)
+    return out
 
 
 def _levels(program: Program) -> list[list[tuple[Any, ...]]]:
@@ -226,11 +260,12 @@ def _distinct_rows(members: list[tuple[Any, ...]], key: tuple[Any, ...],
 
 
 def _index(rows: np.ndarray) -> slice | np.ndarray:
-    """A slice when the rows are evenly spaced upwards, else the index array."""
+    """A slice (a view, no copy) when the rows are evenly spaced, else the index array."""
     if rows.size > 1:
         step = int(rows[1] - rows[0])
-        if step > 0 and np.all(np.diff(rows) == step):
-            return slice(int(rows[0]), int(rows[-1]) + 1, step)
+        if step != 0 and np.all(np.diff(rows) == step):
+            stop = int(rows[-1]) + (1 if step > 0 else -1)
+            return slice(int(rows[0]), stop if stop >= 0 else None, step)
     return rows
 
 

@@ -64,6 +64,7 @@ GENERATOR = "SFC64"
 _BLOCK_BYTES = 1 << 25
 _SLICE = 1 << 13  # evaluation works on slices that stay in the processor's cache
 _GROUP_BYTES = 1 << 21  # a grouped operation's arrays in a slice (_batched.Schedule)
+_GROUPING_GAIN = 256  # numpy calls per slice that grouping must save to be used
 _CHUNK = 1 << 15  # normal draws are scaled in chunks of rows of about 256 kB
 NONFINITE_LIMIT = 0.01
 # A fixed run keeps every value (8 bytes per trial and measurand) up to this many values;
@@ -272,7 +273,11 @@ class _Sampler:
         layout = {slot: (n, row) for n in self.runs
                   for row, slot in enumerate(self.plan[n][1][0])}
         self.schedule = Schedule(self.program, layout)
-        self.width = _width(self.schedule.widest)
+        # grouped only where it saves many numpy calls: small arrays one by one stay in
+        # the cache, and a narrow model's few calls cost little
+        saved = len(self.program._steps) - len(self.schedule.items)
+        self.grouped = saved >= _GROUPING_GAIN
+        self.width = _width(self.schedule.widest) if self.grouped else _SLICE
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
@@ -283,9 +288,10 @@ class _Sampler:
         buffers = getattr(self.local, "buffers", {})
         for start, stop in _slices(size, self.width):  # cache-sized slices of the block
             rows = (self.rows, matrix[:, start:stop]) if matrix is not None else None
-            if self.schedule.widest > 1:
+            if self.grouped:
                 sources = {n: buffers[n][:, start:stop] for n in self.runs}
-                found = self.schedule.run(values, slice(start, stop), sources, rows)
+                found = self.schedule.run(values, slice(start, stop), sources, rows,
+                                          self._scratch())
             else:
                 part = values if stop - start == size else [
                     v[start:stop] if isinstance(v, np.ndarray) else v for v in values]
@@ -328,9 +334,18 @@ class _Sampler:
                     values[slot] = column
         return values
 
+    def _scratch(self) -> dict[tuple[int, int, int], np.ndarray]:
+        """This thread's scratch arrays for the grouped operations (``_batched``)."""
+        found: dict[tuple[int, int, int], np.ndarray] | None = getattr(
+            self.local, "scratch", None)
+        if found is None:
+            found = self.local.scratch = {}
+        return found
+
     def release(self) -> None:
         """Drop this thread's buffers (the first block runs alone, before the workers)."""
         self.local.buffers = {}
+        self.local.scratch = {}
 
     def _buffer(self, number: int, rows: int, size: int) -> np.ndarray:
         """This thread's buffer for the run ``number`` of the plan (reused block after

@@ -59,6 +59,8 @@ def _one_by_one(sampler: montecarlo._Sampler, index: int, size: int) -> np.ndarr
 def test_grouped_operations_give_the_numbers_of_the_operation_by_operation_path(shape):
     sampler = montecarlo._Sampler(parse_model(SHAPES[shape]), 11)
     assert sampler.schedule.widest >= 4  # operations alike were grouped
+    assert sampler.grouped == shape.startswith("mean")  # narrow models: one by one
+    sampler.grouped, sampler.width = True, montecarlo._width(sampler.schedule.widest)
     for size in (1, 2, 65, 1025, 8193, 20_000):  # slices of one and of two trials included
         grouped = sampler.block(3, size)
         assert np.array_equal(grouped, _one_by_one(sampler, 3, size), equal_nan=True)
