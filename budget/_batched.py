@@ -182,10 +182,12 @@ def _grouped(kind: str, payload: Any, operands: list[Any], out: np.ndarray) -> n
     if kind == "pow":
         base = operands[0]
         if payload == -1.0:
-            return np.divide(1.0, base, out=out)
-        if payload == 2.0:
-            return np.multiply(base, base, out=out)
-        return np.sqrt(base, out=out)
+            np.divide(1.0, base, out=out)
+        elif payload == 2.0:
+            np.multiply(base, base, out=out)
+        else:
+            np.sqrt(base, out=out)
+        return out
     ufunc = np.add if kind == "add" else np.multiply
     ufunc(operands[0], operands[1], out=out)
     for term in operands[2:]:
