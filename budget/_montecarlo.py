@@ -234,8 +234,16 @@ def _from_tails(tails: list[Any], m: int, p: float) -> tuple[Any, ...] | None:
     if low.size < tail or high.size < tail:
         return None
     with ThreadPoolExecutor(max_workers=2) as pool:  # np.sort lets the other thread run
-        low_sorted, high_sorted = pool.map(np.sort, (low, high))
-    return _pick(low_sorted[:tail], high_sorted[high.size - tail:], m, p)
+        low_sorted, high_sorted = pool.map(_sorted_end, (low, -high), (tail, tail))
+    return _pick(low_sorted, -high_sorted[::-1], m, p)
+
+
+def _sorted_end(values: np.ndarray, count: int) -> np.ndarray:
+    """The ``count`` smallest of ``values`` in ascending order: a selection first, so
+    that only they are sorted (the kept tails hold about a quarter more)."""
+    if count < values.size:
+        values = np.partition(values, count - 1)[:count]
+    return np.sort(values)
 
 
 def _intervals(values: np.ndarray, p: float) -> tuple[tuple[float, float],

@@ -81,3 +81,21 @@ def test_a_wide_model_gives_the_same_results_on_one_and_two_workers(shape):
     assert one.measurands[0].standard_uncertainty == two.measurands[0].standard_uncertainty
     assert one.measurands[0].interval == two.measurands[0].interval
     assert np.array_equal(one.measurands[0].samples, two.measurands[0].samples)
+
+
+def test_intervals_from_the_tails_select_before_sorting_with_the_same_result():
+    """``_from_tails`` sorts only the m − q extreme values of the kept tails (a selection
+    first): the same two intervals as sorting every kept value, ties included."""
+    rng = np.random.default_rng(0)
+    for _ in range(100):
+        m = int(rng.integers(50, 5000))
+        p = float(rng.choice([0.6, 0.9, 0.95, 0.99]))
+        y = np.round(rng.standard_normal(m), int(rng.integers(1, 4)))  # many ties
+        tails = montecarlo._Tails(y[None, :], p)
+        pieces = [tails.collect(y[None, a:a + 300])[0] for a in range(0, m, 300)]
+        tail = m - montecarlo._q(m, p)
+        low = np.sort(np.concatenate([b[0] for b in pieces]))
+        high = np.sort(np.concatenate([b[1] for b in pieces]))
+        expected = (None if low.size < tail or high.size < tail else
+                    montecarlo._pick(low[:tail], high[high.size - tail:], m, p))
+        assert montecarlo._from_tails(pieces, m, p) == expected
