@@ -14,7 +14,9 @@ Method:
   only, never on the chunk size or the number of threads; blocks are evaluated on both
   cores at once, by the model compiled once into a numeric program. A block holds
   ``BLOCK`` trials, fewer for models with many inputs (``block_size``: at most 32 MB of
-  draws per block), so that memory stays bounded whatever the number of trials.
+  draws per block), so that memory stays bounded whatever the number of trials. A wide
+  model's many operations alike run as one array operation over rows (``_batched``, the
+  same numbers to the last bit), on slices of fewer trials.
 * 7.7: the probabilistically symmetric interval (quantile indices by selection, not a
   full sort) and the shortest interval (searched in the sorted tails only).
 * 7.9: the adaptive procedure, batches of at least two blocks (≥ max(J, 10⁴) trials,
