@@ -277,15 +277,13 @@ class StudentT:
         return result
 
 
-@dataclass(frozen=True, slots=True)
-class Exact:
+class _AtItsEstimate:
+    """What every distribution without spread shares: u = 0, drawn at its estimate."""
+
+    __slots__ = ()
     estimate: float
-    name = "exact"
     gaussian = True
     has_ppf = True
-
-    def __post_init__(self) -> None:
-        _valid(self)
 
     @property
     def standard_uncertainty(self) -> float:
@@ -299,7 +297,16 @@ class Exact:
 
 
 @dataclass(frozen=True, slots=True)
-class CoveredByScatter:
+class Exact(_AtItsEstimate):
+    estimate: float
+    name = "exact"
+
+    def __post_init__(self) -> None:
+        _valid(self)
+
+
+@dataclass(frozen=True, slots=True)
+class CoveredByScatter(_AtItsEstimate):
     """An input whose variation is already in the scatter of the runs of a
     characterization (``scatter_covers``): no term of its own in u_B, because the Type A
     term s/√n of the runs (``repeatability``) covers it; drawn at its estimate."""
@@ -307,23 +314,11 @@ class CoveredByScatter:
     estimate: float
     repeatability: float | None  # s/√n of the runs, in the campaign's unit
     name = "covered_by_scatter"
-    gaussian = True
-    has_ppf = True
 
     def __post_init__(self) -> None:
         _valid(self)
         if self.repeatability is not None:
             _valid(self, widths=("repeatability",))
-
-    @property
-    def standard_uncertainty(self) -> float:
-        return 0.0
-
-    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
-        return np.full(size, self.estimate)
-
-    def ppf(self, p: np.ndarray) -> np.ndarray:
-        return np.full(np.shape(p), self.estimate)
 
 
 @dataclass(frozen=True, slots=True)
