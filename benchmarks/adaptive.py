@@ -2,7 +2,9 @@
 (issue 18, item 7), side by side in one process: the EURACHEM A2 model at --digits 3.
 
 Prints the trials the adaptive run took, both times, wall and CPU (all threads; min and
-median of the rounds), the median of the per-round ratios adaptive / fixed and the load
+median of the rounds), the median of the per-round ratios adaptive / fixed, then the
+whole `budget run --adaptive --digits D --json` command in fresh processes (wall, CPU and
+peak resident memory: the run keeps 10^7 values and streams the rest), and the load
 average. Run:
 
     python benchmarks/adaptive.py [rounds] [digits]
@@ -19,7 +21,7 @@ from pathlib import Path
 
 sys.path.insert(0, os.path.dirname(__file__))
 
-from measure import load  # noqa: E402
+from measure import command, load  # noqa: E402
 
 from budget._gum import propagate  # noqa: E402
 from budget._model import load_model  # noqa: E402
@@ -56,6 +58,9 @@ def main() -> None:
               f"CPU min {min(cpu):.2f} s, median {statistics.median(cpu):.2f} s")
     print(f"  adaptive / fixed: median of per-round ratios, wall "
           f"{statistics.median(ratios):.2f}, CPU {statistics.median(cpu_ratios):.2f}")
+    whole = command(["run", str(MODEL), "--adaptive", "--digits", str(digits), "--json"],
+                    min(rounds, 3))
+    print(f"  whole command, budget run --adaptive --digits {digits} --json: {whole.text()}")
     print(f"load average after: {load()}")
 
 

@@ -18,10 +18,11 @@ from ._errors import InputError, Location
 
 __all__ = ["MAX_FILE_BYTES", "MAX_DATA_BYTES", "MAX_EXPRESSION_CHARS", "MAX_NESTING",
            "MAX_NUMBER_DIGITS", "MAX_EXPONENT", "MAX_EXACT_DIGITS", "MAX_UNIT_CHARS",
-           "MAX_TRIALS", "MAX_SECOND_ORDER_INPUTS", "DIGITS", "PROBABILITY",
+           "MAX_TRIALS", "MAX_KEPT_VALUES", "MAX_SECOND_ORDER_INPUTS", "DIGITS", "PROBABILITY",
            "MIN_RELIABILITY", "MAX_SEED", "LIMITS_PAGE", "check_seed", "check_probability",
-           "check_digits", "check_trials", "as_float", "terminal_text", "control_character",
-           "shorten", "excerpt", "offset_in", "check_strings", "character_name", "parse_number"]
+           "check_digits", "check_trials", "check_kept", "as_float", "terminal_text",
+           "control_character", "shorten", "excerpt", "offset_in", "check_strings",
+           "character_name", "parse_number"]
 
 LIMITS_PAGE = "docs/limits.md"
 MAX_FILE_BYTES = 16 * 2 ** 20  # a model or campaign file
@@ -32,7 +33,10 @@ MAX_NUMBER_DIGITS = 100  # digits of one number written in an expression
 MAX_EXPONENT = 1000  # |exponent| of a power whose exponent is a number
 MAX_EXACT_DIGITS = 1000  # digits of an exact number that a power of numbers gives
 MAX_UNIT_CHARS = 200  # one unit string
-MAX_TRIALS = 100_000_000  # Monte Carlo trials of a fixed run (8 bytes per trial and measurand)
+# Monte Carlo trials of a run: beyond 10⁷ values a run is streamed, but it still keeps a
+# little over 2·(1 − p) of its values for the exact intervals (about 1 byte per trial)
+MAX_TRIALS = 250_000_000
+MAX_KEPT_VALUES = 100_000_000  # values of a run that keeps all of them (8 bytes each)
 MAX_SECOND_ORDER_INPUTS = 20  # inputs with an uncertainty for --second-order (N³ derivatives)
 DIGITS = (1, 6)  # significant digits of a reported uncertainty
 PROBABILITY = (1e-6, 1.0 - 1e-9)  # coverage probabilities and levels
@@ -68,11 +72,21 @@ def check_seed(value: Any, where: Location | None = None) -> int:
 
 def check_trials(trials: int, where: Location | None = None) -> int:
     if trials > MAX_TRIALS:
-        raise InputError(f"expected at most {MAX_TRIALS:,} Monte Carlo trials (8 bytes of "
-                         f"memory per trial and measurand; limits: {LIMITS_PAGE}; use "
-                         f"the adaptive procedure to stop when the results are stable), found "
-                         f"{_count(trials)}", where)
+        raise InputError(f"expected at most {MAX_TRIALS:,} Monte Carlo trials (a run "
+                         f"that long keeps about 1 byte per trial for its intervals; limits: "
+                         f"{LIMITS_PAGE}; use the adaptive procedure to stop when the "
+                         f"results are stable), found {_count(trials)}", where)
     return trials
+
+
+def check_kept(trials: int, measurands: int, where: Location | None = None) -> None:
+    """Refuse a run that keeps every value (8 bytes each) beyond ``MAX_KEPT_VALUES``."""
+    if trials * measurands > MAX_KEPT_VALUES:
+        raise InputError(f"expected at most {MAX_KEPT_VALUES:,} Monte Carlo values for a "
+                         f"run that keeps every one of them (8 bytes each: a coverage "
+                         f"probability of ½ or less, or a certification, which combines the "
+                         f"values; limits: {LIMITS_PAGE}), found {_count(trials)} trials × "
+                         f"{measurands} measurand{'s' if measurands > 1 else ''}", where)
 
 
 _NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?")

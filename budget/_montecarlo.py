@@ -24,7 +24,8 @@ Method:
   deviations and interval ends is within the numerical tolerance δ; the statistics run
   batch by batch (no pass over all values so far at each step; a batch's interval ends
   are selected among its values beyond the cut points), and the workers draw the next
-  blocks while a batch is checked.
+  blocks while a batch is checked. Past ``KEEP_LIMIT`` values its batches are streamed,
+  so it can run to ``ADAPTIVE_LIMIT`` trials in bounded memory.
 * Runs longer than ``KEEP_LIMIT`` values keep no array of all values (streaming.py).
 * 8.2: validation of the GUM result: d_low = |y − U_p − y_low|, d_high = |y + U_p −
   y_high|, validated when both are ≤ δ.
@@ -46,7 +47,7 @@ from typing import Any, Callable, Generator, cast
 import numpy as np
 
 from .distributions import Normal, Rectangular, StudentT
-from ._limits import check_trials
+from ._limits import MAX_TRIALS, check_kept, check_trials
 from ._batched import Schedule
 from ._errors import Location, SimulationError
 from ._evaluation import compile_model
@@ -72,7 +73,11 @@ NONFINITE_LIMIT = 0.01
 # A fixed run keeps every value (8 bytes per trial and measurand) up to this many values;
 # longer runs (with p > ½) are streamed: moments, a histogram and exact tails (streaming.py)
 KEEP_LIMIT = 10_000_000
-ADAPTIVE_LIMIT = 20_000_000
+# The adaptive procedure stops at the longest run allowed: its values beyond KEEP_LIMIT
+# are streamed, as a fixed run's (EURACHEM A2 at --digits 3 needs about 1.1·10⁸ trials);
+# a run that keeps every value (keep_samples, or p ≤ ½) stops at ADAPTIVE_KEEP_LIMIT.
+ADAPTIVE_LIMIT = MAX_TRIALS
+ADAPTIVE_KEEP_LIMIT = 20_000_000
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -644,8 +649,13 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
         check_adaptive(coverage, coverage_at)
     sampler = _Sampler(model, seed)
     if adaptive:
-        samples, warnings, moments, kept = _adaptive(sampler, coverage, digits, workers,
-                                                     progress)
+        adaptive_samples, warnings, moments, kept, streamed = _adaptive(
+            sampler, coverage, digits, workers, progress, keep_samples)
+        if streamed is not None:
+            return _summarise(model, budget, None, seed, coverage, digits, True,
+                              sampler.warnings + warnings, moments, streamed=streamed)
+        assert adaptive_samples is not None
+        samples = adaptive_samples
     else:
         if trials < 2 or trials < 1.0 / (1.0 - coverage):
             raise SimulationError(f"expected at least {max(2, math.ceil(1 / (1 - coverage)))} "
@@ -658,6 +668,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
             found = stream(sampler, trials, coverage, ticker, workers)
             return _summarise(model, budget, None, seed, coverage, digits, False,
                               sampler.warnings, found.moments, streamed=found)
+        check_kept(trials, len(model.measurands), trials_at)
         samples = np.empty((len(model.measurands), trials))
         moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
         warnings = []
@@ -693,66 +704,123 @@ def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
 
 
 def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
-              progress: Callable[[int, int], None] | None
-              ) -> tuple[np.ndarray, list[str], np.ndarray, list[Any]]:
+              progress: Callable[[int, int], None] | None, keep_samples: bool | None
+              ) -> tuple[np.ndarray | None, list[str], np.ndarray, list[Any], Streamed | None]:
     """JCGM 101 7.9 with batches of whole blocks (≥ max(J, 10⁴) trials each), on all
     workers. Running statistics: each batch leaves its moments, its four results (mean,
     sd, interval ends) and its tail values beyond the first batch's cut points, so a
     convergence check costs one batch, never all the values so far, and the final
     intervals sort the tails only. The workers draw the next blocks while a batch is
-    checked (blocks depend on their index only, so drawing ahead changes nothing), into
-    one array reserved for the cap whose pages are touched only as they are written."""
+    checked (blocks depend on their index only, so drawing ahead changes nothing).
+
+    Values are kept, as for a fixed run, while the run holds at most ``KEEP_LIMIT`` of
+    them; the batches after that are drawn into a small ring of batches and streamed
+    (a histogram, the output correlation and the tails, as ``_streaming`` does for a
+    long fixed run), so a run of ``ADAPTIVE_LIMIT`` trials stays in bounded memory. A run
+    that must keep every value (``keep_samples``, or p ≤ ½) stops at
+    ``ADAPTIVE_KEEP_LIMIT``."""
+    from ._streaming import Streaming
+
     j = math.ceil(100.0 / (1.0 - coverage))
     # at least two blocks per batch, so that both workers draw (the same on any number
     # of cores: the batch size never depends on the workers)
     per_batch = max(2, -(-max(j, 10_000) // sampler.size))
     size = per_batch * sampler.size
-    most = max(1, ADAPTIVE_LIMIT // size)  # batches: the last one keeps (h + 2)·M ≤ cap
-    samples = np.empty((len(sampler.model.measurands), most * size))
-    stats: list[np.ndarray] = []  # per batch: (n_out, 4) mean, sd, low, high
+    outputs = len(sampler.model.measurands)
+    keep_all = bool(keep_samples) or coverage <= 0.5
+    limit = ADAPTIVE_KEEP_LIMIT if keep_all else ADAPTIVE_LIMIT
+    most = max(1, limit // size)  # batches: the last one keeps (h + 2)·M ≤ cap
+    # batches whose values are kept: all of them, or while the run holds ≤ KEEP_LIMIT
+    room = most if keep_all else (0 if keep_samples is False
+                                  else min(most, KEEP_LIMIT // (outputs * size)))
+    samples = np.empty((outputs, room * size))
+    # the streamed batches rotate through a ring that outlasts the blocks drawn ahead: while
+    # batch h is checked, the workers may write up to 2·workers blocks past it
+    slots = 2 + 2 * max(1, workers) // per_batch
+    ring = np.empty((outputs, slots * size)) if room < most else np.empty((outputs, 0))
+    stats = np.empty((most, outputs, 4))  # per batch: mean, sd, low, high
     moments: np.ndarray | None = None  # (n_out, 3): count, mean, M2 of all batches
-    tails: _Tails | None = None
     kept: list[Any] = []
-    blocks = _ahead(sampler, samples, most * per_batch, workers)
+    # set once batch 0 is in; a worker that sees them works for the main thread
+    shared: dict[str, Any] = {"tails": None, "streaming": None}
+
+    def batch(h: int) -> np.ndarray:
+        if h < room:
+            return samples[:, h * size:(h + 1) * size]
+        slot = (h - room) % slots
+        return ring[:, slot * size:(slot + 1) * size]
+
+    def place(b: int) -> np.ndarray:
+        h, offset = divmod(b, per_batch)
+        return batch(h)[:, offset * sampler.size:(offset + 1) * sampler.size]
+
+    def work(b: int) -> tuple[np.ndarray, Any, Any]:
+        view = place(b)
+        sampler.block(b, sampler.size, view)
+        cut, streaming = shared["tails"], shared["streaming"]
+        return (_block_moments(view), cut.collect(view) if cut is not None else None,
+                streaming.summary(view) if streaming is not None and b >= room * per_batch
+                else None)
+
+    blocks = _ahead(work, most * per_batch, workers)
+    warnings: list[str] = []
+    h = 0
     try:
         for h in range(most):
-            chunk = samples[:, h * size:(h + 1) * size]
-            done = _combine([next(blocks) for _ in range(per_batch)])
+            chunk = batch(h)
+            found = [next(blocks) for _ in range(per_batch)]
+            done = _combine([f[0] for f in found])
             if progress:
                 progress(size, (h + 1) * size)  # trials done since the last call
             if h == 0 and coverage > 0.5 and np.isfinite(chunk).all():
-                tails = _Tails(chunk, coverage)
-            pieces = tails.collect(chunk) if tails is not None else None
-            if pieces is not None:
+                shared["tails"] = _Tails(chunk, coverage)
+            if h == 0 and room < most:
+                shared["streaming"] = Streaming(chunk[:, :sampler.size])
+            tails, streaming = shared["tails"], shared["streaming"]
+            views = [place(h * per_batch + i) for i in range(per_batch)]
+            if streaming is not None and h >= room:  # from here on the values are streamed
+                if h == room:
+                    streaming.absorb(samples, size)
+                for view, f in zip(views, found):
+                    streaming.take(f[2] if f[2] is not None else streaming.summary(view))
+            pieces = None
+            if tails is not None:
+                parts = [f[1] if f[1] is not None else tails.collect(view)
+                         for view, f in zip(views, found)]
+                pieces = [(np.concatenate([p[k][0] for p in parts]),
+                           np.concatenate([p[k][1] for p in parts])) for k in range(outputs)]
                 kept.append(pieces)
             moments = done if moments is None else _combine([moments, done])
-            stats.append(_batch_stats(chunk, coverage, done, pieces))
-            if h >= 1 and _converged(moments, np.array(stats), digits):
-                return samples[:, :(h + 1) * size], [], moments, kept
+            stats[h] = _batch_stats(chunk, coverage, done, pieces)
+            if h >= 1 and _converged(moments, stats[:h + 1], digits):
+                break
+        else:
+            warnings.append(f"adaptive Monte Carlo stopped at {most * size} trials before "
+                            f"its numerical tolerance was reached (limit {limit:,})")
     finally:
         blocks.close()
     assert moments is not None
-    return (samples, [f"adaptive Monte Carlo stopped at {most * size} trials before its "
-                      f"numerical tolerance was reached (limit {ADAPTIVE_LIMIT})"],
-            moments, kept)
+    trials = (h + 1) * size
+    streaming = shared["streaming"]
+    if h < room or streaming is None:
+        return samples[:, :trials], warnings, moments, kept, None
+    samples = ring = np.empty((outputs, 0))  # the kept values and the ring are dropped
+    sides = [[piece[k] for piece in kept] for k in range(outputs)] \
+        if kept and moments[0, 0] == trials else None
+    kept.clear()  # each side's pieces are freed as they are joined
+    return None, warnings, moments, [], streaming.finish(sampler, trials, coverage, workers,
+                                                         moments, sides)
 
 
-def _ahead(sampler: _Sampler, samples: np.ndarray, count: int, workers: int
-           ) -> Generator[np.ndarray, None, None]:
-    """The moments of blocks 0, 1, … (each drawn into its place in ``samples``), in
-    order, with up to two blocks per worker drawn ahead; closing it stops the drawing."""
-    block = sampler.size
-
-    def work(b: int) -> np.ndarray:
-        view = samples[:, b * block:(b + 1) * block]
-        sampler.block(b, block, view)
-        return _block_moments(view)
-
+def _ahead(work: Callable[[int], Any], count: int, workers: int
+           ) -> Generator[Any, None, None]:
+    """``work(b)`` of blocks 0, 1, …, in order, with up to two blocks per worker done
+    ahead; closing it stops the work."""
     if workers <= 1:
         yield from map(work, range(count))
         return
     with ThreadPoolExecutor(max_workers=workers) as pool:
-        pending: deque[Future[np.ndarray]] = deque()
+        pending: deque[Future[Any]] = deque()
         try:
             for b in range(count):
                 pending.append(pool.submit(work, b))
@@ -794,12 +862,14 @@ def _spread(y: np.ndarray | None, mean: float, variance: float) -> float:
 
 
 def check_adaptive(coverage: float, where: Location | None = None) -> None:
-    """Refuse a coverage whose adaptive batches (≥ 100/(1 − p) trials) pass the cap."""
+    """Refuse a coverage whose adaptive batches (≥ 100/(1 − p) trials, a few of them held
+    in memory at once) pass the cap of a run that keeps its values."""
     batch = math.ceil(100.0 / (1.0 - coverage))
-    if 2 * batch > ADAPTIVE_LIMIT:
+    if 2 * batch > ADAPTIVE_KEEP_LIMIT:
         raise SimulationError(
             f"expected a coverage probability whose adaptive batches fit the limit of "
-            f"{ADAPTIVE_LIMIT:,} trials (p below {1 - 200 / ADAPTIVE_LIMIT:.7g}; JCGM 101 "
+            f"{ADAPTIVE_KEEP_LIMIT:,} trials (p below {1 - 200 / ADAPTIVE_KEEP_LIMIT:.7g}; "
+            f"JCGM 101 "
             f"7.9 asks for batches of 100/(1 - p) = {batch:,} trials here), found {coverage:g}"
             "; give a fixed number of trials instead", where)
 

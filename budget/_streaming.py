@@ -33,7 +33,7 @@ import numpy as np
 if TYPE_CHECKING:
     from ._montecarlo import _Sampler
 
-__all__ = ["HISTOGRAM_BINS", "Binned", "Streamed", "stream", "cut_level"]
+__all__ = ["HISTOGRAM_BINS", "Binned", "Streamed", "Streaming", "stream", "cut_level"]
 
 HISTOGRAM_BINS = 2000
 
@@ -110,17 +110,93 @@ def stream(sampler: "_Sampler", trials: int, coverage: float,
     intervals: list[Any] = [_exact(side, m, coverage) for side in kept]
     missing = [k for k, found in enumerate(intervals) if found is None]
     if missing and m >= 2:
-        wide = [_histogram_cuts(histograms[k], m, coverage) if k in missing
-                else (math.nan, math.nan) for k in range(len(edges))]
-        first_tails = _tails(sampler.block(0, size), wide)
-        sampler.release()
-        again = [first_tails, *_blocks(
-            sampler, trials, workers, None, lambda view: _tails(view, wide))]
-        for k in missing:
-            intervals[k] = _exact([b[k] for b in again], m, coverage)
+        _again(sampler, size, trials, workers, histograms, m, coverage, intervals, missing)
     return Streamed(total=trials, moments=moments, correlation=_correlation(moments, comoment),
                     intervals=tuple(intervals), histograms=histograms,
                     passes=2 if missing and m >= 2 else 1)
+
+
+def _again(sampler: "_Sampler", size: int, trials: int, workers: int,
+           histograms: tuple[Binned, ...], m: int, coverage: float,
+           intervals: list[Any], missing: list[int]) -> None:
+    """The second pass: the ``missing`` measurands' tails collected again over the same
+    blocks (same streams, so the same values), beyond cut points that the histogram's
+    exact counts say surely hold enough; their intervals set in ``intervals``."""
+    wide = [_histogram_cuts(histograms[k], m, coverage) if k in missing
+            else (math.nan, math.nan) for k in range(len(histograms))]
+    first_tails = _tails(sampler.block(0, size), wide)
+    sampler.release()
+    again = [first_tails, *_blocks(
+        sampler, trials, workers, None, lambda view: _tails(view, wide))]
+    for k in missing:
+        intervals[k] = _exact([b[k] for b in again], m, coverage)
+
+
+class Streaming:
+    """The histogram and output co-moments of an adaptive run from the batch where it
+    stops keeping values. The bins come from the run's first block, as a streamed fixed
+    run's do, so both give the same histogram of the same values. ``summary`` is safe on
+    any thread (the workers call it on their blocks); ``absorb`` (the values kept so far,
+    in slices of ``step`` trials, so that no temporary array is larger than a batch) and
+    ``take`` (a summary, in block order) run on one thread."""
+
+    def __init__(self, first: np.ndarray) -> None:
+        self.edges = [_edges(y) for y in _finite(first)]
+        self.several = first.shape[0] > 1
+        self.counts = [np.zeros(HISTOGRAM_BINS, dtype=np.int64) for _ in self.edges]
+        self.outside = np.zeros((len(self.edges), 2), dtype=np.int64)
+        self.blocks: list[_Block] = []
+
+    def summary(self, view: np.ndarray) -> _Block:
+        """One block's histogram counts and, for several measurands, its co-moments."""
+        from ._montecarlo import _block_moments
+
+        data = _finite(view)
+        moments, comoment = np.zeros((0, 3)), None
+        if self.several:
+            moments = _block_moments(data)
+            centred = data - moments[:, 1][:, None]
+            comoment = centred @ centred.T
+        counts, outside = [], []
+        for y, e in zip(data, self.edges):
+            counts.append(np.histogram(y, bins=e)[0])
+            outside.append((int(np.count_nonzero(y < e[0])), int(np.count_nonzero(y > e[-1]))))
+        return _Block(moments=moments, comoment=comoment, counts=counts, outside=outside,
+                      kept=[])
+
+    def absorb(self, kept: np.ndarray, step: int) -> None:
+        for start in range(0, kept.shape[1], step):
+            self.take(self.summary(kept[:, start:start + step]))
+
+    def take(self, found: _Block) -> None:
+        for k, c in enumerate(found.counts):
+            self.counts[k] += c
+        self.outside += np.array(found.outside, dtype=np.int64)
+        if self.several:
+            self.blocks.append(replace(found, counts=[], outside=[]))
+
+    def finish(self, sampler: "_Sampler", trials: int, coverage: float, workers: int,
+               moments: np.ndarray, sides: list[list[tuple[np.ndarray, np.ndarray]]] | None
+               ) -> Streamed:
+        """The streamed result of ``trials`` trials whose (jointly finite) moments are
+        ``moments``; ``sides``: each measurand's tail values of every batch, or None when
+        they cannot serve (a batch held non-finite values), then a second pass collects
+        them."""
+        comoment = _moments(self.blocks)[1] if self.blocks else None
+        self.blocks.clear()
+        histograms = tuple(Binned(edges=e, counts=c, below=int(o[0]), above=int(o[1]))
+                           for e, c, o in zip(self.edges, self.counts, self.outside))
+        m = int(moments[0, 0])
+        intervals: list[Any] = [_exact(side, m, coverage) if sides is not None and m >= 2
+                                else None for side in (sides or [[]] * len(self.edges))]
+        missing = [k for k, found in enumerate(intervals) if found is None]
+        if missing and m >= 2:
+            _again(sampler, sampler.size, trials, workers, histograms, m, coverage,
+                   intervals, missing)
+        return Streamed(total=trials, moments=moments,
+                        correlation=_correlation(moments, comoment),
+                        intervals=tuple(intervals), histograms=histograms,
+                        passes=2 if missing and m >= 2 else 1)
 
 
 def _blocks(sampler: "_Sampler", trials: int, workers: int,
@@ -234,11 +310,23 @@ def _exact(sides: list[tuple[np.ndarray, np.ndarray]], m: int, p: float
     highs.clear()
     if low.size < tail or high.size < tail:
         return None
-    low.sort()
-    high.sort()
-    found: tuple[tuple[float, float], tuple[float, float]] = _pick(
-        low[:tail], high[high.size - tail:], m, p)
+    with ThreadPoolExecutor(max_workers=2) as pool:  # np.sort lets the other thread run
+        lowest = pool.submit(_extreme, low, tail, False)
+        highest = pool.submit(_extreme, high, tail, True)
+        found: tuple[tuple[float, float], tuple[float, float]] = _pick(
+            lowest.result(), highest.result(), m, p)
     return found
+
+
+def _extreme(values: np.ndarray, count: int, high: bool) -> np.ndarray:
+    """The ``count`` lowest (or highest) of ``values`` in ascending order, selected and
+    sorted in place: the tails of a long run are large, so no copy is made."""
+    cut = values.size - count if high else count - 1
+    if count < values.size:
+        values.partition(cut)
+    end = values[values.size - count:] if high else values[:count]
+    end.sort()
+    return end
 
 
 def _histogram_cuts(binned: Binned, m: int, p: float) -> tuple[float, float]:

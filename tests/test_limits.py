@@ -88,10 +88,10 @@ CASES = {
     "digits_1000": (text(extra="[settings]\ndigits = 1000\n"), ":9: [settings] digits: "
                     "expected a whole number of significant digits from 1 to 6, found 1000"),
     "trials_huge": (text(extra="[settings]\ntrials = 1000000000000\n"), ":9: [settings] "
-                    "trials: expected at most 100,000,000 Monte Carlo trials (8 bytes of "
-                    "memory per trial and measurand; limits: docs/limits.md; use the adaptive "
-                    "procedure to "
-                    "stop when the results are stable), found 1,000,000,000,000"),
+                    "trials: expected at most 250,000,000 Monte Carlo trials (a run that "
+                    "long keeps about 1 byte per trial for its intervals; limits: "
+                    "docs/limits.md; use the adaptive procedure to stop when the results are "
+                    "stable), found 1,000,000,000,000"),
     "seed_huge": (text(extra="[settings]\nseed = 1" + "0" * 30 + "\n"), ":9: [settings] seed: "
                   "expected a whole-number seed from 0 to 2**64 - 1, found a whole number of "
                   "31 digits"),
@@ -155,8 +155,19 @@ def test_unresolved_monte_carlo_spread_is_never_validated() -> None:
 
 def test_trials_beyond_the_limit_are_refused_before_any_allocation() -> None:
     model = parse_model(text())
-    with pytest.raises(InputError, match="expected at most 100,000,000 Monte Carlo trials"):
+    with pytest.raises(InputError, match="expected at most 250,000,000 Monte Carlo trials"):
         evaluate(model, trials=10 ** 12)
+
+
+def test_runs_that_keep_every_value_are_refused_beyond_their_limit() -> None:
+    """p ≤ ½ keeps every value (its shortest interval needs half of them): 8 bytes each,
+    so such a run is refused above MAX_KEPT_VALUES before anything is allocated."""
+    model = parse_model(text())
+    with pytest.raises(InputError) as caught:
+        evaluate(model, trials=150_000_000, coverage=0.5)
+    assert "expected at most 100,000,000 Monte Carlo values for a run that keeps every one" \
+        in str(caught.value)
+    assert str(caught.value).endswith("found 150,000,000 trials × 1 measurand")
 
 
 def test_adaptive_batches_beyond_the_cap_are_refused() -> None:
