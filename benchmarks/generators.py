@@ -4,7 +4,10 @@ Side by side in one process, in turns (so that a change of machine load touches 
 alike): each generator fills the same preallocated array with standard normal numbers,
 block by block as the Monte Carlo engine draws them (65,536 per call), and the uniform
 doubles behind them. Prints min and median over the rounds and the ratio to PCG64, the
-default of ``numpy.random.default_rng``.
+default of ``numpy.random.default_rng``. Then two cheaper ways to normal numbers, set
+aside (README, Performance): SFC64's single-precision normals (numpy's float32 ziggurat),
+and the polar method (Marsaglia) vectorised in numpy over SFC64 uniform doubles, both
+against SFC64's double-precision normals, in turns.
 
 Run: python benchmarks/generators.py [numbers] [rounds]
 """
@@ -39,6 +42,36 @@ def one_round(name: str, numbers: int, kind: str) -> float:
     return time.perf_counter() - start
 
 
+def polar(rng: np.random.Generator, out: np.ndarray) -> None:
+    """Fill ``out`` (even length) with normals by the polar method, vectorised."""
+    half, filled = out.size // 2, 0
+    while filled < half:
+        need = half - filled
+        pairs = rng.random((2, int(need * 1.2732395 + 4 * need ** 0.5 + 16)))
+        pairs *= 2.0
+        pairs -= 1.0
+        u, v = pairs
+        s = u * u + v * v
+        ok = (s < 1.0) & (s > 0.0)
+        s, u, v = s[ok][:need], u[ok][:need], v[ok][:need]
+        factor = np.sqrt(-2.0 * np.log(s) / s)
+        np.multiply(u, factor, out=out[filled:filled + s.size])
+        np.multiply(v, factor, out=out[half + filled:half + filled + s.size])
+        filled += s.size
+
+
+def other_way(kind: str, numbers: int) -> float:
+    rng = np.random.Generator(np.random.SFC64(np.random.SeedSequence(1)))
+    out = np.empty(BLOCK, dtype=np.float32 if kind == "single" else np.float64)
+    start = time.perf_counter()
+    for _ in range(numbers // BLOCK):
+        if kind == "polar":
+            polar(rng, out)
+        else:
+            rng.standard_normal(out=out, dtype=out.dtype)
+    return time.perf_counter() - start
+
+
 def main() -> None:
     numbers = int(sys.argv[1]) if len(sys.argv) > 1 else 40_000_000
     rounds = int(sys.argv[2]) if len(sys.argv) > 2 else 7
@@ -57,6 +90,14 @@ def main() -> None:
             ratios = [t / p for t, p in zip(times[name], times["PCG64"])]
             print(f"  {name:10s} {min(times[name]):8.3f} {statistics.median(times[name]):9.3f}"
                   f" {min(times[name]) / base:12.2f} {statistics.median(ratios):18.2f}")
+    ways: dict[str, list[float]] = {"double": [], "single": [], "polar": []}
+    for _ in range(rounds):
+        for kind, found in ways.items():
+            found.append(other_way(kind, numbers))
+    print("\nSFC64 normals, other ways: min s   median s   min / double min")
+    for kind, found in ways.items():
+        print(f"  {kind:10s} {min(found):8.3f} {statistics.median(found):9.3f}"
+              f" {min(found) / min(ways['double']):12.2f}")
 
 
 if __name__ == "__main__":
