@@ -285,6 +285,9 @@ def read_runs_file(r: _Reader, path: Path, fmt: FileFormat, model: Model, table:
     from ._studydata import read_runs
 
     runs = read_runs(path, fmt, model, str(path))
+    if len(runs) < 2:  # the mean of the runs needs their scatter s (s²/n, ν = n − 1)
+        raise r.fail(f"expected at least 2 runs in '{path.name}', found {len(runs)}", table,
+                     "runs", nth)
     if not runs.inputs:
         raise r.fail(f"expected columns named like inputs of the model in '{path.name}', "
                      "found none", table, "runs", nth)

@@ -516,11 +516,13 @@ def _run_values(campaign: Campaign, index: int) -> np.ndarray:
         y = np.broadcast_to(compile_model(model).evaluate(values)[index],
                             (len(campaign.runs),)).astype(float)
     bad = np.flatnonzero(~np.isfinite(y))
-    if bad.size:
-        raise CampaignError(f"expected a finite model value for every run, found none for "
-                            f"row {bad[0] + 1}", Location(file=campaign.source,
-                                                           table="characterization",
-                                                           key="runs"))
+    if bad.size:  # the row as a spreadsheet numbers it, in the runs file itself
+        measurand = model.measurands[index]
+        raise CampaignError(
+            f"expected run values for which '{measurand.name}' is a finite number, found "
+            f"{y[bad[0]]} (a division by zero or a function outside its domain in "
+            f"'{measurand.equation}')",
+            Location(file=campaign.runs.source, line=campaign.runs.rows[bad[0]]))
     return y
 
 

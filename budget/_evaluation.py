@@ -91,7 +91,10 @@ def second_order_variances(model: Model) -> np.ndarray:
 def _at(expr: Any, point: dict[str, Any], where: Location) -> float:
     if expr == 0:
         return 0.0
-    value = complex(expr.xreplace(point).evalf())
+    import sympy
+
+    # sympy.N also takes the plain float that replacing a bare symbol leaves (d(a·b)/da = b)
+    value = complex(sympy.N(expr.xreplace(point)))
     if value.imag != 0.0 or not math.isfinite(value.real):
         raise PropagationError(f"expected higher-order derivatives finite at the estimates, "
                                f"found {expr} = {value:g}", where)

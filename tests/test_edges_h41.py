@@ -1,0 +1,37 @@
+"""Edges of model files and the single-model commands (run, check, explain, compare):
+careless or hostile input gives one clean message or an honest warning, never a
+traceback, a hang or a silent wrong number."""
+
+from __future__ import annotations
+
+import json
+import math
+
+import pytest
+
+_PRODUCT = """\
+title = "product of two dimensionless inputs"
+[measurands.y]
+equation = "a * b"
+[inputs.a]
+value = 2.0
+u = 0.01
+[inputs.b]
+value = 3.0
+u = 0.02
+"""
+
+
+def test_second_order_of_a_plain_product(cli, tmp_path):
+    # d(a·b)/da = b is a bare symbol: its value at the estimates used to be a Python float
+    # that sympy could not evaluate (a traceback). The exact variance of a product of
+    # independent quantities is a²u_b² + b²u_a² + u_a²u_b² (Goodman 1960, JASA 55, 708),
+    # which the GUM 5.1.2 higher-order terms reproduce for this bilinear model.
+    path = tmp_path / "product.toml"
+    path.write_text(_PRODUCT)
+    code, stdout, stderr = cli("run", str(path), "--trials", "0", "--second-order", "--json")
+    assert code == 0, stderr
+    measurand = json.loads(stdout)["measurands"][0]
+    exact = 2.0 ** 2 * 0.02 ** 2 + 3.0 ** 2 * 0.01 ** 2 + 0.01 ** 2 * 0.02 ** 2
+    assert measurand["u"] == pytest.approx(math.sqrt(exact), rel=1e-12)
+    assert measurand["second_order_variance"] == pytest.approx(0.01 ** 2 * 0.02 ** 2)

@@ -1,0 +1,102 @@
+"""Certification campaigns and their data files at the edges (helper h42's sweep): each
+careless or hostile input is one ``error:`` line that names the file, the key or row, what
+was expected and what was found, with exit status 1 and nothing written."""
+
+from __future__ import annotations
+
+import json
+import shutil
+from pathlib import Path
+from typing import Callable
+
+import pytest
+
+from conftest import MODELS
+
+DEMO = MODELS / "vics-as-25a"
+
+Edit = Callable[[Path], None]
+
+
+def _edit(name: str, old: str, new: str) -> Edit:
+    def edit(folder: Path) -> None:
+        target = folder / name
+        text = target.read_text(encoding="utf-8")
+        assert old in text, (name, old)
+        target.write_text(text.replace(old, new, 1), encoding="utf-8")
+    return edit
+
+
+def _keep_lines(name: str, count: int) -> Edit:
+    def edit(folder: Path) -> None:
+        target = folder / name
+        lines = target.read_text(encoding="utf-8").splitlines(keepends=True)
+        target.write_text("".join(lines[:count]), encoding="utf-8")
+    return edit
+
+
+def _methods(*edits: Edit) -> Edit:
+    """The three-method campaign of the demo, edited, in place of campaign.toml."""
+    def edit(folder: Path) -> None:
+        shutil.copy(folder / "campaign-methods.toml", folder / "campaign.toml")
+        for each in edits:
+            each(folder)
+    return edit
+
+
+CASES: dict[str, tuple[Edit, str]] = {
+    # determination D2 (row 3) weighed as 0 g: w = M·Q/(zF·m) divides by zero; the
+    # message named the campaign and 'row 2' (a count from 1 over data rows), not the
+    # runs file and its row 3 as a spreadsheet shows it
+    "run_dividing_by_zero": (
+        _edit("determinations.csv", "0.501407", "0"),
+        "determinations.csv:3: expected run values for which 'w' is a finite number, found "
+        "inf (a division by zero or a function outside its domain in "
+        "'M * Q / (z * F * m)')"),
+    # a single water determination: the message named [characterization] and not the
+    # impurity whose runs file had one row
+    "impurity_with_one_run": (
+        _methods(_keep_lines("water.csv", 2)),
+        "campaign.toml:35: [method.impurity] runs: expected at least 2 runs in "
+        "'water.csv', found 1"),
+    "characterization_with_one_run": (
+        _keep_lines("determinations.csv", 2),
+        "campaign.toml:13: [characterization] runs: expected at least 2 runs in "
+        "'determinations.csv', found 1"),
+}
+
+
+@pytest.mark.parametrize("name", sorted(CASES))
+def test_careless_campaign_input_is_one_error_line(cli, tmp_path: Path, name: str) -> None:
+    edit, message = CASES[name]
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    edit(folder)
+    report = folder / "report.html"
+    code, stdout, stderr = cli("certify", "--trials", "0", "--html", str(report),
+                               str(folder / "campaign.toml"))
+    assert (code, stdout) == (1, "")
+    assert stderr == f"error: {folder}/{message}\n"
+    assert not report.exists() and not list(folder.glob(".*.tmp"))
+
+
+def test_certify_all_lists_a_campaign_file_that_is_not_valid_toml(cli, tmp_path: Path) -> None:
+    # an unclosed quote in one campaign: it was skipped as "not a campaign", and the
+    # summary said every campaign had been certified
+    shutil.copytree(DEMO, tmp_path / "good", ignore=shutil.ignore_patterns("campaign-*"))
+    shutil.copytree(DEMO, tmp_path / "slip", ignore=shutil.ignore_patterns("campaign-*"))
+    _edit("campaign.toml", 'title = "Certification', 'title = Certification')(
+        tmp_path / "slip")
+    (tmp_path / "windows.toml").write_bytes(b'title = "storage at 20 \xb0C"\n'
+                                            b'[characterization]\n')
+    code, stdout, stderr = cli("certify-all", "--json", str(tmp_path))
+    assert code == 1
+    document = json.loads(stdout)
+    assert document["summary"]["campaigns"] == 3 and document["summary"]["certified"] == 1
+    errors = {c["campaign"]: c["error"] for c in document["campaigns"]}
+    assert errors["good/campaign.toml"] is None
+    assert errors["slip/campaign.toml"] == (f"{tmp_path}/slip/campaign.toml:5: expected "
+                                            "valid TOML, found a syntax error: Invalid value")
+    assert errors["windows.toml"] == (f"{tmp_path}/windows.toml: expected UTF-8 text, found "
+                                      "an undecodable byte at byte 24")
+    assert "warning: slip/campaign.toml: not certified" in stderr
