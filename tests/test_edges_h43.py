@@ -12,6 +12,7 @@ import pytest
 
 import budget
 from budget import BudgetError
+from budget import distributions as D
 
 A2 = "models/reference/eurachem-a2-naoh.toml"
 PURITY = "models/vics-as-25a/coulometric-purity.toml"
@@ -218,3 +219,35 @@ def test_a_lot_outside_the_equations_domain_is_named(naoh: budget.Model) -> None
             "expected finite sensitivity coefficients at the estimates of every lot, found "
             "none for x at lot 2 (position 1)")):
         _lots(root, {"x": [4.0, 0.0]})
+
+
+# budget.distributions: a parameter that is not a number is refused when the distribution is
+# built; one that is a number of another type is stored as a plain float
+
+@pytest.mark.parametrize("make, message", [
+    (lambda: D.Normal("1", 2), "Normal: expected estimate as a number, found str '1'"),
+    (lambda: D.Rectangular(1, "a"), "Rectangular: expected half_width as a number, found "
+                                    "str 'a'"),
+    (lambda: D.StudentT(1, 0.1, "3"), "StudentT: expected dof as a number, found str '3'"),
+    (lambda: D.Normal(True, 0.1), "Normal: expected estimate as a number, found bool True"),
+    (lambda: D.Triangular([1.0], 0.1), "Triangular: expected estimate as a number, found "
+                                       "list [1.0]"),
+    (lambda: D.Trapezoidal(1.0, 0.1, None), "Trapezoidal: expected beta as a number, "
+                                            "found NoneType None")])
+def test_distribution_parameters_must_be_numbers(make: Any, message: str) -> None:
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        make()
+
+
+def test_distribution_parameters_become_plain_floats(naoh: budget.Model) -> None:
+    from decimal import Decimal
+    from fractions import Fraction
+
+    shape = D.Triangular(Decimal("18.64"), np.array(0.03))
+    assert (shape.estimate, shape.half_width) == (18.64, 0.03)
+    assert type(shape.estimate) is float and type(shape.half_width) is float
+    assert D.Normal(Fraction(1, 2), np.float32(0.25)).sd == 0.25
+    # a Decimal inside used to reach numpy's sampler: "unsupported operand type(s)"
+    changed = naoh.with_distribution("V_T", shape)
+    run = budget.simulate(changed, trials=1000, seed=1)
+    assert np.isfinite(run.measurands[0].mean)
