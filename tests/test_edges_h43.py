@@ -251,3 +251,31 @@ def test_distribution_parameters_become_plain_floats(naoh: budget.Model) -> None
     changed = naoh.with_distribution("V_T", shape)
     run = budget.simulate(changed, trials=1000, seed=1)
     assert np.isfinite(run.measurands[0].mean)
+
+
+# the notebook and report pages with long names: a table must not grow past the page, a
+# chart label must not run out of its drawing
+
+LONG = "a_very_long_input_name_that_goes_on_and_on_and_on_and_on_and_on_and_on"
+LONG_MODEL = (f'title = "<script>x</script> & co"\n[measurands.y]\nequation = "{LONG} * b"\n'
+              f'unit = "g/kg"\n[inputs.{LONG}]\nvalue = 2\nu = 0.1\n'
+              '[inputs.b]\nvalue = 3\nu = 0.2\nunit = "g/kg"\n')
+
+
+def test_a_long_name_in_a_chart_is_cut_with_its_whole_name_as_tooltip() -> None:
+    from budget._svg import bar_chart
+
+    svg = str(bar_chart([(LONG, 64.0), ("b", 36.0)]))
+    shown = re.search(r"</title>([^<]*)…</text>", svg)
+    assert shown is not None and LONG.startswith(shown.group(1))
+    assert 20 < len(shown.group(1)) < 40  # fits 252 px at 11 px: it ran out on the left
+    assert f"<title>{LONG}</title>" in svg
+    assert ">b</text>" in svg  # a short name is left alone
+
+
+def test_long_names_in_tables_may_wrap() -> None:
+    model = budget.parse_model(LONG_MODEL, "long.toml")
+    result = budget.evaluate(model, trials=0)
+    for page in (result._repr_html_(), budget.render_report(result)):
+        assert "td var, " in page and "overflow-wrap: anywhere" in page
+        assert "<script>x" not in page and "&lt;script&gt;x" in page
