@@ -111,11 +111,12 @@ def _check_outputs(*paths: str | None, protect: Any = ()) -> None:
     and with the files of the run as ``protect`` once they are known."""
     from pathlib import Path
 
-    from ._output import check_target
+    from ._output import check_distinct, check_target
 
-    for path in paths:
-        if path:
-            check_target(Path(path), protect)
+    named = [Path(path) for path in paths if path]
+    check_distinct(named)
+    for path in named:
+        check_target(path, protect)
 
 
 def _safe(text: str) -> str:
