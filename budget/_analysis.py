@@ -10,6 +10,7 @@ from dataclasses import dataclass, replace
 from typing import Any, Callable
 
 from ._errors import Location, PropagationError
+from ._arguments import check_model, check_trials_argument
 from ._limits import LIMITS_PAGE, check_digits, check_probability
 from ._gum import Budget, MeasurandBudget, propagate
 from ._model import Model
@@ -85,11 +86,14 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
     """GUM budget and (unless ``trials == 0``) the Monte Carlo cross-check of ``model``;
     ``reported_interval`` (default: the model's setting) picks the reported result;
     ``keep_samples`` as for ``simulate``."""
+    check_model(model, "evaluate")
     coverage = model.settings.coverage_probability if coverage is None else coverage
     digits = model.settings.digits if digits is None else digits
     where = Location(file=model.source)
     check_probability(coverage, replace(where, key="coverage"))  # limits, also for the API
     check_digits(digits, replace(where, key="digits"))
+    if trials is not None:
+        trials = check_trials_argument(trials, replace(where, key="trials"))
     if trials is None and not adaptive and model.settings.trials == 0:
         trials = 0
     try:

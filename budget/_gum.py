@@ -243,12 +243,15 @@ def propagate(model: Model, coverage: float | None = None, *,
 def _propagate(model: Model, coverage: float | None, second_order: bool) -> Budget:
     from ._evaluation import jacobian_at_estimates
 
+    from ._arguments import check_flag, check_model
+    from ._limits import check_probability
+
+    check_model(model, "propagate")
     where = Location(file=model.source, table="settings" if coverage is None else None,
                      key="coverage")  # the file's setting, or an argument
-    coverage = model.settings.coverage_probability if coverage is None else coverage
-    if not 0.0 < coverage < 1.0:
-        raise PropagationError(f"expected a coverage probability in (0, 1), found {coverage}",
-                               where)
+    coverage = model.settings.coverage_probability if coverage is None else \
+        check_probability(coverage, where)
+    check_flag(second_order, Location(file=model.source, key="second_order"))
     values, jac = jacobian_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
     pairs = _Pairs(model)

@@ -41,13 +41,15 @@ import os
 import threading
 from collections import deque
 from concurrent.futures import Future, ThreadPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Callable, Generator, cast
 
 import numpy as np
 
 from .distributions import Normal, Rectangular, StudentT
-from ._limits import MAX_TRIALS, check_kept, check_trials
+from ._arguments import (check_budget_of, check_flag, check_model, check_progress,
+                         check_seed_argument, check_trials_argument, check_workers)
+from ._limits import MAX_TRIALS, check_digits, check_kept, check_probability, check_trials
 from ._batched import Schedule
 from ._errors import Location, SimulationError
 from ._evaluation import compile_model
@@ -632,16 +634,23 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
 
     ``keep_samples``: keep every value (``MeasurandSimulation.samples``); by default only
     while a fixed run has at most ``KEEP_LIMIT`` values, longer runs are streamed."""
-    settings = model.settings
-    seed = settings.seed if seed is None else seed
+    settings = _checked(model, budget, trials=trials, seed=seed, coverage=coverage,
+                        digits=digits, workers=workers, progress=progress,
+                        flags={"adaptive": adaptive, "keep_samples": keep_samples})
+    seed = settings.seed if seed is None else check_seed_argument(seed, Location(
+        file=model.source, key="seed"))
     coverage_at = Location(file=model.source, table="settings" if coverage is None else None,
                            key="coverage")
-    coverage = settings.coverage_probability if coverage is None else coverage
+    coverage = settings.coverage_probability if coverage is None else float(coverage)
     digits = settings.digits if digits is None else digits
-    workers = workers or min(2, os.cpu_count() or 1)
+    workers = check_workers(workers, Location(file=model.source, key="workers")) \
+        or min(2, os.cpu_count() or 1)
     trials_at = Location(file=model.source, table="settings" if trials is None else None,
                          key="trials")  # the file's setting, or an argument
-    if trials is None:
+    check_budget_of(budget, model, coverage, Location(file=model.source, key="budget"))
+    if trials is not None:
+        trials = check_trials_argument(trials, trials_at)
+    else:
         adaptive = adaptive or settings.trials == "adaptive"
         trials = 0 if settings.trials == "adaptive" else int(settings.trials)
     check_trials(trials, trials_at)
@@ -674,6 +683,21 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
         warnings = []
     return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
                       sampler.warnings + warnings, moments, kept)
+
+
+def _checked(model: Model, budget: Budget | None, *, trials: Any, seed: Any, coverage: Any,
+             digits: Any, workers: Any, progress: Any, flags: dict[str, Any]) -> Any:
+    """The arguments of ``simulate`` checked as the file's keys are; the model's settings."""
+    check_model(model, "simulate")
+    where = Location(file=model.source)
+    if coverage is not None:
+        check_probability(coverage, replace(where, key="coverage"))
+    if digits is not None:
+        check_digits(digits, replace(where, key="digits"))
+    check_progress(progress, replace(where, key="progress"))
+    for name, value in flags.items():
+        check_flag(value, replace(where, key=name), none=name == "keep_samples")
+    return model.settings
 
 
 def _keeps(keep_samples: bool | None, trials: int, measurands: int, coverage: float) -> bool:

@@ -24,6 +24,7 @@ from typing import TYPE_CHECKING, Any, Protocol, TypeVar
 from ._cells import validation_lines
 from ._errors import NotFoundError, did_you_mean
 from ._formatting import format_number, format_pair, format_percent, shown_share
+from ._limits import shorten
 from ._unit_display import display_unit, spaced_unit
 
 if TYPE_CHECKING:
@@ -49,6 +50,11 @@ T = TypeVar("T", bound=_Named)
 def lookup(items: Iterable[T], name: str, what: str) -> T:
     """The item called ``name``, or a :class:`NotFoundError` with a "did you mean"."""
     found = list(items)
+    if not isinstance(name, str):
+        article = "an" if what[:1] in "aeiou" else "a"
+        raise NotFoundError(f"expected the name of {article} {what} (a string), found "
+                            f"{type(name).__name__} {shorten(repr(name))}; expected one of "
+                            f"{', '.join(item.name for item in found) or 'none'}")
     for item in found:
         if item.name == name:
             return item

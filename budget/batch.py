@@ -60,7 +60,8 @@ class Batch:
 
 
 def find_campaigns(folder: str | Path) -> list[Path]:
-    """Campaign files under ``folder``: TOML files with a [characterization] table."""
+    """Campaign files under ``folder``: TOML files with a [characterization] table, and
+    TOML files that cannot be read (their error goes into the summary)."""
     root = Path(folder)
     if not root.is_dir():
         raise InputError(f"expected a folder of campaign files, found "
@@ -70,12 +71,15 @@ def find_campaigns(folder: str | Path) -> list[Path]:
 
 
 def _is_campaign(path: Path) -> bool:
+    """Whether ``path`` is a campaign file, or may be one: a file that cannot be read as
+    TOML (a syntax slip, another encoding) is kept, so that ``certify`` names its error
+    in the summary instead of the campaign silently going missing from it."""
     try:
-        if path.stat().st_size > _MAX_HEADER:
+        if not path.is_file() or path.stat().st_size > _MAX_HEADER:
             return False
         document = tomllib.loads(path.read_text(encoding="utf-8-sig"))
     except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
-        return False
+        return True
     return isinstance(document.get("characterization"), dict)
 
 

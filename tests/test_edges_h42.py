@@ -4,6 +4,7 @@ was expected and what was found, with exit status 1 and nothing written."""
 
 from __future__ import annotations
 
+import json
 import shutil
 from pathlib import Path
 from typing import Callable
@@ -77,3 +78,25 @@ def test_careless_campaign_input_is_one_error_line(cli, tmp_path: Path, name: st
     assert (code, stdout) == (1, "")
     assert stderr == f"error: {folder}/{message}\n"
     assert not report.exists() and not list(folder.glob(".*.tmp"))
+
+
+def test_certify_all_lists_a_campaign_file_that_is_not_valid_toml(cli, tmp_path: Path) -> None:
+    # an unclosed quote in one campaign: it was skipped as "not a campaign", and the
+    # summary said every campaign had been certified
+    shutil.copytree(DEMO, tmp_path / "good", ignore=shutil.ignore_patterns("campaign-*"))
+    shutil.copytree(DEMO, tmp_path / "slip", ignore=shutil.ignore_patterns("campaign-*"))
+    _edit("campaign.toml", 'title = "Certification', 'title = Certification')(
+        tmp_path / "slip")
+    (tmp_path / "windows.toml").write_bytes(b'title = "storage at 20 \xb0C"\n'
+                                            b'[characterization]\n')
+    code, stdout, stderr = cli("certify-all", "--json", str(tmp_path))
+    assert code == 1
+    document = json.loads(stdout)
+    assert document["summary"]["campaigns"] == 3 and document["summary"]["certified"] == 1
+    errors = {c["campaign"]: c["error"] for c in document["campaigns"]}
+    assert errors["good/campaign.toml"] is None
+    assert errors["slip/campaign.toml"] == (f"{tmp_path}/slip/campaign.toml:5: expected "
+                                            "valid TOML, found a syntax error: Invalid value")
+    assert errors["windows.toml"] == (f"{tmp_path}/windows.toml: expected UTF-8 text, found "
+                                      "an undecodable byte at byte 24")
+    assert "warning: slip/campaign.toml: not certified" in stderr

@@ -11,7 +11,7 @@ import pytest
 
 from budget._analysis import evaluate
 from budget._combination import combine
-from budget._errors import BudgetError, Location, PropagationError
+from budget._errors import BudgetError, InputError, Location, PropagationError
 from budget._gum import propagate
 from budget._joint import Member, join
 from budget._model import parse_model
@@ -65,10 +65,10 @@ def test_joint_correlation_conflicts_name_the_shared_table() -> None:
 
 def test_a_coverage_argument_out_of_range_names_the_file() -> None:
     model = parse_model(PAIR.format(r=0.0), "m.toml")
-    with pytest.raises(PropagationError) as caught:
+    with pytest.raises(InputError) as caught:
         propagate(model, coverage=1.5)
     assert str(caught.value) == ("m.toml: coverage: expected a coverage probability in "
-                                 "(0, 1), found 1.5")
+                                 "[1e-06, 1 - 1e-09] (limits: docs/limits.md), found 1.5")
 
 
 def test_a_non_finite_higher_order_derivative_names_the_equation() -> None:

@@ -267,7 +267,7 @@ def test_intervals_from_the_kept_tails_equal_a_full_selection(shape):
     values = result.samples.copy()
     assert result.interval == coverage_interval(values.copy(), 0.95)
     assert result.shortest_interval == shortest_interval(values.copy(), 0.95)
-    p99 = simulate(m, propagate(m), trials=6 * BLOCK, coverage=0.99).measurand("Y")
+    p99 = simulate(m, propagate(m, 0.99), trials=6 * BLOCK, coverage=0.99).measurand("Y")
     assert p99.interval == coverage_interval(p99.samples.copy(), 0.99)
 
 

@@ -55,7 +55,7 @@ def _full_sort(y: np.ndarray, p: float) -> tuple[tuple[float, float], tuple[floa
 
 def _run(keep: bool, workers: int = 2, trials: int = 200_000, p: float = 0.95):
     m = model(_TWO)
-    return simulate(m, propagate(m), trials=trials, seed=11, coverage=p, workers=workers,
+    return simulate(m, propagate(m, p), trials=trials, seed=11, coverage=p, workers=workers,
                     keep_samples=keep)
 
 

@@ -1,0 +1,124 @@
+"""Checks of the Python API's arguments (``evaluate``, ``simulate``, ``propagate``, …).
+
+A file's keys are checked where they are read (``_model``, ``_campaign``); a notebook
+passes the same settings as arguments, and a careless one (a string for a number, a float
+for a count, a path for a model) must meet the same kind of message — the argument named,
+what was expected and what was found — not a numpy or attribute error from deep inside.
+"""
+
+from __future__ import annotations
+
+import operator
+from typing import Any
+
+import numpy as np
+
+from ._errors import InputError, Location
+from ._limits import MAX_TRIALS, check_seed, shorten
+
+__all__ = ["whole", "check_model", "check_trials_argument", "check_seed_argument",
+           "check_workers", "check_progress", "check_flag", "check_budget_of"]
+
+MAX_WORKERS = 256  # as `--workers` on the command line
+
+
+def whole(value: Any) -> int | None:
+    """An int, a numpy integer or a 0-d integer array as an int; None for anything else
+    (bools, floats — even 1e6 — strings, lists)."""
+    if isinstance(value, (bool, np.bool_)):
+        return None
+    if isinstance(value, int):
+        return value
+    if isinstance(value, (np.integer, np.ndarray)):
+        try:
+            return operator.index(value)
+        except TypeError:
+            return None
+    return None
+
+
+def _found(value: Any) -> str:
+    return f"{type(value).__name__} {shorten(repr(value))}"
+
+
+def check_model(value: Any, function: str) -> None:
+    """Refuse anything but a :class:`Model` (a path, a dict, None) as ``function``'s model."""
+    from ._model import Model
+
+    if not isinstance(value, Model):
+        raise InputError(f"expected a budget.Model (budget.load_model(path) reads one), "
+                         f"found {_found(value)}", Location(file=f"{function}()", key="model"))
+
+
+def check_trials_argument(value: Any, where: Location) -> int:
+    """A whole number of Monte Carlo trials, 0 to ``MAX_TRIALS``."""
+    number = whole(value)
+    if number is None or number < 0:
+        hint = " (a float such as 1e5 is refused: write 100_000)" \
+            if isinstance(value, float) else ""
+        raise InputError(f"expected a whole number of trials ≥ 0{hint}, found "
+                         f"{_found(value)}", where)
+    if number > MAX_TRIALS:
+        from ._limits import check_trials
+
+        check_trials(number, where)
+    return number
+
+
+def check_seed_argument(value: Any, where: Location) -> int:
+    """A seed as the file's ``seed`` key takes it (numpy integers too)."""
+    number = whole(value)
+    return check_seed(value if number is None else number, where)
+
+
+def check_workers(value: Any, where: Location) -> int | None:
+    """None (the default) or a whole number of threads or processes, 1 to 256."""
+    if value is None:
+        return None
+    number = whole(value)
+    if number is None or not 1 <= number <= MAX_WORKERS:
+        raise InputError(f"expected None or a whole number of workers from 1 to "
+                         f"{MAX_WORKERS}, found {_found(value)}", where)
+    return number
+
+
+def check_progress(value: Any, where: Location) -> None:
+    if value is not None and not callable(value):
+        raise InputError(f"expected None or a function f(done, total), found "
+                         f"{_found(value)}", where)
+
+
+def check_flag(value: Any, where: Location, none: bool = False) -> None:
+    """A yes/no argument: True or False (or None where it means "the default")."""
+    if isinstance(value, (bool, np.bool_)) or (none and value is None):
+        return
+    allowed = "True, False or None" if none else "True or False"
+    raise InputError(f"expected {allowed}, found {_found(value)}", where)
+
+
+def check_budget_of(budget: Any, model: Any, coverage: float, where: Location) -> None:
+    """Refuse a GUM budget that is not the one of ``model`` (another model, or the model
+    before a what-if) at ``coverage``: the Monte Carlo result would be validated against
+    wrong numbers."""
+    from ._gum import Budget
+
+    if budget is None:
+        return
+    if not isinstance(budget, Budget):
+        raise InputError(f"expected None or the budget.Budget of this model "
+                         f"(budget.propagate(model)), found {_found(budget)}", where)
+    if _fingerprint(budget.model) != _fingerprint(model):
+        raise InputError("expected the budget of this model (budget.propagate(model)), "
+                         f"found the budget of another model or of the model before a "
+                         f"what-if ('{budget.model.title}')", where)
+    at = {m.coverage_probability for m in budget.measurands}
+    if at and at != {coverage}:
+        raise InputError(f"expected the budget at the coverage probability of the "
+                         f"simulation ({coverage:g}), found one at {min(at):g} "
+                         f"(budget.propagate(model, coverage={coverage:g}))", where)
+
+
+def _fingerprint(model: Any) -> tuple[Any, ...]:
+    return (tuple((m.name, m.equation) for m in model.measurands),
+            tuple((i.name, i.estimate, i.standard_uncertainty) for i in model.inputs),
+            tuple(model.correlations))
