@@ -87,18 +87,7 @@ def check_target(target: Path, protect: Iterable[tuple[str, str | Path]] = ()) -
     return stat.S_IMODE(info.st_mode)
 
 
-def check_distinct(targets: list[Path]) -> None:
-    """Refuse one file named for two outputs (``--html r.csv --csv r.csv``): the second
-    would silently replace the first."""
-    for k, target in enumerate(targets):
-        for other in targets[:k]:
-            if _same_target(target, other):
-                raise InputError("expected a different file for each output (--html, "
-                                 "--csv, --xlsx), found this file named twice",
-                                 Location(file=str(target)))
-
-
-def _same_target(one: Path, two: Path) -> bool:
+def same_target(one: Path, two: Path) -> bool:
     """Whether two output names lead to one file (resolved, or the same existing file)."""
     if os.path.realpath(one) == os.path.realpath(two):  # never raises, even on link loops
         return True
