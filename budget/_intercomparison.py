@@ -32,7 +32,7 @@ import numpy as np
 
 from ._analysis import evaluate
 from ._combination import Combined, Consistency, combine, consistency
-from ._errors import Location
+from ._errors import CampaignError, Location
 from ._gum import (correlation_of, coverage_factor, matrix_rows, propagate,
                    welch_satterthwaite)
 from ._joint import Member, join
@@ -238,6 +238,8 @@ def _one_method(campaign: "Campaign", method: "ModelMethod | MassBalance",
         elements.append(element)
         row.append((len(elements) - 1, -1.0))
     estimate = one - math.fsum(i.estimate for i in impurities)
+    if estimate < 0.0:  # a unit slip (mg/kg given as %) would certify a negative purity
+        _refuse_over_one(campaign, method, impurities, one)
     variance_alone = math.fsum(i.standard_uncertainty ** 2 for i in impurities)
     dof = welch_satterthwaite(math.sqrt(variance_alone),
                               np.array([i.standard_uncertainty for i in impurities]),
@@ -245,6 +247,17 @@ def _one_method(campaign: "Campaign", method: "ModelMethod | MassBalance",
     result = _method_result(method.label, "mass_balance", estimate,
                             math.sqrt(variance_alone), dof, k, impurities=tuple(impurities))
     return result, row, one
+
+
+def _refuse_over_one(campaign: "Campaign", method: "MassBalance",
+                     impurities: list[ImpurityResult], one: float) -> None:
+    unit = campaign.unit
+    each = ", ".join(f"{i.label} {i.estimate:.6g} {unit}" for i in impurities)
+    total = math.fsum(i.estimate for i in impurities)
+    raise CampaignError(f"expected impurities that sum to at most {one:g} {unit}, found "
+                        f"{total:.6g} {unit} ({each}): the mass balance would give a "
+                        "negative purity; is a value in another unit?",
+                        method.where or Location(file=campaign.source, table="method"))
 
 
 def _one(campaign: "Campaign") -> float:

@@ -18,13 +18,13 @@ Errors name the campaign file, the table and key, what was expected and what was
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
 from ._campaign import _Reader
 from ._combination import RULES
-from ._errors import did_you_mean
+from ._errors import Location, did_you_mean
 from ._model import Model, load_model
 
 __all__ = ["ModelMethod", "Impurity", "MassBalance", "MethodsPlan", "read_methods",
@@ -67,6 +67,7 @@ class MassBalance:
 
     label: str
     impurities: tuple[Impurity, ...]
+    where: Location | None = None  # the [[method]] table, for a sum of impurities over 1
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -139,7 +140,8 @@ def _method(r: _Reader, entry: Any, nth: int, counter: list[int]) -> ModelMethod
                          "method.impurity", "label", counter[0])
         impurities.append(impurity)
         counter[0] += 1
-    return MassBalance(label=label, impurities=tuple(impurities))
+    return MassBalance(label=label, impurities=tuple(impurities),
+                       where=replace(r.where("method", None, nth), key="impurity"))
 
 
 def _impurity(r: _Reader, item: Any, method: str, nth: int) -> Impurity:

@@ -59,6 +59,14 @@ CASES: dict[str, tuple[Edit, str]] = {
         _methods(_keep_lines("water.csv", 2)),
         "campaign.toml:35: [method.impurity] runs: expected at least 2 runs in "
         "'water.csv', found 1"),
+    # HPLC impurities typed as 120 (%): the mass balance certified -20 %, and the
+    # combined value of three methods with it, 37.2 %, with only warnings
+    "impurities_over_one": (
+        _methods(_edit("campaign.toml", "value = 0.0060", "value = 120")),
+        "campaign.toml:26: [method] impurity: expected impurities that sum to at most 100 %, "
+        "found 120.005 % (water 0.00438804 %, related organic substances (HPLC) 120 %, "
+        "inorganic impurities other than K (ICP-MS) 0.001 %): the mass balance would give a "
+        "negative purity; is a value in another unit?"),
     "characterization_with_one_run": (
         _keep_lines("determinations.csv", 2),
         "campaign.toml:13: [characterization] runs: expected at least 2 runs in "
