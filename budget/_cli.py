@@ -21,6 +21,7 @@ from typing import Any, Callable
 import click
 
 from . import __version__
+from ._limits import MAX_TRIALS
 
 __all__ = ["main"]
 
@@ -111,11 +112,16 @@ def _check_outputs(*paths: str | None, protect: Any = ()) -> None:
     and with the files of the run as ``protect`` once they are known."""
     from pathlib import Path
 
-    from ._output import check_target
+    from ._errors import InputError, Location
+    from ._output import check_target, same_target
 
-    for path in paths:
-        if path:
-            check_target(Path(path), protect)
+    named = [Path(path) for path in paths if path]
+    for k, path in enumerate(named):
+        if any(same_target(path, other) for other in named[:k]):
+            # the second output would silently replace the first
+            raise InputError("expected a different file for each output (--html, --csv, "
+                             "--xlsx), found this file named twice", Location(file=str(path)))
+        check_target(path, protect)
 
 
 def _safe(text: str) -> str:
@@ -250,7 +256,7 @@ class _Progress:
 
 def _common(function: Callable[..., Any]) -> Callable[..., Any]:
     options = [
-        click.option("--trials", type=click.IntRange(0, 100_000_000), default=None,
+        click.option("--trials", type=click.IntRange(0, MAX_TRIALS), default=None,
                      help="Monte Carlo trials (0 = none)."),
         click.option("--adaptive", is_flag=True,
                      help="JCGM 101 7.9 adaptive procedure instead of a fixed number."),
@@ -420,7 +426,7 @@ def check(model_file: str, strict: bool) -> None:
 @click.option("--json", "as_json", is_flag=True, help="Print the JSON certification document.")
 @click.option("--html", "html_file", metavar="FILE", default=None,
               help="Also write the certification report to FILE.")
-@click.option("--trials", type=click.IntRange(0, 100_000_000), default=None,
+@click.option("--trials", type=click.IntRange(0, MAX_TRIALS), default=None,
               help="Monte Carlo trials for the characterization model (0 = none).")
 @click.option("--seed", type=click.IntRange(0, 2 ** 64 - 1), default=None,
               help="Random seed.")
@@ -541,7 +547,7 @@ def demo(folder: str) -> None:
               help="Also write one row per campaign to FILE (CSV).")
 @click.option("--html", "html_file", metavar="FILE", default=None,
               help="Also write the summary with a trend chart to FILE.")
-@click.option("--trials", type=click.IntRange(0, 100_000_000), default=0, show_default=True,
+@click.option("--trials", type=click.IntRange(0, MAX_TRIALS), default=0, show_default=True,
               help="Monte Carlo trials per campaign (0 = the linear budget only).")
 @click.option("--seed", type=click.IntRange(0, 2 ** 64 - 1), default=None,
               help="Random seed.")

@@ -56,7 +56,7 @@ from ._evaluation import compile_model
 from ._formatting import decimal_exponent
 from ._gum import Budget
 from ._model import Model
-from ._streaming import Binned, Streamed
+from ._streaming import Binned, Streamed, cut_level
 
 __all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "KEEP_LIMIT", "Validation",
            "MeasurandSimulation", "Simulation",
@@ -558,12 +558,12 @@ def _correlated(model: Model, group: list[int], factor: np.ndarray,
 
 class _Tails:
     """Cut values from a first block, below and above which every block keeps its values,
-    so that the coverage intervals need sorting only about 1.25·(1 − p)·M values per tail
-    instead of selecting among all M (checked afterwards; a full selection when short)."""
+    so that the coverage intervals need sorting only a little over (1 − p)·M values per
+    tail instead of selecting among all M (checked afterwards; a full selection, or for a
+    streamed run a second pass, when short): the margin of ``cut_level``."""
 
     def __init__(self, view: np.ndarray, p: float) -> None:
-        share = 1.0 - p
-        level = min(0.45, 1.25 * share + 5.0 * math.sqrt(share / view.shape[1]))
+        level = cut_level(1.0 - p, view.shape[1])
         self.low = np.quantile(view, level, axis=1)
         self.high = np.quantile(view, 1.0 - level, axis=1)
 
@@ -743,7 +743,7 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
     long fixed run), so a run of ``ADAPTIVE_LIMIT`` trials stays in bounded memory. A run
     that must keep every value (``keep_samples``, or p ≤ ½) stops at
     ``ADAPTIVE_KEEP_LIMIT``."""
-    from ._streaming import Streaming
+    from ._streaming import Pile, Streaming
 
     j = math.ceil(100.0 / (1.0 - coverage))
     # at least two blocks per batch, so that both workers draw (the same on any number
@@ -764,7 +764,7 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
     ring = np.empty((outputs, slots * size)) if room < most else np.empty((outputs, 0))
     stats = np.empty((most, outputs, 4))  # per batch: mean, sd, low, high
     moments: np.ndarray | None = None  # (n_out, 3): count, mean, M2 of all batches
-    kept: list[Any] = []
+    piles = [(Pile(), Pile()) for _ in range(outputs)]  # every batch's tail values
     # set once batch 0 is in; a worker that sees them works for the main thread
     shared: dict[str, Any] = {"tails": None, "streaming": None}
 
@@ -813,7 +813,9 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
                          for view, f in zip(views, found)]
                 pieces = [(np.concatenate([p[k][0] for p in parts]),
                            np.concatenate([p[k][1] for p in parts])) for k in range(outputs)]
-                kept.append(pieces)
+                for (low, high), (lows, highs) in zip(pieces, piles):
+                    lows.add(low)
+                    highs.add(high)
             moments = done if moments is None else _combine([moments, done])
             stats[h] = _batch_stats(chunk, coverage, done, pieces)
             if h >= 1 and _converged(moments, stats[:h + 1], digits):
@@ -826,12 +828,14 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
     assert moments is not None
     trials = (h + 1) * size
     streaming = shared["streaming"]
+    collected = shared["tails"] is not None
     if h < room or streaming is None:
+        # the tails as one block of pieces, as a fixed kept run leaves them
+        kept = [[(np.concatenate(lows.take()), np.concatenate(highs.take()))
+                 for lows, highs in piles]] if collected else []
         return samples[:, :trials], warnings, moments, kept, None
     samples = ring = np.empty((outputs, 0))  # the kept values and the ring are dropped
-    sides = [[piece[k] for piece in kept] for k in range(outputs)] \
-        if kept and moments[0, 0] == trials else None
-    kept.clear()  # each side's pieces are freed as they are joined
+    sides = piles if collected and moments[0, 0] == trials else None
     return None, warnings, moments, [], streaming.finish(sampler, trials, coverage, workers,
                                                          moments, sides)
 

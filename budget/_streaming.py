@@ -33,7 +33,7 @@ import numpy as np
 if TYPE_CHECKING:
     from ._montecarlo import _Sampler
 
-__all__ = ["HISTOGRAM_BINS", "Binned", "Streamed", "Streaming", "stream", "cut_level"]
+__all__ = ["HISTOGRAM_BINS", "Binned", "Pile", "Streamed", "Streaming", "stream", "cut_level"]
 
 HISTOGRAM_BINS = 2000
 
@@ -76,6 +76,43 @@ def cut_level(share: float, pilot: int) -> float:
     return min(0.45, share + 5.0 * math.sqrt(share * (1.0 - share) / pilot))
 
 
+class Pile:
+    """Values appended piece by piece into chunks of ``CHUNK`` values. A long run's tails
+    arrive as thousands of small pieces; held as they come, their memory is not given back
+    to the system when they are freed, so joining them would need it twice. Copied into a
+    few large chunks, each chunk's memory goes back once it is joined."""
+
+    CHUNK = 1 << 20
+
+    def __init__(self) -> None:
+        self.chunks: list[np.ndarray] = []
+        self.fill = 0  # values in the last chunk
+
+    @property
+    def size(self) -> int:
+        return sum(c.size for c in self.chunks[:-1]) + self.fill if self.chunks else 0
+
+    def add(self, values: np.ndarray) -> None:
+        at = 0
+        while at < values.size:
+            if not self.chunks or self.fill == self.chunks[-1].size:
+                self.chunks.append(np.empty(self.CHUNK))
+                self.fill = 0
+            last = self.chunks[-1]
+            take = min(values.size - at, last.size - self.fill)
+            last[self.fill:self.fill + take] = values[at:at + take]
+            self.fill += take
+            at += take
+
+    def take(self) -> list[np.ndarray]:
+        """The values (the last chunk trimmed; one empty array for an empty pile), leaving
+        the pile empty."""
+        found = self.chunks or [np.empty(0)]
+        found[-1] = found[-1][:self.fill] if self.chunks else found[-1]
+        self.chunks, self.fill = [], 0
+        return found
+
+
 def stream(sampler: "_Sampler", trials: int, coverage: float,
            progress: Callable[[int], None] | None, workers: int) -> Streamed:
     """Run ``trials`` trials (coverage above ½) keeping no array of all the values."""
@@ -93,6 +130,7 @@ def stream(sampler: "_Sampler", trials: int, coverage: float,
         progress(size)
     counts = [np.zeros(HISTOGRAM_BINS, dtype=np.int64) for _ in edges]
     outside = np.zeros((len(edges), 2), dtype=np.int64)
+    piles = [(Pile(), Pile()) for _ in edges]
     blocks: list[_Block] = []
     for found in itertools.chain([first], _blocks(
             sampler, trials, workers, progress,
@@ -100,14 +138,16 @@ def stream(sampler: "_Sampler", trials: int, coverage: float,
         for k, c in enumerate(found.counts):  # summed as they come: one histogram kept
             counts[k] += c
         outside += np.array(found.outside, dtype=np.int64)
-        blocks.append(replace(found, counts=[], outside=[]))
+        for (low, high), (lows, highs) in zip(found.kept, piles):
+            lows.add(low)
+            highs.add(high)
+        blocks.append(replace(found, counts=[], outside=[], kept=[]))
     moments, comoment = _moments(blocks)
     histograms = tuple(Binned(edges=e, counts=c, below=int(o[0]), above=int(o[1]))
                        for e, c, o in zip(edges, counts, outside))
-    kept = [[b.kept[k] for b in blocks] for k in range(len(edges))]
     blocks.clear()
     m = int(moments[0, 0])
-    intervals: list[Any] = [_exact(side, m, coverage) for side in kept]
+    intervals: list[Any] = [_exact(lows, highs, m, coverage) for lows, highs in piles]
     missing = [k for k, found in enumerate(intervals) if found is None]
     if missing and m >= 2:
         _again(sampler, size, trials, workers, histograms, m, coverage, intervals, missing)
@@ -126,10 +166,14 @@ def _again(sampler: "_Sampler", size: int, trials: int, workers: int,
             else (math.nan, math.nan) for k in range(len(histograms))]
     first_tails = _tails(sampler.block(0, size), wide)
     sampler.release()
-    again = [first_tails, *_blocks(
-        sampler, trials, workers, None, lambda view: _tails(view, wide))]
+    piles = [(Pile(), Pile()) for _ in wide]
+    for found in itertools.chain([first_tails], _blocks(
+            sampler, trials, workers, None, lambda view: _tails(view, wide))):
+        for (low, high), (lows, highs) in zip(found, piles):
+            lows.add(low)
+            highs.add(high)
     for k in missing:
-        intervals[k] = _exact([b[k] for b in again], m, coverage)
+        intervals[k] = _exact(*piles[k], m, coverage)
 
 
 class Streaming:
@@ -176,8 +220,7 @@ class Streaming:
             self.blocks.append(replace(found, counts=[], outside=[]))
 
     def finish(self, sampler: "_Sampler", trials: int, coverage: float, workers: int,
-               moments: np.ndarray, sides: list[list[tuple[np.ndarray, np.ndarray]]] | None
-               ) -> Streamed:
+               moments: np.ndarray, sides: list[tuple[Pile, Pile]] | None) -> Streamed:
         """The streamed result of ``trials`` trials whose (jointly finite) moments are
         ``moments``; ``sides``: each measurand's tail values of every batch, or None when
         they cannot serve (a batch held non-finite values), then a second pass collects
@@ -187,8 +230,8 @@ class Streaming:
         histograms = tuple(Binned(edges=e, counts=c, below=int(o[0]), above=int(o[1]))
                            for e, c, o in zip(self.edges, self.counts, self.outside))
         m = int(moments[0, 0])
-        intervals: list[Any] = [_exact(side, m, coverage) if sides is not None and m >= 2
-                                else None for side in (sides or [[]] * len(self.edges))]
+        intervals: list[Any] = ([_exact(lows, highs, m, coverage) for lows, highs in sides]
+                                if sides is not None and m >= 2 else [None] * len(self.edges))
         missing = [k for k, found in enumerate(intervals) if found is None]
         if missing and m >= 2:
             _again(sampler, sampler.size, trials, workers, histograms, m, coverage,
@@ -296,18 +339,14 @@ def _correlation(moments: np.ndarray, comoment: np.ndarray | None) -> np.ndarray
     return found
 
 
-def _exact(sides: list[tuple[np.ndarray, np.ndarray]], m: int, p: float
+def _exact(lows: Pile, highs: Pile, m: int, p: float
            ) -> tuple[tuple[float, float], tuple[float, float]] | None:
     """Both intervals from the kept values when each side holds the m − q extreme ones."""
     from ._montecarlo import _pick, _q
 
     tail = m - _q(m, p)
-    lows, highs = [s[0] for s in sides], [s[1] for s in sides]
-    sides.clear()  # each side's pieces are freed once joined
-    low = np.concatenate(lows)
-    lows.clear()
-    high = np.concatenate(highs)
-    highs.clear()
+    low = _joined(lows.take())
+    high = _joined(highs.take())
     if low.size < tail or high.size < tail:
         return None
     with ThreadPoolExecutor(max_workers=2) as pool:  # np.sort lets the other thread run
@@ -316,6 +355,20 @@ def _exact(sides: list[tuple[np.ndarray, np.ndarray]], m: int, p: float
         found: tuple[tuple[float, float], tuple[float, float]] = _pick(
             lowest.result(), highest.result(), m, p)
     return found
+
+
+def _joined(pieces: list[np.ndarray]) -> np.ndarray:
+    """The chunks of a pile end to end, each dropped once copied (``pieces`` is emptied),
+    so that a long run's tails are held about once, not twice, while they are joined."""
+    out = np.empty(sum(piece.size for piece in pieces))
+    pieces.reverse()
+    at = 0
+    while pieces:
+        piece = pieces.pop()
+        out[at:at + piece.size] = piece
+        at += piece.size
+        del piece
+    return out
 
 
 def _extreme(values: np.ndarray, count: int, high: bool) -> np.ndarray:

@@ -125,3 +125,21 @@ def test_eurachem_a2_at_three_digits_converges_in_bounded_memory():
     # the guide's result, c = 0.10214 mol/L with u = 0.00010 mol/L, within the interval
     assert s.interval[0] < 0.10214 < s.interval[1]
     assert s.standard_uncertainty == pytest.approx(0.00010, abs=0.000005)
+
+
+def test_a_pile_holds_its_pieces_in_order_across_chunks(monkeypatch):
+    """The tails of a long run are copied into a few large chunks as they arrive
+    (streaming.Pile); what comes out is every value, in the order it went in."""
+    from budget._streaming import Pile
+
+    monkeypatch.setattr(Pile, "CHUNK", 7)
+    rng = np.random.default_rng(3)
+    pieces = [rng.standard_normal(n) for n in (0, 3, 7, 1, 12, 0, 5)]
+    pile = Pile()
+    for piece in pieces:
+        pile.add(piece)
+    assert pile.size == 28
+    chunks = pile.take()
+    assert [c.size for c in chunks] == [7, 7, 7, 7]
+    assert np.array_equal(np.concatenate(chunks), np.concatenate(pieces))
+    assert pile.size == 0 and [c.size for c in pile.take()] == [0]

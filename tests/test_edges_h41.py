@@ -35,3 +35,26 @@ def test_second_order_of_a_plain_product(cli, tmp_path):
     exact = 2.0 ** 2 * 0.02 ** 2 + 3.0 ** 2 * 0.01 ** 2 + 0.01 ** 2 * 0.02 ** 2
     assert measurand["u"] == pytest.approx(math.sqrt(exact), rel=1e-12)
     assert measurand["second_order_variance"] == pytest.approx(0.01 ** 2 * 0.02 ** 2)
+
+
+@pytest.mark.parametrize("second", ["same", "dotted", "hard link"])
+def test_one_file_for_two_outputs_is_refused(cli, tmp_path, second):
+    # --csv r.csv --html r.csv used to write both, the table silently replacing the report
+    model = tmp_path / "product.toml"
+    model.write_text(_PRODUCT)
+    target = tmp_path / "r.csv"
+    other = {"same": target, "dotted": tmp_path / "." / "r.csv",
+             "hard link": tmp_path / "link.csv"}[second]
+    if second == "hard link":
+        target.write_text("kept\n")
+        other.hardlink_to(target)
+    code, stdout, stderr = cli("run", str(model), "--trials", "0", "--csv", str(target),
+                               "--html", str(other))
+    assert code == 1
+    assert stderr == (f"error: {target}: expected a different file for each output (--html, "
+                      "--csv, --xlsx), found this file named twice\n")
+    assert stdout == ""
+    assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
+        {"product.toml", *(["r.csv", "link.csv"] if second == "hard link" else [])})
+    if second == "hard link":
+        assert target.read_text() == "kept\n"

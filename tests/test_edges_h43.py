@@ -135,3 +135,86 @@ def test_lookup_by_something_not_a_name(naoh: budget.Model, name: Any) -> None:
     assert isinstance(caught.value, BudgetError)
     with pytest.raises(BudgetError, match="expected the name of an? input"):
         naoh.input(name)
+
+
+# budget.lots.propagate_lots: a lots table as a lab has it (a DataFrame with gaps, a column
+# typed as text) must never give NaN budgets or a numpy message
+
+def _lots(*args: Any, **kwargs: Any) -> Any:
+    from budget.lots import propagate_lots
+
+    return propagate_lots(*args, **kwargs)
+
+
+@pytest.mark.parametrize("column, found", [
+    ([18.6, float("nan")], "nan at lot 2 (position 1)"),
+    ([18.6, float("inf")], "inf at lot 2 (position 1)"),
+    ([18.6, None], "None at lot 2 (position 1)"),
+    ([18.6, "x"], "'x' at lot 2 (position 1)"),
+    ([18.6, "18.7"], "'18.7' at lot 2 (position 1)"),
+    ([True, 18.6], "True at lot 1 (position 0)")])
+def test_lots_refuse_a_cell_that_is_not_a_finite_number(naoh: budget.Model, column: Any,
+                                                        found: str) -> None:
+    with pytest.raises(BudgetError, match=re.escape(
+            f"estimates['V_T']: expected a finite number for every lot, found {found}")):
+        _lots(naoh, {"V_T": column})
+
+
+def test_lots_name_the_row_of_a_dataframe(naoh: budget.Model) -> None:
+    import pandas as pd
+
+    table = pd.DataFrame({"V_T": [18.6, None, 18.7], "m_KHP": [0.38, 0.39, 0.40]},
+                         index=["A-1", "A-2", "A-3"])
+    with pytest.raises(BudgetError, match=re.escape(
+            "found nan at lot 2 (position 1, row 'A-2')")):
+        _lots(naoh, table)
+    fine = _lots(naoh, table.dropna())
+    assert fine.estimate.shape == (2, 1) and np.isfinite(fine.expanded_uncertainty).all()
+
+
+@pytest.mark.parametrize("column", [-0.01, float("nan")])
+def test_lots_refuse_a_negative_or_missing_uncertainty(naoh: budget.Model,
+                                                       column: float) -> None:
+    # a negative u used to be squared away into a plausible-looking U
+    with pytest.raises(BudgetError, match=re.escape(
+            "uncertainties['V_T']: expected a finite standard uncertainty ≥ 0 for every "
+            "lot, found")):
+        _lots(naoh, {"V_T": [18.6, 18.7]}, {"V_T": [0.01, column]})
+
+
+@pytest.mark.parametrize("column", [18.6, "18.6", [[18.6, 18.7]]])
+def test_lots_refuse_a_column_that_is_not_one(naoh: budget.Model, column: Any) -> None:
+    with pytest.raises(BudgetError, match="estimates\\['V_T'\\]: expected a column of "
+                                          "numbers, one per lot"):
+        _lots(naoh, {"V_T": column})
+
+
+def test_lots_refuse_a_table_that_is_not_a_mapping(naoh: budget.Model) -> None:
+    with pytest.raises(BudgetError, match="estimates: expected estimates as a mapping of "
+                                          "input names to columns"):
+        _lots(naoh, [18.6, 18.7])
+    with pytest.raises(BudgetError, match="estimates: expected an input of the model, "
+                                          "found 3"):
+        _lots(naoh, {3: [18.6]})
+    with pytest.raises(BudgetError, match="propagate_lots\\(\\): model: expected"):
+        _lots(A2, {"V_T": [18.6]})
+
+
+@pytest.mark.parametrize("coverage", [2, "0.95"])
+def test_lots_check_the_coverage(naoh: budget.Model, coverage: Any) -> None:
+    with pytest.raises(BudgetError, match="coverage: expected a coverage probability in"):
+        _lots(naoh, {"V_T": [18.6]}, coverage=coverage)
+
+
+def test_a_lot_outside_the_equations_domain_is_named(naoh: budget.Model) -> None:
+    # V_T = 0 divides by zero: the lot's y was ∞ and its U NaN, without a word
+    with pytest.raises(BudgetError, match=re.escape(
+            "[measurands.c_NaOH] equation: expected a finite value at the estimates of "
+            "every lot, found inf at lot 3 (position 2)")):
+        _lots(naoh, {"V_T": [18.6, 18.7, 0.0]})
+    root = budget.parse_model('title = "t"\n[measurands.y]\nequation = "sqrt(x)"\n'
+                              '[inputs.x]\nvalue = 4\nu = 0.1\n', "root.toml")
+    with pytest.raises(BudgetError, match=re.escape(
+            "expected finite sensitivity coefficients at the estimates of every lot, found "
+            "none for x at lot 2 (position 1)")):
+        _lots(root, {"x": [4.0, 0.0]})

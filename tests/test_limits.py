@@ -196,7 +196,7 @@ def test_device_files_are_read_within_the_size_limit(cli) -> None:
     (["explain", "--target", "nan"], "Invalid value for '--target': expected a positive "
      "finite number, found 'nan'"),
     (["run", "--trials", str(10 ** 12)], "Invalid value for '--trials': 1000000000000 is not "
-     "in the range 0<=x<=100000000."),
+     "in the range 0<=x<=250000000."),
 ])
 def test_bad_numbers_on_the_command_line_exit_2(cli, args, message) -> None:
     model = ROOT / "models/reference/eurachem-a2-naoh.toml"
