@@ -112,11 +112,16 @@ def _check_outputs(*paths: str | None, protect: Any = ()) -> None:
     and with the files of the run as ``protect`` once they are known."""
     from pathlib import Path
 
-    from ._output import check_target
+    from ._errors import InputError, Location
+    from ._output import check_target, same_target
 
-    for path in paths:
-        if path:
-            check_target(Path(path), protect)
+    named = [Path(path) for path in paths if path]
+    for k, path in enumerate(named):
+        if any(same_target(path, other) for other in named[:k]):
+            # the second output would silently replace the first
+            raise InputError("expected a different file for each output (--html, --csv, "
+                             "--xlsx), found this file named twice", Location(file=str(path)))
+        check_target(path, protect)
 
 
 def _safe(text: str) -> str:

@@ -259,6 +259,8 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
         notes=_fit_notes(fit)))
     if covariance == "stated" and math.isfinite(fit.chi2):
         _chi2_warning(made, name, fit)
+    if fit.method == "ols":
+        _zero_residual_warning(made, name, fit)
 
 
 def _axis(column: str, unit: str) -> str:
@@ -324,6 +326,18 @@ def _chi2_warning(made: Generated, name: str, fit: Fit) -> None:
             f"[fits.{name}]: χ² = {fit.chi2:.4g} exceeds its 95 % limit {limit:.4g} for "
             f"ν = {dof}: the residuals are larger than the stated uncertainties explain "
             "(check the data, or state covariance = \"scaled\")")
+
+
+def _zero_residual_warning(made: Generated, name: str, fit: Fit) -> None:
+    """Points exactly on the curve give coefficients without uncertainty, as if exact."""
+    from ._certification import _noise
+
+    if fit.residual_sd <= _noise(np.asarray(fit.y)):
+        made.warnings.append(
+            f"[fits.{name}]: the points lie exactly on the fitted curve (zero residual, "
+            f"s = {fit.residual_sd:.2g}): ordinary least squares gives the coefficients no "
+            "uncertainty, so the fit adds none to the budget; are the readings rounded, "
+            "copied or calculated rather than measured?")
 
 
 def _fit_notes(fit: Fit) -> tuple[str, ...]:

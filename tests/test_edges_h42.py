@@ -108,3 +108,33 @@ def test_certify_all_lists_a_campaign_file_that_is_not_valid_toml(cli, tmp_path:
     assert errors["windows.toml"] == (f"{tmp_path}/windows.toml: expected UTF-8 text, found "
                                       "an undecodable byte at byte 24")
     assert "warning: slip/campaign.toml: not certified" in stderr
+
+
+LINE_MODEL = """title = "a calibration line"
+[measurands.b_30]
+equation = "y1 + y2 * (t - 20)"
+[fits.line]
+file = "line.csv"
+x = "t_k"
+y = "b_k"
+coefficients = ["y1", "y2"]
+[inputs.t]
+value = 30
+exact = true
+"""
+
+
+@pytest.mark.parametrize(("readings", "warned"), [
+    ("-0.1,-0.1,-0.1,-0.1", True),      # constant readings: s = 0
+    ("-0.1,-0.2,-0.3,-0.4", True),      # an exact straight line: s at rounding level
+    ("-0.1,-0.2,-0.31,-0.4", False)])   # measured readings scatter
+def test_a_fit_with_zero_residual_is_a_warning(cli, tmp_path: Path, readings: str,
+                                               warned: bool) -> None:
+    # before, the line's coefficients came out with u ≈ 1e-15 and no word of it
+    rows = "".join(f"{21 + k},{b}\n" for k, b in enumerate(readings.split(",")))
+    (tmp_path / "line.csv").write_text("t_k,b_k\n" + rows, encoding="utf-8")
+    (tmp_path / "line.toml").write_text(LINE_MODEL, encoding="utf-8")
+    code, stdout, stderr = cli("run", "--trials", "0", str(tmp_path / "line.toml"))
+    assert code == 0
+    assert ("warning: [fits.line]: the points lie exactly on the fitted curve (zero "
+            "residual, s = " in stderr) is warned
