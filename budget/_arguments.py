@@ -8,7 +8,10 @@ what was expected and what was found — not a numpy or attribute error from dee
 
 from __future__ import annotations
 
+import math
+import numbers
 import operator
+from decimal import Decimal
 from typing import Any
 
 import numpy as np
@@ -16,7 +19,7 @@ import numpy as np
 from ._errors import InputError, Location
 from ._limits import MAX_TRIALS, check_seed, shorten
 
-__all__ = ["whole", "check_model", "check_trials_argument", "check_seed_argument",
+__all__ = ["whole", "real", "check_model", "check_trials_argument", "check_seed_argument",
            "check_workers", "check_progress", "check_flag", "check_budget_of"]
 
 MAX_WORKERS = 256  # as `--workers` on the command line
@@ -35,6 +38,19 @@ def whole(value: Any) -> int | None:
         except TypeError:
             return None
     return None
+
+
+def real(value: Any) -> float | None:
+    """A real number (int, float, Fraction, Decimal, numpy scalar or 0-d array) as a
+    float; None for a bool, a string, a list or anything else."""
+    if isinstance(value, np.ndarray) and value.ndim == 0 and value.dtype.kind in "iuf":
+        value = value.item()
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, (numbers.Real, Decimal)):
+        return None
+    try:
+        return float(value)
+    except OverflowError:  # an int beyond 1.8e308: refused as not finite
+        return math.inf
 
 
 def _found(value: Any) -> str:
