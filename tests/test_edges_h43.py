@@ -312,3 +312,53 @@ def test_air_density_warns_outside_the_range_of_the_equation() -> None:
         # 20 °C, 101 325 Pa, h = 0.5: 1.199314 kg/m³; numpy and Decimal arguments alike
         assert budget.air_density(np.float64(20), Decimal("101325"), 0.5) == \
             pytest.approx(1.199314, abs=1e-6)
+
+
+# functions that take a result, a certification or a campaign: the wrong object (a model, a
+# path, a budget) is named, not an AttributeError from inside
+
+@pytest.mark.parametrize("call, message", [
+    (lambda m: budget.explain(m), "explain(): result: expected a budget.Result "
+                                  "(budget.evaluate(model) gives one), found a budget.Model"),
+    (lambda m: budget.result_document(m), "result_document(): result: expected a "
+                                          "budget.Result"),
+    (lambda m: budget.render_report(budget.propagate(m)), "render_report(): result: expected "
+                                                          "a budget.Result (budget.evaluate("
+                                                          "model) gives one), found a "
+                                                          "budget.Budget"),
+    (lambda m: budget.certify("models/vics-as-25a/campaign.toml"),
+     "certify(): campaign: expected a budget.Campaign (budget.load_campaign(path) gives "
+     "one), found str 'models/vics-as-25a/campaign.toml'"),
+    (lambda m: budget.certification_document(m), "certification_document(): cert: expected "
+                                                 "a budget.Certification"),
+    (lambda m: budget.render_certification_report(None), "render_certification_report(): "
+                                                         "cert: expected a budget."
+                                                         "Certification")])
+def test_the_wrong_object_is_named(naoh: budget.Model, call: Any, message: str) -> None:
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        call(naoh)
+
+
+@pytest.mark.parametrize("target", ["x", -1, 0, float("nan"), float("inf")])
+def test_explain_target_is_a_positive_number(naoh: budget.Model, target: Any) -> None:
+    # a negative or NaN target used to be accepted and silently ignored
+    result = budget.evaluate(naoh, trials=0)
+    with pytest.raises(BudgetError, match="explain\\(\\): target: expected a positive finite "
+                                          "number"):
+        budget.explain(result, target=target)
+
+
+def test_compare_budgets_takes_a_model_and_its_what_if(naoh: budget.Model) -> None:
+    # the documented use, "a model file and its what-if", used to be a TypeError
+    halved = naoh.with_uncertainty("V_T", factor=0.5)
+    difference = budget.compare_budgets(naoh, halved)
+    assert difference.after.label.endswith("(what-if: u(V_T) × 0.5)")
+    change = difference.measurand("c_NaOH")
+    assert change.after.combined_uncertainty < change.before.combined_uncertainty
+    # not the same budget, though from the same file: no "same model file" note
+    assert not any("same model file" in note for note in difference.notes)
+    same = budget.compare_budgets(budget.evaluate(naoh, trials=0), A2)
+    assert any("same model file" in note for note in same.notes)
+    with pytest.raises(BudgetError, match="compare_budgets\\(\\): before: expected a model "
+                                          "file or a saved JSON result document"):
+        budget.compare_budgets(None, A2)
