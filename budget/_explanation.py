@@ -143,13 +143,14 @@ def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
     halved = propagate(model.with_uncertainty(c.input, factor=0.5), coverage).measurands[k]
     needed = reached = None
     if target is not None and c.standard_uncertainty > 0 and c.sensitivity != 0:
-        rest = budget.combined_uncertainty ** 2 - c.contribution ** 2
-        room = (target / budget.coverage_factor) ** 2 - rest
-        if room > 0:
-            needed = math.sqrt(room) / abs(c.sensitivity)
+        rest = math.sqrt(max(budget.combined_uncertainty ** 2 - c.contribution ** 2, 0.0))
+        wanted = target / budget.coverage_factor
+        if wanted > rest:  # (wanted - rest)(wanted + rest): no square of a huge target
+            needed = math.sqrt(wanted - rest) * math.sqrt(wanted + rest) / abs(c.sensitivity)
             factor = needed / c.standard_uncertainty
-            reached = propagate(model.with_uncertainty(c.input, factor=factor),
-                                coverage).measurands[k].expanded_uncertainty
+            if math.isfinite(factor):  # a target near the largest double: no rerun
+                reached = propagate(model.with_uncertainty(c.input, factor=factor),
+                                    coverage).measurands[k].expanded_uncertainty
     return Driver(input=c.input, share=c.share, contribution=c.contribution,
                   distribution=c.distribution, type=c.type,
                   standard_uncertainty=c.standard_uncertainty, unit=c.unit,

@@ -58,3 +58,28 @@ def test_one_file_for_two_outputs_is_refused(cli, tmp_path, second):
         {"product.toml", *(["r.csv", "link.csv"] if second == "hard link" else [])})
     if second == "hard link":
         assert target.read_text() == "kept\n"
+
+
+@pytest.mark.parametrize("target", ["1e300", "1.7e308"])
+def test_explain_with_a_huge_target(cli, tmp_path, target):
+    # (target / k)² overflowed: an OverflowError traceback. The u an input would need for
+    # U = target follows from u_c² − (c·u)² + (c·u_needed)² = (U/k)² (GUM 5.1.2, 6.2.1).
+    path = tmp_path / "product.toml"
+    path.write_text(_PRODUCT)
+    code, stdout, stderr = cli("explain", str(path), "--trials", "0", "--target", target,
+                               "--json")
+    assert code == 0, stderr
+    measurand = json.loads(stdout)["measurands"][0]
+    k = measurand["k"]
+    for driver in measurand["drivers"]:
+        c = 3.0 if driver["input"] == "a" else 2.0
+        rest = measurand["u"] ** 2 - driver["contribution"] ** 2
+        wanted = float(target) / k
+        assert driver["u_needed"] == pytest.approx(math.sqrt(wanted ** 2 - rest) / c
+                                                   if wanted < 1e154 else wanted / c)
+        if target == "1e300":
+            assert driver["U_reached"] == pytest.approx(1e300)
+        else:  # the rerun would scale u by more than the largest double
+            assert driver["U_reached"] is None
+    code, stdout, stderr = cli("explain", str(path), "--trials", "0", "--target", target)
+    assert code == 0 and "u(a) ≤ " in stdout, stderr
