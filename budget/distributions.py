@@ -20,6 +20,8 @@ then map a spec keyword to it in ``statements.py``.
 from __future__ import annotations
 
 import math
+import numbers
+from decimal import Decimal
 from dataclasses import dataclass, field
 from typing import Any, Protocol
 
@@ -62,18 +64,51 @@ def _valid(owner: Any, *, widths: tuple[str, ...] = (), fraction: str | None = N
     from ._errors import InputError
 
     kind = type(owner).__name__
-    estimate = owner.estimate
-    if not math.isfinite(estimate):
-        raise InputError(f"{kind}: expected a finite estimate, found {estimate!r}")
+    shown = _plain(owner, kind, ("estimate", *widths, *(n for n in (fraction, dof) if n)))
+    if not math.isfinite(owner.estimate):
+        raise InputError(f"{kind}: expected a finite estimate, found {shown['estimate']}")
     for name in widths:
         value = getattr(owner, name)
         if not (math.isfinite(value) and value >= 0):
-            raise InputError(f"{kind}: expected {name} ≥ 0 and finite, found {value!r}")
+            raise InputError(f"{kind}: expected {name} ≥ 0 and finite, found {shown[name]}")
     if fraction is not None and not 0.0 <= getattr(owner, fraction) <= 1.0:
-        raise InputError(f"{kind}: expected {fraction} in [0, 1], found "
-                         f"{getattr(owner, fraction)!r}")
+        raise InputError(f"{kind}: expected {fraction} in [0, 1], found {shown[fraction]}")
     if dof is not None and not getattr(owner, dof) > 0:
-        raise InputError(f"{kind}: expected {dof} > 0, found {getattr(owner, dof)!r}")
+        raise InputError(f"{kind}: expected {dof} > 0, found {shown[dof]}")
+
+
+def _plain(owner: Any, kind: str, names: tuple[str, ...]) -> dict[str, str]:
+    """Store each parameter as a plain float (no Decimal, string or array inside a
+    distribution); refuse one that is not a real number. The parameters as given, for
+    messages."""
+    from ._errors import InputError
+    from ._limits import shorten
+
+    shown = {}
+    for name in names:
+        value = getattr(owner, name)
+        if value is None and name == "repeatability":
+            continue
+        number = _real(value)
+        if number is None:
+            raise InputError(f"{kind}: expected {name} as a number, found "
+                             f"{type(value).__name__} {shorten(repr(value))}")
+        object.__setattr__(owner, name, number)
+        shown[name] = shorten(repr(value))
+    return shown
+
+
+def _real(value: Any) -> float | None:
+    """A real number (int, float, Fraction, Decimal, numpy scalar or 0-d array) as a
+    float; None for a bool, a string, a list or anything else."""
+    if isinstance(value, np.ndarray) and value.ndim == 0 and value.dtype.kind in "iuf":
+        value = value.item()
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, (numbers.Real, Decimal)):
+        return None
+    try:
+        return float(value)
+    except OverflowError:  # an int beyond 1.8e308: refused as not finite
+        return math.inf
 
 
 @dataclass(frozen=True, slots=True)

@@ -138,3 +138,36 @@ def test_a_fit_with_zero_residual_is_a_warning(cli, tmp_path: Path, readings: st
     assert code == 0
     assert ("warning: [fits.line]: the points lie exactly on the fitted curve (zero "
             "residual, s = " in stderr) is warned
+
+
+CHARGE_MODEL = """title = "charge from a record"
+[measurands.Q_C]
+equation = "Q"
+unit = "C"
+[records.Q]
+kind = "charge"
+file = "record.csv"
+x = "t"
+y = "i"
+current_u = 0.002
+"""
+
+
+@pytest.mark.parametrize(("times", "gap"), [
+    ("0,1,2,300,301", "from 2 s at row 4 to 300 s at row 5, 298 times the usual step of 1 s"),
+    ("0,1,3,6,10", None)])   # uneven steps, no gap
+def test_a_gap_in_a_current_record_is_a_warning(cli, tmp_path: Path, times: str,
+                                                gap: str | None) -> None:
+    # a logger that stopped for 298 s: the charge was integrated across the gap silently
+    rows = "".join(f"{t},{10 - k}\n" for k, t in enumerate(times.split(",")))
+    (tmp_path / "record.csv").write_text("t [s],i [mA]\n" + rows, encoding="utf-8")
+    (tmp_path / "charge.toml").write_text(CHARGE_MODEL, encoding="utf-8")
+    code, stdout, stderr = cli("run", "--trials", "0", str(tmp_path / "charge.toml"))
+    assert code == 0
+    warned = [line for line in stderr.splitlines() if "has a gap" in line]
+    if gap is None:
+        assert warned == []
+    else:
+        assert warned == [f"warning: [records.Q]: record.csv has a gap in t: {gap}; the "
+                          "trapezoidal rule bridges it with a straight line, and what the "
+                          "current did there is not known: check that no readings were lost"]

@@ -12,6 +12,7 @@ import pytest
 
 import budget
 from budget import BudgetError
+from budget import distributions as D
 
 A2 = "models/reference/eurachem-a2-naoh.toml"
 PURITY = "models/vics-as-25a/coulometric-purity.toml"
@@ -218,3 +219,63 @@ def test_a_lot_outside_the_equations_domain_is_named(naoh: budget.Model) -> None
             "expected finite sensitivity coefficients at the estimates of every lot, found "
             "none for x at lot 2 (position 1)")):
         _lots(root, {"x": [4.0, 0.0]})
+
+
+# budget.distributions: a parameter that is not a number is refused when the distribution is
+# built; one that is a number of another type is stored as a plain float
+
+@pytest.mark.parametrize("make, message", [
+    (lambda: D.Normal("1", 2), "Normal: expected estimate as a number, found str '1'"),
+    (lambda: D.Rectangular(1, "a"), "Rectangular: expected half_width as a number, found "
+                                    "str 'a'"),
+    (lambda: D.StudentT(1, 0.1, "3"), "StudentT: expected dof as a number, found str '3'"),
+    (lambda: D.Normal(True, 0.1), "Normal: expected estimate as a number, found bool True"),
+    (lambda: D.Triangular([1.0], 0.1), "Triangular: expected estimate as a number, found "
+                                       "list [1.0]"),
+    (lambda: D.Trapezoidal(1.0, 0.1, None), "Trapezoidal: expected beta as a number, "
+                                            "found NoneType None")])
+def test_distribution_parameters_must_be_numbers(make: Any, message: str) -> None:
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        make()
+
+
+def test_distribution_parameters_become_plain_floats(naoh: budget.Model) -> None:
+    from decimal import Decimal
+    from fractions import Fraction
+
+    shape = D.Triangular(Decimal("18.64"), np.array(0.03))
+    assert (shape.estimate, shape.half_width) == (18.64, 0.03)
+    assert type(shape.estimate) is float and type(shape.half_width) is float
+    assert D.Normal(Fraction(1, 2), np.float32(0.25)).sd == 0.25
+    # a Decimal inside used to reach numpy's sampler: "unsupported operand type(s)"
+    changed = naoh.with_distribution("V_T", shape)
+    run = budget.simulate(changed, trials=1000, seed=1)
+    assert np.isfinite(run.measurands[0].mean)
+
+
+# the notebook and report pages with long names: a table must not grow past the page, a
+# chart label must not run out of its drawing
+
+LONG = "a_very_long_input_name_that_goes_on_and_on_and_on_and_on_and_on_and_on"
+LONG_MODEL = (f'title = "<script>x</script> & co"\n[measurands.y]\nequation = "{LONG} * b"\n'
+              f'unit = "g/kg"\n[inputs.{LONG}]\nvalue = 2\nu = 0.1\n'
+              '[inputs.b]\nvalue = 3\nu = 0.2\nunit = "g/kg"\n')
+
+
+def test_a_long_name_in_a_chart_is_cut_with_its_whole_name_as_tooltip() -> None:
+    from budget._svg import bar_chart
+
+    svg = str(bar_chart([(LONG, 64.0), ("b", 36.0)]))
+    shown = re.search(r"</title>([^<]*)…</text>", svg)
+    assert shown is not None and LONG.startswith(shown.group(1))
+    assert 20 < len(shown.group(1)) < 40  # fits 252 px at 11 px: it ran out on the left
+    assert f"<title>{LONG}</title>" in svg
+    assert ">b</text>" in svg  # a short name is left alone
+
+
+def test_long_names_in_tables_may_wrap() -> None:
+    model = budget.parse_model(LONG_MODEL, "long.toml")
+    result = budget.evaluate(model, trials=0)
+    for page in (result._repr_html_(), budget.render_report(result)):
+        assert "td var, " in page and "overflow-wrap: anywhere" in page
+        assert "<script>x" not in page and "&lt;script&gt;x" in page
