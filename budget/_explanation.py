@@ -30,6 +30,7 @@ from ._evaluation import compile_model
 from ._formatting import format_number, format_percent
 from ._gum import propagate
 from ._model import Model
+from ._montecarlo import heavy_tailed
 from ._unit_display import display_unit, spaced_unit
 
 __all__ = ["Driver", "SobolIndex", "Explanation", "explain", "draw_inputs"]
@@ -196,7 +197,10 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
         reasons.append(f"a dominant input with few degrees of freedom: {top.input} "
                        f"(ν = {item.dof:g}) is drawn from a t distribution with heavy tails")
     linear = is_linear(model, budget.name)
-    found = None if linear else _nonlinearity(budget, simulation, v.tolerance, unit)
+    k = next(j for j, m in enumerate(model.measurands) if m.name == budget.name)
+    heavy = heavy_tailed(model, None, k)
+    # no nonlinearity read from a standard deviation that an input with ν ≤ 2 leaves undefined
+    found = None if linear or heavy else _nonlinearity(budget, simulation, v.tolerance, unit)
     reasons += [found] if found else []
     if len(reasons) == 1:
         reasons.append("no single cause stands out; "
@@ -272,6 +276,11 @@ def _sobol(result: Result, k: int, n: int) -> tuple[tuple[SobolIndex, ...], tupl
     if model.correlations:
         return (), ("variance-based indices are not estimated for correlated inputs "
                     "(the estimator assumes independence)",)
+    heavy = heavy_tailed(model, result.budget, k)
+    if heavy:
+        return (), (f"variance-based indices are not defined: {heavy[0][0]} (ν = "
+                    f"{heavy[0][1]:g}) is drawn from a t distribution with ν ≤ 2, so "
+                    f"'{model.measurands[k].name}' has no finite variance to apportion",)
     program = compile_model(model)
     seed = result.simulation.seed if result.simulation else model.settings.seed
     rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(seed, spawn_key=(1 << 30,))))

@@ -656,6 +656,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     check_trials(trials, trials_at)
     if adaptive:
         check_adaptive(coverage, coverage_at)
+        _check_finite_variance(model, budget)
     sampler = _Sampler(model, seed)
     if adaptive:
         adaptive_samples, warnings, moments, kept, streamed = _adaptive(
@@ -889,6 +890,51 @@ def _spread(y: np.ndarray | None, mean: float, variance: float) -> float:
     return scale * float(np.std((finite - mean) / scale, ddof=1))
 
 
+def heavy_tailed(model: Model, budget: Budget | None, k: int) -> list[tuple[str, float]]:
+    """(name, ν) of the inputs measurand k depends on (a non-zero sensitivity; every input
+    without a budget) that are drawn from a t distribution with ν ≤ 2: it has no finite
+    variance (JCGM 101 6.4.9), so neither has the measurand's distribution."""
+    found = []
+    for i, item in enumerate(model.inputs):
+        t = item.distribution
+        if isinstance(t, StudentT) and t.dof <= 2 and t.scale > 0 and (
+                budget is None or budget.measurands[k].contributions[i].sensitivity != 0):
+            found.append((item.name, t.dof))
+    return found
+
+
+def _check_finite_variance(model: Model, budget: Budget | None) -> None:
+    """Refuse the adaptive procedure for an output without finite variance: its stopping
+    rule (JCGM 101 7.9.4) waits for the standard deviation to settle, which never comes."""
+    for k in range(len(model.measurands)):
+        for name, dof in heavy_tailed(model, budget, k)[:1]:
+            raise SimulationError(
+                f"expected inputs with a finite variance for the adaptive procedure, found ν "
+                f"= {dof:g}: a t distribution with ν ≤ 2 has none, so the Monte Carlo standard "
+                f"deviation of '{model.measurands[k].name}' never settles (JCGM 101 6.4.9, "
+                "7.9); give a fixed number of trials instead",
+                Location(file=model.source, table=f"inputs.{name}"))
+
+
+def _heavy_warnings(model: Model, budget: Budget | None) -> list[str]:
+    """A warning per measurand whose Monte Carlo mean or standard deviation estimates
+    nothing (an input drawn from a t distribution with ν ≤ 2)."""
+    warnings = []
+    for k, measurand in enumerate(model.measurands):
+        found = heavy_tailed(model, budget, k)
+        if found:
+            names = ", ".join(f"{name} (ν = {dof:g})" for name, dof in found)
+            what = "mean and standard deviation are" if min(d for _, d in found) <= 1 \
+                else "standard deviation is"
+            warnings.append(
+                f"'{measurand.name}': the Monte Carlo {what} not an estimate of anything: "
+                f"{names} {'is' if len(found) == 1 else 'are'} drawn from a t distribution "
+                "with ν ≤ 2, which has no finite variance (JCGM 101 6.4.9), so such figures "
+                "change from run to run and grow with the trials; the coverage interval "
+                "remains valid")
+    return warnings
+
+
 def check_adaptive(coverage: float, where: Location | None = None) -> None:
     """Refuse a coverage whose adaptive batches (≥ 100/(1 − p) trials, a few of them held
     in memory at once) pass the cap of a run that keeps its values."""
@@ -983,6 +1029,7 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, 
              moments[k], [block[k] for block in kept] if kept and not bad else None,
              streamed)
         for k in range(moments.shape[0]))
+    warnings += _heavy_warnings(model, budget)
     for item in results:
         if item.validation is not None and item.validation.reason:
             warnings.append(f"'{item.name}': Monte Carlo cannot validate the GUM result: "

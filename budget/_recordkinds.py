@@ -96,6 +96,7 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
     span = f"{result.count} readings, {result.start:g} to {result.end:g} {units['x']}"
     parts = _raw_part(name, data, result.raw, result.weights, unit, span, source, here)
     made.inputs.append(parts)
+    _gap_warning(made, name, record.window(window, "window", 2), units["x"])
     inner = [parts.name]
     notes = [f"trapezoidal rule over {span}: {result.raw:.8g} {unit}",
              f"integration-rule error estimate (Richardson, (T_h − T_2h)/3): "
@@ -126,6 +127,25 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
                                  method=f"charge by the trapezoidal rule, {background} "
                                         "background", produces=(name,), fits=views,
                                  notes=tuple(notes)))
+
+
+GAP_FACTOR = 10.0  # a step this many times the median step of a record is a gap
+
+
+def _gap_warning(made: Generated, name: str, inside: Series, unit: str) -> None:
+    """A logger that stopped for a while leaves a gap the trapezoidal rule bridges with a
+    straight line; the Richardson estimate, made from the same readings, cannot tell what
+    the current did there."""
+    steps = np.diff(inside.x)
+    usual = float(np.median(steps))
+    k = int(np.argmax(steps))
+    if steps[k] > GAP_FACTOR * usual:
+        made.warnings.append(
+            f"[records.{name}]: {inside.file} has a gap in {inside.x_name}: "
+            f"from {inside.x[k]:g} {unit} at row {inside.rows[k]} to {inside.x[k + 1]:g} "
+            f"{unit} at row {inside.rows[k + 1]}, {steps[k] / usual:.3g} times the usual step of "
+            f"{usual:g} {unit}; the trapezoidal rule bridges it with a straight line, and "
+            "what the current did there is not known: check that no readings were lost")
 
 
 def _shared(made: Generated, result: Charge, raw: Made, names: tuple[str, ...]

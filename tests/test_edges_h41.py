@@ -83,3 +83,59 @@ def test_explain_with_a_huge_target(cli, tmp_path, target):
             assert driver["U_reached"] is None
     code, stdout, stderr = cli("explain", str(path), "--trials", "0", "--target", target)
     assert code == 0 and "u(a) ≤ " in stdout, stderr
+
+
+def _duplicates(tmp_path, observations: str = "[3.0, 3.1]"):
+    path = tmp_path / "duplicates.toml"
+    path.write_text(_PRODUCT.replace("value = 3.0\nu = 0.02", f"observations = {observations}"))
+    return path
+
+
+def test_monte_carlo_of_duplicates_says_its_standard_deviation_means_nothing(cli, tmp_path):
+    # Two observations give ν = 1: JCGM 101 6.4.9 draws a t distribution with one degree
+    # of freedom, which has neither a mean nor a variance (a t distribution has a finite
+    # variance only for ν > 2: common knowledge of the t distribution). The Monte Carlo
+    # standard deviation then only grows with the trials, and used to be printed (and
+    # reported with reported_interval = "monte_carlo") without a word.
+    path = _duplicates(tmp_path)
+    code, stdout, stderr = cli("run", str(path), "--trials", "20000", "--json")
+    assert code == 0, stderr
+    warnings = json.loads(stdout)["warnings"]
+    assert ("'y': the Monte Carlo mean and standard deviation are not an estimate of "
+            "anything: b (ν = 1) is drawn from a t distribution with ν ≤ 2, which has no "
+            "finite variance (JCGM 101 6.4.9), so such figures change from run to run and "
+            "grow with the trials; the coverage interval remains valid") in warnings
+    code, stdout, stderr = cli("run", str(path), "--trials", "20000", "--strict")
+    assert code == 3 and stdout == ""
+    three = _duplicates(tmp_path, "[3.0, 3.1, 3.05]")  # ν = 2: the mean exists
+    code, stdout, stderr = cli("run", str(three), "--trials", "20000", "--json")
+    assert any(w.startswith("'y': the Monte Carlo standard deviation is not an estimate")
+               for w in json.loads(stdout)["warnings"])
+    four = _duplicates(tmp_path, "[3.0, 3.1, 3.05, 3.02]")  # ν = 3: a finite variance
+    code, stdout, stderr = cli("run", str(four), "--trials", "20000", "--json")
+    assert not any("not an estimate" in w for w in json.loads(stdout)["warnings"])
+
+
+def test_adaptive_procedure_refuses_an_output_without_variance(cli, tmp_path):
+    # the JCGM 101 7.9.4 stopping rule waits for the standard deviation to settle: with
+    # ν = 1 it ran to the 2.5e8-trial cap and printed a meaningless mean and u
+    path = _duplicates(tmp_path)
+    code, stdout, stderr = cli("run", str(path), "--adaptive")
+    assert code == 1 and stdout == ""
+    assert stderr == (
+        f"error: {path}: [inputs.b] expected inputs with a finite variance for the adaptive "
+        "procedure, found ν = 1: a t distribution with ν ≤ 2 has none, so the Monte Carlo "
+        "standard deviation of 'y' never settles (JCGM 101 6.4.9, 7.9); give a fixed number "
+        "of trials instead\n")
+
+
+def test_explain_reads_no_variance_where_there_is_none(cli, tmp_path):
+    path = _duplicates(tmp_path)
+    code, stdout, stderr = cli("explain", str(path), "--trials", "20000", "--json")
+    assert code == 0, stderr
+    measurand = json.loads(stdout)["measurands"][0]
+    assert measurand["sobol"] == []
+    assert measurand["sobol_notes"] == [
+        "variance-based indices are not defined: b (ν = 1) is drawn from a t distribution "
+        "with ν ≤ 2, so 'y' has no finite variance to apportion"]
+    assert not any(r.startswith("nonlinearity") for r in measurand["reasons"])

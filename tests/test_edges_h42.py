@@ -35,6 +35,13 @@ def _keep_lines(name: str, count: int) -> Edit:
     return edit
 
 
+def _all(*edits: Edit) -> Edit:
+    def edit(folder: Path) -> None:
+        for each in edits:
+            each(folder)
+    return edit
+
+
 def _methods(*edits: Edit) -> Edit:
     """The three-method campaign of the demo, edited, in place of campaign.toml."""
     def edit(folder: Path) -> None:
@@ -67,6 +74,17 @@ CASES: dict[str, tuple[Edit, str]] = {
         "found 120.005 % (water 0.00438804 %, related organic substances (HPLC) 120 %, "
         "inorganic impurities other than K (ICP-MS) 0.001 %): the mass balance would give a "
         "negative purity; is a value in another unit?"),
+    # a shelf life with a unit of another kind: the message spoke of a 'column' of the
+    # campaign file, without its line and table; with no time_unit it was taken as is
+    "shelf_life_in_kilograms": (
+        _edit("campaign.toml", "shelf_life = 36 ", 'shelf_life = "3 kg" '),
+        "campaign.toml:23: [stability] shelf_life: expected a shelf life in a unit of time "
+        "(such as month, d, year), found 'kg' ([mass])"),
+    "shelf_life_in_kilograms_without_time_unit": (
+        _all(_edit("campaign.toml", "shelf_life = 36 ", 'shelf_life = "3 kg" '),
+             _edit("campaign.toml", 'time_unit = "month"', "")),
+        "campaign.toml:23: [stability] shelf_life: expected a shelf life in a unit of time "
+        "(such as month, d, year), found 'kg' ([mass])"),
     "characterization_with_one_run": (
         _keep_lines("determinations.csv", 2),
         "campaign.toml:13: [characterization] runs: expected at least 2 runs in "
@@ -138,3 +156,36 @@ def test_a_fit_with_zero_residual_is_a_warning(cli, tmp_path: Path, readings: st
     assert code == 0
     assert ("warning: [fits.line]: the points lie exactly on the fitted curve (zero "
             "residual, s = " in stderr) is warned
+
+
+CHARGE_MODEL = """title = "charge from a record"
+[measurands.Q_C]
+equation = "Q"
+unit = "C"
+[records.Q]
+kind = "charge"
+file = "record.csv"
+x = "t"
+y = "i"
+current_u = 0.002
+"""
+
+
+@pytest.mark.parametrize(("times", "gap"), [
+    ("0,1,2,300,301", "from 2 s at row 4 to 300 s at row 5, 298 times the usual step of 1 s"),
+    ("0,1,3,6,10", None)])   # uneven steps, no gap
+def test_a_gap_in_a_current_record_is_a_warning(cli, tmp_path: Path, times: str,
+                                                gap: str | None) -> None:
+    # a logger that stopped for 298 s: the charge was integrated across the gap silently
+    rows = "".join(f"{t},{10 - k}\n" for k, t in enumerate(times.split(",")))
+    (tmp_path / "record.csv").write_text("t [s],i [mA]\n" + rows, encoding="utf-8")
+    (tmp_path / "charge.toml").write_text(CHARGE_MODEL, encoding="utf-8")
+    code, stdout, stderr = cli("run", "--trials", "0", str(tmp_path / "charge.toml"))
+    assert code == 0
+    warned = [line for line in stderr.splitlines() if "has a gap" in line]
+    if gap is None:
+        assert warned == []
+    else:
+        assert warned == [f"warning: [records.Q]: record.csv has a gap in t: {gap}; the "
+                          "trapezoidal rule bridges it with a straight line, and what the "
+                          "current did there is not known: check that no readings were lost"]
