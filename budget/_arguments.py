@@ -8,7 +8,10 @@ what was expected and what was found — not a numpy or attribute error from dee
 
 from __future__ import annotations
 
+import math
+import numbers
 import operator
+from decimal import Decimal
 from typing import Any
 
 import numpy as np
@@ -16,8 +19,9 @@ import numpy as np
 from ._errors import InputError, Location
 from ._limits import MAX_TRIALS, check_seed, shorten
 
-__all__ = ["whole", "check_model", "check_trials_argument", "check_seed_argument",
-           "check_workers", "check_progress", "check_flag", "check_budget_of"]
+__all__ = ["whole", "real", "check_instance", "check_positive", "check_model",
+           "check_trials_argument", "check_seed_argument", "check_workers", "check_progress",
+           "check_flag", "check_budget_of"]
 
 MAX_WORKERS = 256  # as `--workers` on the command line
 
@@ -37,8 +41,45 @@ def whole(value: Any) -> int | None:
     return None
 
 
+def real(value: Any) -> float | None:
+    """A real number (int, float, Fraction, Decimal, numpy scalar or 0-d array) as a
+    float; None for a bool, a string, a list or anything else."""
+    if isinstance(value, np.ndarray) and value.ndim == 0 and value.dtype.kind in "iuf":
+        value = value.item()
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, (numbers.Real, Decimal)):
+        return None
+    try:
+        return float(value)
+    except OverflowError:  # an int beyond 1.8e308: refused as not finite
+        return math.inf
+
+
 def _found(value: Any) -> str:
+    if type(value).__module__.startswith("budget."):  # its repr may be pages long
+        return f"a budget.{type(value).__name__}"
     return f"{type(value).__name__} {shorten(repr(value))}"
+
+
+_MADE_BY = {"Result": "budget.evaluate(model)", "Certification": "budget.certify(campaign)",
+            "Campaign": "budget.load_campaign(path)", "Model": "budget.load_model(path)"}
+
+
+def check_instance(value: Any, kind: type, function: str, argument: str) -> None:
+    """Refuse anything but a ``kind`` (a Result, a Certification …) as an argument."""
+    if not isinstance(value, kind):
+        made = _MADE_BY.get(kind.__name__)
+        raise InputError(f"expected a budget.{kind.__name__}"
+                         f"{f' ({made} gives one)' if made else ''}, found {_found(value)}",
+                         Location(file=f"{function}()", key=argument))
+
+
+def check_positive(value: Any, function: str, argument: str) -> float:
+    """A positive finite number (a target uncertainty, …)."""
+    number = real(value)
+    if number is None or not (math.isfinite(number) and number > 0):
+        raise InputError(f"expected a positive finite number, found {_found(value)}",
+                         Location(file=f"{function}()", key=argument))
+    return number
 
 
 def check_model(value: Any, function: str) -> None:

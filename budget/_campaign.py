@@ -487,9 +487,12 @@ def _shelf_life(r: _Reader, section: dict[str, Any], time_unit: str) -> float:
     where = r.where("stability", "shelf_life")
     if not math.isfinite(number) or number <= 0:
         raise r.fail(f"expected a shelf life > 0, found {number:g}", "stability", "shelf_life")
-    return float(convert(np.array([number]), parse_unit(unit_text, where),
-                         parse_unit(time_unit or unit_text, where), source=r.name,
-                         column="shelf_life")[0])
+    given = parse_unit(unit_text, where)
+    if given.offset or given.unit.dims != parse_unit("s", where).unit.dims:
+        raise r.fail(f"expected a shelf life in a unit of time (such as month, d, year), "
+                     f"found '{unit_text}' ({given.describe()})", "stability", "shelf_life")
+    return float(convert(np.array([number]), given, parse_unit(time_unit or unit_text, where),
+                         source=r.name, column="shelf_life")[0])
 
 
 def _origin(r: _Reader, section: dict[str, Any]) -> Any:

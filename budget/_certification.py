@@ -301,6 +301,9 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     """The certified value, its uncertainty budget and the comparisons; with Monte Carlo
     trials also a Monte Carlo of the certified value, whose interval is the reported one
     when ``reported_interval`` (default: the campaign's) asks for it."""
+    from ._arguments import check_instance
+
+    check_instance(campaign, Campaign, "certify", "campaign")
     warnings: list[str] = []
     days = _run_dates(campaign)
     warnings.extend(date_warnings(campaign.model.certificates, days,

@@ -18,7 +18,7 @@ from __future__ import annotations
 import json
 import math
 from dataclasses import dataclass
-from pathlib import Path
+from pathlib import Path, PurePath
 from typing import Any
 
 from ._errors import InputError, Location
@@ -184,8 +184,10 @@ def side_from_document(document: dict[str, Any], label: str) -> Side:
                     ("seed", document.get("seed")),
                     ("Monte Carlo trials", provenance.get("trials")),
                     ("significant digits", document.get("digits")))
+        changed = bool(provenance.get("changes"))  # a what-if: not the file's budget
         return Side(label=label, title=str(document.get("title", "")),
-                    sha256=document.get("model_sha256"), settings=settings,
+                    sha256=None if changed else document.get("model_sha256"),
+                    settings=settings,
                     measurands=measurands)
     except (KeyError, TypeError, ValueError) as exc:
         raise InputError(f"expected a JSON result document (schema result.schema.json), found a "
@@ -235,13 +237,34 @@ def load_side(path: str | Path, *, trials: int = 0, seed: int | None = None) -> 
     return side_from_document(result_document(result), str(path))
 
 
-def compare_budgets(before: str | Path, after: str | Path, *, trials: int = 0,
+def compare_budgets(before: Any, after: Any, *, trials: int = 0,
                     seed: int | None = None) -> Difference:
     """What changed from budget ``before`` to budget ``after`` and why U moved, as
-    ``budget compare A B``: each a model file (evaluated now, with ``trials`` Monte Carlo
-    trials) or a saved JSON result document."""
-    return compare(load_side(before, trials=trials, seed=seed),
-                   load_side(after, trials=trials, seed=seed))
+    ``budget compare A B``: each a model file or a ``Model`` (a what-if, say), evaluated
+    now with ``trials`` Monte Carlo trials, a saved JSON result document or a ``Result``."""
+    return compare(_side(before, "before", trials, seed), _side(after, "after", trials, seed))
+
+
+def _side(given: Any, argument: str, trials: int, seed: int | None) -> Side:
+    """One side of ``compare_budgets``: a path, a model or an evaluated result."""
+    from ._analysis import Result, evaluate
+    from ._document import result_document
+    from ._model import Model
+
+    if isinstance(given, Model):
+        given = evaluate(given, trials=trials, seed=seed)
+    if isinstance(given, Result):
+        model = given.model
+        label = model.source if not model.changes else \
+            f"{model.source} (what-if: {'; '.join(model.changes)})"
+        return side_from_document(result_document(given), label)
+    if isinstance(given, (str, PurePath)):
+        return load_side(str(given), trials=trials, seed=seed)
+    from ._limits import shorten
+
+    raise InputError(f"expected a model file or a saved JSON result document (a path), a "
+                     f"budget.Model or a budget.Result, found {type(given).__name__} "
+                     f"{shorten(repr(given))}", Location(file="compare_budgets()", key=argument))
 
 
 def compare(before: Side, after: Side) -> Difference:

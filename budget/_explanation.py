@@ -114,6 +114,11 @@ class Explanation:
 def explain(result: Result, *, target: float | None = None, leading: int = 3,
             sobol_trials: int = 1 << 15) -> tuple[Explanation, ...]:
     """One explanation per measurand of an evaluated model."""
+    from ._analysis import Result
+    from ._arguments import check_instance, check_positive
+
+    check_instance(result, Result, "explain", "result")
+    target = None if target is None else check_positive(target, "explain", "target")
     model = result.model
     coverage = result.budget.measurands[0].coverage_probability
     made = []

@@ -45,6 +45,9 @@ def _environment() -> Any:
 
 
 def render_report(result: Result) -> str:
+    from ._arguments import check_instance
+
+    check_instance(result, Result, "render_report", "result")
     html: str = _environment().get_template("budget.html.j2").render(report=_budget_view(result))
     return html
 
@@ -262,6 +265,10 @@ def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tupl
 
 
 def render_certification_report(cert: Any) -> str:
+    from ._arguments import check_instance
+    from ._certification import Certification
+
+    check_instance(cert, Certification, "render_certification_report", "cert")
     html: str = _environment().get_template("certificate.html.j2").render(
         report=_certification_view(cert))
     return html

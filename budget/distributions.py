@@ -20,8 +20,6 @@ then map a spec keyword to it in ``statements.py``.
 from __future__ import annotations
 
 import math
-import numbers
-from decimal import Decimal
 from dataclasses import dataclass, field
 from typing import Any, Protocol
 
@@ -81,6 +79,7 @@ def _plain(owner: Any, kind: str, names: tuple[str, ...]) -> dict[str, str]:
     """Store each parameter as a plain float (no Decimal, string or array inside a
     distribution); refuse one that is not a real number. The parameters as given, for
     messages."""
+    from ._arguments import real
     from ._errors import InputError
     from ._limits import shorten
 
@@ -89,26 +88,13 @@ def _plain(owner: Any, kind: str, names: tuple[str, ...]) -> dict[str, str]:
         value = getattr(owner, name)
         if value is None and name == "repeatability":
             continue
-        number = _real(value)
+        number = real(value)
         if number is None:
             raise InputError(f"{kind}: expected {name} as a number, found "
                              f"{type(value).__name__} {shorten(repr(value))}")
         object.__setattr__(owner, name, number)
         shown[name] = shorten(repr(value))
     return shown
-
-
-def _real(value: Any) -> float | None:
-    """A real number (int, float, Fraction, Decimal, numpy scalar or 0-d array) as a
-    float; None for a bool, a string, a list or anything else."""
-    if isinstance(value, np.ndarray) and value.ndim == 0 and value.dtype.kind in "iuf":
-        value = value.item()
-    if isinstance(value, (bool, np.bool_)) or not isinstance(value, (numbers.Real, Decimal)):
-        return None
-    try:
-        return float(value)
-    except OverflowError:  # an int beyond 1.8e308: refused as not finite
-        return math.inf
 
 
 @dataclass(frozen=True, slots=True)

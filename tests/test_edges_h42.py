@@ -35,6 +35,13 @@ def _keep_lines(name: str, count: int) -> Edit:
     return edit
 
 
+def _all(*edits: Edit) -> Edit:
+    def edit(folder: Path) -> None:
+        for each in edits:
+            each(folder)
+    return edit
+
+
 def _methods(*edits: Edit) -> Edit:
     """The three-method campaign of the demo, edited, in place of campaign.toml."""
     def edit(folder: Path) -> None:
@@ -67,6 +74,17 @@ CASES: dict[str, tuple[Edit, str]] = {
         "found 120.005 % (water 0.00438804 %, related organic substances (HPLC) 120 %, "
         "inorganic impurities other than K (ICP-MS) 0.001 %): the mass balance would give a "
         "negative purity; is a value in another unit?"),
+    # a shelf life with a unit of another kind: the message spoke of a 'column' of the
+    # campaign file, without its line and table; with no time_unit it was taken as is
+    "shelf_life_in_kilograms": (
+        _edit("campaign.toml", "shelf_life = 36 ", 'shelf_life = "3 kg" '),
+        "campaign.toml:23: [stability] shelf_life: expected a shelf life in a unit of time "
+        "(such as month, d, year), found 'kg' ([mass])"),
+    "shelf_life_in_kilograms_without_time_unit": (
+        _all(_edit("campaign.toml", "shelf_life = 36 ", 'shelf_life = "3 kg" '),
+             _edit("campaign.toml", 'time_unit = "month"', "")),
+        "campaign.toml:23: [stability] shelf_life: expected a shelf life in a unit of time "
+        "(such as month, d, year), found 'kg' ([mass])"),
     "characterization_with_one_run": (
         _keep_lines("determinations.csv", 2),
         "campaign.toml:13: [characterization] runs: expected at least 2 runs in "
@@ -171,3 +189,22 @@ def test_a_gap_in_a_current_record_is_a_warning(cli, tmp_path: Path, times: str,
         assert warned == [f"warning: [records.Q]: record.csv has a gap in t: {gap}; the "
                           "trapezoidal rule bridges it with a straight line, and what the "
                           "current did there is not known: check that no readings were lost"]
+
+
+@pytest.mark.parametrize(("edit", "warning"), [
+    # a further method's runs are checked for the sign only: the warning said "by more
+    # than a factor inf (opposite sign)"
+    (_methods(_edit("water.csv", "0.4989", "-0.4989")),
+     "water.csv:2: column 'Q': -0.4989 C has the opposite sign of the model's estimate "
+     "10.7321 C"),
+    (_edit("determinations.csv", "0.501407", "-0.501407"),
+     "determinations.csv:3: column 'm_c': -0.501407 g has the opposite sign of the model's "
+     "estimate 0.524652 g")])
+def test_a_run_value_of_the_wrong_sign_is_named_so(cli, tmp_path: Path, edit: Edit,
+                                                   warning: str) -> None:
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    edit(folder)
+    code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
+    assert code == 0
+    assert f"warning: plausibility: {folder}/{warning}\n" in stderr

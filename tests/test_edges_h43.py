@@ -5,6 +5,7 @@ attribute or type error from inside, never a silently wrong result."""
 from __future__ import annotations
 
 import re
+from decimal import Decimal
 from typing import Any
 
 import numpy as np
@@ -279,3 +280,85 @@ def test_long_names_in_tables_may_wrap() -> None:
     for page in (result._repr_html_(), budget.render_report(result)):
         assert "td var, " in page and "overflow-wrap: anywhere" in page
         assert "<script>x" not in page and "&lt;script&gt;x" in page
+
+
+# budget.air_density with a lab's slips: h in per cent, p in hPa, t in K
+
+@pytest.mark.parametrize("args, message", [
+    (("20", 101325, 0.5), "air_density(): t: expected a finite number, found str '20'"),
+    ((20, float("nan"), 0.5), "air_density(): p: expected a finite number, found float nan"),
+    ((20, 101325, 50), "air_density(): h: expected a relative humidity as a fraction from 0 "
+                       "to 1 (50 % is 0.5), found 50"),
+    ((20, -5, 0.5), "air_density(): p: expected a pressure in Pa above 0, found -5"),
+    ((20, 101325, 0.5, 2), "air_density(): x_co2: expected a mole fraction from 0 to 1")])
+def test_air_density_refuses_impossible_arguments(args: Any, message: str) -> None:
+    # h = 50 (meant as 50 %) used to give 0.73 kg/m³ without a word
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        budget.air_density(*args)
+
+
+def test_air_density_warns_outside_the_range_of_the_equation() -> None:
+    with pytest.warns(UserWarning, match="pressure 1013.25 Pa is outside the range of "
+                                         "validity 600 hPa to 1100 hPa"):
+        budget.air_density(20, 1013.25, 0.5)  # hPa for Pa: 0.0068 kg/m³
+    with pytest.warns(UserWarning, match="temperature 293.15 °C"), \
+            pytest.raises(BudgetError, match="gives a density above 0, found -0.0"):
+        budget.air_density(293.15, 101325, 0.5)  # kelvin for °C: a negative density
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        # CIPM-2007 check value of references.md section 7 (as tests/test_chemistry.py):
+        # 20 °C, 101 325 Pa, h = 0.5: 1.199314 kg/m³; numpy and Decimal arguments alike
+        assert budget.air_density(np.float64(20), Decimal("101325"), 0.5) == \
+            pytest.approx(1.199314, abs=1e-6)
+
+
+# functions that take a result, a certification or a campaign: the wrong object (a model, a
+# path, a budget) is named, not an AttributeError from inside
+
+@pytest.mark.parametrize("call, message", [
+    (lambda m: budget.explain(m), "explain(): result: expected a budget.Result "
+                                  "(budget.evaluate(model) gives one), found a budget.Model"),
+    (lambda m: budget.result_document(m), "result_document(): result: expected a "
+                                          "budget.Result"),
+    (lambda m: budget.render_report(budget.propagate(m)), "render_report(): result: expected "
+                                                          "a budget.Result (budget.evaluate("
+                                                          "model) gives one), found a "
+                                                          "budget.Budget"),
+    (lambda m: budget.certify("models/vics-as-25a/campaign.toml"),
+     "certify(): campaign: expected a budget.Campaign (budget.load_campaign(path) gives "
+     "one), found str 'models/vics-as-25a/campaign.toml'"),
+    (lambda m: budget.certification_document(m), "certification_document(): cert: expected "
+                                                 "a budget.Certification"),
+    (lambda m: budget.render_certification_report(None), "render_certification_report(): "
+                                                         "cert: expected a budget."
+                                                         "Certification")])
+def test_the_wrong_object_is_named(naoh: budget.Model, call: Any, message: str) -> None:
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        call(naoh)
+
+
+@pytest.mark.parametrize("target", ["x", -1, 0, float("nan"), float("inf")])
+def test_explain_target_is_a_positive_number(naoh: budget.Model, target: Any) -> None:
+    # a negative or NaN target used to be accepted and silently ignored
+    result = budget.evaluate(naoh, trials=0)
+    with pytest.raises(BudgetError, match="explain\\(\\): target: expected a positive finite "
+                                          "number"):
+        budget.explain(result, target=target)
+
+
+def test_compare_budgets_takes_a_model_and_its_what_if(naoh: budget.Model) -> None:
+    # the documented use, "a model file and its what-if", used to be a TypeError
+    halved = naoh.with_uncertainty("V_T", factor=0.5)
+    difference = budget.compare_budgets(naoh, halved)
+    assert difference.after.label.endswith("(what-if: u(V_T) × 0.5)")
+    change = difference.measurand("c_NaOH")
+    assert change.after.combined_uncertainty < change.before.combined_uncertainty
+    # not the same budget, though from the same file: no "same model file" note
+    assert not any("same model file" in note for note in difference.notes)
+    same = budget.compare_budgets(budget.evaluate(naoh, trials=0), A2)
+    assert any("same model file" in note for note in same.notes)
+    with pytest.raises(BudgetError, match="compare_budgets\\(\\): before: expected a model "
+                                          "file or a saved JSON result document"):
+        budget.compare_budgets(None, A2)
