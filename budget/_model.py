@@ -384,8 +384,25 @@ class _Reader:
         if self.links:
             from ._chained import resolve
 
+            self.check_not_grouped({link.input: str(self.doc["inputs"][link.input]["result_of"])
+                                    for link in self.links})
             return resolve(model, tuple(self.links))
         return model
+
+    def check_not_grouped(self, chained: dict[str, str]) -> None:
+        """Refuse a chained input in [[correlations]] or [[estimated_together]]: it is
+        replaced by the earlier model's equation, so its correlations are those of the
+        inputs it shares (``shares``), never a coefficient of its own."""
+        for table, key in (("correlations", "between"), (together.KEY, "inputs")):
+            for n, entry in enumerate(self.doc.get(table, [])):
+                named = [name for name in entry.get(key, []) if name in chained]
+                if named:
+                    raise InputError(
+                        f"expected inputs that are not results of another model, found "
+                        f"{named[0]!r} (result_of = {chained[named[0]]!r}): its "
+                        "correlations with this model come from the inputs it shares "
+                        "(shares = { this_input = \"earlier_input\" })",
+                        self.where(table, key, n))
 
     def read_register(self, convention: str) -> Register | None:
         if "register" not in self.doc:

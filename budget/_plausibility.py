@@ -142,16 +142,19 @@ def estimate_warnings(name: str, values: np.ndarray, estimate: float, unit: str,
         off = (ratio <= 0) | (ratio > factor) | (ratio < 1.0 / factor)
     found = []
     for index in np.flatnonzero(off)[:3]:
-        found.append(f"plausibility: {source}:{rows[int(index)]}: column '{name}': "
-                     f"{values[index]:.6g} {unit} differs from the model's estimate "
+        head = f"plausibility: {source}:{rows[int(index)]}: column '{name}': "
+        if ratio[index] <= 0:  # whatever the factor (further methods check only the sign)
+            what = "is zero, unlike" if ratio[index] == 0 else "has the opposite sign of"
+            found.append(f"{head}{values[index]:.6g} {unit} {what} the model's estimate "
+                         f"{estimate:.6g} {unit}")
+            continue
+        found.append(f"{head}{values[index]:.6g} {unit} differs from the model's estimate "
                      f"{estimate:.6g} {unit} by more than a factor {factor:g} "
                      f"({_slip(float(ratio[index]))})")
     return found
 
 
 def _slip(ratio: float) -> str:
-    if ratio <= 0:
-        return "opposite sign"
     if not math.isfinite(ratio):
         return "an estimate of 0 to working precision"
     power = math.log10(ratio)

@@ -189,3 +189,22 @@ def test_a_gap_in_a_current_record_is_a_warning(cli, tmp_path: Path, times: str,
         assert warned == [f"warning: [records.Q]: record.csv has a gap in t: {gap}; the "
                           "trapezoidal rule bridges it with a straight line, and what the "
                           "current did there is not known: check that no readings were lost"]
+
+
+@pytest.mark.parametrize(("edit", "warning"), [
+    # a further method's runs are checked for the sign only: the warning said "by more
+    # than a factor inf (opposite sign)"
+    (_methods(_edit("water.csv", "0.4989", "-0.4989")),
+     "water.csv:2: column 'Q': -0.4989 C has the opposite sign of the model's estimate "
+     "10.7321 C"),
+    (_edit("determinations.csv", "0.501407", "-0.501407"),
+     "determinations.csv:3: column 'm_c': -0.501407 g has the opposite sign of the model's "
+     "estimate 0.524652 g")])
+def test_a_run_value_of_the_wrong_sign_is_named_so(cli, tmp_path: Path, edit: Edit,
+                                                   warning: str) -> None:
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    edit(folder)
+    code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
+    assert code == 0
+    assert f"warning: plausibility: {folder}/{warning}\n" in stderr
