@@ -149,7 +149,10 @@ class Certification:
         """The terminal output of ``budget certify``, warnings included."""
         from ._table import render_certification
 
-        digits = self.campaign.model.settings.digits if digits is None else digits
+        from ._notebook import summary_digits
+
+        digits = self.campaign.model.settings.digits if digits is None else \
+            summary_digits(digits)
         return "\n".join([render_certification(self, digits),
                           *(f"warning: {w}" for w in self.warnings)])
 

@@ -133,8 +133,9 @@ class Difference:
     def summary(self, digits: int = 2) -> str:
         """The terminal text of ``budget compare``."""
         from ._difference_view import render_difference
+        from ._notebook import summary_digits
 
-        return render_difference(self, digits)
+        return render_difference(self, summary_digits(digits))
 
     def _repr_html_(self) -> str:
         from ._formatting import format_percent

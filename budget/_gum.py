@@ -139,8 +139,10 @@ class MeasurandBudget:
 
     def summary(self, digits: int = 2) -> str:
         """The terminal table and the GUM lines."""
+        from ._notebook import summary_digits
         from ._table import _rows, _summary
 
+        digits = summary_digits(digits)
         return "\n".join([*_rows(self, digits), "", *_summary(self, digits)])
 
     def _repr_html_(self) -> str:

@@ -116,9 +116,9 @@ class MeasurandSimulation:
                 f"{self.unit}, u = {u}{verdict}>")
 
     def summary(self, digits: int = 2) -> str:
-        from ._notebook import simulation_text
+        from ._notebook import simulation_text, summary_digits
 
-        return simulation_text(self, digits)
+        return simulation_text(self, summary_digits(digits))
 
     def _repr_html_(self) -> str:
         from ._notebook import simulation_html

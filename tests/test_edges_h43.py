@@ -456,3 +456,27 @@ def test_certify_folder_checks_its_arguments(keywords: dict[str, Any], message: 
     arguments = {"folder": "models/vics-as-25a", **keywords}
     with pytest.raises(BudgetError, match=re.escape(message)):
         certify_folder(**arguments)
+
+
+# summary(digits) of every result, as --digits: a whole number from 1 to 6
+
+@pytest.mark.parametrize("digits", [0, -1, "2", 2.5, None, True, 7])
+def test_summary_digits_are_checked(naoh: budget.Model, digits: Any) -> None:
+    # 0 was "Format specifier missing precision", "2" a TypeError from the formatter
+    result = budget.evaluate(naoh, trials=1000, seed=1)
+    assert result.simulation is not None
+    shown = [result.budget, result.budget.measurands[0], result.simulation,
+             result.simulation.measurands[0], budget.explain(result)[0],
+             budget.compare_budgets(naoh, naoh)]
+    for item in shown:
+        with pytest.raises(BudgetError, match="summary\\(\\): digits: expected a whole number "
+                                              "of significant digits from 1 to 6"):
+            item.summary(digits)
+    assert all(item.summary(3) for item in shown)
+
+
+def test_certification_summary_digits_are_checked() -> None:
+    cert = budget.certify(budget.load_campaign("models/vics-as-25a/campaign.toml"), trials=0)
+    with pytest.raises(BudgetError, match="summary\\(\\): digits: expected a whole number"):
+        cert.summary(0)
+    assert cert.summary() == cert.summary(None)
