@@ -119,8 +119,11 @@ class Difference:
     notes: tuple[str, ...]  # settings, conventions, seeds, measurands added or removed
 
     def __repr__(self) -> str:
+        from ._unit_display import display_unit, spaced_unit
+
         moved = "; ".join(f"{m.name}: u {m.before.combined_uncertainty:.3g} → "
-                          f"{m.after.combined_uncertainty:.3g} {m.unit}"
+                          f"{m.after.combined_uncertainty:.3g}"
+                          f"{spaced_unit(display_unit(m.unit))}"
                           for m in self.measurands)
         return f"<Difference {self.before.label} → {self.after.label}: {moved}>"
 

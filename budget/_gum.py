@@ -130,10 +130,12 @@ class MeasurandBudget:
 
     def __repr__(self) -> str:
         from ._notebook import short
+        from ._unit_display import display_unit, spaced_unit
 
         value, u = short(self.estimate, self.combined_uncertainty)
         expanded = short(self.estimate, self.expanded_uncertainty)[1]
-        return (f"<MeasurandBudget {self.name}: y = {value} {self.unit}, u_c = {u}, "
+        unit = spaced_unit(display_unit(self.unit))  # none for a ratio: "y = 1.00 1" misread
+        return (f"<MeasurandBudget {self.name}: y = {value}{unit}, u_c = {u}, "
                 f"k = {self.coverage_factor:.3g}, U = {expanded} "
                 f"({len(self.contributions)} inputs)>")
 
