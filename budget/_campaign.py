@@ -181,8 +181,8 @@ def load_campaign(path: str | Path, *, allow_outside: bool = False) -> Campaign:
     must lie in its folder tree unless ``allow_outside``."""
     from ._files import read_input
 
-    path = Path(path)
     raw = read_input(path, limit=MAX_FILE_BYTES, what="campaign file", error=CampaignError)
+    path = Path(path)
     text = decode(raw, str(path), "campaign")
     reader = _Reader(path, text, read_toml(text, str(path)), allow_outside)
     import hashlib

@@ -27,10 +27,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 from fractions import Fraction
-from typing import Sequence
+from collections.abc import Sequence
+from typing import Any
 
 from . import _algebra as alg
 from ._errors import InputError, Location, did_you_mean
+from ._limits import shorten
 from ._model import Input, Measurand, Model
 from ._together import Together
 from ._units import parse_unit
@@ -72,6 +74,7 @@ def join(members: Sequence[Member],
          title: str = "", where: Location | None = None) -> Joint:
     """Merge ``members``; ``shared`` lists (name, [(member, input), …]) to make one input."""
     where = where or Location(file="<joint>")
+    _check_members(members, shared, where)
     by_name = {m.name: m for m in members}
     if len(by_name) != len(members):
         raise InputError("expected distinct member names, found a repeated one", where)
@@ -95,6 +98,33 @@ def join(members: Sequence[Member],
                 rename[key] = joint_name(*key)
                 merged[rename[key]] = replace(item, name=rename[key])
     return _assemble(members, merged, rename, factor, shared, title, where)
+
+
+def _check_members(members: Any, shared: Any, where: Location) -> None:
+    """At least one ``Member`` whose model is a ``Model`` and whose name has no ':'; each
+    shared set a (name, [(member, input), …]) pair of strings."""
+    if isinstance(members, (str, bytes)) or not isinstance(members, Sequence) or not members:
+        raise InputError(f"expected members as a list of at least one budget.Member, found "
+                         f"{shorten(repr(members))}", where)
+    for member in members:
+        if not isinstance(member, Member):
+            raise InputError(f"expected each member as budget.Member(name=…, model=…), "
+                             f"found {type(member).__name__} {shorten(repr(member))}", where)
+        if not isinstance(member.name, str) or not member.name or ":" in member.name:
+            raise InputError(f"expected a member name without ':', found "
+                             f"{shorten(repr(member.name))}", where)
+        if not isinstance(member.model, Model):
+            raise InputError(f"member '{member.name}': expected a budget.Model "
+                             f"(budget.load_model(path) reads one), found "
+                             f"{type(member.model).__name__} {shorten(repr(member.model))}",
+                             where)
+    for entry in shared:
+        if not (isinstance(entry, (tuple, list)) and len(entry) == 2
+                and isinstance(entry[0], str) and isinstance(entry[1], (tuple, list))
+                and all(isinstance(use, (tuple, list)) and len(use) == 2
+                        and all(isinstance(part, str) for part in use) for use in entry[1])):
+            raise InputError(f"expected each shared set as (name, [(member, input), …]), "
+                             f"found {shorten(repr(entry))}", where)
 
 
 def _assemble(members: Sequence[Member], merged: dict[str, Input],

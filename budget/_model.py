@@ -299,6 +299,11 @@ def read_toml(text: str, name: str) -> dict[str, Any]:
 def parse_model(data: bytes | str, name: str = "<string>", *, register: Path | None = None,
                 **overrides: Any) -> Model:
     """Parse model text (or bytes); ``overrides`` replace ``[settings]`` values."""
+    if not isinstance(data, (str, bytes)) or not isinstance(name, str):
+        wrong, argument = (data, "text") if not isinstance(data, (str, bytes)) else \
+            (name, "name")
+        raise InputError(f"expected {argument} as a string, found {type(wrong).__name__} "
+                         f"{shorten(repr(wrong))}", Location(file="parse_model()", key=argument))
     text = decode(data, name)
     raw = data if isinstance(data, bytes) else data.encode("utf-8")
     with paused_collection():
@@ -341,8 +346,7 @@ class _Reader:
             raise InputError(f"expected a 'title' string, found "
                              f"{'none' if title is None else repr(title)}",
                              self.where(None, "title"))
-        settings = replace(self.settings(), **{k: v for k, v in overrides.items()
-                                               if v is not None})
+        settings = replace(self.settings(), **_overrides(overrides, self.name))
         self.register = self.read_register(settings.atomic_weights)
         self.uses: list[CertificateUse] = []
         self.checks: list[str] = []
@@ -380,8 +384,25 @@ class _Reader:
         if self.links:
             from ._chained import resolve
 
+            self.check_not_grouped({link.input: str(self.doc["inputs"][link.input]["result_of"])
+                                    for link in self.links})
             return resolve(model, tuple(self.links))
         return model
+
+    def check_not_grouped(self, chained: dict[str, str]) -> None:
+        """Refuse a chained input in [[correlations]] or [[estimated_together]]: it is
+        replaced by the earlier model's equation, so its correlations are those of the
+        inputs it shares (``shares``), never a coefficient of its own."""
+        for table, key in (("correlations", "between"), (together.KEY, "inputs")):
+            for n, entry in enumerate(self.doc.get(table, [])):
+                named = [name for name in entry.get(key, []) if name in chained]
+                if named:
+                    raise InputError(
+                        f"expected inputs that are not results of another model, found "
+                        f"{named[0]!r} (result_of = {chained[named[0]]!r}): its "
+                        "correlations with this model come from the inputs it shares "
+                        "(shares = { this_input = \"earlier_input\" })",
+                        self.where(table, key, n))
 
     def read_register(self, convention: str) -> Register | None:
         if "register" not in self.doc:
@@ -613,6 +634,27 @@ def check_settings(data: dict[str, Any], where: Any) -> Settings:
         made["reported_interval"] = check_reported(data["reported_interval"],
                                                    where("reported_interval"))
     return Settings(**made)
+
+
+_OVERRIDE_KEYS = {"coverage_probability": "coverage", "trials": "trials", "seed": "seed",
+                  "digits": "digits", "atomic_weights": "atomic_weights",
+                  "reported_interval": "reported_interval"}
+
+
+def _overrides(given: dict[str, Any], name: str) -> dict[str, Any]:
+    """Keyword overrides of ``[settings]`` (``load_model(path, trials=2000)``), checked as
+    the table's keys are; ``None`` keeps the file's value."""
+    given = {("coverage_probability" if k == "coverage" else k): v  # evaluate's word too
+             for k, v in given.items() if v is not None}
+    for key in given:
+        if key not in _OVERRIDE_KEYS:
+            raise InputError(f"expected a setting to override, one of "
+                             f"{', '.join(_OVERRIDE_KEYS)}, found '{key}'"
+                             f"{did_you_mean(key, _OVERRIDE_KEYS)}",
+                             Location(file=name, key=key))
+    checked = check_settings({_OVERRIDE_KEYS[k]: v for k, v in given.items()},
+                             lambda key: Location(file=name, key=key))
+    return {k: getattr(checked, k) for k in given}
 
 
 def check_reported(value: Any, where: Location) -> str:

@@ -19,7 +19,7 @@ import os
 import statistics
 import tomllib
 from concurrent.futures import ProcessPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Iterable
 
@@ -62,6 +62,10 @@ class Batch:
 def find_campaigns(folder: str | Path) -> list[Path]:
     """Campaign files under ``folder``: TOML files with a [characterization] table, and
     TOML files that cannot be read (their error goes into the summary)."""
+    if not isinstance(folder, (str, os.PathLike)):
+        raise InputError(f"expected the path of a folder of campaign files, found "
+                         f"{type(folder).__name__} {folder!r:.80}",
+                         Location(file="<argument>", key="folder"))
     root = Path(folder)
     if not root.is_dir():
         raise InputError(f"expected a folder of campaign files, found "
@@ -110,6 +114,13 @@ def _certify_many(paths: list[str], trials: int | None, seed: int | None
 def certify_folder(folder: str | Path, *, trials: int | None = 0, seed: int | None = None,
                    workers: int | None = None) -> Batch:
     """Certify every campaign under ``folder`` on ``workers`` processes (default: cores)."""
+    from ._arguments import check_seed_argument, check_trials_argument, check_workers
+
+    where = Location(file="certify_folder()")
+    trials = None if trials is None else check_trials_argument(trials, replace(where,
+                                                                              key="trials"))
+    seed = None if seed is None else check_seed_argument(seed, replace(where, key="seed"))
+    workers = check_workers(workers, replace(where, key="workers"))
     paths = [str(p) for p in find_campaigns(folder)]
     if not paths:
         raise InputError("expected at least one campaign file (a TOML file with a "

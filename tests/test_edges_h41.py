@@ -139,3 +139,94 @@ def test_explain_reads_no_variance_where_there_is_none(cli, tmp_path):
         "variance-based indices are not defined: b (ν = 1) is drawn from a t distribution "
         "with ν ≤ 2, so 'y' has no finite variance to apportion"]
     assert not any(r.startswith("nonlinearity") for r in measurand["reasons"])
+
+
+_EARLIER = """\
+title = "earlier"
+[measurands.y]
+equation = "p * q"
+unit = "g"
+[inputs.p]
+value = 2.0
+unit = "g"
+u = 0.01
+[inputs.q]
+value = 3.0
+u = 0.02
+"""
+
+
+def _later(tmp_path, body: str):
+    (tmp_path / "earlier.toml").write_text(_EARLIER)
+    path = tmp_path / "later.toml"
+    path.write_text('title = "later"\n[measurands.z]\nequation = "y * w"\nunit = "g"\n'
+                    '[inputs.w]\nvalue = 1.0\nu = 0.1\n' + body)
+    return path
+
+
+@pytest.mark.parametrize("between", ['["y", "w"]', '["v", "w", "y"]'])
+def test_a_chained_input_is_refused_in_correlations(cli, tmp_path, between):
+    # the chained input is replaced by the earlier model's equation: a coefficient of its
+    # own used to reach the correlation matrix under a name no longer there (KeyError)
+    path = _later(tmp_path, '[inputs.y]\nresult_of = "earlier.toml"\n[inputs.v]\nvalue = 1\n'
+                  f'u = 0.1\n[[correlations]]\nbetween = {between}\nr = 0.5\n')
+    path.write_text(path.read_text().replace('"y * w"', '"y * w * v"'))
+    code, stdout, stderr = cli("check", str(path))
+    assert code == 1 and stdout == ""
+    assert stderr == (
+        f"error: {path}:14: [correlations] between: expected inputs that are not results "
+        "of another model, found 'y' (result_of = 'earlier.toml'): its correlations with "
+        'this model come from the inputs it shares (shares = { this_input = "earlier_input" '
+        "})\n")
+
+
+@pytest.mark.parametrize("document, found", [
+    ('{"measurands": [{"name": "y", "value": "x", "unit": "g", "u": 0.1, "dof": null}]}',
+     'measurands[0].value = "x" (expected a finite number)'),
+    ("[1, 2]", "a JSON list instead of an object"),
+    ('{"measurands": [{"name": "y", "value": 6.0, "unit": "g", "u": -1, "dof": null}]}',
+     "measurands[0].u = -1 (expected a finite number ≥ 0)"),
+    ('{"measurands": [{"name": "y", "value": 6.0, "unit": "g", "u": 0.1, "dof": null, '
+     '"contributions": [{"input": "p", "estimate": 2, "u": NaN, "sensitivity": 3}]}]}',
+     "measurands[0].contributions[0].u = NaN (expected a finite number ≥ 0)"),
+    ('{"measurands": [{"name": "y", "value": 6.0, "unit": "g", "u": 0.1, "dof": null, '
+     '"contributions": [{"input": "p", "estimate": 2, "u": 0.1, "sensitivity": 3, '
+     '"dof": -1}]}]}',
+     "measurands[0].contributions[0].dof = -1 (expected a number > 0 or null)"),
+    ('{"measurands": [{"name": "y", "value": 1e400, "unit": "g", "u": 0.1, "dof": null}]}',
+     "measurands[0].value = Infinity (expected a finite number)"),
+])
+def test_a_misshapen_saved_result_is_named_by_its_field(cli, tmp_path, document, found):
+    # a saved result with a field of the wrong kind leaked Python's own words ("could not
+    # convert string to float", "list indices must be integers") or a traceback
+    (tmp_path / "saved.json").write_text(document)
+    path = _later(tmp_path, '[inputs.y]\nresult_of = "saved.json"\n')
+    code, stdout, stderr = cli("check", str(path))
+    assert code == 1 and stdout == ""
+    assert stderr == (f"error: {path}:9: [inputs.y] result_of: expected a JSON result "
+                      "document (schema result.schema.json) in "
+                      f"'{tmp_path / 'saved.json'}', found {found}\n")
+
+
+@pytest.mark.parametrize("document, found", [
+    ('{"measurands": [{"name": "y", "value": 6.0, "u": 0.1, "unit": "g", "dof": null, '
+     '"k": 2, "U": 0.2, "contributions": "x"}]}',
+     'measurands[0].contributions = "x" (expected a list)'),
+    ('{"measurands": [{"name": "y", "value": 6.0, "u": 0.1, "unit": "g", "dof": null, '
+     '"k": 2, "U": 0.2, "contributions": []}, {"name": "y", "value": 6.0, "u": 0.1, '
+     '"unit": "g", "dof": null, "k": 2, "U": 0.2, "contributions": []}]}',
+     'measurands[1].name = "y" a second time'),
+    ('{"measurands": [{"name": "y", "value": 6.0, "u": NaN, "unit": "g", "dof": null, '
+     '"k": 2, "U": 0.2, "contributions": []}]}',
+     "measurands[0].u = NaN (expected a finite number ≥ 0)"),
+    ('{"measurands": []}', "measurands = [] (expected a list of measurands)"),
+])
+def test_compare_names_the_bad_field_of_a_saved_result(cli, tmp_path, document, found):
+    # "string indices must be integers" leaked; NaN and a repeated measurand went through
+    (tmp_path / "earlier.toml").write_text(_EARLIER)
+    bad = tmp_path / "bad.json"
+    bad.write_text(document)
+    code, stdout, stderr = cli("compare", str(tmp_path / "earlier.toml"), str(bad))
+    assert code == 1 and stdout == ""
+    assert stderr == (f"error: {bad}: expected a JSON result document (schema "
+                      f"result.schema.json), found {found}\n")

@@ -362,3 +362,97 @@ def test_compare_budgets_takes_a_model_and_its_what_if(naoh: budget.Model) -> No
     with pytest.raises(BudgetError, match="compare_budgets\\(\\): before: expected a model "
                                           "file or a saved JSON result document"):
         budget.compare_budgets(None, A2)
+
+
+# combine, join, load_model's overrides, paths and the batch: careless arguments
+
+@pytest.mark.parametrize("values, covariance, message", [
+    (["1", "2"], [[1, 0], [0, 1]], "expected values as numbers, found list ['1', '2']"),
+    ([1.0, None], [[1, 0], [0, 1]], "expected values as numbers, found NoneType None"),
+    ({"a": 1.0}, [[1]], "expected values as numbers, found dict {'a': 1.0}"),
+    ([1.0, 2.0], [[1, 0], [0]], "expected covariance as numbers, found list"),
+    ([[1.0, 2.0]], [[1, 0], [0, 1]], "expected the values as a list of at least one number, "
+                                     "found an array of shape (1, 2)"),
+    ([], [], "expected the values as a list of at least one number, found an array of "
+             "shape (0,)")])
+def test_combine_takes_numbers_only(values: Any, covariance: Any, message: str) -> None:
+    # ["1", "2"] used to be converted silently; a dict was a TypeError from numpy
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        budget.combine(values, covariance)
+
+
+def test_combine_takes_exact_numbers() -> None:
+    from fractions import Fraction
+
+    assert budget.combine([Fraction(1), Decimal("2")], [[1, 0], [0, 1]]).estimate == 1.5
+
+
+@pytest.mark.parametrize("members, shared, message", [
+    ([], [], "expected members as a list of at least one budget.Member, found []"),
+    ("ab", [], "expected members as a list of at least one budget.Member, found 'ab'"),
+    (["a"], [], "expected each member as budget.Member(name=…, model=…), found str 'a'"),
+    ([("a", A2)], [], "expected each member as budget.Member"),
+    (None, [], "expected members as a list")])
+def test_join_names_what_is_wrong_with_its_members(members: Any, shared: Any,
+                                                   message: str) -> None:
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        budget.join(members, shared)
+
+
+def test_join_checks_each_member_and_shared_set(naoh: budget.Model) -> None:
+    with pytest.raises(BudgetError, match=re.escape(
+            "member 'a': expected a budget.Model (budget.load_model(path) reads one), "
+            "found str")):
+        budget.join([budget.Member(name="a", model=A2)])  # type: ignore[arg-type]
+    with pytest.raises(BudgetError, match="expected a member name without ':', found 'a:b'"):
+        budget.join([budget.Member(name="a:b", model=naoh)])
+    pair = [budget.Member(name="a", model=naoh), budget.Member(name="b", model=naoh)]
+    with pytest.raises(BudgetError, match=re.escape(
+            "expected each shared set as (name, [(member, input), …]), found ('M', 'a')")):
+        budget.join(pair, [("M", "a")])  # type: ignore[list-item]
+
+
+@pytest.mark.parametrize("overrides, message", [
+    ({"trial": 5}, "trial: expected a setting to override, one of coverage_probability, "
+                   "trials, seed, digits, atomic_weights, reported_interval, found 'trial' "
+                   "(did you mean 'trials'?)"),
+    ({"trials": "x"}, "trials: expected a whole number ≥ 0 or \"adaptive\", found 'x'"),
+    ({"seed": -1}, "seed: expected a whole-number seed from 0 to 2**64 - 1, found -1"),
+    ({"coverage": 2}, "coverage: expected a coverage probability in [1e-06, 1 - 1e-09]")])
+def test_load_model_overrides_are_checked(overrides: dict[str, Any], message: str) -> None:
+    # trials="x" and seed=-1 used to be stored in the settings as given
+    with pytest.raises(BudgetError, match=re.escape(f"{A2}: {message}")):
+        budget.load_model(A2, **overrides)
+
+
+def test_load_model_overrides_take_evaluates_word_for_coverage() -> None:
+    assert budget.load_model(A2, coverage=0.99).settings.coverage_probability == 0.99
+    assert budget.load_model(A2, trials=2000, seed=None).settings.trials == 2000
+
+
+@pytest.mark.parametrize("call, message", [
+    (lambda: budget.load_model(None), "<argument>: path: expected the path of a model file "
+                                      "(a string or a pathlib.Path), found NoneType None"),
+    (lambda: budget.load_campaign(3.5), "<argument>: path: expected the path of a campaign "
+                                        "file (a string or a pathlib.Path), found float 3.5"),
+    (lambda: budget.parse_model(None), "parse_model(): text: expected text as a string, "
+                                       "found NoneType None"),
+    (lambda: budget.parse_model("x", 5), "parse_model(): name: expected name as a string")])
+def test_a_path_or_text_that_is_not_one(call: Any, message: str) -> None:
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        call()
+
+
+@pytest.mark.parametrize("keywords, message", [
+    ({"workers": "2"}, "certify_folder(): workers: expected None or a whole number of "
+                       "workers from 1 to 256, found str '2'"),
+    ({"trials": "x"}, "certify_folder(): trials: expected a whole number of trials ≥ 0"),
+    ({"seed": -1}, "certify_folder(): seed: expected a whole-number seed"),
+    ({"folder": None}, "<argument>: folder: expected the path of a folder of campaign files")])
+def test_certify_folder_checks_its_arguments(keywords: dict[str, Any], message: str) -> None:
+    from budget.batch import certify_folder
+
+    # trials="x" used to fail every campaign one by one, as if each file were wrong
+    arguments = {"folder": "models/vics-as-25a", **keywords}
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        certify_folder(**arguments)
