@@ -276,21 +276,25 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
     from ._special import t_two_sided_p
 
     n = times.size
-    t_mean = times.mean()
-    sxx = float(np.sum((times - t_mean) ** 2))
+    t_mean = _mean(times)
+    # values and times in units of their largest deviation (1 for ordinary data): times
+    # near 1e±200 would otherwise make Σ(t − t̄)² ∞ or 0 and the slope 0/0
+    t_scale = _scale(times - t_mean)
+    d = (times - t_mean) / t_scale
+    sxx = float(np.sum(d ** 2))
     mean = _mean(values)
     scale = _scale(values - mean)  # 1 unless the squares would overflow or underflow
-    slope = scale * float(np.sum((times - t_mean) * ((values - mean) / scale)) / sxx)
+    slope = scale / t_scale * (float(np.sum(d * ((values - mean) / scale))) / sxx)
     intercept = float(mean - slope * t_mean)
-    if scale == 1.0:
+    if scale == 1.0 and t_scale == 1.0:
         residuals = values - (intercept + slope * times)
     else:
-        residuals = (values - mean) / scale - (slope / scale) * (times - t_mean)
+        residuals = (values - mean) / scale - (slope * t_scale / scale) * d
     s = scale * math.sqrt(float(np.sum(residuals ** 2)) / (n - 2))
     reason = zero_residual(s, values)
     if reason:  # a residual within rounding noise is zero: s(b₁) = 0, as the reason says
         s = 0.0
-    u_slope = s / math.sqrt(sxx)
+    u_slope = s / (t_scale * math.sqrt(sxx))
     t = math.nan if reason else slope / u_slope
     p_value = math.nan if reason else t_two_sided_p(t, n - 2)
     return Stability(reason=reason, times=tuple(float(x) for x in times),

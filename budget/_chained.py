@@ -33,6 +33,7 @@ from ._errors import InputError, Location
 from . import _algebra as alg
 from ._joint import Member, join, joint_name
 from ._model import Input, Model
+from ._savedresult import misshapen
 from ._units import parse_unit
 
 __all__ = ["Link", "PendingLink", "read_link", "resolve", "CHAIN_KEYS"]
@@ -239,6 +240,13 @@ def _ordered(model: Model, joint: Model, final: dict[str, str], linked: str
     return tuple(first + rest)
 
 
+# what _linear_model reads (kinds: _savedresult.misshapen)
+_MEASURAND_FIELDS = (("name", "name"), ("unit", "name"), ("value", "number"), ("u", "u"),
+                     ("dof", "dof"))
+_INPUT_FIELDS = (("input", "name"), ("estimate", "number"), ("u", "u"),
+                 ("sensitivity", "number"), ("dof?", "dof"), ("unit?", "name"),
+                 ("distribution?", "name"))
+
 _SHAPES = {"rectangular": ("Rectangular", math.sqrt(3.0)),
            "triangular": ("Triangular", math.sqrt(6.0)),
            "arcsine": ("Arcsine", math.sqrt(2.0))}
@@ -254,7 +262,7 @@ def saved_result_model(path: Path, where: Location) -> Model:
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise InputError(f"expected a JSON result document in '{path}', found {exc}",
                          where) from exc
-    found = _misshapen(document)
+    found = misshapen(document, _MEASURAND_FIELDS, _INPUT_FIELDS, (("r", "number"),))
     if found is None:
         try:
             return _linear_model(document, str(path))
@@ -264,67 +272,6 @@ def saved_result_model(path: Path, where: Location) -> Model:
                              f"in '{path}', found {found}", where) from exc
     raise InputError(f"expected a JSON result document (schema result.schema.json) in "
                      f"'{path}', found {found}", where)
-
-
-# what _linear_model reads: (key, kind), kind "name", "number", "u" (≥ 0) or "dof" (> 0 or
-# null); a key ending in "?" may be left out
-_MEASURAND_FIELDS = (("name", "name"), ("unit", "name"), ("value", "number"), ("u", "u"),
-                     ("dof", "dof"))
-_INPUT_FIELDS = (("input", "name"), ("estimate", "number"), ("u", "u"),
-                 ("sensitivity", "number"), ("dof?", "dof"), ("unit?", "name"),
-                 ("distribution?", "name"))
-
-
-def _misshapen(document: Any) -> str | None:
-    """What a saved result lacks or holds of the wrong kind, as 'measurands[0].u = -1 (a
-    number ≥ 0)'; None when every field the linear model reads is there and sound."""
-    if not isinstance(document, dict):
-        return f"a JSON {type(document).__name__} instead of an object"
-    measurands = document.get("measurands")
-    if not isinstance(measurands, list) or not measurands:
-        return "no list of 'measurands'"
-    for k, m in enumerate(measurands):
-        wrong = _wrong_fields(m, f"measurands[{k}]", _MEASURAND_FIELDS)
-        for key in ("contributions", "correlation_terms"):
-            if wrong is None and not isinstance(m.get(key, []), list):
-                wrong = f"measurands[{k}].{key} that is not a list"
-        for j, c in enumerate(m.get("contributions", []) if wrong is None else ()):
-            wrong = wrong or _wrong_fields(c, f"measurands[{k}].contributions[{j}]",
-                                           _INPUT_FIELDS)
-        for j, t in enumerate(m.get("correlation_terms", []) if wrong is None else ()):
-            where = f"measurands[{k}].correlation_terms[{j}]"
-            if not isinstance(t, dict) or not (isinstance(t.get("inputs"), list)
-                                               and len(t["inputs"]) == 2):
-                wrong = wrong or f"{where} without a pair of 'inputs'"
-            wrong = wrong or _wrong_fields(t, where, (("r", "number"),))
-        if wrong:
-            return wrong
-    return None
-
-
-def _wrong_fields(node: Any, where: str, fields: tuple[tuple[str, str], ...]) -> str | None:
-    if not isinstance(node, dict):
-        return f"{where} that is not an object"
-    for field_name, kind in fields:
-        key = field_name.rstrip("?")  # "dof?": may be left out
-        if key not in node:
-            if key == field_name:
-                return f"{where} without '{key}'"
-            continue
-        value = node[key]
-        if kind == "name":
-            good = isinstance(value, str) and bool(value)
-        elif kind == "dof" and value is None:
-            good = True
-        else:
-            number = isinstance(value, (int, float)) and not isinstance(value, bool) \
-                and math.isfinite(value)
-            good = number and (kind == "number" or (value >= 0 if kind == "u" else value > 0))
-        if not good:
-            expected = {"name": "a string", "number": "a finite number",
-                        "u": "a finite number ≥ 0", "dof": "a number > 0 or null"}[kind]
-            return f"{where}.{key} = {json.dumps(value)[:40]} (expected {expected})"
-    return None
 
 
 def _linear_model(document: dict[str, Any], source: str) -> Model:

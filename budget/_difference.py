@@ -21,6 +21,7 @@ from dataclasses import dataclass
 from pathlib import Path, PurePath
 from typing import Any
 
+from ._savedresult import misshapen
 from ._errors import InputError, Location
 
 __all__ = ["Term", "Side", "InputChange", "MeasurandChange", "Difference", "compare",
@@ -173,6 +174,16 @@ class Difference:
         return difference_document(self)
 
 
+# what _measurand_side reads (kinds: _savedresult.misshapen)
+_MEASURAND_FIELDS = (("name", "name"), ("unit", "name"), ("value", "number"), ("u", "u"),
+                     ("k", "u"), ("U", "u"), ("dof", "dof"), ("contributions", "list"),
+                     ("second_order_variance?", "u?"))
+_INPUT_FIELDS = (("input", "name"), ("estimate", "number"), ("unit", "text"), ("u", "u"),
+                 ("distribution", "name"), ("dof", "dof"), ("sensitivity", "number"),
+                 ("contribution", "u"))
+_TERM_FIELDS = (("r", "number"), ("variance", "number"))
+
+
 def _number(value: Any) -> float:
     return math.inf if value is None else float(value)
 
@@ -180,6 +191,10 @@ def _number(value: Any) -> float:
 def side_from_document(document: dict[str, Any], label: str) -> Side:
     """A budget read from a JSON result document (``budget run --json``)."""
     where = Location(file=label)
+    found = misshapen(document, _MEASURAND_FIELDS, _INPUT_FIELDS, _TERM_FIELDS)
+    if found:
+        raise InputError(f"expected a JSON result document (schema result.schema.json), "
+                         f"found {found}", where)
     try:
         measurands = tuple(_measurand_side(m) for m in document["measurands"])
         provenance = document.get("provenance", {})

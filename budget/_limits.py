@@ -42,6 +42,7 @@ DIGITS = (1, 6)  # significant digits of a reported uncertainty
 PROBABILITY = (1e-6, 1.0 - 1e-9)  # coverage probabilities and levels
 MIN_RELIABILITY = 1e-100  # smallest reliability: ν = 1/(2 r²) stays a finite number
 MAX_SEED = 2 ** 64 - 1  # random seeds are whole numbers in [0, 2**64 - 1]
+MAX_METHOD_U = 1e150  # u of a method's result: its square enters the methods' covariance
 
 
 def check_probability(value: Any, where: Location, what: str = "a coverage probability"

@@ -206,3 +206,44 @@ def test_a_misshapen_saved_result_is_named_by_its_field(cli, tmp_path, document,
     assert stderr == (f"error: {path}:9: [inputs.y] result_of: expected a JSON result "
                       "document (schema result.schema.json) in "
                       f"'{tmp_path / 'saved.json'}', found {found}\n")
+
+
+@pytest.mark.parametrize("document, found", [
+    ('{"measurands": [{"name": "y", "value": 6.0, "u": 0.1, "unit": "g", "dof": null, '
+     '"k": 2, "U": 0.2, "contributions": "x"}]}',
+     'measurands[0].contributions = "x" (expected a list)'),
+    ('{"measurands": [{"name": "y", "value": 6.0, "u": 0.1, "unit": "g", "dof": null, '
+     '"k": 2, "U": 0.2, "contributions": []}, {"name": "y", "value": 6.0, "u": 0.1, '
+     '"unit": "g", "dof": null, "k": 2, "U": 0.2, "contributions": []}]}',
+     'measurands[1].name = "y" a second time'),
+    ('{"measurands": [{"name": "y", "value": 6.0, "u": NaN, "unit": "g", "dof": null, '
+     '"k": 2, "U": 0.2, "contributions": []}]}',
+     "measurands[0].u = NaN (expected a finite number ≥ 0)"),
+    ('{"measurands": []}', "measurands = [] (expected a list of measurands)"),
+])
+def test_compare_names_the_bad_field_of_a_saved_result(cli, tmp_path, document, found):
+    # "string indices must be integers" leaked; NaN and a repeated measurand went through
+    (tmp_path / "earlier.toml").write_text(_EARLIER)
+    bad = tmp_path / "bad.json"
+    bad.write_text(document)
+    code, stdout, stderr = cli("compare", str(tmp_path / "earlier.toml"), str(bad))
+    assert code == 1 and stdout == ""
+    assert stderr == (f"error: {bad}: expected a JSON result document (schema "
+                      f"result.schema.json), found {found}\n")
+
+
+@pytest.mark.parametrize("equation, found", [
+    ("a / (b - 3)", "expected a finite value at the estimates, found inf (a division by "
+                    "zero or a function outside its domain in 'a / (b - 3)')"),
+    ("a * log(b - 5)", "expected a finite value at the estimates, found nan (a division by "
+                       "zero or a function outside its domain in 'a * log(b - 5)')"),
+])
+def test_check_refuses_what_run_refuses_at_the_estimates(cli, tmp_path, equation, found):
+    # check said "ok" for a file whose equation cannot be evaluated at its own estimates
+    path = tmp_path / "model.toml"
+    path.write_text(_PRODUCT.replace('"a * b"', f'"{equation}"'))
+    for command in ("check", "run"):
+        code, stdout, stderr = cli(command, str(path), *(["--trials", "0"] if command ==
+                                                         "run" else []))
+        assert code == 1 and stdout == ""
+        assert stderr == f"error: {path}:3: [measurands.y] equation: {found}\n"

@@ -5,10 +5,12 @@ was expected and what was found, with exit status 1 and nothing written."""
 from __future__ import annotations
 
 import json
+import math
 import shutil
 from pathlib import Path
 from typing import Callable
 
+import numpy as np
 import pytest
 
 from conftest import MODELS
@@ -24,6 +26,12 @@ def _edit(name: str, old: str, new: str) -> Edit:
         text = target.read_text(encoding="utf-8")
         assert old in text, (name, old)
         target.write_text(text.replace(old, new, 1), encoding="utf-8")
+    return edit
+
+
+def _write(name: str, text: str) -> Edit:
+    def edit(folder: Path) -> None:
+        (folder / name).write_text(text, encoding="utf-8")
     return edit
 
 
@@ -85,6 +93,17 @@ CASES: dict[str, tuple[Edit, str]] = {
              _edit("campaign.toml", 'time_unit = "month"', "")),
         "campaign.toml:23: [stability] shelf_life: expected a shelf life in a unit of time "
         "(such as month, d, year), found 'kg' ([mass])"),
+    # u = 1e300 for a stated impurity, or 1e200 in a method's model: OverflowError
+    # tracebacks where u² entered the covariance of the methods
+    "impurity_u_beyond_the_whole": (
+        _methods(_edit("campaign.toml", "u = 0.0025", "u = 1e300")),
+        "campaign.toml:40: [method.impurity] u: expected a standard uncertainty of at most "
+        "the whole sample, 100 %, found 1e+300 %"),
+    "method_u_too_large_to_square": (
+        _methods(_edit("weight-titration.toml", "expanded = 0.010", "expanded = 1e200")),
+        "campaign.toml: [method] expected the result of method 'weight titration' with a "
+        "standard uncertainty of at most 1e+150 % (its square enters the covariance of the "
+        "methods; limits: docs/limits.md), found 4.99914e+199 %"),
     "characterization_with_one_run": (
         _keep_lines("determinations.csv", 2),
         "campaign.toml:13: [characterization] runs: expected at least 2 runs in "
@@ -208,3 +227,38 @@ def test_a_run_value_of_the_wrong_sign_is_named_so(cli, tmp_path: Path, edit: Ed
     code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
     assert code == 0
     assert f"warning: plausibility: {folder}/{warning}\n" in stderr
+
+
+@pytest.mark.parametrize("edit", [
+    _edit("stability.csv", "\n0,1,", "\n1e300,1,"),         # Σ(t − t̄)² was ∞
+    # Σ(t − t̄)² underflowed to 0
+    _write("stability.csv", "time,value\n0,99.9846\n12e-250,99.988\n24e-250,99.9849\n"),
+    _methods(_edit("stability-25C.csv", "\n0,1,", "\n1e300,1,"),
+             _edit("campaign.toml", 'evaluation = "separately"', 'evaluation = "together"'))])
+def test_stability_times_near_the_ends_of_doubles_give_a_slope(cli, tmp_path: Path,
+                                                               edit: Edit) -> None:
+    # a ZeroDivisionError traceback (slope 0/0) before the times were scaled like the values
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    edit(folder)
+    code, stdout, stderr = cli("certify", "--json", "--trials", "0",
+                               str(folder / "campaign.toml"))
+    assert code == 0, stderr
+    stability = json.loads(stdout)["stability"]
+    assert math.isfinite(stability["slope"]) and math.isfinite(stability["u_lts"])
+
+
+def test_stability_trend_agrees_with_scipy_for_scaled_times() -> None:
+    # the slope and s(b₁) of times in units of 1e-250 are those of the same points in
+    # units of 1 scaled back, checked against scipy.stats.linregress
+    from scipy.stats import linregress
+
+    from budget._certification import trend
+
+    times = np.array([0.0, 0.0, 12.0, 12.0, 24.0, 24.0])
+    values = np.array([99.9846, 99.983, 99.988, 99.9902, 99.9849, 99.9842])
+    expected = linregress(times, values)
+    scaled = trend(times * 1e-250, values, 36e-250)
+    assert scaled.slope * 1e-250 == pytest.approx(expected.slope, rel=1e-12)
+    assert scaled.u_slope * 1e-250 == pytest.approx(expected.stderr, rel=1e-12)
+    assert scaled.u_lts == pytest.approx(expected.stderr * 36, rel=1e-12)
