@@ -509,3 +509,14 @@ def test_reprs_write_no_unit_1_after_a_number() -> None:
     ugg = budget.parse_model('title = "t"\n[measurands.y]\nequation = "a"\nunit = "ug/g"\n'
                              '[inputs.a]\nvalue = 1\nu = 0.1\nunit = "ug/g"\n', "ugg.toml")
     assert "y = 1.00 µg/g," in repr(budget.propagate(ugg).measurands[0])
+
+
+def test_scaling_an_exact_input_is_refused_not_recorded() -> None:
+    # factor=2 on an exact input changed nothing but was recorded as a what-if
+    model = budget.load_model(PURITY)
+    assert model.input("t_air").standard_uncertainty == 0.0
+    with pytest.raises(BudgetError, match=re.escape(
+            "<what-if>: [inputs.t_air] factor: expected an input with an uncertainty to "
+            "scale, found an exact one (× 2 would change nothing")):
+        model.with_uncertainty("t_air", factor=2)
+    assert model.with_uncertainty("t_air", factor=1).input("t_air").standard_uncertainty == 0
