@@ -406,8 +406,13 @@ def check(model_file: str, strict: bool) -> None:
     _one_shot()
     from ._errors import BudgetError
 
+    from ._evaluation import jacobian_at_estimates
+
     try:
         model = _read_model(model_file)
+        # the equations at the estimates: a division by zero or a log of a negative
+        # estimate is an error of the file, which run would refuse
+        jacobian_at_estimates(model)
     except BudgetError as error:
         _fail(error)
     _strict(strict, model.warnings)

@@ -230,3 +230,20 @@ def test_compare_names_the_bad_field_of_a_saved_result(cli, tmp_path, document, 
     assert code == 1 and stdout == ""
     assert stderr == (f"error: {bad}: expected a JSON result document (schema "
                       f"result.schema.json), found {found}\n")
+
+
+@pytest.mark.parametrize("equation, found", [
+    ("a / (b - 3)", "expected a finite value at the estimates, found inf (a division by "
+                    "zero or a function outside its domain in 'a / (b - 3)')"),
+    ("a * log(b - 5)", "expected a finite value at the estimates, found nan (a division by "
+                       "zero or a function outside its domain in 'a * log(b - 5)')"),
+])
+def test_check_refuses_what_run_refuses_at_the_estimates(cli, tmp_path, equation, found):
+    # check said "ok" for a file whose equation cannot be evaluated at its own estimates
+    path = tmp_path / "model.toml"
+    path.write_text(_PRODUCT.replace('"a * b"', f'"{equation}"'))
+    for command in ("check", "run"):
+        code, stdout, stderr = cli(command, str(path), *(["--trials", "0"] if command ==
+                                                         "run" else []))
+        assert code == 1 and stdout == ""
+        assert stderr == f"error: {path}:3: [measurands.y] equation: {found}\n"

@@ -456,3 +456,56 @@ def test_certify_folder_checks_its_arguments(keywords: dict[str, Any], message: 
     arguments = {"folder": "models/vics-as-25a", **keywords}
     with pytest.raises(BudgetError, match=re.escape(message)):
         certify_folder(**arguments)
+
+
+# summary(digits) of every result, as --digits: a whole number from 1 to 6
+
+@pytest.mark.parametrize("digits", [0, -1, "2", 2.5, None, True, 7])
+def test_summary_digits_are_checked(naoh: budget.Model, digits: Any) -> None:
+    # 0 was "Format specifier missing precision", "2" a TypeError from the formatter
+    result = budget.evaluate(naoh, trials=1000, seed=1)
+    assert result.simulation is not None
+    shown = [result.budget, result.budget.measurands[0], result.simulation,
+             result.simulation.measurands[0], budget.explain(result)[0],
+             budget.compare_budgets(naoh, naoh)]
+    for item in shown:
+        with pytest.raises(BudgetError, match="summary\\(\\): digits: expected a whole number "
+                                              "of significant digits from 1 to 6"):
+            item.summary(digits)
+    assert all(item.summary(3) for item in shown)
+
+
+def test_certification_summary_digits_are_checked() -> None:
+    cert = budget.certify(budget.load_campaign("models/vics-as-25a/campaign.toml"), trials=0)
+    with pytest.raises(BudgetError, match="summary\\(\\): digits: expected a whole number"):
+        cert.summary(0)
+    assert cert.summary() == cert.summary(None)
+
+
+def test_a_constant_measurand_leaves_no_numpy_warning_and_a_unit_diagonal() -> None:
+    import warnings
+
+    model = budget.parse_model('title = "t"\n[measurands.y]\nequation = "a"\n'
+                               '[measurands.z]\nequation = "3"\n'
+                               '[inputs.a]\nvalue = 1\nu = 0.1\n', "const.toml")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # numpy's "invalid value encountered in divide"
+        kept = budget.simulate(model, trials=1000, seed=1)
+    streamed = budget.simulate(model, trials=1000, seed=1, keep_samples=False)
+    gum = budget.propagate(model)
+    assert kept.output_correlation == streamed.output_correlation == gum.output_correlation
+    assert kept.output_correlation == ((1.0, 0.0), (0.0, 1.0))
+
+
+def test_reprs_write_no_unit_1_after_a_number() -> None:
+    # "y = 1.00 1" reads as two numbers; the tables and reports already leave "1" out
+    model = budget.parse_model('title = "t"\n[measurands.y]\nequation = "a"\n'
+                               '[inputs.a]\nvalue = 1\nu = 0.1\n', "ratio.toml")
+    result = budget.evaluate(model, trials=1000, seed=1)
+    assert result.simulation is not None
+    assert repr(result.budget.measurands[0]).startswith("<MeasurandBudget y: y = 1.00, u_c")
+    assert re.search(r", y = [0-9.]+, u = ", repr(result.simulation.measurands[0]))
+    assert repr(budget.compare_budgets(model, model)).endswith("u 0.1 → 0.1>")
+    ugg = budget.parse_model('title = "t"\n[measurands.y]\nequation = "a"\nunit = "ug/g"\n'
+                             '[inputs.a]\nvalue = 1\nu = 0.1\nunit = "ug/g"\n', "ugg.toml")
+    assert "y = 1.00 µg/g," in repr(budget.propagate(ugg).measurands[0])
