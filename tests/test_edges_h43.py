@@ -535,3 +535,12 @@ def test_joint_lookups_name_what_is_there(naoh: budget.Model) -> None:
     assert isinstance(caught.value, BudgetError)
     with pytest.raises(BudgetError, match="no input 'V_t' of member 'a'"):
         joint.input_name("a", "V_t")
+
+
+def test_certify_checks_the_reported_interval_argument() -> None:
+    # "bogus" with Monte Carlo trials stated the shortest interval under the name "bogus"
+    campaign = budget.load_campaign("models/vics-as-25a/campaign.toml")
+    with pytest.raises(BudgetError, match=re.escape(
+            "certify(): reported_interval: expected one of gum, monte_carlo, "
+            "monte_carlo_shortest, found 'bogus'")):
+        budget.certify(campaign, trials=1000, seed=1, reported_interval="bogus")
