@@ -544,3 +544,17 @@ def test_certify_checks_the_reported_interval_argument() -> None:
             "certify(): reported_interval: expected one of gum, monte_carlo, "
             "monte_carlo_shortest, found 'bogus'")):
         budget.certify(campaign, trials=1000, seed=1, reported_interval="bogus")
+
+
+@pytest.mark.parametrize("keywords, message", [
+    ({"leading": "3"}, "explain(): leading: expected a whole number from 1 to 1,000, found "
+                       "str '3'"),
+    ({"sobol_trials": 10 ** 9}, "explain(): sobol_trials: expected a whole number from 2 to "
+                                "10,000,000, found int 1000000000"),
+    ({"sobol_trials": 1000.0}, "explain(): sobol_trials: expected a whole number")])
+def test_explain_counts_are_checked(naoh: budget.Model, keywords: dict[str, Any],
+                                    message: str) -> None:
+    # leading="3" was a TypeError in slicing; 10**9 draws would exhaust memory
+    result = budget.evaluate(naoh, trials=1000, seed=1)
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        budget.explain(result, **keywords)
