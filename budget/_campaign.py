@@ -233,7 +233,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     if plan is not None:
         check_primary_references(r, plan, model, run_inputs)
         warnings += _method_run_warnings(plan)
-    homogeneity, excluded = _homogeneity(r, unit)
+    homogeneity, excluded = _homogeneity(r, unit, warnings)
     stability_section = r.section("stability", False)
     stability, time_unit, shelf, more = _stability(r, stability_section, unit, warnings)
     from ._stability import read_stability_plan
@@ -409,8 +409,8 @@ def _optional_unit(r: _Reader, data: dict[str, Any], key: str, table: str) -> st
     return text
 
 
-def _homogeneity(r: _Reader, unit: str) -> tuple[tuple[tuple[str, np.ndarray], ...] | None,
-                                                 tuple[Exclusion, ...]]:
+def _homogeneity(r: _Reader, unit: str, warnings: list[str]
+                 ) -> tuple[tuple[tuple[str, np.ndarray], ...] | None, tuple[Exclusion, ...]]:
     from ._studydata import read_homogeneity
 
     section = r.section("homogeneity", False)
@@ -418,8 +418,9 @@ def _homogeneity(r: _Reader, unit: str) -> tuple[tuple[tuple[str, np.ndarray], .
         return None, ()
     path = r.file(section, "data", "homogeneity")
     value_unit = _optional_unit(r, section, "value_unit", "homogeneity")
-    groups, excluded = read_homogeneity(path, _format(r, section, "homogeneity"), unit,
-                                        value_unit, str(path))
+    groups, excluded, slips = read_homogeneity(path, _format(r, section, "homogeneity"),
+                                               unit, value_unit, str(path))
+    warnings += slips
     shown = Location(file=str(path))
     if len(groups) < 2:
         raise CampaignError(f"expected at least 2 units with a value, found {len(groups)}",
@@ -447,6 +448,7 @@ def _stability(r: _Reader, section: dict[str, Any] | None, unit: str, warnings: 
                           _optional_unit(r, section, "value_unit", "stability"), time_unit,
                           _origin(r, section), str(path), date_unit=time_unit or shelf_unit)
     shelf = _shelf_life(r, section, data.time_unit)
+    warnings += data.slips
     if data.times.size < 3 or np.unique(data.times).size < 2:
         raise CampaignError(f"expected at least 3 points at 2 or more different times, found "
                             f"{data.times.size} at {np.unique(data.times).size}",

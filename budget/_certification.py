@@ -140,16 +140,21 @@ class Certification:
 
     def __repr__(self) -> str:
         from ._notebook import short
+        from ._unit_display import display_unit, spaced_unit
 
         value, expanded = short(self.certified_value, self.expanded_uncertainty)
-        return (f"<Certification {self.campaign.title!r}: ({value} ± {expanded}) "
-                f"{self.campaign.unit}, k = {self.coverage_factor:.3g}>")
+        unit = spaced_unit(display_unit(self.campaign.unit))
+        return (f"<Certification {self.campaign.title!r}: ({value} ± {expanded})"
+                f"{unit}, k = {self.coverage_factor:.3g}>")
 
     def summary(self, digits: int | None = None) -> str:
         """The terminal output of ``budget certify``, warnings included."""
         from ._table import render_certification
 
-        digits = self.campaign.model.settings.digits if digits is None else digits
+        from ._notebook import summary_digits
+
+        digits = self.campaign.model.settings.digits if digits is None else \
+            summary_digits(digits)
         return "\n".join([render_certification(self, digits),
                           *(f"warning: {w}" for w in self.warnings)])
 

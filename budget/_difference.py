@@ -120,8 +120,11 @@ class Difference:
     notes: tuple[str, ...]  # settings, conventions, seeds, measurands added or removed
 
     def __repr__(self) -> str:
+        from ._unit_display import display_unit, spaced_unit
+
         moved = "; ".join(f"{m.name}: u {m.before.combined_uncertainty:.3g} → "
-                          f"{m.after.combined_uncertainty:.3g} {m.unit}"
+                          f"{m.after.combined_uncertainty:.3g}"
+                          f"{spaced_unit(display_unit(m.unit))}"
                           for m in self.measurands)
         return f"<Difference {self.before.label} → {self.after.label}: {moved}>"
 
@@ -134,8 +137,9 @@ class Difference:
     def summary(self, digits: int = 2) -> str:
         """The terminal text of ``budget compare``."""
         from ._difference_view import render_difference
+        from ._notebook import summary_digits
 
-        return render_difference(self, digits)
+        return render_difference(self, summary_digits(digits))
 
     def _repr_html_(self) -> str:
         from ._formatting import format_percent

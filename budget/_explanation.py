@@ -84,8 +84,9 @@ class Explanation:
     def summary(self, digits: int = 2) -> str:
         """The plain-language answer of ``budget explain``."""
         from ._explanation_view import render
+        from ._notebook import summary_digits
 
-        return render((self,), digits)
+        return render((self,), summary_digits(digits))
 
     def _repr_html_(self) -> str:
         from ._notebook import explanation_html

@@ -108,17 +108,19 @@ class MeasurandSimulation:
 
     def __repr__(self) -> str:
         from ._notebook import short
+        from ._unit_display import display_unit, spaced_unit
 
         mean, u = short(self.mean, self.standard_uncertainty, 3)
+        unit = spaced_unit(display_unit(self.unit))
         verdict = "" if self.validation is None else (
             ", GUM validated" if self.validation.validated else ", GUM NOT validated")
-        return (f"<MeasurandSimulation {self.name}: {self.trials:,} trials, y = {mean} "
-                f"{self.unit}, u = {u}{verdict}>")
+        return (f"<MeasurandSimulation {self.name}: {self.trials:,} trials, y = {mean}"
+                f"{unit}, u = {u}{verdict}>")
 
     def summary(self, digits: int = 2) -> str:
-        from ._notebook import simulation_text
+        from ._notebook import simulation_text, summary_digits
 
-        return simulation_text(self, digits)
+        return simulation_text(self, summary_digits(digits))
 
     def _repr_html_(self) -> str:
         from ._notebook import simulation_html
@@ -1022,8 +1024,10 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, 
         correlation = streamed.correlation
     else:
         assert samples is not None
-        correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
+        with np.errstate(invalid="ignore", divide="ignore"):  # a constant measurand: 0/0
+            correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
         correlation = np.nan_to_num(np.atleast_2d(correlation), nan=0.0)
+        np.fill_diagonal(correlation, 1.0)  # as the streamed run and the GUM give it
     results = tuple(
         _one(model, budget, k, None if samples is None else samples[k], coverage, digits,
              moments[k], [block[k] for block in kept] if kept and not bad else None,

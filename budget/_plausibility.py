@@ -154,6 +154,29 @@ def estimate_warnings(name: str, values: np.ndarray, estimate: float, unit: str,
     return found
 
 
+def study_value_warnings(values: np.ndarray, rows: Sequence[int], source: str, unit: str,
+                         what: str, factor: float = 3.0) -> list[str]:
+    """Values of a homogeneity or stability study further than ``factor`` from the study's
+    median: one material in one unit, so a decimal or unit slip in a single cell."""
+    median = float(np.median(values)) if values.size else 0.0
+    if median == 0 or not math.isfinite(median):
+        return []
+    with np.errstate(all="ignore"):
+        ratio = values / median
+        off = (ratio <= 0) | (ratio > factor) | (ratio < 1.0 / factor)
+    found = []
+    for index in np.flatnonzero(off)[:3]:
+        head = (f"plausibility: {source}:{rows[int(index)]}: column 'value': "
+                f"{values[index]:.6g} {unit}")
+        if ratio[index] <= 0:
+            what_sign = "is zero, unlike" if ratio[index] == 0 else "has the opposite sign of"
+            found.append(f"{head} {what_sign} the median {median:.6g} {unit} of the {what}")
+            continue
+        found.append(f"{head} differs from the median {median:.6g} {unit} of the {what} by "
+                     f"more than a factor {factor:g} ({_slip(float(ratio[index]))})")
+    return found
+
+
 def _slip(ratio: float) -> str:
     if not math.isfinite(ratio):
         return "an estimate of 0 to working precision"

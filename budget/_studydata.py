@@ -104,8 +104,11 @@ def read_runs(path: Path, fmt: FileFormat, model: Any, shown: str) -> Runs:
 
 def read_homogeneity(path: Path, fmt: FileFormat, unit: str, value_unit: str | None,
                      shown: str) -> tuple[tuple[tuple[str, np.ndarray], ...],
-                                          tuple[Exclusion, ...]]:
-    """Values per unit (in the certified value's unit); rows with a missing value left out."""
+                                          tuple[Exclusion, ...], list[str]]:
+    """Values per unit (in the certified value's unit); rows with a missing value left out;
+    plausibility warnings for single values far from the others (a slip in one cell)."""
+    from ._plausibility import study_value_warnings
+
     table = read_table(path, fmt, shown=shown)
     labels = table.column("unit").cells
     values = column_in(table, "value", unit, declared=value_unit, allow_missing=True)
@@ -119,7 +122,10 @@ def read_homogeneity(path: Path, fmt: FileFormat, unit: str, value_unit: str | N
             excluded.append(_missing(table, index, "value", "homogeneity replicate"))
             continue
         groups.setdefault(label.strip(), []).append(float(value))
-    return tuple((k, np.array(v)) for k, v in groups.items()), tuple(excluded)
+    kept = ~np.isnan(values)
+    slips = study_value_warnings(values[kept], np.asarray(table.rows)[kept].tolist(),
+                                 table.source, unit, "homogeneity study")
+    return tuple((k, np.array(v)) for k, v in groups.items()), tuple(excluded), slips
 
 
 def _missing(table: Table, index: int, column: str, what: str) -> Exclusion:
@@ -136,6 +142,7 @@ class StabilityData:
     time_unit: str
     excluded: tuple[Exclusion, ...]
     dates: bool
+    slips: tuple[str, ...] = ()  # plausibility: single values far from the others
 
 
 def read_stability(path: Path, fmt: FileFormat, unit: str, value_unit: str | None,
@@ -157,8 +164,12 @@ def read_stability(path: Path, fmt: FileFormat, unit: str, value_unit: str | Non
             if np.isnan(array[index]) and keep[index]:
                 keep[index] = False
                 excluded.append(_missing(table, index, column, "stability point"))
+    from ._plausibility import study_value_warnings
+
+    slips = study_value_warnings(values[keep], np.asarray(table.rows)[keep].tolist(),
+                                 table.source, unit, "stability study")
     return StabilityData(times=times[keep], values=values[keep], time_unit=used_unit,
-                         excluded=tuple(excluded), dates=dated)
+                         excluded=tuple(excluded), dates=dated, slips=tuple(slips))
 
 
 def _times(table: Table, name: str, time_unit: str | None, origin: datetime | None,

@@ -262,3 +262,27 @@ def test_stability_trend_agrees_with_scipy_for_scaled_times() -> None:
     assert scaled.slope * 1e-250 == pytest.approx(expected.slope, rel=1e-12)
     assert scaled.u_slope * 1e-250 == pytest.approx(expected.stderr, rel=1e-12)
     assert scaled.u_lts == pytest.approx(expected.stderr * 36, rel=1e-12)
+
+
+@pytest.mark.parametrize(("edit", "warning"), [
+    # one replicate typed without its decimal point: the certificate read (100 ± 110) %
+    # with no word about the cause
+    (_edit("homogeneity.csv", "99.9854", "999.854"),
+     "homogeneity.csv:2: column 'value': 999.854 % differs from the median 99.9867 % of the "
+     "homogeneity study by more than a factor 3 (a factor 10^1: a unit slip?)"),
+    (_edit("stability.csv", "99.9846", "999.846"),
+     "stability.csv:2: column 'value': 999.846 % differs from the median 99.9871 % of the "
+     "stability study by more than a factor 3 (a factor 10^1: a unit slip?)")])
+def test_a_slipped_study_value_is_named_with_its_row(cli, tmp_path: Path, edit: Edit,
+                                                     warning: str) -> None:
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    edit(folder)
+    code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
+    assert code == 0
+    assert f"warning: plausibility: {folder}/{warning}\n" in stderr
+
+
+def test_the_demo_studies_raise_no_slip_warning(cli) -> None:
+    code, stdout, stderr = cli("certify", "--trials", "0", str(DEMO / "campaign.toml"))
+    assert code == 0 and "from the median" not in stderr

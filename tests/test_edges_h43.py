@@ -456,3 +456,82 @@ def test_certify_folder_checks_its_arguments(keywords: dict[str, Any], message: 
     arguments = {"folder": "models/vics-as-25a", **keywords}
     with pytest.raises(BudgetError, match=re.escape(message)):
         certify_folder(**arguments)
+
+
+# summary(digits) of every result, as --digits: a whole number from 1 to 6
+
+@pytest.mark.parametrize("digits", [0, -1, "2", 2.5, None, True, 7])
+def test_summary_digits_are_checked(naoh: budget.Model, digits: Any) -> None:
+    # 0 was "Format specifier missing precision", "2" a TypeError from the formatter
+    result = budget.evaluate(naoh, trials=1000, seed=1)
+    assert result.simulation is not None
+    shown = [result.budget, result.budget.measurands[0], result.simulation,
+             result.simulation.measurands[0], budget.explain(result)[0],
+             budget.compare_budgets(naoh, naoh)]
+    for item in shown:
+        with pytest.raises(BudgetError, match="summary\\(\\): digits: expected a whole number "
+                                              "of significant digits from 1 to 6"):
+            item.summary(digits)
+    assert all(item.summary(3) for item in shown)
+
+
+def test_certification_summary_digits_are_checked() -> None:
+    cert = budget.certify(budget.load_campaign("models/vics-as-25a/campaign.toml"), trials=0)
+    with pytest.raises(BudgetError, match="summary\\(\\): digits: expected a whole number"):
+        cert.summary(0)
+    assert cert.summary() == cert.summary(None)
+
+
+def test_a_constant_measurand_leaves_no_numpy_warning_and_a_unit_diagonal() -> None:
+    import warnings
+
+    model = budget.parse_model('title = "t"\n[measurands.y]\nequation = "a"\n'
+                               '[measurands.z]\nequation = "3"\n'
+                               '[inputs.a]\nvalue = 1\nu = 0.1\n', "const.toml")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # numpy's "invalid value encountered in divide"
+        kept = budget.simulate(model, trials=1000, seed=1)
+    streamed = budget.simulate(model, trials=1000, seed=1, keep_samples=False)
+    gum = budget.propagate(model)
+    assert kept.output_correlation == streamed.output_correlation == gum.output_correlation
+    assert kept.output_correlation == ((1.0, 0.0), (0.0, 1.0))
+
+
+def test_reprs_write_no_unit_1_after_a_number() -> None:
+    # "y = 1.00 1" reads as two numbers; the tables and reports already leave "1" out
+    model = budget.parse_model('title = "t"\n[measurands.y]\nequation = "a"\n'
+                               '[inputs.a]\nvalue = 1\nu = 0.1\n', "ratio.toml")
+    result = budget.evaluate(model, trials=1000, seed=1)
+    assert result.simulation is not None
+    assert repr(result.budget.measurands[0]).startswith("<MeasurandBudget y: y = 1.00, u_c")
+    assert re.search(r", y = [0-9.]+, u = ", repr(result.simulation.measurands[0]))
+    assert repr(budget.compare_budgets(model, model)).endswith("u 0.1 → 0.1>")
+    ugg = budget.parse_model('title = "t"\n[measurands.y]\nequation = "a"\nunit = "ug/g"\n'
+                             '[inputs.a]\nvalue = 1\nu = 0.1\nunit = "ug/g"\n', "ugg.toml")
+    assert "y = 1.00 µg/g," in repr(budget.propagate(ugg).measurands[0])
+
+
+def test_scaling_an_exact_input_is_refused_not_recorded() -> None:
+    # factor=2 on an exact input changed nothing but was recorded as a what-if
+    model = budget.load_model(PURITY)
+    assert model.input("t_air").standard_uncertainty == 0.0
+    with pytest.raises(BudgetError, match=re.escape(
+            "<what-if>: [inputs.t_air] factor: expected an input with an uncertainty to "
+            "scale, found an exact one (× 2 would change nothing")):
+        model.with_uncertainty("t_air", factor=2)
+    assert model.with_uncertainty("t_air", factor=1).input("t_air").standard_uncertainty == 0
+
+
+def test_joint_lookups_name_what_is_there(naoh: budget.Model) -> None:
+    # a bare KeyError ('z', 'c_NaOH') before
+    joint = budget.join([budget.Member(name="a", model=naoh),
+                         budget.Member(name="b", model=naoh)],
+                        [("M", [("a", "M_KHP"), ("b", "M_KHP")])])
+    assert joint.measurand_index("b", "c_NaOH") == 1 and joint.input_name("b", "M_KHP") == "M"
+    with pytest.raises(KeyError, match=re.escape(
+            "no measurand 'c_naoh' of member 'a' (did you mean 'a:c_NaOH'?); expected one "
+            "of a:c_NaOH, b:c_NaOH")) as caught:
+        joint.measurand_index("a", "c_naoh")
+    assert isinstance(caught.value, BudgetError)
+    with pytest.raises(BudgetError, match="no input 'V_t' of member 'a'"):
+        joint.input_name("a", "V_t")
