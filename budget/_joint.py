@@ -31,7 +31,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from . import _algebra as alg
-from ._errors import InputError, Location, did_you_mean
+from ._errors import InputError, Location, NotFoundError, did_you_mean
 from ._limits import shorten
 from ._model import Input, Measurand, Model
 from ._together import Together
@@ -58,11 +58,25 @@ class Joint:
     shared: tuple[tuple[str, tuple[tuple[str, str], ...]], ...]
 
     def input_name(self, member: str, name: str) -> str:
-        return dict(self.inputs)[(member, name)]
+        """The joint model's name of ``member``'s input ``name`` (a ``KeyError`` listing
+        the pairs when there is none)."""
+        return _placed(self.inputs, member, name, "input")
 
     def measurand_index(self, member: str, name: str) -> int:
-        joint = dict(self.measurands)[(member, name)]
+        joint = _placed(self.measurands, member, name, "measurand")
         return [m.name for m in self.model.measurands].index(joint)
+
+
+def _placed(pairs: tuple[tuple[tuple[str, str], str], ...], member: str, name: str,
+            what: str) -> str:
+    found = dict(pairs).get((member, name))
+    if found is None:
+        known = [f"{m}:{n}" for (m, n), _ in pairs]
+        raise NotFoundError(f"no {what} {shorten(repr(name))} of member "
+                            f"{shorten(repr(member))}"
+                            f"{did_you_mean(f'{member}:{name}', known)}; expected one of "
+                            f"{', '.join(known)}")
+    return found
 
 
 def joint_name(member: str, name: str) -> str:

@@ -75,7 +75,12 @@ def input_with_uncertainty(item: Any, *, u: float | None = None,
                              "exact one (give it a distribution with with_distribution)",
                              _where(item, "u"))
         factor = u / item.standard_uncertainty
-    return scaled_input(item, _number(item, "factor", factor, width=True))
+    factor = _number(item, "factor", factor, width=True)
+    if item.standard_uncertainty == 0.0 and factor != 1.0:  # × F of nothing: still exact
+        raise InputError(f"expected an input with an uncertainty to scale, found an exact "
+                         f"one (× {factor:g} would change nothing; give it a distribution "
+                         f"with with_distribution)", _where(item, "factor"))
+    return scaled_input(item, factor)
 
 
 def input_with_value(item: Any, value: float) -> Any:

@@ -509,3 +509,29 @@ def test_reprs_write_no_unit_1_after_a_number() -> None:
     ugg = budget.parse_model('title = "t"\n[measurands.y]\nequation = "a"\nunit = "ug/g"\n'
                              '[inputs.a]\nvalue = 1\nu = 0.1\nunit = "ug/g"\n', "ugg.toml")
     assert "y = 1.00 µg/g," in repr(budget.propagate(ugg).measurands[0])
+
+
+def test_scaling_an_exact_input_is_refused_not_recorded() -> None:
+    # factor=2 on an exact input changed nothing but was recorded as a what-if
+    model = budget.load_model(PURITY)
+    assert model.input("t_air").standard_uncertainty == 0.0
+    with pytest.raises(BudgetError, match=re.escape(
+            "<what-if>: [inputs.t_air] factor: expected an input with an uncertainty to "
+            "scale, found an exact one (× 2 would change nothing")):
+        model.with_uncertainty("t_air", factor=2)
+    assert model.with_uncertainty("t_air", factor=1).input("t_air").standard_uncertainty == 0
+
+
+def test_joint_lookups_name_what_is_there(naoh: budget.Model) -> None:
+    # a bare KeyError ('z', 'c_NaOH') before
+    joint = budget.join([budget.Member(name="a", model=naoh),
+                         budget.Member(name="b", model=naoh)],
+                        [("M", [("a", "M_KHP"), ("b", "M_KHP")])])
+    assert joint.measurand_index("b", "c_NaOH") == 1 and joint.input_name("b", "M_KHP") == "M"
+    with pytest.raises(KeyError, match=re.escape(
+            "no measurand 'c_naoh' of member 'a' (did you mean 'a:c_NaOH'?); expected one "
+            "of a:c_NaOH, b:c_NaOH")) as caught:
+        joint.measurand_index("a", "c_naoh")
+    assert isinstance(caught.value, BudgetError)
+    with pytest.raises(BudgetError, match="no input 'V_t' of member 'a'"):
+        joint.input_name("a", "V_t")
