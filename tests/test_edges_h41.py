@@ -247,3 +247,27 @@ def test_check_refuses_what_run_refuses_at_the_estimates(cli, tmp_path, equation
                                                          "run" else []))
         assert code == 1 and stdout == ""
         assert stderr == f"error: {path}:3: [measurands.y] equation: {found}\n"
+
+
+@pytest.mark.parametrize("statement, key, found", [
+    ('distribution = "rectangular"\nlower = -1.7e308\nupper = 1.7e308', "upper",
+     "x = 0, a = 1.7e+308"),
+    ('value = 0\ndistribution = "rectangular"\nhalf_width = 1.7e308', "half_width",
+     "x = 0, a = 1.7e+308"),
+    ('value = 0\ndistribution = "rectangular"\nu = 1.5e308', "u", "x = 0, a = inf"),
+    ('value = 1e308\ndistribution = "triangular"\nhalf_width = 1e308', "half_width",
+     "x = 1e+308, a = 1e+308"),
+])
+def test_bounded_limits_beyond_the_largest_double(cli, tmp_path, statement, key, found):
+    # the width of [-1.7e308, 1.7e308] overflowed: "error: Rectangular: expected half_width
+    # ≥ 0 and finite, found inf" without file, table or key; a half-width of 1.7e308 was
+    # read and every Monte Carlo draw overflowed ("the distributions reach outside the
+    # equations' domain" for the equation y = a)
+    path = tmp_path / "wide.toml"
+    path.write_text(f'title = "wide"\n[measurands.y]\nequation = "a"\n[inputs.a]\n{statement}\n')
+    line = 5 + statement.split("\n").index(next(s for s in statement.split("\n")
+                                                 if s.startswith(key + " ")))
+    code, stdout, stderr = cli("check", str(path))
+    assert code == 1 and stdout == ""
+    assert stderr == (f"error: {path}:{line}: [inputs.a] {key}: expected limits x ± a and a "
+                      f"width 2a within ±1.8e308 (limits: docs/limits.md), found {found}\n")
