@@ -104,6 +104,19 @@ CASES: dict[str, tuple[Edit, str]] = {
         "campaign.toml: [method] expected the result of method 'weight titration' with a "
         "standard uncertainty of at most 1e+150 % (its square enters the covariance of the "
         "methods; limits: docs/limits.md), found 4.99914e+199 %"),
+    # an unclosed quote in a long file: Python's csv message leaked, at the line where
+    # the reader gave up (8814) instead of where the quote opened
+    "unclosed_quote_in_a_long_file": (
+        _write("homogeneity.csv", 'unit,value\n"U-1,99.98\n'
+               + "".join(f"U-{i % 10},99.98\n" for i in range(20000))),
+        "homogeneity.csv:2: expected cells of at most 131072 characters, found a longer one "
+        "in the row that starts here (a quote \" without its closing quote, for one, makes "
+        "the rest of the file one cell)"),
+    # line ends of Excel's "CSV (Macintosh)": Python's csv message leaked
+    "lone_carriage_returns_are_line_ends": (
+        _write("homogeneity.csv", "unit,value\rA,99.98\rA,abc\rB,99.97\rB,99.99\r"),
+        "homogeneity.csv:3: column 'value': expected a finite number with a decimal point, "
+        "found 'abc'"),
     "characterization_with_one_run": (
         _keep_lines("determinations.csv", 2),
         "campaign.toml:13: [characterization] runs: expected at least 2 runs in "
