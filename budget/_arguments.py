@@ -19,7 +19,7 @@ import numpy as np
 from ._errors import InputError, Location
 from ._limits import MAX_TRIALS, check_seed, shorten
 
-__all__ = ["whole", "real", "check_instance", "check_positive", "check_model",
+__all__ = ["whole", "real", "check_count", "check_instance", "check_positive", "check_model",
            "check_trials_argument", "check_seed_argument", "check_workers", "check_progress",
            "check_flag", "check_budget_of"]
 
@@ -79,6 +79,15 @@ def check_positive(value: Any, function: str, argument: str) -> float:
     if number is None or not (math.isfinite(number) and number > 0):
         raise InputError(f"expected a positive finite number, found {_found(value)}",
                          Location(file=f"{function}()", key=argument))
+    return number
+
+
+def check_count(value: Any, function: str, argument: str, low: int, high: int) -> int:
+    """A whole number from ``low`` to ``high``."""
+    number = whole(value)
+    if number is None or not low <= number <= high:
+        raise InputError(f"expected a whole number from {low:,} to {high:,}, found "
+                         f"{_found(value)}", Location(file=f"{function}()", key=argument))
     return number
 
 

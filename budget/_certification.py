@@ -313,6 +313,10 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
     from ._arguments import check_instance
 
     check_instance(campaign, Campaign, "certify", "campaign")
+    if reported_interval is not None:
+        from ._model import check_reported
+
+        check_reported(reported_interval, Location(file="certify()", key="reported_interval"))
     warnings: list[str] = []
     days = _run_dates(campaign)
     warnings.extend(date_warnings(campaign.model.certificates, days,

@@ -112,14 +112,19 @@ class Explanation:
         return measurand
 
 
+MAX_SOBOL_TRIALS = 10_000_000  # draws per matrix of the variance-based indices (memory)
+
+
 def explain(result: Result, *, target: float | None = None, leading: int = 3,
             sobol_trials: int = 1 << 15) -> tuple[Explanation, ...]:
     """One explanation per measurand of an evaluated model."""
     from ._analysis import Result
-    from ._arguments import check_instance, check_positive
+    from ._arguments import check_count, check_instance, check_positive
 
     check_instance(result, Result, "explain", "result")
     target = None if target is None else check_positive(target, "explain", "target")
+    leading = check_count(leading, "explain", "leading", 1, 1000)
+    sobol_trials = check_count(sobol_trials, "explain", "sobol_trials", 2, MAX_SOBOL_TRIALS)
     model = result.model
     coverage = result.budget.measurands[0].coverage_probability
     made = []

@@ -535,3 +535,26 @@ def test_joint_lookups_name_what_is_there(naoh: budget.Model) -> None:
     assert isinstance(caught.value, BudgetError)
     with pytest.raises(BudgetError, match="no input 'V_t' of member 'a'"):
         joint.input_name("a", "V_t")
+
+
+def test_certify_checks_the_reported_interval_argument() -> None:
+    # "bogus" with Monte Carlo trials stated the shortest interval under the name "bogus"
+    campaign = budget.load_campaign("models/vics-as-25a/campaign.toml")
+    with pytest.raises(BudgetError, match=re.escape(
+            "certify(): reported_interval: expected one of gum, monte_carlo, "
+            "monte_carlo_shortest, found 'bogus'")):
+        budget.certify(campaign, trials=1000, seed=1, reported_interval="bogus")
+
+
+@pytest.mark.parametrize("keywords, message", [
+    ({"leading": "3"}, "explain(): leading: expected a whole number from 1 to 1,000, found "
+                       "str '3'"),
+    ({"sobol_trials": 10 ** 9}, "explain(): sobol_trials: expected a whole number from 2 to "
+                                "10,000,000, found int 1000000000"),
+    ({"sobol_trials": 1000.0}, "explain(): sobol_trials: expected a whole number")])
+def test_explain_counts_are_checked(naoh: budget.Model, keywords: dict[str, Any],
+                                    message: str) -> None:
+    # leading="3" was a TypeError in slicing; 10**9 draws would exhaust memory
+    result = budget.evaluate(naoh, trials=1000, seed=1)
+    with pytest.raises(BudgetError, match=re.escape(message)):
+        budget.explain(result, **keywords)
