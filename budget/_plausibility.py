@@ -15,7 +15,10 @@ The guards:
 * homogeneity or stability data whose mean differs from the characterization value by
   more than ``CONSISTENCY`` combined standard uncertainties (data in another unit, or
   of another material);
-* a shelf life longer than the span of the stability study (extrapolation).
+* a shelf life longer than the span of the stability study (extrapolation);
+* a unit symbol that pint reads as a unit of the same kind but a very different size
+  than a laboratory means by it: ``gr`` is the grain (64.8 mg), not the gram; ``Mg``,
+  ``ML``, ``Mmol``, ``MM`` and ``Ms`` are mega-, not milli-units; ``ppt`` is a picopint.
 """
 
 from __future__ import annotations
@@ -46,13 +49,39 @@ _MASS_RATIOS = {"1", "", "%", "percent", "ppm", "ppb", "permille", "g/g", "kg/kg
                 "cg/g", "mg/mg", "dimensionless"}
 
 
+# unit symbols that parse, in the dimension meant, to a unit of another size than the
+# one a laboratory means: symbol -> (what pint reads, what was probably meant)
+_LOOKALIKE_UNITS = {
+    "gr": ("grain (64.8 mg)", "g"), "Mg": ("megagram (10⁶ g)", "mg"),
+    "ML": ("megalitre (10⁶ L)", "mL"), "Ml": ("megalitre (10⁶ L)", "mL"),
+    "Mmol": ("megamole", "mmol"), "MM": ("megamolar", "mM"),
+    "Ms": ("megasecond", "ms"), "ppt": ("picopint, a volume", "ppm or 1e-3"),
+}
+_UNIT_WORDS = re.compile(r"[^\W\d_]+")
+
+
 def model_warnings(model: Any) -> tuple[str, ...]:
     """The guards that need only the model: air_density at the estimates, the unit."""
     values = {i.name: i.estimate for i in model.inputs}
     found = [*air_density_warnings(model, values, "at the model's estimates")]
     found += [w for m in model.measurands
               if (w := mass_fraction_warning(m, model)) is not None]
+    found += lookalike_unit_warnings(
+        [(f"input '{i.name}'", i.unit) for i in model.inputs]
+        + [(f"measurand '{m.name}'", m.unit) for m in model.measurands])
     return tuple(found)
+
+
+def lookalike_unit_warnings(units: Sequence[tuple[str, str]]) -> list[str]:
+    """A warning for each unit string with a symbol of ``_LOOKALIKE_UNITS``."""
+    found = []
+    for owner, text in units:
+        for word in dict.fromkeys(_UNIT_WORDS.findall(text or "")):
+            if word in _LOOKALIKE_UNITS:
+                meaning, meant = _LOOKALIKE_UNITS[word]
+                found.append(f"plausibility: {owner} has the unit '{text}', where '{word}' "
+                             f"is the {meaning}; if '{meant}' was meant, it is a unit slip")
+    return found
 
 
 def _calls(model: Any) -> list[tuple[Any, ...]]:

@@ -271,3 +271,26 @@ def test_bounded_limits_beyond_the_largest_double(cli, tmp_path, statement, key,
     assert code == 1 and stdout == ""
     assert stderr == (f"error: {path}:{line}: [inputs.a] {key}: expected limits x ± a and a "
                       f"width 2a within ±1.8e308 (limits: docs/limits.md), found {found}\n")
+
+
+@pytest.mark.parametrize("unit, word, meaning, meant", [
+    ("gr", "gr", "grain (64.8 mg)", "g"),  # pint's grain: 64.79891 mg (NIST SP 811 B.8)
+    ("Mg", "Mg", "megagram (10⁶ g)", "mg"),
+    ("Mmol/L", "Mmol", "megamole", "mmol"),
+])
+def test_a_look_alike_unit_is_named(cli, tmp_path, unit, word, meaning, meant):
+    # 'gr' for gram was silently read as grains (a factor 0.0648); 'Mg' for mg as 10⁹ mg
+    path = tmp_path / "slip.toml"
+    path.write_text(_PRODUCT.replace("value = 2.0\n", f'value = 2.0\nunit = "{unit}"\n')
+                    .replace('equation = "a * b"', f'equation = "a * b"\nunit = "{unit}"'))
+    code, stdout, stderr = cli("check", str(path))
+    assert code == 0, stderr
+    assert stderr.splitlines() == [
+        f"warning: plausibility: {owner} has the unit '{unit}', where '{word}' is the "
+        f"{meaning}; if '{meant}' was meant, it is a unit slip"
+        for owner in ("input 'a'", "measurand 'y'")]
+    code, stdout, stderr = cli("check", str(path), "--strict")
+    assert code == 3
+    path.write_text(path.read_text().replace(f'"{unit}"', f'"{unit.replace(word, meant)}"'))
+    code, stdout, stderr = cli("check", str(path))
+    assert code == 0 and stderr == ""
