@@ -117,6 +117,18 @@ CASES: dict[str, tuple[Edit, str]] = {
         _write("homogeneity.csv", "unit,value\rA,99.98\rA,abc\rB,99.97\rB,99.99\r"),
         "homogeneity.csv:3: column 'value': expected a finite number with a decimal point, "
         "found 'abc'"),
+    # a 'date' column of spreadsheet day numbers was read as elapsed months (a slope 30
+    # times too small, silently); an impossible date was "expected a finite number"
+    "spreadsheet_day_numbers_as_dates": (
+        _write("stability.csv", "date,value\n45662,99.985\n45843,99.986\n46027,99.987\n"),
+        "stability.csv:2: column 'date': expected a date (ISO 8601 such as 2025-06-30, or "
+        "31.12.2025), found '45662' (a spreadsheet's day number? format the cells as dates; "
+        "elapsed times go in a column 'time')"),
+    "impossible_date": (
+        _write("stability.csv", "date,value\n2025-01-05,99.985\n2025-02-30,99.986\n"
+               "2026-01-05,99.987\n"),
+        "stability.csv:3: column 'date': expected a date (ISO 8601 such as 2025-06-30, or "
+        "31.12.2025), found '2025-02-30'"),
     "characterization_with_one_run": (
         _keep_lines("determinations.csv", 2),
         "campaign.toml:13: [characterization] runs: expected at least 2 runs in "
