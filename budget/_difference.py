@@ -389,15 +389,18 @@ def _input_change(name: str, a: Term | None, b: Term | None, var_a: float,
 
 
 def _what_changed(a: Term, b: Term) -> tuple[str, ...]:
+    from ._unit_display import display_unit, spaced_unit
+
     found = []
+    unit = spaced_unit(display_unit(b.unit))  # nothing after a number for a ratio ('1')
     if a.unit != b.unit:
         found.append(f"unit {a.unit} → {b.unit}")
     if not math.isclose(a.estimate, b.estimate, rel_tol=1e-12, abs_tol=0.0):
-        found.append(f"value {a.estimate:.10g} → {b.estimate:.10g} {b.unit}")
+        found.append(f"value {a.estimate:.10g} → {b.estimate:.10g}{unit}")
     u_a, u_b = a.standard_uncertainty, b.standard_uncertainty
     if not math.isclose(u_a, u_b, rel_tol=1e-12, abs_tol=0.0):
         ratio = f" (× {u_b / u_a:.3g})" if u_a > 0 and a.unit == b.unit else ""
-        found.append(f"u {u_a:.4g} → {u_b:.4g} {b.unit}{ratio}")
+        found.append(f"u {u_a:.4g} → {u_b:.4g}{unit}{ratio}")
     if a.distribution != b.distribution:
         found.append(f"distribution {a.distribution} → {b.distribution}")
     if a.dof != b.dof:

@@ -558,3 +558,13 @@ def test_explain_counts_are_checked(naoh: budget.Model, keywords: dict[str, Any]
     result = budget.evaluate(naoh, trials=1000, seed=1)
     with pytest.raises(BudgetError, match=re.escape(message)):
         budget.explain(result, **keywords)
+
+
+def test_long_names_wrap_in_the_comparison_and_explanation_tables() -> None:
+    model = budget.parse_model(LONG_MODEL, "long.toml")
+    difference = budget.compare_budgets(model, model.with_uncertainty(LONG, factor=0.5))
+    explained = budget.explain(budget.evaluate(model, trials=1000, seed=1))[0]
+    for page in (difference._repr_html_(), explained._repr_html_()):
+        assert f'<td class="long">{LONG}</td>' in page and "td.long" in page
+    # and the dimensionless unit is not written after a number in "what changed"
+    assert "u 0.1 → 0.05 (× 0.5)" in difference.summary()
