@@ -336,6 +336,9 @@ def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | N
               progress: _Progress, reported_interval: str | None = None) -> Any:
     from ._analysis import evaluate
 
+    if adaptive and trials is not None:  # which one was meant cannot be guessed
+        raise click.UsageError("--adaptive chooses the number of trials itself: give either "
+                               f"--adaptive or --trials, found both (--trials {trials})")
     model = _read_model(model_file)
     return evaluate(model, coverage=coverage, trials=trials, adaptive=adaptive, seed=seed,
                     digits=digits, second_order=second_order, progress=progress,

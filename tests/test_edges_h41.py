@@ -294,3 +294,14 @@ def test_a_look_alike_unit_is_named(cli, tmp_path, unit, word, meaning, meant):
     path.write_text(path.read_text().replace(f'"{unit}"', f'"{unit.replace(word, meant)}"'))
     code, stdout, stderr = cli("check", str(path))
     assert code == 0 and stderr == ""
+
+
+@pytest.mark.parametrize("command", ["run", "explain"])
+def test_adaptive_and_trials_together_are_a_bad_command_line(cli, tmp_path, command):
+    # --adaptive --trials 0 ran the adaptive procedure: "0 = none" silently overruled
+    path = tmp_path / "product.toml"
+    path.write_text(_PRODUCT)
+    code, stdout, stderr = cli(command, str(path), "--adaptive", "--trials", "0")
+    assert code == 2 and stdout == ""
+    assert stderr.endswith("Error: --adaptive chooses the number of trials itself: give "
+                           "either --adaptive or --trials, found both (--trials 0)\n")
