@@ -591,3 +591,13 @@ def test_a_t_distribution_with_infinite_dof_is_refused(naoh: budget.Model) -> No
         D.StudentT(18.64, 0.01, float("inf"))
     changed = naoh.with_distribution("V_T", D.StudentT(18.64, 0.01, 1e6))
     assert np.isfinite(budget.simulate(changed, trials=1000, seed=1).measurands[0].mean)
+
+
+@pytest.mark.parametrize("function", ["batch_rows", "batch_document"])
+def test_batch_documents_take_a_batch(function: str) -> None:
+    import budget.batch
+
+    with pytest.raises(BudgetError, match=re.escape(
+            f"{function}(): batch: expected a budget.batch.Batch "
+            "(budget.batch.certify_folder(folder) gives one), found str 'x'")):
+        getattr(budget.batch, function)("x")
