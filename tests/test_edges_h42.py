@@ -311,3 +311,39 @@ def test_a_slipped_study_value_is_named_with_its_row(cli, tmp_path: Path, edit: 
 def test_the_demo_studies_raise_no_slip_warning(cli) -> None:
     code, stdout, stderr = cli("certify", "--trials", "0", str(DEMO / "campaign.toml"))
     assert code == 0 and "from the median" not in stderr
+
+
+def test_demo_refuses_a_file_where_it_needs_a_folder_before_copying(cli, tmp_path: Path
+                                                                    ) -> None:
+    # before: 9 files copied, then "found File exists", and the half-copied demo stayed
+    target = tmp_path / "demo"
+    target.mkdir()
+    (target / "velmora").write_text("", encoding="utf-8")
+    code, stdout, stderr = cli("demo", str(target))
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {target}: expected a folder 'velmora' for the demo files, "
+                      "found a file of that name; nothing was copied\n")
+    assert sorted(p.name for p in target.rglob("*")) == ["velmora"]
+
+
+def test_demo_removes_what_it_copied_when_a_copy_fails(cli, tmp_path: Path,
+                                                       monkeypatch: pytest.MonkeyPatch) -> None:
+    import budget._demo_files as demo_files
+
+    copied = []
+    copy = shutil.copyfileobj
+
+    def failing(incoming: object, outgoing: object) -> None:  # the 12th file fails
+        copied.append(outgoing)
+        if len(copied) == 12:
+            raise OSError(28, "No space left on device")
+        copy(incoming, outgoing)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(demo_files.shutil, "copyfileobj", failing)
+    target = tmp_path / "new" / "demo"
+    target.parent.mkdir()
+    code, stdout, stderr = cli("demo", str(target))
+    assert code == 1
+    assert stderr == (f"error: {target}: expected a folder that can be written, found No "
+                      "space left on device\n")
+    assert len(copied) == 12 and list(target.parent.iterdir()) == []
