@@ -621,3 +621,12 @@ def test_atomic_weight_sum_takes_numbers_only() -> None:
     with pytest.raises(BudgetError, match=re.escape(
             "AtomicWeightSum: expected numbers, found ('1', 12.0, 0.1, 1.0)")):
         D.AtomicWeightSum(("1",), (12.0,), (0.1,))  # type: ignore[arg-type]
+
+
+@pytest.mark.parametrize("function", [budget.evaluate, budget.simulate])
+def test_trials_and_adaptive_together_are_refused(naoh: budget.Model, function: Any) -> None:
+    # trials=1000 was ignored without a word when adaptive=True, as --trials with --adaptive
+    # is refused on the command line
+    with pytest.raises(BudgetError, match=re.escape(
+            "trials: expected either trials=… or adaptive=True, found both (trials = 1000)")):
+        function(naoh, trials=1000, adaptive=True, seed=1)
