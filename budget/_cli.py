@@ -107,6 +107,25 @@ def _read_model(model_file: str) -> Any:
     return parse_model(data, name="<stdin>")
 
 
+_SUFFIXES = {".csv": "--csv", ".xlsx": "--xlsx", ".html": "--html", ".htm": "--html"}
+
+
+def _check_suffixes(html: str | None = None, csv: str | None = None,
+                    xlsx: str | None = None) -> None:
+    """Refuse a workbook named as text or text named as a workbook (--xlsx b.csv, --csv
+    b.xlsx: a spreadsheet opens the one as text, the other not at all); other suffixes
+    are the user's choice."""
+    for option, name in (("--html", html), ("--csv", csv), ("--xlsx", xlsx)):
+        suffix = os.path.splitext(name or "")[1]
+        owner = _SUFFIXES.get(suffix.lower())
+        if name and owner not in (None, option) and "--xlsx" in (option, owner):
+            raise click.UsageError(f"{option} writes {_KINDS[option]}: expected a file name "
+                                   f"without the suffix {suffix} of {owner}, found {name!r}")
+
+
+_KINDS = {"--html": "an HTML page", "--csv": "a CSV table", "--xlsx": "an .xlsx workbook"}
+
+
 def _check_outputs(*paths: str | None, protect: Any = ()) -> None:
     """Refuse impossible output targets (output.check_target): before the work starts,
     and with the files of the run as ``protect`` once they are known."""
@@ -308,6 +327,7 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
 
     progress = _Progress(not as_json and not _quiet())
     try:
+        _check_suffixes(html_file, csv_file, xlsx_file)
         _check_outputs(html_file, csv_file, xlsx_file)
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
                            second_order, progress, reported_interval)
@@ -454,6 +474,7 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
 
     progress = _Progress(not as_json and not _quiet())
     try:
+        _check_suffixes(html_file, csv_file, xlsx_file)
         _check_outputs(html_file, csv_file, xlsx_file)
         campaign = load_campaign(campaign_file, allow_outside=allow_outside_folder)
         cert = run_certification(campaign, trials=trials, seed=seed, progress=progress,
@@ -506,6 +527,7 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
     from ._errors import BudgetError
 
     try:
+        _check_suffixes(html_file)
         _check_outputs(html_file)
         difference = run_compare(load_side(before, trials=trials),
                                  load_side(after, trials=trials))
@@ -568,6 +590,7 @@ def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str
     from ._errors import BudgetError
 
     try:
+        _check_suffixes(html_file, csv_file)
         _check_outputs(csv_file, html_file)
         batch = certify_folder(folder, trials=trials, seed=seed, workers=workers)
         _check_outputs(csv_file, html_file,

@@ -98,7 +98,7 @@ class Input:
 class Definition:
     name: str
     text: str
-    shown_graph: alg.Node
+    shown_graph: alg.Node = field(repr=False)  # deep graphs: repr would recurse past Python's limit
     unit: str
 
     @property
@@ -117,9 +117,9 @@ class Measurand:
     name: str
     equation: str
     unit: str
-    graph: alg.Node
-    shown_graph: alg.Node
-    opaque_graph: alg.Node
+    graph: alg.Node = field(repr=False)  # the equation says it; a deep graph's repr would
+    shown_graph: alg.Node = field(repr=False)  # recurse past Python's limit
+    opaque_graph: alg.Node = field(repr=False)
     description: str = ""
     line: int | None = None
 
@@ -172,6 +172,15 @@ class Model:
         return replace(self, inputs=inputs, changes=self.changes + (change,), sha256="")
     records: tuple[Any, ...] = field(default=())  # RecordView of each [fits]/[records] table
     chain: tuple[Any, ...] = field(default=())  # chained.Link: results of earlier models
+
+    def __repr__(self) -> str:
+        """One line, as the results show themselves (the fields of a model of 10⁴ inputs
+        would be megabytes, and a deep expression's graph beyond Python's recursion)."""
+        names = ", ".join(m.name for m in self.measurands[:5])
+        more = f" and {len(self.measurands) - 5} more" if len(self.measurands) > 5 else ""
+        changed = f"; what-if: {'; '.join(self.changes)}" if self.changes else ""
+        return (f"<Model {self.title!r} ({self.source}): {names}{more} from "
+                f"{len(self.inputs)} inputs{changed}>")
 
     def input(self, name: str) -> Input:
         """The input called ``name`` (a ``KeyError`` with a "did you mean")."""

@@ -39,12 +39,12 @@ def test_second_order_of_a_plain_product(cli, tmp_path):
 
 @pytest.mark.parametrize("second", ["same", "dotted", "hard link"])
 def test_one_file_for_two_outputs_is_refused(cli, tmp_path, second):
-    # --csv r.csv --html r.csv used to write both, the table silently replacing the report
+    # --csv r.out --html r.out used to write both, the table silently replacing the report
     model = tmp_path / "product.toml"
     model.write_text(_PRODUCT)
-    target = tmp_path / "r.csv"
-    other = {"same": target, "dotted": tmp_path / "." / "r.csv",
-             "hard link": tmp_path / "link.csv"}[second]
+    target = tmp_path / "r.out"
+    other = {"same": target, "dotted": tmp_path / "." / "r.out",
+             "hard link": tmp_path / "link.out"}[second]
     if second == "hard link":
         target.write_text("kept\n")
         other.hardlink_to(target)
@@ -55,7 +55,7 @@ def test_one_file_for_two_outputs_is_refused(cli, tmp_path, second):
                       "--csv, --xlsx), found this file named twice\n")
     assert stdout == ""
     assert sorted(p.name for p in tmp_path.iterdir()) == sorted(
-        {"product.toml", *(["r.csv", "link.csv"] if second == "hard link" else [])})
+        {"product.toml", *(["r.out", "link.out"] if second == "hard link" else [])})
     if second == "hard link":
         assert target.read_text() == "kept\n"
 
@@ -305,3 +305,21 @@ def test_adaptive_and_trials_together_are_a_bad_command_line(cli, tmp_path, comm
     assert code == 2 and stdout == ""
     assert stderr.endswith("Error: --adaptive chooses the number of trials itself: give "
                            "either --adaptive or --trials, found both (--trials 0)\n")
+
+
+@pytest.mark.parametrize("option, name, suffix, owner", [
+    ("--xlsx", "b.csv", ".csv", "--csv"), ("--csv", "b.xlsx", ".xlsx", "--xlsx"),
+    ("--xlsx", "b.HTML", ".HTML", "--html"), ("--html", "b.xlsx", ".xlsx", "--xlsx")])
+def test_an_output_named_with_another_outputs_suffix(cli, tmp_path, option, name, suffix,
+                                                     owner):
+    # --xlsx b.csv wrote a zip archive into a .csv file, --csv b.xlsx text into a workbook
+    path = tmp_path / "product.toml"
+    path.write_text(_PRODUCT)
+    code, stdout, stderr = cli("run", str(path), "--trials", "0", option,
+                               str(tmp_path / name))
+    assert code == 2 and stdout == ""
+    kind = {"--html": "an HTML page", "--csv": "a CSV table", "--xlsx": "an .xlsx workbook"}
+    assert stderr.endswith(f"Error: {option} writes {kind[option]}: expected a file name "
+                           f"without the suffix {suffix} of {owner}, found "
+                           f"'{tmp_path / name}'\n")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["product.toml"]

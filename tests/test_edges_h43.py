@@ -568,3 +568,16 @@ def test_long_names_wrap_in_the_comparison_and_explanation_tables() -> None:
         assert f'<td class="long">{LONG}</td>' in page and "td.long" in page
     # and the dimensionless unit is not written after a number in "what changed"
     assert "u 0.1 → 0.05 (× 0.5)" in difference.summary()
+
+
+def test_a_model_shows_itself_in_one_line_even_when_deep(naoh: budget.Model) -> None:
+    # a chain of 400 definitions made repr(model) a RecursionError; a model of 3000 inputs
+    # printed a megabyte of dataclass fields into the notebook
+    chain = "".join(f'd{i} = "d{i - 1} * x"\n' for i in range(1, 401))
+    deep = budget.parse_model('title = "t"\n[measurands.y]\nequation = "d400"\n'
+                              f'[definitions]\nd0 = "x"\n{chain}'
+                              '[inputs.x]\nvalue = 1\nu = 0.1\n', "deep.toml")
+    assert repr(deep) == "<Model 't' (deep.toml): y from 1 inputs>"
+    assert "graph" not in repr(deep.measurands[0]) and repr(deep.definitions)
+    assert repr(naoh.with_uncertainty("V_T", factor=0.5)).endswith(
+        "c_NaOH from 5 inputs; what-if: u(V_T) × 0.5>")
