@@ -88,9 +88,10 @@ def _uncomputed_formulas(book: Any, name: str, grid: list[list[str]], rows: list
         where = dict(zip(rows, grid))
         for number, values in enumerate(book[name].iter_rows(values_only=True), start=1):
             cells = where.get(number)
-            for k, value in enumerate(values if cells is not None else ()):
-                if k < len(cells) and not cells[k].strip() and isinstance(value, str) \
-                        and value.startswith("="):
+            if cells is None:
+                continue
+            for k, value in enumerate(values[:len(cells)]):
+                if not cells[k].strip() and isinstance(value, str) and value.startswith("="):
                     cells[k] = value
     finally:
         book.close()
