@@ -61,14 +61,16 @@ def _found(value: Any) -> str:
 
 
 _MADE_BY = {"Result": "budget.evaluate(model)", "Certification": "budget.certify(campaign)",
-            "Campaign": "budget.load_campaign(path)", "Model": "budget.load_model(path)"}
+            "Campaign": "budget.load_campaign(path)", "Model": "budget.load_model(path)",
+            "Batch": "budget.batch.certify_folder(folder)"}
 
 
 def check_instance(value: Any, kind: type, function: str, argument: str) -> None:
     """Refuse anything but a ``kind`` (a Result, a Certification …) as an argument."""
     if not isinstance(value, kind):
         made = _MADE_BY.get(kind.__name__)
-        raise InputError(f"expected a budget.{kind.__name__}"
+        prefix = "budget.batch" if kind.__module__ == "budget.batch" else "budget"
+        raise InputError(f"expected a {prefix}.{kind.__name__}"
                          f"{f' ({made} gives one)' if made else ''}, found {_found(value)}",
                          Location(file=f"{function}()", key=argument))
 

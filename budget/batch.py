@@ -155,6 +155,9 @@ BATCH_COLUMNS = ("date", "campaign", "title", "certified_value", "expanded_uncer
 
 def batch_rows(batch: Batch) -> list[dict[str, Any]]:
     """One flat row per campaign (the CSV export and the JSON ``campaigns``)."""
+    from ._arguments import check_instance
+
+    check_instance(batch, Batch, "batch_rows", "batch")
     return [{"date": e.date, "campaign": e.path, "title": e.title,
              "certified_value": e.certified_value,
              "expanded_uncertainty": e.expanded_uncertainty,
@@ -165,6 +168,9 @@ def batch_rows(batch: Batch) -> list[dict[str, Any]]:
 
 def batch_document(batch: Batch) -> dict[str, Any]:
     """The JSON document of ``budget certify-all``."""
+    from ._arguments import check_instance
+
+    check_instance(batch, Batch, "batch_document", "batch")
     from ._document import CAUTION
     from ._provenance import versions
 

@@ -73,6 +73,9 @@ def _valid(owner: Any, *, widths: tuple[str, ...] = (), fraction: str | None = N
         raise InputError(f"{kind}: expected {fraction} in [0, 1], found {shown[fraction]}")
     if dof is not None and not getattr(owner, dof) > 0:
         raise InputError(f"{kind}: expected {dof} > 0, found {shown[dof]}")
+    if dof is not None and math.isinf(getattr(owner, dof)):  # numpy draws NaN for ν = ∞
+        raise InputError(f"{kind}: expected a finite {dof} (a t distribution with ν = ∞ is "
+                         f"Normal(estimate, sd)), found {shown[dof]}")
 
 
 def _plain(owner: Any, kind: str, names: tuple[str, ...]) -> dict[str, str]:

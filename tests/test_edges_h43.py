@@ -581,3 +581,23 @@ def test_a_model_shows_itself_in_one_line_even_when_deep(naoh: budget.Model) -> 
     assert "graph" not in repr(deep.measurands[0]) and repr(deep.definitions)
     assert repr(naoh.with_uncertainty("V_T", factor=0.5)).endswith(
         "c_NaOH from 5 inputs; what-if: u(V_T) × 0.5>")
+
+
+def test_a_t_distribution_with_infinite_dof_is_refused(naoh: budget.Model) -> None:
+    # StudentT(…, dof=inf) was accepted, and numpy drew NaN in every Monte Carlo trial
+    with pytest.raises(BudgetError, match=re.escape(
+            "StudentT: expected a finite dof (a t distribution with ν = ∞ is "
+            "Normal(estimate, sd)), found inf")):
+        D.StudentT(18.64, 0.01, float("inf"))
+    changed = naoh.with_distribution("V_T", D.StudentT(18.64, 0.01, 1e6))
+    assert np.isfinite(budget.simulate(changed, trials=1000, seed=1).measurands[0].mean)
+
+
+@pytest.mark.parametrize("function", ["batch_rows", "batch_document"])
+def test_batch_documents_take_a_batch(function: str) -> None:
+    import budget.batch
+
+    with pytest.raises(BudgetError, match=re.escape(
+            f"{function}(): batch: expected a budget.batch.Batch "
+            "(budget.batch.certify_folder(folder) gives one), found str 'x'")):
+        getattr(budget.batch, function)("x")
