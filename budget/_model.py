@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import keyword
 import re
 import tomllib
 from dataclasses import dataclass, field, replace
@@ -693,6 +694,9 @@ def _check_name(name: str, where: Location) -> None:
     if not _NAME.match(name) or name.startswith("__"):
         raise InputError(f"expected a name of letters, digits and '_' not starting with a "
                          f"digit or '__', found '{name}'", where)
+    if keyword.iskeyword(name):  # an equation could never name it (read as Python syntax)
+        raise InputError(f"expected a name that is not a reserved word of the expression "
+                         f"syntax, found '{name}' (write for example '{name}_')", where)
 
 
 def _in_unit(statement: Any, unit: Any, where: Location) -> Any:

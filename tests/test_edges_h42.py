@@ -347,3 +347,23 @@ def test_demo_removes_what_it_copied_when_a_copy_fails(cli, tmp_path: Path,
     assert stderr == (f"error: {target}: expected a folder that can be written, found No "
                       "space left on device\n")
     assert len(copied) == 12 and list(target.parent.iterdir()) == []
+
+
+def test_a_formula_without_a_computed_value_is_not_a_missing_value(cli, tmp_path: Path
+                                                                   ) -> None:
+    # a workbook written by a program that does not compute formulas holds no value for
+    # '=C2*1': it was read as an empty cell, i.e. a missing replicate, and left out
+    openpyxl = pytest.importorskip("openpyxl")
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    book = openpyxl.Workbook()
+    sheet = book.active
+    sheet.append(["unit", "value"])
+    for unit, value in (("A", 99.98), ("A", "=B2*1"), ("B", 99.97), ("B", 99.99)):
+        sheet.append([unit, value])
+    book.save(folder / "homogeneity.xlsx")
+    _edit("campaign.toml", 'data = "homogeneity.csv"', 'data = "homogeneity.xlsx"')(folder)
+    code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {folder}/homogeneity.xlsx[Sheet]:3: column 'value': expected a "
+                      "finite number with a decimal point, found '=B2*1'\n")
