@@ -630,3 +630,16 @@ def test_trials_and_adaptive_together_are_refused(naoh: budget.Model, function: 
     with pytest.raises(BudgetError, match=re.escape(
             "trials: expected either trials=… or adaptive=True, found both (trials = 1000)")):
         function(naoh, trials=1000, adaptive=True, seed=1)
+
+
+def test_a_coverage_may_be_a_numpy_scalar_or_a_fraction(naoh: budget.Model) -> None:
+    from fractions import Fraction
+
+    # np.float32(0.95) was refused as "not a coverage probability"
+    for p in (np.float32(0.95), Fraction(19, 20), np.float64(0.95)):
+        found = budget.propagate(naoh, coverage=p).measurands[0]
+        assert found.coverage_probability == pytest.approx(0.95, rel=1e-7)
+    from budget.lots import propagate_lots
+
+    lots = propagate_lots(naoh, {"V_T": [18.64]}, coverage=np.float32(0.95))
+    assert lots.coverage_factor[0, 0] == pytest.approx(1.96, abs=0.01)
