@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import keyword
 import re
 import tomllib
 from dataclasses import dataclass, field, replace
@@ -201,7 +202,8 @@ class Model:
         self.input(name)  # a KeyError with a "did you mean" for an unknown name
         inputs = tuple(input_with_uncertainty(i, u=u, factor=factor) if i.name == name
                        else i for i in self.inputs)
-        change = f"u({name}) = {u:g}" if u is not None else f"u({name}) × {factor:g}"
+        change = f"u({name}) = {float(u):g}" if u is not None else \
+            f"u({name}) × {float(factor):g}"  # type: ignore[arg-type]  # checked above
         return self.changed(inputs, change)
 
     def with_value(self, name: str, value: float) -> "Model":
@@ -212,7 +214,7 @@ class Model:
         self.input(name)
         inputs = tuple(input_with_value(i, value) if i.name == name else i
                        for i in self.inputs)
-        return self.changed(inputs, f"{name} = {value:g}")
+        return self.changed(inputs, f"{name} = {float(value):g}")
 
     def with_distribution(self, name: str, distribution: Any) -> "Model":
         """A what-if copy in which input ``name`` is drawn from ``distribution``: a shape
@@ -692,6 +694,9 @@ def _check_name(name: str, where: Location) -> None:
     if not _NAME.match(name) or name.startswith("__"):
         raise InputError(f"expected a name of letters, digits and '_' not starting with a "
                          f"digit or '__', found '{name}'", where)
+    if keyword.iskeyword(name):  # an equation could never name it (read as Python syntax)
+        raise InputError(f"expected a name that is not a reserved word of the expression "
+                         f"syntax, found '{name}' (write for example '{name}_')", where)
 
 
 def _in_unit(statement: Any, unit: Any, where: Location) -> Any:

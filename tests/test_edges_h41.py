@@ -323,3 +323,17 @@ def test_an_output_named_with_another_outputs_suffix(cli, tmp_path, option, name
                            f"without the suffix {suffix} of {owner}, found "
                            f"'{tmp_path / name}'\n")
     assert sorted(p.name for p in tmp_path.iterdir()) == ["product.toml"]
+
+
+@pytest.mark.parametrize("name", ["lambda", "in", "None"])
+def test_a_reserved_word_is_refused_as_a_name(cli, tmp_path, name):
+    # [inputs.lambda] (a wavelength, a conductivity) was accepted, then every equation
+    # naming it failed with "expected an arithmetic expression … (syntax error at column 8)"
+    path = tmp_path / "reserved.toml"
+    path.write_text(f'title = "reserved"\n[measurands.y]\nequation = "{name} * 2"\n'
+                    f"[inputs.{name}]\nvalue = 1.0\nu = 0.1\n")
+    code, stdout, stderr = cli("check", str(path))
+    assert code == 1 and stdout == ""
+    assert stderr == (f"error: {path}:4: [inputs.{name}] expected a name that is not a "
+                      "reserved word of the expression syntax, found "
+                      f"'{name}' (write for example '{name}_')\n")
