@@ -21,7 +21,7 @@ from ._limits import MAX_TRIALS, check_seed, shorten
 
 __all__ = ["whole", "real", "check_count", "check_instance", "check_positive", "check_model",
            "check_trials_argument", "check_seed_argument", "check_workers", "check_progress",
-           "check_flag", "check_budget_of"]
+           "check_flag", "check_not_both", "check_budget_of"]
 
 MAX_WORKERS = 256  # as `--workers` on the command line
 
@@ -146,6 +146,15 @@ def check_flag(value: Any, where: Location, none: bool = False) -> None:
         return
     allowed = "True, False or None" if none else "True or False"
     raise InputError(f"expected {allowed}, found {_found(value)}", where)
+
+
+def check_not_both(trials: Any, adaptive: Any, where: Location) -> None:
+    """``trials`` and ``adaptive=True`` together: which was meant cannot be guessed (the
+    adaptive procedure chooses the number of trials itself), as on the command line."""
+    if adaptive and trials is not None:
+        raise InputError(f"expected either trials=… or adaptive=True, found both (trials = "
+                         f"{shorten(repr(trials))}): the adaptive procedure chooses the "
+                         f"number of trials itself", where)
 
 
 def check_budget_of(budget: Any, model: Any, coverage: float, where: Location) -> None:

@@ -202,7 +202,8 @@ class Model:
         self.input(name)  # a KeyError with a "did you mean" for an unknown name
         inputs = tuple(input_with_uncertainty(i, u=u, factor=factor) if i.name == name
                        else i for i in self.inputs)
-        change = f"u({name}) = {u:g}" if u is not None else f"u({name}) × {factor:g}"
+        change = f"u({name}) = {float(u):g}" if u is not None else \
+            f"u({name}) × {float(factor):g}"  # type: ignore[arg-type]  # checked above
         return self.changed(inputs, change)
 
     def with_value(self, name: str, value: float) -> "Model":
@@ -213,7 +214,7 @@ class Model:
         self.input(name)
         inputs = tuple(input_with_value(i, value) if i.name == name else i
                        for i in self.inputs)
-        return self.changed(inputs, f"{name} = {value:g}")
+        return self.changed(inputs, f"{name} = {float(value):g}")
 
     def with_distribution(self, name: str, distribution: Any) -> "Model":
         """A what-if copy in which input ``name`` is drawn from ``distribution``: a shape

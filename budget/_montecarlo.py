@@ -47,7 +47,8 @@ from typing import Any, Callable, Generator, cast
 import numpy as np
 
 from .distributions import Normal, Rectangular, StudentT
-from ._arguments import (check_budget_of, check_flag, check_model, check_progress,
+from ._arguments import (check_budget_of, check_flag, check_model, check_not_both,
+                         check_progress,
                          check_seed_argument, check_trials_argument, check_workers)
 from ._limits import MAX_TRIALS, check_digits, check_kept, check_probability, check_trials
 from ._batched import Schedule
@@ -700,6 +701,7 @@ def _checked(model: Model, budget: Budget | None, *, trials: Any, seed: Any, cov
     check_progress(progress, replace(where, key="progress"))
     for name, value in flags.items():
         check_flag(value, replace(where, key=name), none=name == "keep_samples")
+    check_not_both(trials, flags["adaptive"], replace(where, key="trials"))
     return model.settings
 
 

@@ -170,15 +170,16 @@ def estimate_warnings(name: str, values: np.ndarray, estimate: float, unit: str,
         ratio = values / estimate
         off = (ratio <= 0) | (ratio > factor) | (ratio < 1.0 / factor)
     found = []
+    unit = "" if unit in ("", "1") else f" {unit}"  # a plain number has no unit to show
     for index in np.flatnonzero(off)[:3]:
         head = f"plausibility: {source}:{rows[int(index)]}: column '{name}': "
         if ratio[index] <= 0:  # whatever the factor (further methods check only the sign)
             what = "is zero, unlike" if ratio[index] == 0 else "has the opposite sign of"
-            found.append(f"{head}{values[index]:.6g} {unit} {what} the model's estimate "
-                         f"{estimate:.6g} {unit}")
+            found.append(f"{head}{values[index]:.6g}{unit} {what} the model's estimate "
+                         f"{estimate:.6g}{unit}")
             continue
-        found.append(f"{head}{values[index]:.6g} {unit} differs from the model's estimate "
-                     f"{estimate:.6g} {unit} by more than a factor {factor:g} "
+        found.append(f"{head}{values[index]:.6g}{unit} differs from the model's estimate "
+                     f"{estimate:.6g}{unit} by more than a factor {factor:g} "
                      f"({_slip(float(ratio[index]))})")
     return found
 

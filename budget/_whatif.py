@@ -52,12 +52,15 @@ def _where(item: Any, key: str) -> Location:
 
 
 def _number(item: Any, key: str, value: Any, *, width: bool) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) \
-            or not math.isfinite(value):
+    """A finite real number (numpy scalars, Fraction and Decimal too) as a float."""
+    from ._arguments import real
+
+    number = real(value)
+    if number is None or not math.isfinite(number):
         raise InputError(f"expected a finite number, found {value!r}", _where(item, key))
-    if width and value < 0:
-        raise InputError(f"expected a number ≥ 0, found {value:g}", _where(item, key))
-    return float(value)
+    if width and number < 0:
+        raise InputError(f"expected a number ≥ 0, found {number:g}", _where(item, key))
+    return number
 
 
 def input_with_uncertainty(item: Any, *, u: float | None = None,

@@ -366,6 +366,11 @@ class AtomicWeightSum:
             raise InputError(f"AtomicWeightSum: expected as many counts, centres and "
                              f"half-widths, found {len(self.counts)}, {len(self.centres)} "
                              f"and {len(self.half_widths)}")
+        from ._arguments import real
+
+        given = (*self.counts, *self.centres, *self.half_widths, self.scale)
+        if any(real(x) is None for x in given):
+            raise InputError(f"AtomicWeightSum: expected numbers, found {given!r:.200}")
         numbers = (*self.counts, *self.centres, self.scale)
         if not all(math.isfinite(x) for x in numbers) or min(self.counts, default=0) < 0:
             raise InputError(f"AtomicWeightSum: expected finite counts ≥ 0, centres and "

@@ -367,3 +367,16 @@ def test_a_formula_without_a_computed_value_is_not_a_missing_value(cli, tmp_path
     assert (code, stdout) == (1, "")
     assert stderr == (f"error: {folder}/homogeneity.xlsx[Sheet]:3: column 'value': expected a "
                       "finite number with a decimal point, found '=B2*1'\n")
+
+
+def test_a_run_warning_shows_no_unit_1(cli, tmp_path: Path) -> None:
+    # a relative humidity typed in % under a header 'h_air / %': "0.0042 1 differs from
+    # the model's estimate 0.34 1"
+    folder = tmp_path / "batch"
+    shutil.copytree(DEMO, folder)
+    _edit("determinations.csv", "h_air,", "h_air / %,")(folder)
+    code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
+    assert code == 0
+    assert (f"warning: plausibility: {folder}/determinations.csv:3: column 'h_air': 0.0042 "
+            "differs from the model's estimate 0.34 by more than a factor 3 (ratio 0.0124)\n"
+            in stderr)

@@ -601,3 +601,54 @@ def test_batch_documents_take_a_batch(function: str) -> None:
             f"{function}(): batch: expected a budget.batch.Batch "
             "(budget.batch.certify_folder(folder) gives one), found str 'x'")):
         getattr(budget.batch, function)("x")
+
+
+def test_what_ifs_take_any_real_number(naoh: budget.Model) -> None:
+    from fractions import Fraction
+
+    # np.float32 and Decimal were refused as "not a finite number", a Fraction a TypeError
+    assert naoh.with_uncertainty("V_T", u=np.float32(0.01)).input("V_T") \
+        .standard_uncertainty == pytest.approx(0.01, rel=1e-7)
+    assert naoh.with_value("V_T", Decimal("18.6")).input("V_T").estimate == 18.6
+    halved = naoh.with_uncertainty("V_T", factor=Fraction(1, 2))
+    assert halved.changes == ("u(V_T) × 0.5",)
+    assert naoh.with_value("V_T", Fraction(37, 2)).changes == ("V_T = 18.5",)
+    with pytest.raises(BudgetError, match="value: expected a finite number, found '18'"):
+        naoh.with_value("V_T", "18")
+
+
+def test_atomic_weight_sum_takes_numbers_only() -> None:
+    with pytest.raises(BudgetError, match=re.escape(
+            "AtomicWeightSum: expected numbers, found ('1', 12.0, 0.1, 1.0)")):
+        D.AtomicWeightSum(("1",), (12.0,), (0.1,))  # type: ignore[arg-type]
+
+
+@pytest.mark.parametrize("function", [budget.evaluate, budget.simulate])
+def test_trials_and_adaptive_together_are_refused(naoh: budget.Model, function: Any) -> None:
+    # trials=1000 was ignored without a word when adaptive=True, as --trials with --adaptive
+    # is refused on the command line
+    with pytest.raises(BudgetError, match=re.escape(
+            "trials: expected either trials=… or adaptive=True, found both (trials = 1000)")):
+        function(naoh, trials=1000, adaptive=True, seed=1)
+
+
+def test_a_coverage_may_be_a_numpy_scalar_or_a_fraction(naoh: budget.Model) -> None:
+    from fractions import Fraction
+
+    # np.float32(0.95) was refused as "not a coverage probability"
+    for p in (np.float32(0.95), Fraction(19, 20), np.float64(0.95)):
+        found = budget.propagate(naoh, coverage=p).measurands[0]
+        assert found.coverage_probability == pytest.approx(0.95, rel=1e-7)
+    from budget.lots import propagate_lots
+
+    lots = propagate_lots(naoh, {"V_T": [18.64]}, coverage=np.float32(0.95))
+    assert lots.coverage_factor[0, 0] == pytest.approx(1.96, abs=0.01)
+
+
+def test_a_long_word_in_a_title_wraps() -> None:
+    title = "T" + "x" * 300
+    model = budget.parse_model(f'title = "{title}"\n[measurands.y]\nequation = "a"\n'
+                               '[inputs.a]\nvalue = 1\nu = 0.1\n', "t.toml")
+    result = budget.evaluate(model, trials=0)
+    for page in (result._repr_html_(), budget.render_report(result)):
+        assert "overflow-wrap: break-word" in page and title in page
