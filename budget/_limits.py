@@ -10,6 +10,7 @@ expressions and settings call them.
 from __future__ import annotations
 
 import math
+import numbers
 import re
 import unicodedata
 from typing import Any, Callable
@@ -105,8 +106,9 @@ def parse_number(text: str) -> float | None:
 
 
 def as_float(value: Any) -> float | None:
-    """A TOML or CSV number as a finite float; None for anything else (bools, huge ints)."""
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
+    """A TOML or CSV number (or, from Python, a numpy scalar or a Fraction) as a finite
+    float; None for anything else (bools, strings, Decimal, huge ints)."""
+    if isinstance(value, bool) or not isinstance(value, numbers.Real):
         return None
     try:
         number = float(value)

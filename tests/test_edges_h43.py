@@ -630,3 +630,25 @@ def test_trials_and_adaptive_together_are_refused(naoh: budget.Model, function: 
     with pytest.raises(BudgetError, match=re.escape(
             "trials: expected either trials=… or adaptive=True, found both (trials = 1000)")):
         function(naoh, trials=1000, adaptive=True, seed=1)
+
+
+def test_a_coverage_may_be_a_numpy_scalar_or_a_fraction(naoh: budget.Model) -> None:
+    from fractions import Fraction
+
+    # np.float32(0.95) was refused as "not a coverage probability"
+    for p in (np.float32(0.95), Fraction(19, 20), np.float64(0.95)):
+        found = budget.propagate(naoh, coverage=p).measurands[0]
+        assert found.coverage_probability == pytest.approx(0.95, rel=1e-7)
+    from budget.lots import propagate_lots
+
+    lots = propagate_lots(naoh, {"V_T": [18.64]}, coverage=np.float32(0.95))
+    assert lots.coverage_factor[0, 0] == pytest.approx(1.96, abs=0.01)
+
+
+def test_a_long_word_in_a_title_wraps() -> None:
+    title = "T" + "x" * 300
+    model = budget.parse_model(f'title = "{title}"\n[measurands.y]\nequation = "a"\n'
+                               '[inputs.a]\nvalue = 1\nu = 0.1\n', "t.toml")
+    result = budget.evaluate(model, trials=0)
+    for page in (result._repr_html_(), budget.render_report(result)):
+        assert "overflow-wrap: break-word" in page and title in page
