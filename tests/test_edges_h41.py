@@ -337,3 +337,26 @@ def test_a_reserved_word_is_refused_as_a_name(cli, tmp_path, name):
     assert stderr == (f"error: {path}:4: [inputs.{name}] expected a name that is not a "
                       "reserved word of the expression syntax, found "
                       f"'{name}' (write for example '{name}_')\n")
+
+
+def test_compare_writes_no_unit_one_and_brackets_a_compound_square(cli, tmp_path):
+    # a dimensionless measurand read "U 0.098 → 0.13 1" (0.131 at a glance) and the
+    # variance of a quantity in 1/L as "+… 1/L²" (per square litre) instead of (1/L)²
+    before = tmp_path / "a.toml"
+    before.write_text(_PRODUCT + '[measurands.c]\nequation = "a * b / V"\nunit = "1/L"\n'
+                      '[inputs.V]\nvalue = 100.0\nunit = "mL"\nu = 0.1\n')
+    after = tmp_path / "b.toml"
+    after.write_text(before.read_text().replace("u = 0.02", "u = 0.03")
+                     .replace("u = 0.1\n", "u = 0.3\n"))
+    code, stdout, stderr = cli("compare", str(before), str(after))
+    assert code == 0, stderr
+    lines = stdout.splitlines()
+    assert "y: U 0.098 → 0.13 (+34 %); u_c 0.050 → 0.067 (+34 %); k 1.96 → 1.96" in lines
+    assert "  u_c² changed by +0.002; the largest causes:" in lines
+    assert any(line.startswith("  u_c² changed by ") and line.endswith(
+        " (1/L)²; the largest causes:") for line in lines)
+    assert not any(" 1²" in line or "1/L²" in line for line in lines)
+    page = tmp_path / "c.html"
+    code, _, _ = cli("compare", str(before), str(after), "--html", str(page))
+    text = page.read_text()
+    assert "change of (c·u)² / (1/L)²" in text and "/ 1²" not in text
