@@ -661,3 +661,11 @@ def test_a_joint_or_result_for_a_model_points_at_its_model(naoh: budget.Model) -
             "found a budget.Joint (its .model is one)")):
         budget.evaluate(joint, trials=0)  # type: ignore[arg-type]
     assert budget.evaluate(joint.model, trials=0).budget.measurands[0].name == "a:c_NaOH"
+
+
+def test_a_huge_u_is_named_as_u_not_as_a_factor(naoh: budget.Model) -> None:
+    # u=1e308 was refused as "factor: expected a finite number, found inf"
+    with pytest.raises(BudgetError, match=re.escape(
+            "<what-if>: [inputs.V_T] u: expected a standard uncertainty whose widths are "
+            "finite numbers, found 1e+308 (inf times the present 0.013)")):
+        naoh.with_uncertainty("V_T", u=1e308)
