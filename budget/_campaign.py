@@ -216,6 +216,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         raise r.fail(f"expected a measurand of {model.source} ({', '.join(names)}), found "
                      f"'{measurand}'{did_you_mean(measurand, names)}", "characterization",
                      "measurand")
+    _check_unit(r, unit, model.measurands[names.index(measurand)].unit)
     runs = _runs(r, char, model)
     run_inputs = runs.names
     covers = _covers(r, char, model)
@@ -260,6 +261,17 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
 
 def _format(r: _Reader, data: dict[str, Any], table: str) -> FileFormat:
     return parse_declared_format(data, lambda message, key: r.fail(message, table, key))
+
+
+def _check_unit(r: _Reader, unit: str, measurand_unit: str) -> None:
+    """The campaign's unit, of the certified measurand's dimension (values are converted)."""
+    from ._units import parse_unit
+
+    where = r.where(None, "unit")
+    wanted, given = parse_unit(unit, where), parse_unit(measurand_unit, where)
+    if wanted.unit.dims != given.unit.dims or wanted.offset or given.offset:
+        raise r.fail(f"expected a unit of the measurand's dimension ('{measurand_unit}'), "
+                     f"found '{unit}'", None, "unit")
 
 
 def _runs(r: _Reader, char: dict[str, Any], model: Model) -> Runs:

@@ -129,6 +129,12 @@ CASES: dict[str, tuple[Edit, str]] = {
                "2026-01-05,99.987\n"),
         "stability.csv:3: column 'date': expected a date (ISO 8601 such as 2025-06-30, or "
         "31.12.2025), found '2025-02-30'"),
+    # the campaign's unit of another dimension was found only at certification, and the
+    # message had no line
+    "campaign_unit_of_another_dimension": (
+        _edit("campaign.toml", 'unit = "%"', 'unit = "kg"'),
+        "campaign.toml:7: unit: expected a unit of the measurand's dimension ('%'), found "
+        "'kg'"),
     "characterization_with_one_run": (
         _keep_lines("determinations.csv", 2),
         "campaign.toml:13: [characterization] runs: expected at least 2 runs in "
