@@ -98,8 +98,10 @@ def check_model(value: Any, function: str) -> None:
     from ._model import Model
 
     if not isinstance(value, Model):
+        inner = isinstance(getattr(value, "model", None), Model)  # a Joint, a Result
         raise InputError(f"expected a budget.Model (budget.load_model(path) reads one), "
-                         f"found {_found(value)}", Location(file=f"{function}()", key="model"))
+                         f"found {_found(value)}{' (its .model is one)' if inner else ''}",
+                         Location(file=f"{function}()", key="model"))
 
 
 def check_trials_argument(value: Any, where: Location) -> int:

@@ -652,3 +652,12 @@ def test_a_long_word_in_a_title_wraps() -> None:
     result = budget.evaluate(model, trials=0)
     for page in (result._repr_html_(), budget.render_report(result)):
         assert "overflow-wrap: break-word" in page and title in page
+
+
+def test_a_joint_or_result_for_a_model_points_at_its_model(naoh: budget.Model) -> None:
+    joint = budget.join([budget.Member(name="a", model=naoh)])
+    with pytest.raises(BudgetError, match=re.escape(
+            "evaluate(): model: expected a budget.Model (budget.load_model(path) reads one), "
+            "found a budget.Joint (its .model is one)")):
+        budget.evaluate(joint, trials=0)  # type: ignore[arg-type]
+    assert budget.evaluate(joint.model, trials=0).budget.measurands[0].name == "a:c_NaOH"
