@@ -59,6 +59,7 @@ from ._gum import Budget
 from ._model import Model
 from ._streaming import Binned, Streamed, cut_level
 from ._arguments import keywords_checked
+from ._unit_display import display_unit, spaced_unit
 
 __all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "KEEP_LIMIT", "Validation",
            "MeasurandSimulation", "Simulation",
@@ -110,7 +111,6 @@ class MeasurandSimulation:
 
     def __repr__(self) -> str:
         from ._notebook import short
-        from ._unit_display import display_unit, spaced_unit
 
         mean, u = short(self.mean, self.standard_uncertainty, 3)
         unit = spaced_unit(display_unit(self.unit))
@@ -1045,7 +1045,7 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, 
         elif item.validation is not None and not item.validation.validated:
             warnings.append(
                 f"'{item.name}': Monte Carlo does not validate the GUM result at "
-                f"{item.validation.tolerance:.2g} {item.unit} (d_low = "
+                f"{item.validation.tolerance:.2g}{spaced_unit(display_unit(item.unit))} (d_low = "
                 f"{item.validation.d_low:.2g}, d_high = {item.validation.d_high:.2g}, "
                 "JCGM 101 8.2)")
     return Simulation(trials=total, seed=seed, coverage_probability=coverage,

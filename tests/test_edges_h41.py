@@ -360,3 +360,13 @@ def test_compare_writes_no_unit_one_and_brackets_a_compound_square(cli, tmp_path
     code, _, _ = cli("compare", str(before), str(after), "--html", str(page))
     text = page.read_text()
     assert "change of (c·u)² / (1/L)²" in text and "/ 1²" not in text
+
+
+def test_validation_warning_writes_no_unit_one(cli, tmp_path):
+    # "does not validate the GUM result at 0.0005 1 (d_low …" read as 0.00051
+    path = tmp_path / "product.toml"
+    path.write_text(_PRODUCT)
+    code, stdout, stderr = cli("run", str(path), "--trials", "1000", "--json")
+    warning = next(w for w in json.loads(stdout)["warnings"] if "does not validate" in w)
+    assert warning.startswith("'y': Monte Carlo does not validate the GUM result at 0.0005 "
+                              "(d_low = ")
