@@ -259,8 +259,7 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
         notes=_fit_notes(fit)))
     if covariance == "stated" and math.isfinite(fit.chi2):
         _chi2_warning(made, name, fit)
-    if fit.method == "ols":
-        _zero_residual_warning(made, name, fit)
+    zero_residual_warning(made, f"fits.{name}", fit, "the points", "coefficients")
 
 
 def _axis(column: str, unit: str) -> str:
@@ -328,16 +327,17 @@ def _chi2_warning(made: Generated, name: str, fit: Fit) -> None:
             "(check the data, or state covariance = \"scaled\")")
 
 
-def _zero_residual_warning(made: Generated, name: str, fit: Fit) -> None:
-    """Points exactly on the curve give coefficients without uncertainty, as if exact."""
+def zero_residual_warning(made: Generated, table: str, fit: Fit, points: str,
+                          gives: str) -> None:
+    """Points exactly on the curve give what is fitted no uncertainty, as if exact."""
     from ._certification import _noise
 
-    if fit.residual_sd <= _noise(np.asarray(fit.y)):
+    if fit.method == "ols" and fit.residual_sd <= _noise(np.asarray(fit.y)):
         made.warnings.append(
-            f"[fits.{name}]: the points lie exactly on the fitted curve (zero residual, "
-            f"s = {fit.residual_sd:.2g}): ordinary least squares gives the coefficients no "
-            "uncertainty, so the fit adds none to the budget; are the readings rounded, "
-            "copied or calculated rather than measured?")
+            f"[{table}]: {points} lie exactly on the fitted curve (zero residual, "
+            f"s = {fit.residual_sd:.2g}): ordinary least squares then gives the fit no "
+            f"uncertainty, and it adds none to the {gives}; are the readings rounded, copied "
+            "or calculated rather than measured?")
 
 
 def _fit_notes(fit: Fit) -> tuple[str, ...]:

@@ -62,6 +62,15 @@ def _derived_inputs(made: Generated, derived: Derived, names: tuple[str, ...],
               f"parts derived from one fit of {source}")
 
 
+def _exact_fits(made: Generated, name: str, derived: Derived, gives: str) -> None:
+    """A warning for each fit of a record whose readings lie exactly on it."""
+    from ._recordinputs import zero_residual_warning
+
+    for what, fit in derived.fits:
+        zero_residual_warning(made, f"records.{name}", fit, f"the readings of the {what}",
+                              gives)
+
+
 def _views(derived: Derived, labels: Labels) -> tuple[FitView, ...]:
     return tuple(FitView(label=what, fit=fit, x_label=labels[0], y_label=labels[1])
                  for what, fit in derived.fits)
@@ -254,6 +263,7 @@ def _end_point(name: str, data: dict[str, Any], record: Series, units: dict[str,
         described = "inflection point (extremum of the first derivative of a local cubic)"
     _derived_inputs(made, derived, (name,), (units["x"],), f"end point, {described}",
                     f"record {record.file}")
+    _exact_fits(made, name, derived, "end point")
     made.views.append(RecordView(table=f"records.{name}", file=record.file,
                                  method=f"end point: {described}", produces=(name,),
                                  fits=_views(derived, labels),
@@ -266,6 +276,7 @@ def _drift(name: str, data: dict[str, Any], record: Series, units: dict[str, str
     after = _pair(data, "after", here)
     give = _choice(data, "give", ("correction", "rate"), here)
     derived = drift(record, before, after)
+    _exact_fits(made, name, derived, "drift rate")
     rate, u_rate = float(derived.estimates[0]), float(derived.standard_uncertainties[0])
     x_unit, y_unit = _delta(units["x"]), _delta(units["y"])
     notes = [f"drift rate {rate:.6g} {y_unit}/{x_unit}, u = {u_rate:.2g}, ν = {derived.dof:g}"]

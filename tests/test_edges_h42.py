@@ -386,3 +386,26 @@ def test_a_run_warning_shows_no_unit_1(cli, tmp_path: Path) -> None:
     assert (f"warning: plausibility: {folder}/determinations.csv:3: column 'h_air': 0.0042 "
             "differs from the model's estimate 0.34 by more than a factor 3 (ratio 0.0124)\n"
             in stderr)
+
+
+@pytest.mark.parametrize(("segments", "warned"), [
+    ("1,1.1,1.2,5,10,15", ["first segment", "second segment"]),   # both exactly straight
+    ("1,1.1,1.21,5,10,15", ["second segment"]),
+    ("1,1.1,1.21,5,10,15.2", [])])
+def test_an_end_point_from_exact_segments_is_a_warning(cli, tmp_path: Path, segments: str,
+                                                       warned: list[str]) -> None:
+    # two segments exactly straight gave the end point u = 4.5e-14 without a word
+    rows = "".join(f"{q},{i}\n" for q, i in zip((0, 5, 10, 20, 25, 30), segments.split(",")))
+    (tmp_path / "record.csv").write_text("Q [mC],i [uA]\n" + rows, encoding="utf-8")
+    (tmp_path / "end.toml").write_text(
+        'title = "end point"\n[measurands.Q_ep]\nequation = "Q_e"\nunit = "mC"\n'
+        '[records.Q_e]\nkind = "end_point"\nfile = "record.csv"\nx = "Q"\ny = "i"\n'
+        'windows = [[0, 10], [20, 30]]\n', encoding="utf-8")
+    code, stdout, stderr = cli("run", "--trials", "0", str(tmp_path / "end.toml"))
+    assert code == 0
+    found = [line for line in stderr.splitlines() if "exactly on the fitted curve" in line]
+    assert [w.split("the readings of the ")[1].split(" lie")[0] for w in found] == warned
+    assert all(w.startswith("warning: [records.Q_e]: the readings of the ") and
+               w.endswith("ordinary least squares then gives the fit no uncertainty, and it "
+                          "adds none to the end point; are the readings rounded, copied or "
+                          "calculated rather than measured?") for w in found)
