@@ -152,6 +152,8 @@ def _from_u(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Stateme
     estimate = table.number("value")
     u = table.number("u", positive=True)
     _no_keys(table, ("k", "level", "lower", "upper"), "to a stated standard uncertainty 'u'")
+    if shape in ("normal", "student_t"):  # widths of bounded shapes only: never ignored
+        _no_keys(table, ("beta", "inexactness"), f"to a {shape} distribution")
     if shape == "normal":  # finite ν: a scaled and shifted t (JCGM 101 6.4.9)
         made: Any = dist.Normal(estimate, u) if math.isinf(dof) else \
             dist.StudentT(estimate, u, dof)
@@ -173,6 +175,8 @@ def _from_expanded(table: _Table, shape: str, dof: float, unit: Any, _: str) -> 
     if shape not in ("normal", "student_t"):
         raise InputError(f"expected distribution 'normal' with 'expanded', found '{shape}'",
                          table.where("distribution"))
+    _no_keys(table, ("beta", "inexactness", "lower", "upper"),
+             "to an expanded uncertainty 'expanded'")
     if table.has("k") == table.has("level"):
         raise InputError("expected exactly one of 'k' or 'level' with 'expanded', found "
                          + ("both" if table.has("k") else "neither"), table.where("expanded"))

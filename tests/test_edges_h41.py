@@ -370,3 +370,21 @@ def test_validation_warning_writes_no_unit_one(cli, tmp_path):
     warning = next(w for w in json.loads(stdout)["warnings"] if "does not validate" in w)
     assert warning.startswith("'y': Monte Carlo does not validate the GUM result at 0.0005 "
                               "(d_low = ")
+
+
+@pytest.mark.parametrize("statement, key, why", [
+    ("u = 0.1\nbeta = 0.5", "beta", "to a normal distribution"),
+    ('distribution = "student_t"\nu = 0.1\ndof = 4\ninexactness = 0.01', "inexactness",
+     "to a student_t distribution"),
+    ("expanded = 0.2\nk = 2\nbeta = 0.5", "beta", "to an expanded uncertainty 'expanded'"),
+])
+def test_a_width_key_of_a_bounded_shape_is_not_ignored(cli, tmp_path, statement, key, why):
+    # beta = 0.5 beside a normal u was read and silently ignored
+    path = tmp_path / "ignored.toml"
+    path.write_text('title = "ignored"\n[measurands.y]\nequation = "b"\n[inputs.b]\n'
+                    f"value = 3.0\n{statement}\n")
+    line = 6 + statement.split("\n").index(next(s for s in statement.split("\n")
+                                                 if s.startswith(key + " ")))
+    code, stdout, stderr = cli("check", str(path))
+    assert code == 1 and stdout == ""
+    assert stderr == f"error: {path}:{line}: [inputs.b] {key}: '{key}' does not apply {why}\n"
