@@ -122,6 +122,7 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
         views = _views(result.background, labels)
         notes.extend(_shared(made, result, parts, names))
         _unstated_noise(made, name, data, result.background, units["y"])
+        _exact_fits(made, name, result.background, "background charge")
     text = _corrections(name, data, here, made, source, f"({' '.join(inner)})")
     if result.rule_error != 0.0:
         made.inputs.append(Made(name=f"{name}_rule", estimate=result.rule_error, unit=unit,

@@ -409,3 +409,17 @@ def test_an_end_point_from_exact_segments_is_a_warning(cli, tmp_path: Path, segm
                w.endswith("ordinary least squares then gives the fit no uncertainty, and it "
                           "adds none to the end point; are the readings rounded, copied or "
                           "calculated rather than measured?") for w in found)
+
+
+def test_a_flat_background_of_rounded_readings_is_a_warning(cli, tmp_path: Path) -> None:
+    # a logger's resolution makes every background reading 0.01 mA: u(background) = 0
+    rows = "0,10\n1,9\n2,8\n3,7\n4,6\n5,5\n" + "".join(f"{t},0.01\n" for t in range(6, 11))
+    (tmp_path / "record.csv").write_text("t [s],i [mA]\n" + rows, encoding="utf-8")
+    (tmp_path / "charge.toml").write_text(
+        CHARGE_MODEL.replace('current_u = 0.002', 'current_u = 0.002\nwindow = [0, 5]\n'
+                             'background = "constant"\nbackground_window = [6, 10]'),
+        encoding="utf-8")
+    code, stdout, stderr = cli("run", "--trials", "0", str(tmp_path / "charge.toml"))
+    assert code == 0
+    assert ("warning: [records.Q]: the readings of the background constant lie exactly on "
+            "the fitted curve" in stderr)
