@@ -16,6 +16,7 @@ from ._gum import Budget, MeasurandBudget, propagate
 from ._model import Model
 from ._montecarlo import Simulation, simulate
 from ._reported import Reported, gum_reported, reported
+from ._arguments import keywords_checked
 
 __all__ = ["Result", "evaluate"]
 
@@ -77,6 +78,7 @@ class Result:
         return result_document(self)
 
 
+@keywords_checked
 def evaluate(model: Model, *, coverage: float | None = None, trials: int | None = None,
              adaptive: bool = False, seed: int | None = None, digits: int | None = None,
              second_order: bool = False, workers: int | None = None,

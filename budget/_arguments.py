@@ -8,15 +8,17 @@ what was expected and what was found — not a numpy or attribute error from dee
 
 from __future__ import annotations
 
+import functools
+import inspect
 import math
 import numbers
 import operator
 from decimal import Decimal
-from typing import Any
+from typing import Any, Callable, ParamSpec, TypeVar
 
 import numpy as np
 
-from ._errors import InputError, Location
+from ._errors import ArgumentError, InputError, Location, did_you_mean
 from ._limits import MAX_TRIALS, check_seed, shorten
 
 __all__ = ["whole", "real", "check_count", "check_instance", "check_positive", "check_model",
@@ -24,6 +26,37 @@ __all__ = ["whole", "real", "check_count", "check_instance", "check_positive", "
            "check_flag", "check_not_both", "check_budget_of"]
 
 MAX_WORKERS = 256  # as `--workers` on the command line
+
+P = ParamSpec("P")
+R = TypeVar("R")
+
+
+def keywords_checked(function: Callable[P, R]) -> Callable[P, R]:
+    """``function`` refusing a keyword it does not take (with a "did you mean") and too
+    many positional arguments, as a :class:`ArgumentError` (a ``BudgetError`` and a
+    ``TypeError``) naming the function, instead of Python's bare ``TypeError``."""
+    parameters = inspect.signature(function).parameters.values()
+    names = [p.name for p in parameters if p.kind is not p.VAR_KEYWORD]
+    positional = sum(p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD)
+                     for p in parameters)
+    takes_any = any(p.kind is p.VAR_KEYWORD for p in parameters)
+    where = Location(file=f"{function.__name__}()")
+
+    @functools.wraps(function)
+    def checked(*args: P.args, **kwargs: P.kwargs) -> R:
+        if len(args) > positional:
+            raise ArgumentError(f"expected at most {positional} positional argument"
+                                f"{'s' if positional > 1 else ''} (give the others by "
+                                f"name: {', '.join(f'{n}=…' for n in names[positional:])}), "
+                                f"found {len(args)}", where)
+        for key in kwargs:
+            if key not in names and not takes_any:
+                raise ArgumentError(f"expected one of the arguments {', '.join(names)}, found "
+                                    f"{key!r}{did_you_mean(key, names)}", where)
+        return function(*args, **kwargs)
+
+    return checked
+
 
 
 def whole(value: Any) -> int | None:

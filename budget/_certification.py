@@ -43,6 +43,7 @@ from ._model import Model
 from ._register import date_warnings
 from ._studydata import time_words
 from ._units import parse_unit
+from ._arguments import keywords_checked
 
 __all__ = ["Homogeneity", "Stability", "Characterization", "ComparisonScore",
            "Certification", "anova", "trend", "certify", "zero_residual"]
@@ -304,6 +305,7 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
                      time_unit=time_unit)
 
 
+@keywords_checked
 def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None = None,
             progress: Callable[[int, int], None] | None = None,
             reported_interval: str | None = None) -> Certification:

@@ -33,6 +33,7 @@ from numpy.typing import NDArray
 
 from ._errors import Location, PropagationError
 from ._limits import shorten
+from ._arguments import keywords_checked
 
 __all__ = ["RULES", "Consistency", "Combined", "gls_mean", "plain_mean", "consistency",
            "dersimonian_laird", "paule_mandel", "combine"]
@@ -198,6 +199,7 @@ def paule_mandel(values: Array | list[float], covariance: Array | list[list[floa
     return 0.5 * (low + high)
 
 
+@keywords_checked
 def combine(values: Array | list[float], covariance: Array | list[list[float]],
             rule: str = "weighted", *, where: Location | None = None) -> Combined:
     """One value from the results by ``rule`` (one of :data:`RULES`) and its check;

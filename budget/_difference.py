@@ -23,6 +23,7 @@ from typing import Any
 
 from ._savedresult import misshapen
 from ._errors import InputError, Location
+from ._arguments import keywords_checked
 
 __all__ = ["Term", "Side", "InputChange", "MeasurandChange", "Difference", "compare",
            "compare_budgets", "load_side", "side_from_document"]
@@ -256,6 +257,7 @@ def load_side(path: str | Path, *, trials: int = 0, seed: int | None = None) -> 
     return side_from_document(result_document(result), str(path))
 
 
+@keywords_checked
 def compare_budgets(before: Any, after: Any, *, trials: int = 0,
                     seed: int | None = None) -> Difference:
     """What changed from budget ``before`` to budget ``after`` and why U moved, as

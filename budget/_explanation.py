@@ -32,6 +32,7 @@ from ._gum import propagate
 from ._model import Model
 from ._montecarlo import heavy_tailed
 from ._unit_display import display_unit, spaced_unit
+from ._arguments import keywords_checked
 
 __all__ = ["Driver", "SobolIndex", "Explanation", "explain", "draw_inputs"]
 
@@ -115,6 +116,7 @@ class Explanation:
 MAX_SOBOL_TRIALS = 10_000_000  # draws per matrix of the variance-based indices (memory)
 
 
+@keywords_checked
 def explain(result: Result, *, target: float | None = None, leading: int = 3,
             sobol_trials: int = 1 << 15) -> tuple[Explanation, ...]:
     """One explanation per measurand of an evaluated model."""

@@ -27,6 +27,7 @@ import numpy as np
 from ._dof import Grouping, effective_dof, grouping, pair_indices
 from ._errors import Location, PropagationError
 from ._model import Model
+from ._arguments import keywords_checked
 
 __all__ = ["Contribution", "CorrelationTerm", "CorrelationTerms", "MeasurandBudget", "Budget",
            "propagate", "coverage_factor", "welch_satterthwaite"]
@@ -235,6 +236,7 @@ def welch_satterthwaite(combined: float, components: np.ndarray, dofs: np.ndarra
     return 1.0 / denominator if denominator > 0 else math.inf
 
 
+@keywords_checked
 def propagate(model: Model, coverage: float | None = None, *,
               second_order: bool = False) -> Budget:
     """The GUM budget of every measurand of ``model``."""

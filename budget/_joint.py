@@ -36,6 +36,7 @@ from ._limits import shorten
 from ._model import Input, Measurand, Model
 from ._together import Together
 from ._units import parse_unit
+from ._arguments import keywords_checked
 
 __all__ = ["Member", "Joint", "join", "joint_name"]
 
@@ -83,6 +84,7 @@ def joint_name(member: str, name: str) -> str:
     return f"{member}:{name}"
 
 
+@keywords_checked
 def join(members: Sequence[Member],
          shared: Sequence[tuple[str, Sequence[tuple[str, str]]]] = (), *,
          title: str = "", where: Location | None = None) -> Joint:

@@ -58,6 +58,7 @@ from ._formatting import decimal_exponent
 from ._gum import Budget
 from ._model import Model
 from ._streaming import Binned, Streamed, cut_level
+from ._arguments import keywords_checked
 from ._unit_display import display_unit, spaced_unit
 
 __all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "KEEP_LIMIT", "Validation",
@@ -110,7 +111,6 @@ class MeasurandSimulation:
 
     def __repr__(self) -> str:
         from ._notebook import short
-        from ._unit_display import display_unit, spaced_unit
 
         mean, u = short(self.mean, self.standard_uncertainty, 3)
         unit = spaced_unit(display_unit(self.unit))
@@ -629,6 +629,7 @@ def _combine(moments: list[np.ndarray]) -> np.ndarray:
     return total
 
 
+@keywords_checked
 def simulate(model: Model, budget: Budget | None = None, *, trials: int | None = None,
              adaptive: bool = False, seed: int | None = None, coverage: float | None = None,
              digits: int | None = None, workers: int | None = None,

@@ -78,6 +78,10 @@ def input_with_uncertainty(item: Any, *, u: float | None = None,
                              "exact one (give it a distribution with with_distribution)",
                              _where(item, "u"))
         factor = u / item.standard_uncertainty
+        if not math.isfinite(factor):  # the widths would pass the largest float
+            raise InputError(f"expected a standard uncertainty whose widths are finite "
+                             f"numbers, found {u:g} ({factor:g} times the present "
+                             f"{item.standard_uncertainty:g})", _where(item, "u"))
     factor = _number(item, "factor", factor, width=True)
     if item.standard_uncertainty == 0.0 and factor != 1.0:  # × F of nothing: still exact
         raise InputError(f"expected an input with an uncertainty to scale, found an exact "

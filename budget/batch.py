@@ -24,6 +24,7 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from ._errors import BudgetError, InputError, Location
+from ._arguments import keywords_checked
 
 __all__ = ["BatchEntry", "Batch", "find_campaigns", "certify_folder", "batch_document",
            "batch_rows", "BATCH_COLUMNS"]
@@ -141,6 +142,7 @@ def _certify_many(paths: list[str], trials: int | None, seed: int | None
     return [certify_one(path, trials, seed) for path in paths]
 
 
+@keywords_checked
 def certify_folder(folder: str | Path, *, trials: int | None = 0, seed: int | None = None,
                    workers: int | None = None) -> Batch:
     """Certify every campaign under ``folder`` on ``workers`` processes (default: cores)."""

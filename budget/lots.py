@@ -28,6 +28,7 @@ import numpy as np
 from ._errors import InputError, Location, did_you_mean
 from ._limits import as_float, check_probability, shorten
 from ._model import Model
+from ._arguments import keywords_checked
 
 __all__ = ["LotBudgets", "propagate_lots"]
 
@@ -46,6 +47,7 @@ class LotBudgets:
     sensitivity: np.ndarray  # (L, measurands, inputs), signed
 
 
+@keywords_checked
 def propagate_lots(model: Model, estimates: Mapping[str, Sequence[float]],
                    uncertainties: Mapping[str, Sequence[float]] | None = None,
                    coverage: float | None = None) -> LotBudgets:

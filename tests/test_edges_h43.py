@@ -661,3 +661,36 @@ def test_a_joint_or_result_for_a_model_points_at_its_model(naoh: budget.Model) -
             "found a budget.Joint (its .model is one)")):
         budget.evaluate(joint, trials=0)  # type: ignore[arg-type]
     assert budget.evaluate(joint.model, trials=0).budget.measurands[0].name == "a:c_NaOH"
+
+
+def test_a_huge_u_is_named_as_u_not_as_a_factor(naoh: budget.Model) -> None:
+    # u=1e308 was refused as "factor: expected a finite number, found inf"
+    with pytest.raises(BudgetError, match=re.escape(
+            "<what-if>: [inputs.V_T] u: expected a standard uncertainty whose widths are "
+            "finite numbers, found 1e+308 (inf times the present 0.013)")):
+        naoh.with_uncertainty("V_T", u=1e308)
+
+
+@pytest.mark.parametrize("call, message", [
+    (lambda m: budget.evaluate(m, trial=1000), "evaluate(): expected one of the arguments "
+                                               "model, coverage, trials"),
+    (lambda m: budget.evaluate(m, 1000), "evaluate(): expected at most 1 positional argument "
+                                         "(give the others by name: coverage=…, trials=…"),
+    (lambda m: budget.simulate(m, trails=1000), "simulate(): expected one of the arguments"),
+    (lambda m: budget.propagate(m, 0.95, True), "propagate(): expected at most 2 positional "
+                                                "arguments (give the others by name: "
+                                                "second_order=…), found 3"),
+    (lambda m: budget.explain(budget.evaluate(m, trials=0), tagret=1.0),
+     "explain(): expected one of the arguments result, target, leading, sobol_trials, found "
+     "'tagret' (did you mean 'target'?)")])
+def test_a_misspelt_keyword_is_named_with_a_suggestion(naoh: budget.Model, call: Any,
+                                                       message: str) -> None:
+    # Python's own TypeError before; now a BudgetError (and still a TypeError)
+    with pytest.raises(BudgetError, match=re.escape(message)) as caught:
+        call(naoh)
+    assert isinstance(caught.value, TypeError)
+
+
+def test_the_closest_keyword_is_suggested(naoh: budget.Model) -> None:
+    with pytest.raises(BudgetError, match=re.escape("found 'trial' (did you mean 'trials'?)")):
+        budget.evaluate(naoh, trial=1000)  # type: ignore[call-arg]
