@@ -81,6 +81,9 @@ def read_link(name: str, data: dict[str, Any], base: Path, where: Any,
             raise InputError(f"'{key}' does not apply to an input that is the result of "
                              f"another model (its uncertainty comes from that model)",
                              where(key))
+    for key in ("description", "source"):
+        if not isinstance(data.get(key, ""), str):
+            raise InputError(f"expected a text string, found {data[key]!r}"[:200], where(key))
     relative = data["result_of"]
     if not isinstance(relative, str) or not relative.strip():
         raise InputError(f"expected the path of a model file or a saved JSON result, found "

@@ -595,7 +595,8 @@ def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str
         batch = certify_folder(folder, trials=trials, seed=seed, workers=workers)
         _check_outputs(csv_file, html_file,
                        protect=[("campaign", os.path.join(folder, e.path))
-                                for e in batch.entries])
+                                for e in batch.entries]
+                       + [item for e in batch.entries for item in e.files])
         if csv_file:
             from ._export import csv_text
             from ._output import write_atomic

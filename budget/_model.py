@@ -18,7 +18,7 @@ import tomllib
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 import numpy as np
 
@@ -388,7 +388,8 @@ class _Reader:
             files += (("register", self.register.source, self.register.sha256),)
         files += tuple((view.table, str(_base(self.name) / view.file),
                         _digest(_base(self.name) / view.file)) for view in generated.views)
-        made = Model(title=title.strip(), description=str(self.doc.get("description", "")),
+        made = Model(title=title.strip(),
+                     description=_text(self.doc, "description", self.where, None),
                      inputs=inputs, definitions=definitions, measurands=measurands,
                      correlations=pairs, settings=settings, estimated_together=sets,
                      source=self.name, sha256=sha256, warnings=warnings, certificates=uses,
@@ -509,8 +510,9 @@ class _Reader:
         distribution = _in_unit(statement, unit, unit_where)
         made = Input(name=name, unit=unit.text, distribution=distribution,
                      dof=statement.dof, type=statement.type, basis=statement.basis,
-                     description=str(data.get("description", "")),
-                     source=str(data.get("source", "")), molar_mass=statement.molar_mass)
+                     description=_text(data, "description", self.where, "inputs." + name),
+                     source=_text(data, "source", self.where, "inputs." + name),
+                     molar_mass=statement.molar_mass)
         if use is not None:
             stated = use.certificate.value(use.stated, where)
             self.checks.extend(agreement_warnings(
@@ -619,7 +621,8 @@ class _Reader:
         return Measurand(name=name, equation=data["equation"].strip(), unit=unit.text,
                          graph=term.expr / factor, shown_graph=term.shown,
                          opaque_graph=term.opaque / factor,
-                         description=str(data.get("description", "")), line=eq_where.line)
+                         description=_text(data, "description", self.where,
+                                           "measurands." + name), line=eq_where.line)
 
 
 def check_settings(data: dict[str, Any], where: Any) -> Settings:
@@ -692,6 +695,17 @@ def _base(name: str) -> Path:
     """Record files are found next to the model file (or in the working directory)."""
     path = Path(name)
     return path.parent if path.is_file() else Path.cwd()
+
+
+def _text(data: dict[str, Any], key: str, where: Callable[..., Location],
+          table: str | None) -> str:
+    """A free-text key (description, source): a string, never a number or list shown as
+    Python would print it."""
+    value = data.get(key, "")
+    if not isinstance(value, str):
+        raise InputError(f"expected a text string, found {shorten(repr(value))}",
+                         where(table, key))
+    return value
 
 
 def _check_name(name: str, where: Location) -> None:

@@ -46,6 +46,9 @@ class BatchEntry:
     unit: str = ""
     warnings: tuple[str, ...] = ()
     error: str | None = None
+    # (role, path) of every file the campaign read (or, when it failed, names): never
+    # overwritten by the summary's --csv or --html
+    files: tuple[tuple[str, str], ...] = ()
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -93,18 +96,45 @@ def certify_one(path: str, trials: int | None, seed: int | None) -> BatchEntry:
     from ._campaign import load_campaign
     from ._certification import certify
 
+    from ._output import files_of_campaign
+
     try:
         cert = certify(load_campaign(path), trials=trials, seed=seed)
     except BudgetError as error:
-        return BatchEntry(path=path, error=str(error))
+        return BatchEntry(path=path, error=str(error), files=_named_files(path))
     dates = sorted(cert.run_dates)
     return BatchEntry(path=path, title=cert.campaign.title,
+                      files=tuple(files_of_campaign(cert.campaign)) + _named_files(path),
                       date=dates[-1].isoformat() if dates else None,
                       certified_value=cert.certified_value,
                       standard_uncertainty=cert.standard_uncertainty,
                       coverage_factor=cert.coverage_factor,
                       expanded_uncertainty=cert.expanded_uncertainty,
                       unit=cert.campaign.unit, warnings=tuple(cert.warnings))
+
+
+def _named_files(path: str) -> tuple[tuple[str, str], ...]:
+    """The campaign file and every existing file a text of it names beside it (its data,
+    even when the campaign failed before reading them)."""
+    found = [("campaign", path)]
+    try:
+        document = tomllib.loads(Path(path).read_text(encoding="utf-8-sig"))
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+        return tuple(found)
+    stack: list[Any] = [document]
+    while stack:
+        item = stack.pop()
+        if isinstance(item, dict):
+            stack.extend(item.values())
+        elif isinstance(item, list):
+            stack.extend(item)
+        elif isinstance(item, str) and 0 < len(item) < 1000 and "\n" not in item:
+            try:
+                if (Path(path).parent / item).is_file():
+                    found.append(("data", str(Path(path).parent / item)))
+            except (OSError, ValueError):
+                continue
+    return tuple(found)
 
 
 def _certify_many(paths: list[str], trials: int | None, seed: int | None

@@ -388,3 +388,16 @@ def test_a_width_key_of_a_bounded_shape_is_not_ignored(cli, tmp_path, statement,
     code, stdout, stderr = cli("check", str(path))
     assert code == 1 and stdout == ""
     assert stderr == f"error: {path}:{line}: [inputs.b] {key}: '{key}' does not apply {why}\n"
+
+
+@pytest.mark.parametrize("table, line", [("[inputs.b]", 5), ("[measurands.y]", 3)])
+def test_free_text_must_be_text(cli, tmp_path, table, line):
+    # description = 5 or source = ["a"] was accepted and shown as Python prints it
+    text = ('title = "text"\n[measurands.y]\nequation = "b"\n[inputs.b]\nvalue = 3.0\n'
+            "u = 0.2\n")
+    path = tmp_path / "text.toml"
+    path.write_text(text.replace(f"{table}\n", f"{table}\ndescription = 5\n"))
+    code, stdout, stderr = cli("check", str(path))
+    assert code == 1 and stdout == ""
+    assert stderr == (f"error: {path}:{line}: {table} description: expected a text string, "
+                      "found 5\n")

@@ -423,3 +423,20 @@ def test_a_flat_background_of_rounded_readings_is_a_warning(cli, tmp_path: Path)
     assert code == 0
     assert ("warning: [records.Q]: the readings of the background constant lie exactly on "
             "the fitted curve" in stderr)
+
+
+@pytest.mark.parametrize("broken", [False, True])
+def test_certify_all_never_writes_its_summary_onto_a_data_file(cli, tmp_path: Path,
+                                                               broken: bool) -> None:
+    # --csv onto a campaign's runs file replaced the lab's determinations by the summary;
+    # only the campaign files themselves were protected
+    shutil.copytree(DEMO, tmp_path / "a", ignore=shutil.ignore_patterns("campaign-*"))
+    if broken:  # a campaign that fails still protects the files it names
+        _edit("homogeneity.csv", "99.9854", "abc")(tmp_path / "a")
+    target = tmp_path / "a" / ("homogeneity.csv" if broken else "determinations.csv")
+    before = target.read_bytes()
+    code, stdout, stderr = cli("certify-all", "--csv", str(target), str(tmp_path))
+    assert (code, stdout) == (1, "")
+    assert stderr.startswith(f"error: {target}: expected an output file other than the "
+                             "files of the run, found the ")
+    assert target.read_bytes() == before
