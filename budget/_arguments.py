@@ -40,19 +40,21 @@ def keywords_checked(function: Callable[P, R]) -> Callable[P, R]:
     positional = sum(p.kind in (p.POSITIONAL_ONLY, p.POSITIONAL_OR_KEYWORD)
                      for p in parameters)
     takes_any = any(p.kind is p.VAR_KEYWORD for p in parameters)
+    own = 1 if names[:1] == ["self"] else 0  # a method: self is not the caller's to count
     where = Location(file=f"{function.__name__}()")
 
     @functools.wraps(function)
     def checked(*args: P.args, **kwargs: P.kwargs) -> R:
         if len(args) > positional:
-            raise ArgumentError(f"expected at most {positional} positional argument"
-                                f"{'s' if positional > 1 else ''} (give the others by "
+            most = positional - own
+            raise ArgumentError(f"expected at most {most} positional argument"
+                                f"{'s' if most > 1 else ''} (give the others by "
                                 f"name: {', '.join(f'{n}=…' for n in names[positional:])}), "
-                                f"found {len(args)}", where)
+                                f"found {len(args) - own}", where)
         for key in kwargs:
             if key not in names and not takes_any:
-                raise ArgumentError(f"expected one of the arguments {', '.join(names)}, found "
-                                    f"{key!r}{did_you_mean(key, names)}", where)
+                raise ArgumentError(f"expected one of the arguments {', '.join(names[own:])}, "
+                                    f"found {key!r}{did_you_mean(key, names[own:])}", where)
         return function(*args, **kwargs)
 
     return checked

@@ -38,6 +38,7 @@ from ._units import UnitInfo, dimension_text, parse_unit
 from . import _correlations as corr
 from . import _together as together
 from ._together import Together
+from ._arguments import keywords_checked
 
 __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model",
            "parse_model", "DEFAULT_SEED"]
@@ -192,6 +193,7 @@ class Model:
     def correlation_matrix(self) -> np.ndarray:
         return corr.matrix([i.name for i in self.inputs], self.correlations)
 
+    @keywords_checked
     def with_uncertainty(self, name: str, *, u: float | None = None,
                          factor: float | None = None) -> "Model":
         """A what-if copy in which input ``name`` has the standard uncertainty ``u`` (in the
@@ -206,6 +208,7 @@ class Model:
             f"u({name}) × {float(factor):g}"  # type: ignore[arg-type]  # checked above
         return self.changed(inputs, change)
 
+    @keywords_checked
     def with_value(self, name: str, value: float) -> "Model":
         """A what-if copy in which input ``name`` has the estimate ``value`` (its unit);
         the distribution moves with it and keeps its widths."""
@@ -216,6 +219,7 @@ class Model:
                        for i in self.inputs)
         return self.changed(inputs, f"{name} = {float(value):g}")
 
+    @keywords_checked
     def with_distribution(self, name: str, distribution: Any) -> "Model":
         """A what-if copy in which input ``name`` is drawn from ``distribution``: a shape
         name (``"normal"``, ``"rectangular"``, ``"triangular"``, ``"arcsine"``) keeping the

@@ -694,3 +694,14 @@ def test_a_misspelt_keyword_is_named_with_a_suggestion(naoh: budget.Model, call:
 def test_the_closest_keyword_is_suggested(naoh: budget.Model) -> None:
     with pytest.raises(BudgetError, match=re.escape("found 'trial' (did you mean 'trials'?)")):
         budget.evaluate(naoh, trial=1000)  # type: ignore[call-arg]
+
+
+def test_what_if_keywords_are_checked(naoh: budget.Model) -> None:
+    with pytest.raises(BudgetError, match=re.escape(
+            "with_uncertainty(): expected one of the arguments name, u, factor, found 'U' "
+            "(did you mean 'u'?)")):
+        naoh.with_uncertainty("V_T", U=0.1)  # type: ignore[call-arg]
+    with pytest.raises(BudgetError, match=re.escape(
+            "with_uncertainty(): expected at most 1 positional argument (give the others by "
+            "name: u=…, factor=…), found 2")):
+        naoh.with_uncertainty("V_T", 0.1)  # type: ignore[misc]
