@@ -235,6 +235,7 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
     if "u_y" not in values and "covariance" in data:
         raise InputError("expected 'covariance' only with a 'u_y' column (ordinary least "
                          "squares always scales by the residuals)", here("covariance"))
+    _positive_uncertainties(data, values, chosen, rows, shown, here)
     x, y = values["x"][chosen], values["y"][chosen]
     if method == "york":
         fit = york(x, y, values["u_x"][chosen], values["u_y"][chosen],
@@ -260,6 +261,20 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
     if covariance == "stated" and math.isfinite(fit.chi2):
         _chi2_warning(made, name, fit)
     zero_residual_warning(made, f"fits.{name}", fit, "the points", "coefficients")
+
+
+def _positive_uncertainties(data: dict[str, Any], values: dict[str, np.ndarray],
+                            chosen: np.ndarray, rows: np.ndarray, shown: str,
+                            here: Where) -> None:
+    """Every u_x and u_y of the fitted rows > 0, or an error naming the row of the file."""
+    for role in ("u_x", "u_y"):
+        if role not in values:
+            continue
+        bad = np.flatnonzero(chosen & ~(values[role] > 0))
+        if bad.size:
+            raise InputError(f"expected every {role} > 0 in column '{data[role]}' of "
+                             f"'{shown}', found {values[role][bad[0]]:g} at row "
+                             f"{rows[bad[0]]}", here("file"))
 
 
 def _axis(column: str, unit: str) -> str:

@@ -440,3 +440,15 @@ def test_certify_all_never_writes_its_summary_onto_a_data_file(cli, tmp_path: Pa
     assert stderr.startswith(f"error: {target}: expected an output file other than the "
                              "files of the run, found the ")
     assert target.read_bytes() == before
+
+
+def test_a_zero_uncertainty_in_a_weighted_fit_names_its_row(cli, tmp_path: Path) -> None:
+    # the message said "at point 2": the index among the fitted points, not the row
+    (tmp_path / "line.csv").write_text("t_k,b_k,u\n21,-0.1,0.01\n22,-0.2,0\n23,-0.31,0.01\n"
+                                       "24,-0.4,0.01\n", encoding="utf-8")
+    (tmp_path / "line.toml").write_text(LINE_MODEL.replace('y = "b_k"', 'y = "b_k"\n'
+                                                           'u_y = "u"'), encoding="utf-8")
+    code, stdout, stderr = cli("run", "--trials", "0", str(tmp_path / "line.toml"))
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {tmp_path}/line.toml:5: [fits.line] file: expected every u_y "
+                      "> 0 in column 'u' of 'line.csv', found 0 at row 3\n")
