@@ -10,12 +10,13 @@ from dataclasses import dataclass, replace
 from typing import Any, Callable
 
 from ._errors import Location, PropagationError
-from ._arguments import check_model, check_trials_argument
+from ._arguments import check_model, check_not_both, check_trials_argument
 from ._limits import LIMITS_PAGE, check_digits, check_probability
 from ._gum import Budget, MeasurandBudget, propagate
 from ._model import Model
 from ._montecarlo import Simulation, simulate
 from ._reported import Reported, gum_reported, reported
+from ._arguments import keywords_checked
 
 __all__ = ["Result", "evaluate"]
 
@@ -77,6 +78,7 @@ class Result:
         return result_document(self)
 
 
+@keywords_checked
 def evaluate(model: Model, *, coverage: float | None = None, trials: int | None = None,
              adaptive: bool = False, seed: int | None = None, digits: int | None = None,
              second_order: bool = False, workers: int | None = None,
@@ -92,6 +94,7 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
     where = Location(file=model.source)
     check_probability(coverage, replace(where, key="coverage"))  # limits, also for the API
     check_digits(digits, replace(where, key="digits"))
+    check_not_both(trials, adaptive, replace(where, key="trials"))
     if trials is not None:
         trials = check_trials_argument(trials, replace(where, key="trials"))
     if trials is None and not adaptive and model.settings.trials == 0:

@@ -181,8 +181,8 @@ def load_campaign(path: str | Path, *, allow_outside: bool = False) -> Campaign:
     must lie in its folder tree unless ``allow_outside``."""
     from ._files import read_input
 
-    path = Path(path)
     raw = read_input(path, limit=MAX_FILE_BYTES, what="campaign file", error=CampaignError)
+    path = Path(path)
     text = decode(raw, str(path), "campaign")
     reader = _Reader(path, text, read_toml(text, str(path)), allow_outside)
     import hashlib
@@ -216,6 +216,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
         raise r.fail(f"expected a measurand of {model.source} ({', '.join(names)}), found "
                      f"'{measurand}'{did_you_mean(measurand, names)}", "characterization",
                      "measurand")
+    _check_unit(r, unit, model.measurands[names.index(measurand)].unit)
     runs = _runs(r, char, model)
     run_inputs = runs.names
     covers = _covers(r, char, model)
@@ -233,7 +234,7 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     if plan is not None:
         check_primary_references(r, plan, model, run_inputs)
         warnings += _method_run_warnings(plan)
-    homogeneity, excluded = _homogeneity(r, unit)
+    homogeneity, excluded = _homogeneity(r, unit, warnings)
     stability_section = r.section("stability", False)
     stability, time_unit, shelf, more = _stability(r, stability_section, unit, warnings)
     from ._stability import read_stability_plan
@@ -260,6 +261,17 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
 
 def _format(r: _Reader, data: dict[str, Any], table: str) -> FileFormat:
     return parse_declared_format(data, lambda message, key: r.fail(message, table, key))
+
+
+def _check_unit(r: _Reader, unit: str, measurand_unit: str) -> None:
+    """The campaign's unit, of the certified measurand's dimension (values are converted)."""
+    from ._units import parse_unit
+
+    where = r.where(None, "unit")
+    wanted, given = parse_unit(unit, where), parse_unit(measurand_unit, where)
+    if wanted.unit.dims != given.unit.dims or wanted.offset or given.offset:
+        raise r.fail(f"expected a unit of the measurand's dimension ('{measurand_unit}'), "
+                     f"found '{unit}'", None, "unit")
 
 
 def _runs(r: _Reader, char: dict[str, Any], model: Model) -> Runs:
@@ -409,8 +421,8 @@ def _optional_unit(r: _Reader, data: dict[str, Any], key: str, table: str) -> st
     return text
 
 
-def _homogeneity(r: _Reader, unit: str) -> tuple[tuple[tuple[str, np.ndarray], ...] | None,
-                                                 tuple[Exclusion, ...]]:
+def _homogeneity(r: _Reader, unit: str, warnings: list[str]
+                 ) -> tuple[tuple[tuple[str, np.ndarray], ...] | None, tuple[Exclusion, ...]]:
     from ._studydata import read_homogeneity
 
     section = r.section("homogeneity", False)
@@ -418,8 +430,9 @@ def _homogeneity(r: _Reader, unit: str) -> tuple[tuple[tuple[str, np.ndarray], .
         return None, ()
     path = r.file(section, "data", "homogeneity")
     value_unit = _optional_unit(r, section, "value_unit", "homogeneity")
-    groups, excluded = read_homogeneity(path, _format(r, section, "homogeneity"), unit,
-                                        value_unit, str(path))
+    groups, excluded, slips = read_homogeneity(path, _format(r, section, "homogeneity"),
+                                               unit, value_unit, str(path))
+    warnings += slips
     shown = Location(file=str(path))
     if len(groups) < 2:
         raise CampaignError(f"expected at least 2 units with a value, found {len(groups)}",
@@ -447,6 +460,7 @@ def _stability(r: _Reader, section: dict[str, Any] | None, unit: str, warnings: 
                           _optional_unit(r, section, "value_unit", "stability"), time_unit,
                           _origin(r, section), str(path), date_unit=time_unit or shelf_unit)
     shelf = _shelf_life(r, section, data.time_unit)
+    warnings += data.slips
     if data.times.size < 3 or np.unique(data.times).size < 2:
         raise CampaignError(f"expected at least 3 points at 2 or more different times, found "
                             f"{data.times.size} at {np.unique(data.times).size}",
@@ -487,9 +501,12 @@ def _shelf_life(r: _Reader, section: dict[str, Any], time_unit: str) -> float:
     where = r.where("stability", "shelf_life")
     if not math.isfinite(number) or number <= 0:
         raise r.fail(f"expected a shelf life > 0, found {number:g}", "stability", "shelf_life")
-    return float(convert(np.array([number]), parse_unit(unit_text, where),
-                         parse_unit(time_unit or unit_text, where), source=r.name,
-                         column="shelf_life")[0])
+    given = parse_unit(unit_text, where)
+    if given.offset or given.unit.dims != parse_unit("s", where).unit.dims:
+        raise r.fail(f"expected a shelf life in a unit of time (such as month, d, year), "
+                     f"found '{unit_text}' ({given.describe()})", "stability", "shelf_life")
+    return float(convert(np.array([number]), given, parse_unit(time_unit or unit_text, where),
+                         source=r.name, column="shelf_life")[0])
 
 
 def _origin(r: _Reader, section: dict[str, Any]) -> Any:

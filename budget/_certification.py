@@ -43,6 +43,7 @@ from ._model import Model
 from ._register import date_warnings
 from ._studydata import time_words
 from ._units import parse_unit
+from ._arguments import keywords_checked
 
 __all__ = ["Homogeneity", "Stability", "Characterization", "ComparisonScore",
            "Certification", "anova", "trend", "certify", "zero_residual"]
@@ -140,16 +141,21 @@ class Certification:
 
     def __repr__(self) -> str:
         from ._notebook import short
+        from ._unit_display import display_unit, spaced_unit
 
         value, expanded = short(self.certified_value, self.expanded_uncertainty)
-        return (f"<Certification {self.campaign.title!r}: ({value} ± {expanded}) "
-                f"{self.campaign.unit}, k = {self.coverage_factor:.3g}>")
+        unit = spaced_unit(display_unit(self.campaign.unit))
+        return (f"<Certification {self.campaign.title!r}: ({value} ± {expanded})"
+                f"{unit}, k = {self.coverage_factor:.3g}>")
 
     def summary(self, digits: int | None = None) -> str:
         """The terminal output of ``budget certify``, warnings included."""
         from ._table import render_certification
 
-        digits = self.campaign.model.settings.digits if digits is None else digits
+        from ._notebook import summary_digits
+
+        digits = self.campaign.model.settings.digits if digits is None else \
+            summary_digits(digits)
         return "\n".join([render_certification(self, digits),
                           *(f"warning: {w}" for w in self.warnings)])
 
@@ -271,21 +277,25 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
     from ._special import t_two_sided_p
 
     n = times.size
-    t_mean = times.mean()
-    sxx = float(np.sum((times - t_mean) ** 2))
+    t_mean = _mean(times)
+    # values and times in units of their largest deviation (1 for ordinary data): times
+    # near 1e±200 would otherwise make Σ(t − t̄)² ∞ or 0 and the slope 0/0
+    t_scale = _scale(times - t_mean)
+    d = (times - t_mean) / t_scale
+    sxx = float(np.sum(d ** 2))
     mean = _mean(values)
     scale = _scale(values - mean)  # 1 unless the squares would overflow or underflow
-    slope = scale * float(np.sum((times - t_mean) * ((values - mean) / scale)) / sxx)
+    slope = scale / t_scale * (float(np.sum(d * ((values - mean) / scale))) / sxx)
     intercept = float(mean - slope * t_mean)
-    if scale == 1.0:
+    if scale == 1.0 and t_scale == 1.0:
         residuals = values - (intercept + slope * times)
     else:
-        residuals = (values - mean) / scale - (slope / scale) * (times - t_mean)
+        residuals = (values - mean) / scale - (slope * t_scale / scale) * d
     s = scale * math.sqrt(float(np.sum(residuals ** 2)) / (n - 2))
     reason = zero_residual(s, values)
     if reason:  # a residual within rounding noise is zero: s(b₁) = 0, as the reason says
         s = 0.0
-    u_slope = s / math.sqrt(sxx)
+    u_slope = s / (t_scale * math.sqrt(sxx))
     t = math.nan if reason else slope / u_slope
     p_value = math.nan if reason else t_two_sided_p(t, n - 2)
     return Stability(reason=reason, times=tuple(float(x) for x in times),
@@ -295,12 +305,20 @@ def trend(times: np.ndarray, values: np.ndarray, shelf_life: float, *,
                      time_unit=time_unit)
 
 
+@keywords_checked
 def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None = None,
             progress: Callable[[int, int], None] | None = None,
             reported_interval: str | None = None) -> Certification:
     """The certified value, its uncertainty budget and the comparisons; with Monte Carlo
     trials also a Monte Carlo of the certified value, whose interval is the reported one
     when ``reported_interval`` (default: the campaign's) asks for it."""
+    from ._arguments import check_instance
+
+    check_instance(campaign, Campaign, "certify", "campaign")
+    if reported_interval is not None:
+        from ._model import check_reported
+
+        check_reported(reported_interval, Location(file="certify()", key="reported_interval"))
     warnings: list[str] = []
     days = _run_dates(campaign)
     warnings.extend(date_warnings(campaign.model.certificates, days,

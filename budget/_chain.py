@@ -26,7 +26,7 @@ from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Callable
 
-from ._chemistry import air_density
+from ._chemistry import plain_air_density as air_density
 from ._errors import Location
 from ._longparse import parse
 from ._unit_display import display_unit, unit_ratio

@@ -33,6 +33,7 @@ from ._errors import InputError, Location
 from . import _algebra as alg
 from ._joint import Member, join, joint_name
 from ._model import Input, Model
+from ._savedresult import misshapen
 from ._units import parse_unit
 
 __all__ = ["Link", "PendingLink", "read_link", "resolve", "CHAIN_KEYS"]
@@ -80,6 +81,9 @@ def read_link(name: str, data: dict[str, Any], base: Path, where: Any,
             raise InputError(f"'{key}' does not apply to an input that is the result of "
                              f"another model (its uncertainty comes from that model)",
                              where(key))
+    for key in ("description", "source"):
+        if not isinstance(data.get(key, ""), str):
+            raise InputError(f"expected a text string, found {data[key]!r}"[:200], where(key))
     relative = data["result_of"]
     if not isinstance(relative, str) or not relative.strip():
         raise InputError(f"expected the path of a model file or a saved JSON result, found "
@@ -239,6 +243,13 @@ def _ordered(model: Model, joint: Model, final: dict[str, str], linked: str
     return tuple(first + rest)
 
 
+# what _linear_model reads (kinds: _savedresult.misshapen)
+_MEASURAND_FIELDS = (("name", "name"), ("unit", "name"), ("value", "number"), ("u", "u"),
+                     ("dof", "dof"))
+_INPUT_FIELDS = (("input", "name"), ("estimate", "number"), ("u", "u"),
+                 ("sensitivity", "number"), ("dof?", "dof"), ("unit?", "name"),
+                 ("distribution?", "name"))
+
 _SHAPES = {"rectangular": ("Rectangular", math.sqrt(3.0)),
            "triangular": ("Triangular", math.sqrt(6.0)),
            "arcsine": ("Arcsine", math.sqrt(2.0))}
@@ -254,12 +265,16 @@ def saved_result_model(path: Path, where: Location) -> Model:
     except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
         raise InputError(f"expected a JSON result document in '{path}', found {exc}",
                          where) from exc
-    try:
-        return _linear_model(document, str(path))
-    except (KeyError, TypeError, ValueError) as exc:
-        raise InputError(f"expected a JSON result document (schema result.schema.json) in "
-                         f"'{path}', "
-                         f"found one without {exc}", where) from exc
+    found = misshapen(document, _MEASURAND_FIELDS, _INPUT_FIELDS, (("r", "number"),))
+    if found is None:
+        try:
+            return _linear_model(document, str(path))
+        except (KeyError, TypeError, ValueError) as exc:  # a safety net: checked above
+            found = "one that cannot be read as a result"
+            raise InputError(f"expected a JSON result document (schema result.schema.json) "
+                             f"in '{path}', found {found}", where) from exc
+    raise InputError(f"expected a JSON result document (schema result.schema.json) in "
+                     f"'{path}', found {found}", where)
 
 
 def _linear_model(document: dict[str, Any], source: str) -> Model:

@@ -309,7 +309,57 @@ def air_density_expression(t: Any, p: Any, h: Any, x_co2: Any = 0.0004, *,
 
 
 def air_density(t: float, p: float, h: float, x_co2: float = 0.0004) -> float:
-    """CIPM-2007 moist-air density in kg/m³ for plain numbers (°C, Pa, fraction)."""
+    """CIPM-2007 moist-air density in kg/m³ (``t`` in °C, ``p`` in Pa, ``h`` the relative
+    humidity as a fraction, ``x_co2`` the CO₂ mole fraction), for a user's numbers.
+
+    A value that is not a finite number, a relative humidity or CO₂ fraction outside
+    [0, 1], a pressure ≤ 0 or a temperature at or below absolute zero is an
+    :class:`InputError`; a temperature or pressure outside the range of validity of the
+    equation (15 °C to 27 °C, 600 hPa to 1100 hPa) gives a ``UserWarning`` (a pressure in
+    hPa instead of Pa is 100 times too small)."""
+    numbers = _checked_air(t=t, p=p, h=h, x_co2=x_co2)
+    density = plain_air_density(*numbers)
+    if not (math.isfinite(density) and density > 0):
+        raise InputError(f"expected arguments at which the CIPM-2007 equation gives a density "
+                         f"above 0, found {density:g} kg/m³ at t = {t!r} °C, p = {p!r} Pa, "
+                         f"h = {h!r} (a temperature in K?)", Location(file="air_density()"))
+    return density
+
+
+def _checked_air(**arguments: Any) -> list[float]:
+    import warnings
+
+    from ._arguments import real
+
+    numbers = []
+    for name, value in arguments.items():
+        number = real(value)
+        if number is None or not math.isfinite(number):
+            raise InputError(f"expected a finite number, found {type(value).__name__} "
+                             f"{value!r}", Location(file="air_density()", key=name))
+        numbers.append(number)
+    t, p, h, x_co2 = numbers
+    for name, bad, expected in (("h", not 0 <= h <= 1, "a relative humidity as a fraction "
+                                 "from 0 to 1 (50 % is 0.5)"),
+                                ("x_co2", not 0 <= x_co2 <= 1, "a mole fraction from 0 to 1"),
+                                ("p", p <= 0, "a pressure in Pa above 0"),
+                                ("t", t <= -273.15, "a temperature in °C above -273.15")):
+        if bad:
+            raise InputError(f"expected {expected}, found {arguments[name]!r}",
+                             Location(file="air_density()", key=name))
+    from ._plausibility import AIR_DENSITY_VALIDITY
+
+    for (label, low, high, unit, stated), value in zip(AIR_DENSITY_VALIDITY, (t, p)):
+        if not low <= value <= high:
+            warnings.warn(f"air_density(): {label} {value:g} {unit} is outside the range of "
+                          f"validity {stated} of the CIPM-2007 equation; a unit slip?",
+                          UserWarning, stacklevel=3)
+    return numbers
+
+
+def plain_air_density(t: float, p: float, h: float, x_co2: float = 0.0004) -> float:
+    """CIPM-2007 moist-air density in kg/m³ for plain numbers (°C, Pa, fraction), unchecked:
+    the engine's own evaluation (it steps around the estimates, arrays of values)."""
     c = _CIPM
     temperature = t + 273.15
     p_sv = math.exp(c["A"] * temperature ** 2 + c["B"] * temperature + c["C"]

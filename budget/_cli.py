@@ -107,16 +107,40 @@ def _read_model(model_file: str) -> Any:
     return parse_model(data, name="<stdin>")
 
 
+_SUFFIXES = {".csv": "--csv", ".xlsx": "--xlsx", ".html": "--html", ".htm": "--html"}
+
+
+def _check_suffixes(html: str | None = None, csv: str | None = None,
+                    xlsx: str | None = None) -> None:
+    """Refuse a workbook named as text or text named as a workbook (--xlsx b.csv, --csv
+    b.xlsx: a spreadsheet opens the one as text, the other not at all); other suffixes
+    are the user's choice."""
+    for option, name in (("--html", html), ("--csv", csv), ("--xlsx", xlsx)):
+        suffix = os.path.splitext(name or "")[1]
+        owner = _SUFFIXES.get(suffix.lower())
+        if name and owner not in (None, option) and "--xlsx" in (option, owner):
+            raise click.UsageError(f"{option} writes {_KINDS[option]}: expected a file name "
+                                   f"without the suffix {suffix} of {owner}, found {name!r}")
+
+
+_KINDS = {"--html": "an HTML page", "--csv": "a CSV table", "--xlsx": "an .xlsx workbook"}
+
+
 def _check_outputs(*paths: str | None, protect: Any = ()) -> None:
     """Refuse impossible output targets (output.check_target): before the work starts,
     and with the files of the run as ``protect`` once they are known."""
     from pathlib import Path
 
-    from ._output import check_target
+    from ._errors import InputError, Location
+    from ._output import check_target, same_target
 
-    for path in paths:
-        if path:
-            check_target(Path(path), protect)
+    named = [Path(path) for path in paths if path]
+    for k, path in enumerate(named):
+        if any(same_target(path, other) for other in named[:k]):
+            # the second output would silently replace the first
+            raise InputError("expected a different file for each output (--html, --csv, "
+                             "--xlsx), found this file named twice", Location(file=str(path)))
+        check_target(path, protect)
 
 
 def _safe(text: str) -> str:
@@ -303,6 +327,7 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
 
     progress = _Progress(not as_json and not _quiet())
     try:
+        _check_suffixes(html_file, csv_file, xlsx_file)
         _check_outputs(html_file, csv_file, xlsx_file)
         result = _evaluate(model_file, trials, adaptive, seed, coverage, digits,
                            second_order, progress, reported_interval)
@@ -331,6 +356,9 @@ def _evaluate(model_file: str, trials: int | None, adaptive: bool, seed: int | N
               progress: _Progress, reported_interval: str | None = None) -> Any:
     from ._analysis import evaluate
 
+    if adaptive and trials is not None:  # which one was meant cannot be guessed
+        raise click.UsageError("--adaptive chooses the number of trials itself: give either "
+                               f"--adaptive or --trials, found both (--trials {trials})")
     model = _read_model(model_file)
     return evaluate(model, coverage=coverage, trials=trials, adaptive=adaptive, seed=seed,
                     digits=digits, second_order=second_order, progress=progress,
@@ -401,8 +429,13 @@ def check(model_file: str, strict: bool) -> None:
     _one_shot()
     from ._errors import BudgetError
 
+    from ._evaluation import jacobian_at_estimates
+
     try:
         model = _read_model(model_file)
+        # the equations at the estimates: a division by zero or a log of a negative
+        # estimate is an error of the file, which run would refuse
+        jacobian_at_estimates(model)
     except BudgetError as error:
         _fail(error)
     _strict(strict, model.warnings)
@@ -441,6 +474,7 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
 
     progress = _Progress(not as_json and not _quiet())
     try:
+        _check_suffixes(html_file, csv_file, xlsx_file)
         _check_outputs(html_file, csv_file, xlsx_file)
         campaign = load_campaign(campaign_file, allow_outside=allow_outside_folder)
         cert = run_certification(campaign, trials=trials, seed=seed, progress=progress,
@@ -493,6 +527,7 @@ def compare(before: str, after: str, as_json: bool, html_file: str | None, trial
     from ._errors import BudgetError
 
     try:
+        _check_suffixes(html_file)
         _check_outputs(html_file)
         difference = run_compare(load_side(before, trials=trials),
                                  load_side(after, trials=trials))
@@ -555,11 +590,13 @@ def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str
     from ._errors import BudgetError
 
     try:
+        _check_suffixes(html_file, csv_file)
         _check_outputs(csv_file, html_file)
         batch = certify_folder(folder, trials=trials, seed=seed, workers=workers)
         _check_outputs(csv_file, html_file,
                        protect=[("campaign", os.path.join(folder, e.path))
-                                for e in batch.entries])
+                                for e in batch.entries]
+                       + [item for e in batch.entries for item in e.files])
         if csv_file:
             from ._export import csv_text
             from ._output import write_atomic

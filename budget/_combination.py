@@ -26,11 +26,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ._errors import Location, PropagationError
+from ._limits import shorten
+from ._arguments import keywords_checked
 
 __all__ = ["RULES", "Consistency", "Combined", "gls_mean", "plain_mean", "consistency",
            "dersimonian_laird", "paule_mandel", "combine"]
@@ -70,9 +73,12 @@ class Combined:
 
 def _checked(values: Array | list[float], covariance: Array | list[list[float]]
              ) -> tuple[Array, Array]:
-    x = np.asarray(values, dtype=float).ravel()
-    v = np.atleast_2d(np.asarray(covariance, dtype=float))
-    if x.size < 1 or v.shape != (x.size, x.size):
+    x = _numbers(values, "values")
+    v = np.atleast_2d(_numbers(covariance, "covariance"))
+    if x.ndim != 1 or x.size < 1:
+        raise PropagationError(f"expected the values as a list of at least one number, found "
+                               f"an array of shape {x.shape}")
+    if v.shape != (x.size, x.size):
         raise PropagationError(f"expected {x.size} values and a {x.size}×{x.size} "
                                f"covariance matrix, found the shape {v.shape}")
     if not (np.all(np.isfinite(x)) and np.all(np.isfinite(v))):
@@ -81,6 +87,27 @@ def _checked(values: Array | list[float], covariance: Array | list[list[float]]
     if not np.allclose(v, v.T, rtol=1e-12, atol=0.0):
         raise PropagationError("expected a symmetric covariance matrix of the results")
     return x, v
+
+
+def _numbers(given: Any, what: str) -> Array:
+    """``given`` as a float array when every entry is a real number (no text, no bool, no
+    None: ``"1"`` is not converted), else a :class:`PropagationError` naming ``what``."""
+    from ._arguments import real
+
+    try:
+        array: Array | None = np.asarray(given)
+    except ValueError:  # ragged rows
+        array = None
+    if array is not None and array.dtype.kind in "iuf":
+        return np.asarray(array, dtype=float)
+    found = given
+    if array is not None and array.dtype == object:
+        items = [real(item) for item in array.ravel()]
+        if None not in items:
+            return np.asarray(items, dtype=float).reshape(array.shape)
+        found = array.ravel()[items.index(None)]
+    raise PropagationError(f"expected {what} as numbers, found {type(found).__name__} "
+                           f"{shorten(repr(found))}")
 
 
 def _inverse(v: Array) -> Array:
@@ -172,6 +199,7 @@ def paule_mandel(values: Array | list[float], covariance: Array | list[list[floa
     return 0.5 * (low + high)
 
 
+@keywords_checked
 def combine(values: Array | list[float], covariance: Array | list[list[float]],
             rule: str = "weighted", *, where: Location | None = None) -> Combined:
     """One value from the results by ``rule`` (one of :data:`RULES`) and its check;

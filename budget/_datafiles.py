@@ -294,20 +294,36 @@ def _split(text: str, declared: str | None, shown: str) -> tuple[list[list[str]]
     separator = _separator(text, declared, shown)
     grid: list[list[str]] = []
     rows: list[int] = []
-    reader = csv.reader(io.StringIO(text), delimiter=separator, skipinitialspace=True)
-    try:
-        for fields in reader:
-            if not any(f.strip() for f in fields) or not grid and fields[0].startswith("#"):
-                continue  # blank lines anywhere, comment lines above the header
-            if not grid and fields:
-                fields[0] = fields[0].lstrip("\ufeff")
-            grid.append(fields)
-            rows.append(reader.line_num)
-    except csv.Error as exc:
-        raise DataFileError(f"expected CSV text, found {exc}",
-                            Location(file=shown, line=reader.line_num)) from exc
+    # newline=None: line ends \n, \r\n and a lone \r (Excel's "CSV (Macintosh)") alike
+    reader = csv.reader(io.StringIO(text, newline=None), delimiter=separator,
+                        skipinitialspace=True)
+    while True:
+        start = reader.line_num + 1  # the line the next record starts on
+        try:
+            fields = next(reader)
+        except StopIteration:
+            break
+        except csv.Error as exc:
+            raise _csv_error(exc, shown, start) from exc
+        if not any(f.strip() for f in fields) or not grid and fields[0].startswith("#"):
+            continue  # blank lines anywhere, comment lines above the header
+        if not grid and fields:
+            fields[0] = fields[0].lstrip("\ufeff")
+        grid.append(fields)
+        rows.append(reader.line_num)
     _check_widths(grid, rows, separator, shown)
     return grid, rows
+
+
+def _csv_error(exc: csv.Error, shown: str, line: int) -> DataFileError:
+    """The csv module's complaint in the project's words (its text is Python's)."""
+    if "field larger than field limit" in str(exc):
+        return DataFileError(f"expected cells of at most {csv.field_size_limit()} "
+                             "characters, found a longer one in the row that starts here (a "
+                             "quote \" without its closing quote, for one, makes the rest of "
+                             "the file one cell)", Location(file=shown, line=line))
+    return DataFileError(f"expected CSV text, found a row the csv reader refuses ({exc})",
+                         Location(file=shown, line=line))
 
 
 def _check_widths(grid: list[list[str]], rows: list[int], separator: str, shown: str) -> None:

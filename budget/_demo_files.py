@@ -48,11 +48,35 @@ def copy_demo(target: str | Path) -> list[Path]:
         raise InputError(f"expected a folder without the demo files, found {len(clashes)} "
                          f"of them already there (for example '{clashes[0]}'); nothing "
                          "was copied", Location(file=str(target)))
-    written = []
-    for name, source in files:
-        path = target / name
-        path.parent.mkdir(parents=True, exist_ok=True)
-        with source.open("rb") as incoming, open(path, "xb") as outgoing:
-            shutil.copyfileobj(incoming, outgoing)
-        written.append(path)
+    _check_folders(target, [name for name, _ in files])
+    written: list[Path] = []
+    made: list[Path] = []  # folders this call created, removed again on failure
+    try:
+        for name, source in files:
+            path = target / name
+            for folder in reversed(path.relative_to(target).parents):
+                if not (target / folder).exists():
+                    (target / folder).mkdir()
+                    made.append(target / folder)
+            with source.open("rb") as incoming, open(path, "xb") as outgoing:
+                written.append(path)
+                shutil.copyfileobj(incoming, outgoing)
+    except BaseException:  # nothing half-copied: what this call wrote goes again
+        for path in written:
+            path.unlink(missing_ok=True)
+        for folder in reversed(made):
+            folder.rmdir()
+        raise
     return written
+
+
+def _check_folders(target: Path, names: list[str]) -> None:
+    """Refuse, before copying anything, a file where the demo needs a folder."""
+    if target.exists() and not target.is_dir():
+        raise InputError("expected a folder for the demo files, found a file",
+                         Location(file=str(target)))
+    folders = sorted({str(p) for name in names for p in Path(name).parents if str(p) != "."})
+    for folder in folders:
+        if (target / folder).exists() and not (target / folder).is_dir():
+            raise InputError(f"expected a folder '{folder}' for the demo files, found a file "
+                             "of that name; nothing was copied", Location(file=str(target)))

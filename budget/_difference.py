@@ -18,10 +18,12 @@ from __future__ import annotations
 import json
 import math
 from dataclasses import dataclass
-from pathlib import Path
+from pathlib import Path, PurePath
 from typing import Any
 
+from ._savedresult import misshapen
 from ._errors import InputError, Location
+from ._arguments import keywords_checked
 
 __all__ = ["Term", "Side", "InputChange", "MeasurandChange", "Difference", "compare",
            "compare_budgets", "load_side", "side_from_document"]
@@ -119,8 +121,11 @@ class Difference:
     notes: tuple[str, ...]  # settings, conventions, seeds, measurands added or removed
 
     def __repr__(self) -> str:
+        from ._unit_display import display_unit, spaced_unit
+
         moved = "; ".join(f"{m.name}: u {m.before.combined_uncertainty:.3g} → "
-                          f"{m.after.combined_uncertainty:.3g} {m.unit}"
+                          f"{m.after.combined_uncertainty:.3g}"
+                          f"{spaced_unit(display_unit(m.unit))}"
                           for m in self.measurands)
         return f"<Difference {self.before.label} → {self.after.label}: {moved}>"
 
@@ -133,8 +138,9 @@ class Difference:
     def summary(self, digits: int = 2) -> str:
         """The terminal text of ``budget compare``."""
         from ._difference_view import render_difference
+        from ._notebook import summary_digits
 
-        return render_difference(self, digits)
+        return render_difference(self, summary_digits(digits))
 
     def _repr_html_(self) -> str:
         from ._formatting import format_percent
@@ -169,6 +175,16 @@ class Difference:
         return difference_document(self)
 
 
+# what _measurand_side reads (kinds: _savedresult.misshapen)
+_MEASURAND_FIELDS = (("name", "name"), ("unit", "name"), ("value", "number"), ("u", "u"),
+                     ("k", "u"), ("U", "u"), ("dof", "dof"), ("contributions", "list"),
+                     ("second_order_variance?", "u?"))
+_INPUT_FIELDS = (("input", "name"), ("estimate", "number"), ("unit", "text"), ("u", "u"),
+                 ("distribution", "name"), ("dof", "dof"), ("sensitivity", "number"),
+                 ("contribution", "u"))
+_TERM_FIELDS = (("r", "number"), ("variance", "number"))
+
+
 def _number(value: Any) -> float:
     return math.inf if value is None else float(value)
 
@@ -176,6 +192,10 @@ def _number(value: Any) -> float:
 def side_from_document(document: dict[str, Any], label: str) -> Side:
     """A budget read from a JSON result document (``budget run --json``)."""
     where = Location(file=label)
+    found = misshapen(document, _MEASURAND_FIELDS, _INPUT_FIELDS, _TERM_FIELDS)
+    if found:
+        raise InputError(f"expected a JSON result document (schema result.schema.json), "
+                         f"found {found}", where)
     try:
         measurands = tuple(_measurand_side(m) for m in document["measurands"])
         provenance = document.get("provenance", {})
@@ -184,8 +204,10 @@ def side_from_document(document: dict[str, Any], label: str) -> Side:
                     ("seed", document.get("seed")),
                     ("Monte Carlo trials", provenance.get("trials")),
                     ("significant digits", document.get("digits")))
+        changed = bool(provenance.get("changes"))  # a what-if: not the file's budget
         return Side(label=label, title=str(document.get("title", "")),
-                    sha256=document.get("model_sha256"), settings=settings,
+                    sha256=None if changed else document.get("model_sha256"),
+                    settings=settings,
                     measurands=measurands)
     except (KeyError, TypeError, ValueError) as exc:
         raise InputError(f"expected a JSON result document (schema result.schema.json), found a "
@@ -235,13 +257,35 @@ def load_side(path: str | Path, *, trials: int = 0, seed: int | None = None) -> 
     return side_from_document(result_document(result), str(path))
 
 
-def compare_budgets(before: str | Path, after: str | Path, *, trials: int = 0,
+@keywords_checked
+def compare_budgets(before: Any, after: Any, *, trials: int = 0,
                     seed: int | None = None) -> Difference:
     """What changed from budget ``before`` to budget ``after`` and why U moved, as
-    ``budget compare A B``: each a model file (evaluated now, with ``trials`` Monte Carlo
-    trials) or a saved JSON result document."""
-    return compare(load_side(before, trials=trials, seed=seed),
-                   load_side(after, trials=trials, seed=seed))
+    ``budget compare A B``: each a model file or a ``Model`` (a what-if, say), evaluated
+    now with ``trials`` Monte Carlo trials, a saved JSON result document or a ``Result``."""
+    return compare(_side(before, "before", trials, seed), _side(after, "after", trials, seed))
+
+
+def _side(given: Any, argument: str, trials: int, seed: int | None) -> Side:
+    """One side of ``compare_budgets``: a path, a model or an evaluated result."""
+    from ._analysis import Result, evaluate
+    from ._document import result_document
+    from ._model import Model
+
+    if isinstance(given, Model):
+        given = evaluate(given, trials=trials, seed=seed)
+    if isinstance(given, Result):
+        model = given.model
+        label = model.source if not model.changes else \
+            f"{model.source} (what-if: {'; '.join(model.changes)})"
+        return side_from_document(result_document(given), label)
+    if isinstance(given, (str, PurePath)):
+        return load_side(str(given), trials=trials, seed=seed)
+    from ._limits import shorten
+
+    raise InputError(f"expected a model file or a saved JSON result document (a path), a "
+                     f"budget.Model or a budget.Result, found {type(given).__name__} "
+                     f"{shorten(repr(given))}", Location(file="compare_budgets()", key=argument))
 
 
 def compare(before: Side, after: Side) -> Difference:
@@ -347,15 +391,18 @@ def _input_change(name: str, a: Term | None, b: Term | None, var_a: float,
 
 
 def _what_changed(a: Term, b: Term) -> tuple[str, ...]:
+    from ._unit_display import display_unit, spaced_unit
+
     found = []
+    unit = spaced_unit(display_unit(b.unit))  # nothing after a number for a ratio ('1')
     if a.unit != b.unit:
         found.append(f"unit {a.unit} → {b.unit}")
     if not math.isclose(a.estimate, b.estimate, rel_tol=1e-12, abs_tol=0.0):
-        found.append(f"value {a.estimate:.10g} → {b.estimate:.10g} {b.unit}")
+        found.append(f"value {a.estimate:.10g} → {b.estimate:.10g}{unit}")
     u_a, u_b = a.standard_uncertainty, b.standard_uncertainty
     if not math.isclose(u_a, u_b, rel_tol=1e-12, abs_tol=0.0):
         ratio = f" (× {u_b / u_a:.3g})" if u_a > 0 and a.unit == b.unit else ""
-        found.append(f"u {u_a:.4g} → {u_b:.4g} {b.unit}{ratio}")
+        found.append(f"u {u_a:.4g} → {u_b:.4g}{unit}{ratio}")
     if a.distribution != b.distribution:
         found.append(f"distribution {a.distribution} → {b.distribution}")
     if a.dof != b.dof:

@@ -6,12 +6,17 @@ The first lines answer the auditor's question — why did U change — before an
 from __future__ import annotations
 
 import math
-from typing import Any
+import re
+from typing import Any, Callable
 
 from ._difference import Difference, InputChange, MeasurandChange, MeasurandSide
 from ._formatting import format_number, format_percent
+from ._unit_display import spaced_unit, terminal_unit
 
-__all__ = ["render_difference", "difference_document", "headline", "causes"]
+Show = Callable[[str], str]  # a unit as written → as displayed ("" when dimensionless)
+
+__all__ = ["render_difference", "difference_document", "headline", "causes", "through_k",
+           "squared_unit"]
 
 
 def _relative(before: float, after: float) -> str:
@@ -20,19 +25,37 @@ def _relative(before: float, after: float) -> str:
     return f" ({100.0 * (after - before) / before:+.0f} %)"
 
 
-def headline(m: MeasurandChange, digits: int) -> str:
+def squared_unit(unit: str, show: Show = terminal_unit) -> str:
+    """The unit of a variance as displayed: ``g²``, ``(mg/mL)²``; "" when dimensionless
+    (a dimensionless "1" is never written after a number, where "0.13 1" reads as 0.131)."""
+    shown = show(unit)
+    if not shown:
+        return ""
+    return f"{shown}²" if re.fullmatch(r"[^\W\d_]+|%|°C", shown) else f"({shown})²"
+
+
+def headline(m: MeasurandChange, digits: int, show: Show = terminal_unit) -> str:
     """One line: U, u_c and k before and after."""
     a, b = m.before, m.after
     n = digits
+    unit = spaced_unit(show(m.unit))
     big_a, big_b = a.expanded_uncertainty, b.expanded_uncertainty
     u_a, u_b = a.combined_uncertainty, b.combined_uncertainty
-    return (f"{m.name}: U {format_number(big_a, n)} → {format_number(big_b, n)} {m.unit}"
+    return (f"{m.name}: U {format_number(big_a, n)} → {format_number(big_b, n)}{unit}"
             f"{_relative(big_a, big_b)}; u_c {format_number(u_a, n)} → "
-            f"{format_number(u_b, n)} {m.unit}{_relative(u_a, u_b)}; k "
+            f"{format_number(u_b, n)}{unit}{_relative(u_a, u_b)}; k "
             f"{a.coverage_factor:.3g} → {b.coverage_factor:.3g}")
 
 
-def causes(m: MeasurandChange, most: int = 5) -> list[str]:
+def through_k(m: MeasurandChange, show: Show = terminal_unit) -> str:
+    """How much of the change of U came through u_c and how much through k."""
+    unit = spaced_unit(show(m.unit))
+    return (f"U changed by {m.expanded_change_from_uncertainty:+.3g}{unit} through u_c and "
+            f"by {m.expanded_change_from_coverage_factor:+.3g}{unit} through k (ν_eff "
+            f"{_dof(m.before.dof)} → {_dof(m.after.dof)})")
+
+
+def causes(m: MeasurandChange, most: int = 5, show: Show = terminal_unit) -> list[str]:
     """The largest causes of the change of u_c², each with its part of the change."""
     total = m.variance_change
     rows = [(c.variance_change, _cause(c)) for c in m.inputs if c.variance_change != 0.0]
@@ -45,7 +68,7 @@ def causes(m: MeasurandChange, most: int = 5) -> list[str]:
     lines = []
     for delta, text in rows[:most]:
         part = f" ({100.0 * delta / total:.0f} % of the change)" if total else ""
-        lines.append(f"{delta:+.3g} {m.unit}²{part}: {text}")
+        lines.append(f"{delta:+.3g}{spaced_unit(squared_unit(m.unit, show))}{part}: {text}")
     if len(rows) > most:
         lines.append(f"… and {len(rows) - most} smaller changes")
     return lines
@@ -65,14 +88,11 @@ def render_difference(diff: Difference, digits: int = 2) -> str:
         if m.variance_change == 0.0:
             lines.append("  u_c² is unchanged.")
         else:
-            lines.append(f"  u_c² changed by {m.variance_change:+.3g} {m.unit}²; the "
-                         "largest causes:")
+            lines.append(f"  u_c² changed by {m.variance_change:+.3g}"
+                         f"{spaced_unit(squared_unit(m.unit))}; the largest causes:")
             lines += ["    " + line for line in causes(m)]
         if not math.isclose(m.before.coverage_factor, m.after.coverage_factor, rel_tol=1e-4):
-            lines.append(f"  U changed by {m.expanded_change_from_uncertainty:+.3g} {m.unit} "
-                         f"through u_c and by {m.expanded_change_from_coverage_factor:+.3g} "
-                         f"{m.unit} through k (ν_eff "
-                         f"{_dof(m.before.dof)} → {_dof(m.after.dof)})")
+            lines.append("  " + through_k(m))
         lines.append("")
     if diff.notes:
         lines.append("Also different: " + "; ".join(diff.notes))
@@ -88,7 +108,8 @@ def _dof(dof: float) -> str:
 
 def _table(m: MeasurandChange) -> list[str]:
     head = f"{'input':<14} {'status':<9} {'share A %':>9} {'share B %':>9} " \
-           f"{'Δ(c·u)² / ' + m.unit + '²':>16}  what changed"
+           f"{'Δ(c·u)²' + (' / ' + squared_unit(m.unit) if squared_unit(m.unit) else ''):>16}" \
+           "  what changed"
     lines = [f"Inputs of {m.name}, largest change first", head, "-" * len(head)]
     for c in m.inputs:
         lines.append(f"{c.input[:14]:<14} {c.status:<9} {format_percent(c.share_before):>9} "

@@ -35,6 +35,10 @@ def result_document(result: Result, *, columns: bool = False) -> dict[str, Any]:
     """The JSON result document (``columns``: the correlation terms as a
     :class:`~budget._jsontext.Columns` for :func:`~budget._jsontext.json_text`, not a
     list of objects; the text is the same)."""
+    from ._analysis import Result
+    from ._arguments import check_instance
+
+    check_instance(result, Result, "result_document", "result")
     from . import _provenance as provenance
 
     model = result.model
@@ -185,6 +189,10 @@ def simulation_document(s: MeasurandSimulation) -> dict[str, Any]:
 
 def certification_document(cert: Any) -> dict[str, Any]:
     """The JSON document of ``budget certify --json`` (shared/spec/certification.md)."""
+    from ._arguments import check_instance
+    from ._certification import Certification
+
+    check_instance(cert, Certification, "certification_document", "cert")
     from . import _provenance as provenance
 
     campaign, char = cert.campaign, cert.characterization

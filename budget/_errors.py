@@ -86,6 +86,11 @@ class DataFileError(CampaignError):
     """A data table (CSV or workbook) that cannot be read as declared."""
 
 
+class ArgumentError(InputError, TypeError):
+    """A Python call with an argument the function does not take (``trial=`` for
+    ``trials=``), or too many positional ones."""
+
+
 class NotFoundError(BudgetError, KeyError):
     """A lookup (``budget.measurand("w")``, ``model.input("x")``) by a name that is not there."""
 

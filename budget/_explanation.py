@@ -30,7 +30,9 @@ from ._evaluation import compile_model
 from ._formatting import format_number, format_percent
 from ._gum import propagate
 from ._model import Model
+from ._montecarlo import heavy_tailed
 from ._unit_display import display_unit, spaced_unit
+from ._arguments import keywords_checked
 
 __all__ = ["Driver", "SobolIndex", "Explanation", "explain", "draw_inputs"]
 
@@ -83,8 +85,9 @@ class Explanation:
     def summary(self, digits: int = 2) -> str:
         """The plain-language answer of ``budget explain``."""
         from ._explanation_view import render
+        from ._notebook import summary_digits
 
-        return render((self,), digits)
+        return render((self,), summary_digits(digits))
 
     def _repr_html_(self) -> str:
         from ._notebook import explanation_html
@@ -110,9 +113,20 @@ class Explanation:
         return measurand
 
 
+MAX_SOBOL_TRIALS = 10_000_000  # draws per matrix of the variance-based indices (memory)
+
+
+@keywords_checked
 def explain(result: Result, *, target: float | None = None, leading: int = 3,
             sobol_trials: int = 1 << 15) -> tuple[Explanation, ...]:
     """One explanation per measurand of an evaluated model."""
+    from ._analysis import Result
+    from ._arguments import check_count, check_instance, check_positive
+
+    check_instance(result, Result, "explain", "result")
+    target = None if target is None else check_positive(target, "explain", "target")
+    leading = check_count(leading, "explain", "leading", 1, 1000)
+    sobol_trials = check_count(sobol_trials, "explain", "sobol_trials", 2, MAX_SOBOL_TRIALS)
     model = result.model
     coverage = result.budget.measurands[0].coverage_probability
     made = []
@@ -143,13 +157,14 @@ def _driver(model: Model, k: int, budget: Any, c: Any, coverage: float,
     halved = propagate(model.with_uncertainty(c.input, factor=0.5), coverage).measurands[k]
     needed = reached = None
     if target is not None and c.standard_uncertainty > 0 and c.sensitivity != 0:
-        rest = budget.combined_uncertainty ** 2 - c.contribution ** 2
-        room = (target / budget.coverage_factor) ** 2 - rest
-        if room > 0:
-            needed = math.sqrt(room) / abs(c.sensitivity)
+        rest = math.sqrt(max(budget.combined_uncertainty ** 2 - c.contribution ** 2, 0.0))
+        wanted = target / budget.coverage_factor
+        if wanted > rest:  # (wanted - rest)(wanted + rest): no square of a huge target
+            needed = math.sqrt(wanted - rest) * math.sqrt(wanted + rest) / abs(c.sensitivity)
             factor = needed / c.standard_uncertainty
-            reached = propagate(model.with_uncertainty(c.input, factor=factor),
-                                coverage).measurands[k].expanded_uncertainty
+            if math.isfinite(factor):  # a target near the largest double: no rerun
+                reached = propagate(model.with_uncertainty(c.input, factor=factor),
+                                    coverage).measurands[k].expanded_uncertainty
     return Driver(input=c.input, share=c.share, contribution=c.contribution,
                   distribution=c.distribution, type=c.type,
                   standard_uncertainty=c.standard_uncertainty, unit=c.unit,
@@ -190,7 +205,10 @@ def _reasons(model: Model, budget: Any, simulation: Any, ranked: list[Any]) -> t
         reasons.append(f"a dominant input with few degrees of freedom: {top.input} "
                        f"(ν = {item.dof:g}) is drawn from a t distribution with heavy tails")
     linear = is_linear(model, budget.name)
-    found = None if linear else _nonlinearity(budget, simulation, v.tolerance, unit)
+    k = next(j for j, m in enumerate(model.measurands) if m.name == budget.name)
+    heavy = heavy_tailed(model, None, k)
+    # no nonlinearity read from a standard deviation that an input with ν ≤ 2 leaves undefined
+    found = None if linear or heavy else _nonlinearity(budget, simulation, v.tolerance, unit)
     reasons += [found] if found else []
     if len(reasons) == 1:
         reasons.append("no single cause stands out; "
@@ -266,6 +284,11 @@ def _sobol(result: Result, k: int, n: int) -> tuple[tuple[SobolIndex, ...], tupl
     if model.correlations:
         return (), ("variance-based indices are not estimated for correlated inputs "
                     "(the estimator assumes independence)",)
+    heavy = heavy_tailed(model, result.budget, k)
+    if heavy:
+        return (), (f"variance-based indices are not defined: {heavy[0][0]} (ν = "
+                    f"{heavy[0][1]:g}) is drawn from a t distribution with ν ≤ 2, so "
+                    f"'{model.measurands[k].name}' has no finite variance to apportion",)
     program = compile_model(model)
     seed = result.simulation.seed if result.simulation else model.settings.seed
     rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence(seed, spawn_key=(1 << 30,))))

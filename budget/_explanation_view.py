@@ -55,13 +55,14 @@ def _text(e: Explanation, digits: int) -> str:
 def _target_text(e: Explanation, d: Driver, digits: int) -> str:
     target = format_pair(e.estimate, e.target or 0.0, digits)[1]
     unit = spaced_unit(terminal_unit(e.unit))
-    if d.needed_standard_uncertainty is None or d.reached_expanded_uncertainty is None:
+    if d.needed_standard_uncertainty is None:
         return f"U = {target}{unit} cannot be reached by improving {d.input} alone"
-    reached = format_pair(e.estimate, d.reached_expanded_uncertainty, digits)[1]
+    rerun = "" if d.reached_expanded_uncertainty is None else \
+        f"; rerun gives U = {format_pair(e.estimate, d.reached_expanded_uncertainty, digits)[1]}"
     needed = format_number(d.needed_standard_uncertainty, 2)
     return (f"for U = {target}{unit}: u({d.input}) ≤ {needed}"
             f"{spaced_unit(terminal_unit(d.unit))} "
-            f"(now {format_number(d.standard_uncertainty, 2)}; rerun gives U = {reached})")
+            f"(now {format_number(d.standard_uncertainty, 2)}{rerun})")
 
 
 def explanation_document(explanations: tuple[Explanation, ...]) -> dict[str, Any]:

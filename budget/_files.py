@@ -11,7 +11,7 @@ import os
 from pathlib import Path
 
 from ._errors import BudgetError, Location
-from ._limits import LIMITS_PAGE
+from ._limits import LIMITS_PAGE, shorten
 
 __all__ = ["read_input"]
 
@@ -20,6 +20,10 @@ def read_input(path: str | Path, *, limit: int, what: str,
                error: type[BudgetError]) -> bytes:
     """The bytes of ``path`` (at most ``limit``), or ``error`` naming the file and why."""
     shown = str(path)
+    if not isinstance(path, (str, os.PathLike)):
+        raise error(f"expected the path of a {what} (a string or a pathlib.Path), found "
+                    f"{type(path).__name__} {shorten(repr(path))}",
+                    Location(file="<argument>", key="path"))
     try:
         descriptor = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
     except FileNotFoundError as exc:

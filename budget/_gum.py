@@ -27,6 +27,7 @@ import numpy as np
 from ._dof import Grouping, effective_dof, grouping, pair_indices
 from ._errors import Location, PropagationError
 from ._model import Model
+from ._arguments import keywords_checked
 
 __all__ = ["Contribution", "CorrelationTerm", "CorrelationTerms", "MeasurandBudget", "Budget",
            "propagate", "coverage_factor", "welch_satterthwaite"]
@@ -130,17 +131,21 @@ class MeasurandBudget:
 
     def __repr__(self) -> str:
         from ._notebook import short
+        from ._unit_display import display_unit, spaced_unit
 
         value, u = short(self.estimate, self.combined_uncertainty)
         expanded = short(self.estimate, self.expanded_uncertainty)[1]
-        return (f"<MeasurandBudget {self.name}: y = {value} {self.unit}, u_c = {u}, "
+        unit = spaced_unit(display_unit(self.unit))  # none for a ratio: "y = 1.00 1" misread
+        return (f"<MeasurandBudget {self.name}: y = {value}{unit}, u_c = {u}, "
                 f"k = {self.coverage_factor:.3g}, U = {expanded} "
                 f"({len(self.contributions)} inputs)>")
 
     def summary(self, digits: int = 2) -> str:
         """The terminal table and the GUM lines."""
+        from ._notebook import summary_digits
         from ._table import _rows, _summary
 
+        digits = summary_digits(digits)
         return "\n".join([*_rows(self, digits), "", *_summary(self, digits)])
 
     def _repr_html_(self) -> str:
@@ -231,6 +236,7 @@ def welch_satterthwaite(combined: float, components: np.ndarray, dofs: np.ndarra
     return 1.0 / denominator if denominator > 0 else math.inf
 
 
+@keywords_checked
 def propagate(model: Model, coverage: float | None = None, *,
               second_order: bool = False) -> Budget:
     """The GUM budget of every measurand of ``model``."""

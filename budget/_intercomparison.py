@@ -196,7 +196,7 @@ def _from_char(member: str, campaign: "Campaign", char: "Characterization") -> _
         campaign.measurand)].unit
     return _Element(member=member, measurand=campaign.measurand,
                     scale=_unit_scale(campaign, unit), estimate=char.mean,
-                    variance=char.standard_uncertainty ** 2,
+                    variance=_variance(char.standard_uncertainty, member, campaign),
                     repeatability=char.s ** 2 / char.n, dof=char.dof, runs=char.n)
 
 
@@ -249,6 +249,19 @@ def _one_method(campaign: "Campaign", method: "ModelMethod | MassBalance",
     return result, row, one
 
 
+def _variance(u: float, label: str, campaign: "Campaign") -> float:
+    """u², refused (not an OverflowError) when u is too large for the methods' covariance."""
+    from ._limits import LIMITS_PAGE, MAX_METHOD_U
+
+    if not u <= MAX_METHOD_U:
+        raise CampaignError(f"expected the result of method '{label}' with a standard "
+                            f"uncertainty of at most {MAX_METHOD_U:g} {campaign.unit} (its "
+                            f"square enters the covariance of the methods; limits: "
+                            f"{LIMITS_PAGE}), found {u:g} {campaign.unit}",
+                            Location(file=campaign.source, table="method"))
+    return u * u
+
+
 def _refuse_over_one(campaign: "Campaign", method: "MassBalance",
                      impurities: list[ImpurityResult], one: float) -> None:
     unit = campaign.unit
@@ -284,7 +297,8 @@ def _model_part(campaign: "Campaign", method: "ModelMethod", trials: int | None,
     warnings.extend(f"method '{method.label}': {w}" for w in result.warnings)
     element = _Element(member=method.label, measurand=method.measurand, scale=scale,
                        estimate=gum.estimate * scale,
-                       variance=(gum.combined_uncertainty * scale) ** 2, repeatability=0.0,
+                       variance=_variance(gum.combined_uncertainty * scale, method.label,
+                                          campaign), repeatability=0.0,
                        dof=gum.dof)
     return result, element, Member(name=method.label, model=method.model)
 

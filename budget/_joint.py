@@ -27,13 +27,16 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 from fractions import Fraction
-from typing import Sequence
+from collections.abc import Sequence
+from typing import Any
 
 from . import _algebra as alg
-from ._errors import InputError, Location, did_you_mean
+from ._errors import InputError, Location, NotFoundError, did_you_mean
+from ._limits import shorten
 from ._model import Input, Measurand, Model
 from ._together import Together
 from ._units import parse_unit
+from ._arguments import keywords_checked
 
 __all__ = ["Member", "Joint", "join", "joint_name"]
 
@@ -56,22 +59,38 @@ class Joint:
     shared: tuple[tuple[str, tuple[tuple[str, str], ...]], ...]
 
     def input_name(self, member: str, name: str) -> str:
-        return dict(self.inputs)[(member, name)]
+        """The joint model's name of ``member``'s input ``name`` (a ``KeyError`` listing
+        the pairs when there is none)."""
+        return _placed(self.inputs, member, name, "input")
 
     def measurand_index(self, member: str, name: str) -> int:
-        joint = dict(self.measurands)[(member, name)]
+        joint = _placed(self.measurands, member, name, "measurand")
         return [m.name for m in self.model.measurands].index(joint)
+
+
+def _placed(pairs: tuple[tuple[tuple[str, str], str], ...], member: str, name: str,
+            what: str) -> str:
+    found = dict(pairs).get((member, name))
+    if found is None:
+        known = [f"{m}:{n}" for (m, n), _ in pairs]
+        raise NotFoundError(f"no {what} {shorten(repr(name))} of member "
+                            f"{shorten(repr(member))}"
+                            f"{did_you_mean(f'{member}:{name}', known)}; expected one of "
+                            f"{', '.join(known)}")
+    return found
 
 
 def joint_name(member: str, name: str) -> str:
     return f"{member}:{name}"
 
 
+@keywords_checked
 def join(members: Sequence[Member],
          shared: Sequence[tuple[str, Sequence[tuple[str, str]]]] = (), *,
          title: str = "", where: Location | None = None) -> Joint:
     """Merge ``members``; ``shared`` lists (name, [(member, input), …]) to make one input."""
     where = where or Location(file="<joint>")
+    _check_members(members, shared, where)
     by_name = {m.name: m for m in members}
     if len(by_name) != len(members):
         raise InputError("expected distinct member names, found a repeated one", where)
@@ -95,6 +114,33 @@ def join(members: Sequence[Member],
                 rename[key] = joint_name(*key)
                 merged[rename[key]] = replace(item, name=rename[key])
     return _assemble(members, merged, rename, factor, shared, title, where)
+
+
+def _check_members(members: Any, shared: Any, where: Location) -> None:
+    """At least one ``Member`` whose model is a ``Model`` and whose name has no ':'; each
+    shared set a (name, [(member, input), …]) pair of strings."""
+    if isinstance(members, (str, bytes)) or not isinstance(members, Sequence) or not members:
+        raise InputError(f"expected members as a list of at least one budget.Member, found "
+                         f"{shorten(repr(members))}", where)
+    for member in members:
+        if not isinstance(member, Member):
+            raise InputError(f"expected each member as budget.Member(name=…, model=…), "
+                             f"found {type(member).__name__} {shorten(repr(member))}", where)
+        if not isinstance(member.name, str) or not member.name or ":" in member.name:
+            raise InputError(f"expected a member name without ':', found "
+                             f"{shorten(repr(member.name))}", where)
+        if not isinstance(member.model, Model):
+            raise InputError(f"member '{member.name}': expected a budget.Model "
+                             f"(budget.load_model(path) reads one), found "
+                             f"{type(member.model).__name__} {shorten(repr(member.model))}",
+                             where)
+    for entry in shared:
+        if not (isinstance(entry, (tuple, list)) and len(entry) == 2
+                and isinstance(entry[0], str) and isinstance(entry[1], (tuple, list))
+                and all(isinstance(use, (tuple, list)) and len(use) == 2
+                        and all(isinstance(part, str) for part in use) for use in entry[1])):
+            raise InputError(f"expected each shared set as (name, [(member, input), …]), "
+                             f"found {shorten(repr(entry))}", where)
 
 
 def _assemble(members: Sequence[Member], merged: dict[str, Input],

@@ -10,6 +10,7 @@ expressions and settings call them.
 from __future__ import annotations
 
 import math
+import numbers
 import re
 import unicodedata
 from typing import Any, Callable
@@ -42,6 +43,7 @@ DIGITS = (1, 6)  # significant digits of a reported uncertainty
 PROBABILITY = (1e-6, 1.0 - 1e-9)  # coverage probabilities and levels
 MIN_RELIABILITY = 1e-100  # smallest reliability: ν = 1/(2 r²) stays a finite number
 MAX_SEED = 2 ** 64 - 1  # random seeds are whole numbers in [0, 2**64 - 1]
+MAX_METHOD_U = 1e150  # u of a method's result: its square enters the methods' covariance
 
 
 def check_probability(value: Any, where: Location, what: str = "a coverage probability"
@@ -104,8 +106,9 @@ def parse_number(text: str) -> float | None:
 
 
 def as_float(value: Any) -> float | None:
-    """A TOML or CSV number as a finite float; None for anything else (bools, huge ints)."""
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
+    """A TOML or CSV number (or, from Python, a numpy scalar or a Fraction) as a finite
+    float; None for anything else (bools, strings, Decimal, huge ints)."""
+    if isinstance(value, bool) or not isinstance(value, numbers.Real):
         return None
     try:
         number = float(value)

@@ -170,9 +170,31 @@ def _impurity(r: _Reader, item: Any, method: str, nth: int) -> Impurity:
     else:
         u = (r.number(item, "expanded", table, positive=True, nth=nth)
              / r.number(item, "k", table, positive=True, nth=nth))
+    whole = _whole(r)
+    if whole is not None and u > whole[0]:  # u² would not even be a finite number at 1e300
+        raise r.fail(f"expected a standard uncertainty of at most the whole sample, "
+                     f"{whole[0]:g} {whole[1]}, found {u:g} {whole[1]}", table,
+                     "u" if "u" in item else "expanded", nth)
     dof = r.number(item, "dof", table, positive=True, nth=nth) if "dof" in item \
         else float("inf")
     return Impurity(label=label, source=None, estimate=value, standard_uncertainty=u, dof=dof)
+
+
+def _whole(r: _Reader) -> tuple[float, str] | None:
+    """1 (the whole sample) in the campaign's unit, when that unit is a plain ratio."""
+    from ._errors import BudgetError
+    from ._units import parse_unit
+
+    text = r.doc.get("unit")
+    if not isinstance(text, str):
+        return None
+    try:
+        unit = parse_unit(text, r.where(None, "unit"))
+    except BudgetError:  # reported where the campaign's unit is checked
+        return None
+    if unit.unit.dims or unit.offset:
+        return None
+    return 1.0 / float(unit.factor), text
 
 
 def _model_method(r: _Reader, entry: dict[str, Any], label: str, table: str, nth: int, *,

@@ -12,12 +12,13 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import keyword
 import re
 import tomllib
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 import numpy as np
 
@@ -37,6 +38,7 @@ from ._units import UnitInfo, dimension_text, parse_unit
 from . import _correlations as corr
 from . import _together as together
 from ._together import Together
+from ._arguments import keywords_checked
 
 __all__ = ["Input", "Definition", "Measurand", "Settings", "Model", "load_model",
            "parse_model", "DEFAULT_SEED"]
@@ -98,7 +100,7 @@ class Input:
 class Definition:
     name: str
     text: str
-    shown_graph: alg.Node
+    shown_graph: alg.Node = field(repr=False)  # deep graphs: repr would recurse past Python's limit
     unit: str
 
     @property
@@ -117,9 +119,9 @@ class Measurand:
     name: str
     equation: str
     unit: str
-    graph: alg.Node
-    shown_graph: alg.Node
-    opaque_graph: alg.Node
+    graph: alg.Node = field(repr=False)  # the equation says it; a deep graph's repr would
+    shown_graph: alg.Node = field(repr=False)  # recurse past Python's limit
+    opaque_graph: alg.Node = field(repr=False)
     description: str = ""
     line: int | None = None
 
@@ -173,6 +175,15 @@ class Model:
     records: tuple[Any, ...] = field(default=())  # RecordView of each [fits]/[records] table
     chain: tuple[Any, ...] = field(default=())  # chained.Link: results of earlier models
 
+    def __repr__(self) -> str:
+        """One line, as the results show themselves (the fields of a model of 10⁴ inputs
+        would be megabytes, and a deep expression's graph beyond Python's recursion)."""
+        names = ", ".join(m.name for m in self.measurands[:5])
+        more = f" and {len(self.measurands) - 5} more" if len(self.measurands) > 5 else ""
+        changed = f"; what-if: {'; '.join(self.changes)}" if self.changes else ""
+        return (f"<Model {self.title!r} ({self.source}): {names}{more} from "
+                f"{len(self.inputs)} inputs{changed}>")
+
     def input(self, name: str) -> Input:
         """The input called ``name`` (a ``KeyError`` with a "did you mean")."""
         from ._notebook import lookup
@@ -182,6 +193,7 @@ class Model:
     def correlation_matrix(self) -> np.ndarray:
         return corr.matrix([i.name for i in self.inputs], self.correlations)
 
+    @keywords_checked
     def with_uncertainty(self, name: str, *, u: float | None = None,
                          factor: float | None = None) -> "Model":
         """A what-if copy in which input ``name`` has the standard uncertainty ``u`` (in the
@@ -192,9 +204,11 @@ class Model:
         self.input(name)  # a KeyError with a "did you mean" for an unknown name
         inputs = tuple(input_with_uncertainty(i, u=u, factor=factor) if i.name == name
                        else i for i in self.inputs)
-        change = f"u({name}) = {u:g}" if u is not None else f"u({name}) × {factor:g}"
+        change = f"u({name}) = {float(u):g}" if u is not None else \
+            f"u({name}) × {float(factor):g}"  # type: ignore[arg-type]  # checked above
         return self.changed(inputs, change)
 
+    @keywords_checked
     def with_value(self, name: str, value: float) -> "Model":
         """A what-if copy in which input ``name`` has the estimate ``value`` (its unit);
         the distribution moves with it and keeps its widths."""
@@ -203,8 +217,9 @@ class Model:
         self.input(name)
         inputs = tuple(input_with_value(i, value) if i.name == name else i
                        for i in self.inputs)
-        return self.changed(inputs, f"{name} = {value:g}")
+        return self.changed(inputs, f"{name} = {float(value):g}")
 
+    @keywords_checked
     def with_distribution(self, name: str, distribution: Any) -> "Model":
         """A what-if copy in which input ``name`` is drawn from ``distribution``: a shape
         name (``"normal"``, ``"rectangular"``, ``"triangular"``, ``"arcsine"``) keeping the
@@ -299,6 +314,11 @@ def read_toml(text: str, name: str) -> dict[str, Any]:
 def parse_model(data: bytes | str, name: str = "<string>", *, register: Path | None = None,
                 **overrides: Any) -> Model:
     """Parse model text (or bytes); ``overrides`` replace ``[settings]`` values."""
+    if not isinstance(data, (str, bytes)) or not isinstance(name, str):
+        wrong, argument = (data, "text") if not isinstance(data, (str, bytes)) else \
+            (name, "name")
+        raise InputError(f"expected {argument} as a string, found {type(wrong).__name__} "
+                         f"{shorten(repr(wrong))}", Location(file="parse_model()", key=argument))
     text = decode(data, name)
     raw = data if isinstance(data, bytes) else data.encode("utf-8")
     with paused_collection():
@@ -341,8 +361,7 @@ class _Reader:
             raise InputError(f"expected a 'title' string, found "
                              f"{'none' if title is None else repr(title)}",
                              self.where(None, "title"))
-        settings = replace(self.settings(), **{k: v for k, v in overrides.items()
-                                               if v is not None})
+        settings = replace(self.settings(), **_overrides(overrides, self.name))
         self.register = self.read_register(settings.atomic_weights)
         self.uses: list[CertificateUse] = []
         self.checks: list[str] = []
@@ -369,7 +388,8 @@ class _Reader:
             files += (("register", self.register.source, self.register.sha256),)
         files += tuple((view.table, str(_base(self.name) / view.file),
                         _digest(_base(self.name) / view.file)) for view in generated.views)
-        made = Model(title=title.strip(), description=str(self.doc.get("description", "")),
+        made = Model(title=title.strip(),
+                     description=_text(self.doc, "description", self.where, None),
                      inputs=inputs, definitions=definitions, measurands=measurands,
                      correlations=pairs, settings=settings, estimated_together=sets,
                      source=self.name, sha256=sha256, warnings=warnings, certificates=uses,
@@ -380,8 +400,25 @@ class _Reader:
         if self.links:
             from ._chained import resolve
 
+            self.check_not_grouped({link.input: str(self.doc["inputs"][link.input]["result_of"])
+                                    for link in self.links})
             return resolve(model, tuple(self.links))
         return model
+
+    def check_not_grouped(self, chained: dict[str, str]) -> None:
+        """Refuse a chained input in [[correlations]] or [[estimated_together]]: it is
+        replaced by the earlier model's equation, so its correlations are those of the
+        inputs it shares (``shares``), never a coefficient of its own."""
+        for table, key in (("correlations", "between"), (together.KEY, "inputs")):
+            for n, entry in enumerate(self.doc.get(table, [])):
+                named = [name for name in entry.get(key, []) if name in chained]
+                if named:
+                    raise InputError(
+                        f"expected inputs that are not results of another model, found "
+                        f"{named[0]!r} (result_of = {chained[named[0]]!r}): its "
+                        "correlations with this model come from the inputs it shares "
+                        "(shares = { this_input = \"earlier_input\" })",
+                        self.where(table, key, n))
 
     def read_register(self, convention: str) -> Register | None:
         if "register" not in self.doc:
@@ -473,8 +510,9 @@ class _Reader:
         distribution = _in_unit(statement, unit, unit_where)
         made = Input(name=name, unit=unit.text, distribution=distribution,
                      dof=statement.dof, type=statement.type, basis=statement.basis,
-                     description=str(data.get("description", "")),
-                     source=str(data.get("source", "")), molar_mass=statement.molar_mass)
+                     description=_text(data, "description", self.where, "inputs." + name),
+                     source=_text(data, "source", self.where, "inputs." + name),
+                     molar_mass=statement.molar_mass)
         if use is not None:
             stated = use.certificate.value(use.stated, where)
             self.checks.extend(agreement_warnings(
@@ -583,7 +621,8 @@ class _Reader:
         return Measurand(name=name, equation=data["equation"].strip(), unit=unit.text,
                          graph=term.expr / factor, shown_graph=term.shown,
                          opaque_graph=term.opaque / factor,
-                         description=str(data.get("description", "")), line=eq_where.line)
+                         description=_text(data, "description", self.where,
+                                           "measurands." + name), line=eq_where.line)
 
 
 def check_settings(data: dict[str, Any], where: Any) -> Settings:
@@ -615,6 +654,27 @@ def check_settings(data: dict[str, Any], where: Any) -> Settings:
     return Settings(**made)
 
 
+_OVERRIDE_KEYS = {"coverage_probability": "coverage", "trials": "trials", "seed": "seed",
+                  "digits": "digits", "atomic_weights": "atomic_weights",
+                  "reported_interval": "reported_interval"}
+
+
+def _overrides(given: dict[str, Any], name: str) -> dict[str, Any]:
+    """Keyword overrides of ``[settings]`` (``load_model(path, trials=2000)``), checked as
+    the table's keys are; ``None`` keeps the file's value."""
+    given = {("coverage_probability" if k == "coverage" else k): v  # evaluate's word too
+             for k, v in given.items() if v is not None}
+    for key in given:
+        if key not in _OVERRIDE_KEYS:
+            raise InputError(f"expected a setting to override, one of "
+                             f"{', '.join(_OVERRIDE_KEYS)}, found '{key}'"
+                             f"{did_you_mean(key, _OVERRIDE_KEYS)}",
+                             Location(file=name, key=key))
+    checked = check_settings({_OVERRIDE_KEYS[k]: v for k, v in given.items()},
+                             lambda key: Location(file=name, key=key))
+    return {k: getattr(checked, k) for k in given}
+
+
 def check_reported(value: Any, where: Location) -> str:
     """A ``reported_interval`` value: gum, monte_carlo or monte_carlo_shortest."""
     if value not in REPORTED_INTERVALS:
@@ -637,10 +697,24 @@ def _base(name: str) -> Path:
     return path.parent if path.is_file() else Path.cwd()
 
 
+def _text(data: dict[str, Any], key: str, where: Callable[..., Location],
+          table: str | None) -> str:
+    """A free-text key (description, source): a string, never a number or list shown as
+    Python would print it."""
+    value = data.get(key, "")
+    if not isinstance(value, str):
+        raise InputError(f"expected a text string, found {shorten(repr(value))}",
+                         where(table, key))
+    return value
+
+
 def _check_name(name: str, where: Location) -> None:
     if not _NAME.match(name) or name.startswith("__"):
         raise InputError(f"expected a name of letters, digits and '_' not starting with a "
                          f"digit or '__', found '{name}'", where)
+    if keyword.iskeyword(name):  # an equation could never name it (read as Python syntax)
+        raise InputError(f"expected a name that is not a reserved word of the expression "
+                         f"syntax, found '{name}' (write for example '{name}_')", where)
 
 
 def _in_unit(statement: Any, unit: Any, where: Location) -> Any:

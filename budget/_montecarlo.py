@@ -47,7 +47,8 @@ from typing import Any, Callable, Generator, cast
 import numpy as np
 
 from .distributions import Normal, Rectangular, StudentT
-from ._arguments import (check_budget_of, check_flag, check_model, check_progress,
+from ._arguments import (check_budget_of, check_flag, check_model, check_not_both,
+                         check_progress,
                          check_seed_argument, check_trials_argument, check_workers)
 from ._limits import MAX_TRIALS, check_digits, check_kept, check_probability, check_trials
 from ._batched import Schedule
@@ -57,6 +58,8 @@ from ._formatting import decimal_exponent
 from ._gum import Budget
 from ._model import Model
 from ._streaming import Binned, Streamed, cut_level
+from ._arguments import keywords_checked
+from ._unit_display import display_unit, spaced_unit
 
 __all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "KEEP_LIMIT", "Validation",
            "MeasurandSimulation", "Simulation",
@@ -110,15 +113,16 @@ class MeasurandSimulation:
         from ._notebook import short
 
         mean, u = short(self.mean, self.standard_uncertainty, 3)
+        unit = spaced_unit(display_unit(self.unit))
         verdict = "" if self.validation is None else (
             ", GUM validated" if self.validation.validated else ", GUM NOT validated")
-        return (f"<MeasurandSimulation {self.name}: {self.trials:,} trials, y = {mean} "
-                f"{self.unit}, u = {u}{verdict}>")
+        return (f"<MeasurandSimulation {self.name}: {self.trials:,} trials, y = {mean}"
+                f"{unit}, u = {u}{verdict}>")
 
     def summary(self, digits: int = 2) -> str:
-        from ._notebook import simulation_text
+        from ._notebook import simulation_text, summary_digits
 
-        return simulation_text(self, digits)
+        return simulation_text(self, summary_digits(digits))
 
     def _repr_html_(self) -> str:
         from ._notebook import simulation_html
@@ -625,6 +629,7 @@ def _combine(moments: list[np.ndarray]) -> np.ndarray:
     return total
 
 
+@keywords_checked
 def simulate(model: Model, budget: Budget | None = None, *, trials: int | None = None,
              adaptive: bool = False, seed: int | None = None, coverage: float | None = None,
              digits: int | None = None, workers: int | None = None,
@@ -656,6 +661,7 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     check_trials(trials, trials_at)
     if adaptive:
         check_adaptive(coverage, coverage_at)
+        _check_finite_variance(model, budget)
     sampler = _Sampler(model, seed)
     if adaptive:
         adaptive_samples, warnings, moments, kept, streamed = _adaptive(
@@ -697,6 +703,7 @@ def _checked(model: Model, budget: Budget | None, *, trials: Any, seed: Any, cov
     check_progress(progress, replace(where, key="progress"))
     for name, value in flags.items():
         check_flag(value, replace(where, key=name), none=name == "keep_samples")
+    check_not_both(trials, flags["adaptive"], replace(where, key="trials"))
     return model.settings
 
 
@@ -889,6 +896,51 @@ def _spread(y: np.ndarray | None, mean: float, variance: float) -> float:
     return scale * float(np.std((finite - mean) / scale, ddof=1))
 
 
+def heavy_tailed(model: Model, budget: Budget | None, k: int) -> list[tuple[str, float]]:
+    """(name, ν) of the inputs measurand k depends on (a non-zero sensitivity; every input
+    without a budget) that are drawn from a t distribution with ν ≤ 2: it has no finite
+    variance (JCGM 101 6.4.9), so neither has the measurand's distribution."""
+    found = []
+    for i, item in enumerate(model.inputs):
+        t = item.distribution
+        if isinstance(t, StudentT) and t.dof <= 2 and t.scale > 0 and (
+                budget is None or budget.measurands[k].contributions[i].sensitivity != 0):
+            found.append((item.name, t.dof))
+    return found
+
+
+def _check_finite_variance(model: Model, budget: Budget | None) -> None:
+    """Refuse the adaptive procedure for an output without finite variance: its stopping
+    rule (JCGM 101 7.9.4) waits for the standard deviation to settle, which never comes."""
+    for k in range(len(model.measurands)):
+        for name, dof in heavy_tailed(model, budget, k)[:1]:
+            raise SimulationError(
+                f"expected inputs with a finite variance for the adaptive procedure, found ν "
+                f"= {dof:g}: a t distribution with ν ≤ 2 has none, so the Monte Carlo standard "
+                f"deviation of '{model.measurands[k].name}' never settles (JCGM 101 6.4.9, "
+                "7.9); give a fixed number of trials instead",
+                Location(file=model.source, table=f"inputs.{name}"))
+
+
+def _heavy_warnings(model: Model, budget: Budget | None) -> list[str]:
+    """A warning per measurand whose Monte Carlo mean or standard deviation estimates
+    nothing (an input drawn from a t distribution with ν ≤ 2)."""
+    warnings = []
+    for k, measurand in enumerate(model.measurands):
+        found = heavy_tailed(model, budget, k)
+        if found:
+            names = ", ".join(f"{name} (ν = {dof:g})" for name, dof in found)
+            what = "mean and standard deviation are" if min(d for _, d in found) <= 1 \
+                else "standard deviation is"
+            warnings.append(
+                f"'{measurand.name}': the Monte Carlo {what} not an estimate of anything: "
+                f"{names} {'is' if len(found) == 1 else 'are'} drawn from a t distribution "
+                "with ν ≤ 2, which has no finite variance (JCGM 101 6.4.9), so such figures "
+                "change from run to run and grow with the trials; the coverage interval "
+                "remains valid")
+    return warnings
+
+
 def check_adaptive(coverage: float, where: Location | None = None) -> None:
     """Refuse a coverage whose adaptive batches (≥ 100/(1 − p) trials, a few of them held
     in memory at once) pass the cap of a run that keeps its values."""
@@ -976,13 +1028,16 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, 
         correlation = streamed.correlation
     else:
         assert samples is not None
-        correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
+        with np.errstate(invalid="ignore", divide="ignore"):  # a constant measurand: 0/0
+            correlation = np.corrcoef(samples) if samples.shape[0] > 1 else np.ones((1, 1))
         correlation = np.nan_to_num(np.atleast_2d(correlation), nan=0.0)
+        np.fill_diagonal(correlation, 1.0)  # as the streamed run and the GUM give it
     results = tuple(
         _one(model, budget, k, None if samples is None else samples[k], coverage, digits,
              moments[k], [block[k] for block in kept] if kept and not bad else None,
              streamed)
         for k in range(moments.shape[0]))
+    warnings += _heavy_warnings(model, budget)
     for item in results:
         if item.validation is not None and item.validation.reason:
             warnings.append(f"'{item.name}': Monte Carlo cannot validate the GUM result: "
@@ -990,7 +1045,7 @@ def _summarise(model: Model, budget: Budget | None, samples: np.ndarray | None, 
         elif item.validation is not None and not item.validation.validated:
             warnings.append(
                 f"'{item.name}': Monte Carlo does not validate the GUM result at "
-                f"{item.validation.tolerance:.2g} {item.unit} (d_low = "
+                f"{item.validation.tolerance:.2g}{spaced_unit(display_unit(item.unit))} (d_low = "
                 f"{item.validation.d_low:.2g}, d_high = {item.validation.d_high:.2g}, "
                 "JCGM 101 8.2)")
     return Simulation(trials=total, seed=seed, coverage_probability=coverage,

@@ -63,6 +63,14 @@ def lookup(items: Iterable[T], name: str, what: str) -> T:
                         f"{', '.join(names) or 'none'}")
 
 
+def summary_digits(digits: Any) -> int:
+    """The ``digits`` of a ``summary()``: a whole number from 1 to 6, as ``--digits``."""
+    from ._errors import Location
+    from ._limits import check_digits
+
+    return check_digits(digits, Location(file="summary()", key="digits"))
+
+
 def short(value: float, u: float, digits: int = 2) -> tuple[str, str]:
     """Value and uncertainty rounded together (GUM 7.2.6), or plain when u is 0."""
     if u > 0 and math.isfinite(u):

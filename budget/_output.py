@@ -87,6 +87,16 @@ def check_target(target: Path, protect: Iterable[tuple[str, str | Path]] = ()) -
     return stat.S_IMODE(info.st_mode)
 
 
+def same_target(one: Path, two: Path) -> bool:
+    """Whether two output names lead to one file (resolved, or the same existing file)."""
+    if os.path.realpath(one) == os.path.realpath(two):  # never raises, even on link loops
+        return True
+    try:
+        return os.path.samefile(one, two)
+    except OSError:
+        return False
+
+
 def files_of_model(model: Any) -> list[tuple[str, str]]:
     """(role, path) of the model file and every file that fed it: never overwritten."""
     return [("model", model.source), *((role, name) for role, name, _ in model.files)]

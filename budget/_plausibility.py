@@ -15,7 +15,10 @@ The guards:
 * homogeneity or stability data whose mean differs from the characterization value by
   more than ``CONSISTENCY`` combined standard uncertainties (data in another unit, or
   of another material);
-* a shelf life longer than the span of the stability study (extrapolation).
+* a shelf life longer than the span of the stability study (extrapolation);
+* a unit symbol that pint reads as a unit of the same kind but a very different size
+  than a laboratory means by it: ``gr`` is the grain (64.8 mg), not the gram; ``Mg``,
+  ``ML``, ``Mmol``, ``MM`` and ``Ms`` are mega-, not milli-units; ``ppt`` is a picopint.
 """
 
 from __future__ import annotations
@@ -46,13 +49,39 @@ _MASS_RATIOS = {"1", "", "%", "percent", "ppm", "ppb", "permille", "g/g", "kg/kg
                 "cg/g", "mg/mg", "dimensionless"}
 
 
+# unit symbols that parse, in the dimension meant, to a unit of another size than the
+# one a laboratory means: symbol -> (what pint reads, what was probably meant)
+_LOOKALIKE_UNITS = {
+    "gr": ("grain (64.8 mg)", "g"), "Mg": ("megagram (10⁶ g)", "mg"),
+    "ML": ("megalitre (10⁶ L)", "mL"), "Ml": ("megalitre (10⁶ L)", "mL"),
+    "Mmol": ("megamole", "mmol"), "MM": ("megamolar", "mM"),
+    "Ms": ("megasecond", "ms"), "ppt": ("picopint, a volume", "ppm or 1e-3"),
+}
+_UNIT_WORDS = re.compile(r"[^\W\d_]+")
+
+
 def model_warnings(model: Any) -> tuple[str, ...]:
     """The guards that need only the model: air_density at the estimates, the unit."""
     values = {i.name: i.estimate for i in model.inputs}
     found = [*air_density_warnings(model, values, "at the model's estimates")]
     found += [w for m in model.measurands
               if (w := mass_fraction_warning(m, model)) is not None]
+    found += lookalike_unit_warnings(
+        [(f"input '{i.name}'", i.unit) for i in model.inputs]
+        + [(f"measurand '{m.name}'", m.unit) for m in model.measurands])
     return tuple(found)
+
+
+def lookalike_unit_warnings(units: Sequence[tuple[str, str]]) -> list[str]:
+    """A warning for each unit string with a symbol of ``_LOOKALIKE_UNITS``."""
+    found = []
+    for owner, text in units:
+        for word in dict.fromkeys(_UNIT_WORDS.findall(text or "")):
+            if word in _LOOKALIKE_UNITS:
+                meaning, meant = _LOOKALIKE_UNITS[word]
+                found.append(f"plausibility: {owner} has the unit '{text}', where '{word}' "
+                             f"is the {meaning}; if '{meant}' was meant, it is a unit slip")
+    return found
 
 
 def _calls(model: Any) -> list[tuple[Any, ...]]:
@@ -141,17 +170,44 @@ def estimate_warnings(name: str, values: np.ndarray, estimate: float, unit: str,
         ratio = values / estimate
         off = (ratio <= 0) | (ratio > factor) | (ratio < 1.0 / factor)
     found = []
+    unit = "" if unit in ("", "1") else f" {unit}"  # a plain number has no unit to show
     for index in np.flatnonzero(off)[:3]:
-        found.append(f"plausibility: {source}:{rows[int(index)]}: column '{name}': "
-                     f"{values[index]:.6g} {unit} differs from the model's estimate "
-                     f"{estimate:.6g} {unit} by more than a factor {factor:g} "
+        head = f"plausibility: {source}:{rows[int(index)]}: column '{name}': "
+        if ratio[index] <= 0:  # whatever the factor (further methods check only the sign)
+            what = "is zero, unlike" if ratio[index] == 0 else "has the opposite sign of"
+            found.append(f"{head}{values[index]:.6g}{unit} {what} the model's estimate "
+                         f"{estimate:.6g}{unit}")
+            continue
+        found.append(f"{head}{values[index]:.6g}{unit} differs from the model's estimate "
+                     f"{estimate:.6g}{unit} by more than a factor {factor:g} "
                      f"({_slip(float(ratio[index]))})")
     return found
 
 
+def study_value_warnings(values: np.ndarray, rows: Sequence[int], source: str, unit: str,
+                         what: str, factor: float = 3.0) -> list[str]:
+    """Values of a homogeneity or stability study further than ``factor`` from the study's
+    median: one material in one unit, so a decimal or unit slip in a single cell."""
+    median = float(np.median(values)) if values.size else 0.0
+    if median == 0 or not math.isfinite(median):
+        return []
+    with np.errstate(all="ignore"):
+        ratio = values / median
+        off = (ratio <= 0) | (ratio > factor) | (ratio < 1.0 / factor)
+    found = []
+    for index in np.flatnonzero(off)[:3]:
+        head = (f"plausibility: {source}:{rows[int(index)]}: column 'value': "
+                f"{values[index]:.6g} {unit}")
+        if ratio[index] <= 0:
+            what_sign = "is zero, unlike" if ratio[index] == 0 else "has the opposite sign of"
+            found.append(f"{head} {what_sign} the median {median:.6g} {unit} of the {what}")
+            continue
+        found.append(f"{head} differs from the median {median:.6g} {unit} of the {what} by "
+                     f"more than a factor {factor:g} ({_slip(float(ratio[index]))})")
+    return found
+
+
 def _slip(ratio: float) -> str:
-    if ratio <= 0:
-        return "opposite sign"
     if not math.isfinite(ratio):
         return "an estimate of 0 to working precision"
     power = math.log10(ratio)

@@ -235,6 +235,7 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
     if "u_y" not in values and "covariance" in data:
         raise InputError("expected 'covariance' only with a 'u_y' column (ordinary least "
                          "squares always scales by the residuals)", here("covariance"))
+    _positive_uncertainties(data, values, chosen, rows, shown, here)
     x, y = values["x"][chosen], values["y"][chosen]
     if method == "york":
         fit = york(x, y, values["u_x"][chosen], values["u_y"][chosen],
@@ -259,6 +260,21 @@ def _one_fit(name: str, data: dict[str, Any], base: Path, here: Where,
         notes=_fit_notes(fit)))
     if covariance == "stated" and math.isfinite(fit.chi2):
         _chi2_warning(made, name, fit)
+    zero_residual_warning(made, f"fits.{name}", fit, "the points", "coefficients")
+
+
+def _positive_uncertainties(data: dict[str, Any], values: dict[str, np.ndarray],
+                            chosen: np.ndarray, rows: np.ndarray, shown: str,
+                            here: Where) -> None:
+    """Every u_x and u_y of the fitted rows > 0, or an error naming the row of the file."""
+    for role in ("u_x", "u_y"):
+        if role not in values:
+            continue
+        bad = np.flatnonzero(chosen & ~(values[role] > 0))
+        if bad.size:
+            raise InputError(f"expected every {role} > 0 in column '{data[role]}' of "
+                             f"'{shown}', found {values[role][bad[0]]:g} at row "
+                             f"{rows[bad[0]]}", here("file"))
 
 
 def _axis(column: str, unit: str) -> str:
@@ -324,6 +340,19 @@ def _chi2_warning(made: Generated, name: str, fit: Fit) -> None:
             f"[fits.{name}]: χ² = {fit.chi2:.4g} exceeds its 95 % limit {limit:.4g} for "
             f"ν = {dof}: the residuals are larger than the stated uncertainties explain "
             "(check the data, or state covariance = \"scaled\")")
+
+
+def zero_residual_warning(made: Generated, table: str, fit: Fit, points: str,
+                          gives: str) -> None:
+    """Points exactly on the curve give what is fitted no uncertainty, as if exact."""
+    from ._certification import _noise
+
+    if fit.method == "ols" and fit.residual_sd <= _noise(np.asarray(fit.y)):
+        made.warnings.append(
+            f"[{table}]: {points} lie exactly on the fitted curve (zero residual, "
+            f"s = {fit.residual_sd:.2g}): ordinary least squares then gives the fit no "
+            f"uncertainty, and it adds none to the {gives}; are the readings rounded, copied "
+            "or calculated rather than measured?")
 
 
 def _fit_notes(fit: Fit) -> tuple[str, ...]:

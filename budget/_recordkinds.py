@@ -62,6 +62,15 @@ def _derived_inputs(made: Generated, derived: Derived, names: tuple[str, ...],
               f"parts derived from one fit of {source}")
 
 
+def _exact_fits(made: Generated, name: str, derived: Derived, gives: str) -> None:
+    """A warning for each fit of a record whose readings lie exactly on it."""
+    from ._recordinputs import zero_residual_warning
+
+    for what, fit in derived.fits:
+        zero_residual_warning(made, f"records.{name}", fit, f"the readings of the {what}",
+                              gives)
+
+
 def _views(derived: Derived, labels: Labels) -> tuple[FitView, ...]:
     return tuple(FitView(label=what, fit=fit, x_label=labels[0], y_label=labels[1])
                  for what, fit in derived.fits)
@@ -96,6 +105,7 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
     span = f"{result.count} readings, {result.start:g} to {result.end:g} {units['x']}"
     parts = _raw_part(name, data, result.raw, result.weights, unit, span, source, here)
     made.inputs.append(parts)
+    _gap_warning(made, name, record.window(window, "window", 2), units["x"])
     inner = [parts.name]
     notes = [f"trapezoidal rule over {span}: {result.raw:.8g} {unit}",
              f"integration-rule error estimate (Richardson, (T_h − T_2h)/3): "
@@ -112,6 +122,7 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
         views = _views(result.background, labels)
         notes.extend(_shared(made, result, parts, names))
         _unstated_noise(made, name, data, result.background, units["y"])
+        _exact_fits(made, name, result.background, "background charge")
     text = _corrections(name, data, here, made, source, f"({' '.join(inner)})")
     if result.rule_error != 0.0:
         made.inputs.append(Made(name=f"{name}_rule", estimate=result.rule_error, unit=unit,
@@ -126,6 +137,25 @@ def _charge(name: str, data: dict[str, Any], record: Series, units: dict[str, st
                                  method=f"charge by the trapezoidal rule, {background} "
                                         "background", produces=(name,), fits=views,
                                  notes=tuple(notes)))
+
+
+GAP_FACTOR = 10.0  # a step this many times the median step of a record is a gap
+
+
+def _gap_warning(made: Generated, name: str, inside: Series, unit: str) -> None:
+    """A logger that stopped for a while leaves a gap the trapezoidal rule bridges with a
+    straight line; the Richardson estimate, made from the same readings, cannot tell what
+    the current did there."""
+    steps = np.diff(inside.x)
+    usual = float(np.median(steps))
+    k = int(np.argmax(steps))
+    if steps[k] > GAP_FACTOR * usual:
+        made.warnings.append(
+            f"[records.{name}]: {inside.file} has a gap in {inside.x_name}: "
+            f"from {inside.x[k]:g} {unit} at row {inside.rows[k]} to {inside.x[k + 1]:g} "
+            f"{unit} at row {inside.rows[k + 1]}, {steps[k] / usual:.3g} times the usual step of "
+            f"{usual:g} {unit}; the trapezoidal rule bridges it with a straight line, and "
+            "what the current did there is not known: check that no readings were lost")
 
 
 def _shared(made: Generated, result: Charge, raw: Made, names: tuple[str, ...]
@@ -234,6 +264,7 @@ def _end_point(name: str, data: dict[str, Any], record: Series, units: dict[str,
         described = "inflection point (extremum of the first derivative of a local cubic)"
     _derived_inputs(made, derived, (name,), (units["x"],), f"end point, {described}",
                     f"record {record.file}")
+    _exact_fits(made, name, derived, "end point")
     made.views.append(RecordView(table=f"records.{name}", file=record.file,
                                  method=f"end point: {described}", produces=(name,),
                                  fits=_views(derived, labels),
@@ -246,6 +277,7 @@ def _drift(name: str, data: dict[str, Any], record: Series, units: dict[str, str
     after = _pair(data, "after", here)
     give = _choice(data, "give", ("correction", "rate"), here)
     derived = drift(record, before, after)
+    _exact_fits(made, name, derived, "drift rate")
     rate, u_rate = float(derived.estimates[0]), float(derived.standard_uncertainties[0])
     x_unit, y_unit = _delta(units["x"]), _delta(units["y"])
     notes = [f"drift rate {rate:.6g} {y_unit}/{x_unit}, u = {u_rate:.2g}, ν = {derived.dof:g}"]

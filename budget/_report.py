@@ -45,6 +45,9 @@ def _environment() -> Any:
 
 
 def render_report(result: Result) -> str:
+    from ._arguments import check_instance
+
+    check_instance(result, Result, "render_report", "result")
     html: str = _environment().get_template("budget.html.j2").render(report=_budget_view(result))
     return html
 
@@ -262,6 +265,10 @@ def _provenance(data: dict[str, Any], result: Result | None = None) -> list[tupl
 
 
 def render_certification_report(cert: Any) -> str:
+    from ._arguments import check_instance
+    from ._certification import Certification
+
+    check_instance(cert, Certification, "render_certification_report", "cert")
     html: str = _environment().get_template("certificate.html.j2").render(
         report=_certification_view(cert))
     return html
@@ -311,17 +318,16 @@ def render_notebook(*, title: str, measurands: list[dict[str, Any]],
 
 def render_difference_report(difference: Any, digits: int = 2) -> str:
     """The HTML page of ``budget compare --html``."""
-    from ._difference_view import causes, headline
+    from ._difference_view import causes, headline, squared_unit, through_k
 
     def measurand(m: Any) -> dict[str, Any]:
         a, b = m.before, m.after
-        through_k = "" if math.isclose(a.coverage_factor, b.coverage_factor,
-                                       rel_tol=1e-4) else (
-            f"U changed by {m.expanded_change_from_uncertainty:+.3g} {m.unit} through u_c "
-            f"and by {m.expanded_change_from_coverage_factor:+.3g} "
-            f"{m.unit} through the coverage factor k.")
-        return {"name": m.name, "unit": m.unit, "headline": headline(m, digits),
-                "causes": causes(m) if m.variance_change else [], "through_k": through_k,
+        via_k = "" if math.isclose(a.coverage_factor, b.coverage_factor,
+                                   rel_tol=1e-4) else through_k(m, display_unit) + "."
+        return {"name": m.name, "unit_squared": squared_unit(m.unit, display_unit),
+                "headline": headline(m, digits, display_unit),
+                "causes": causes(m, show=display_unit) if m.variance_change else [],
+                "through_k": via_k,
                 "inputs": [{"input": c.input, "status": c.status,
                             "share_before": format_percent(c.share_before),
                             "share_after": format_percent(c.share_after),

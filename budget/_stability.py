@@ -189,15 +189,28 @@ def pooled_trend(series: list[tuple[Array, Array]], period: float) -> PooledTren
     """Common slope, one intercept per series, the t-test of the slope."""
     from ._special import t_two_sided_p
 
-    sxx = math.fsum(float(np.sum((t - t.mean()) ** 2)) for t, _ in series)
-    sxy = math.fsum(float(np.sum((t - t.mean()) * (y - y.mean()))) for t, y in series)
-    slope = sxy / sxx
-    intercepts = tuple(float(y.mean() - slope * t.mean()) for t, y in series)
-    residual = math.fsum(float(np.sum((y - a - slope * t) ** 2))
-                         for (t, y), a in zip(series, intercepts))
+    from ._certification import _mean, _scale
+
+    # deviations in units of the largest (1 for ordinary data), so that times or values
+    # near 1e±200 do not make Σ(t − t̄)² ∞ or 0 and the slope 0/0
+    dts = [t - _mean(t) for t, _ in series]
+    dys = [y - _mean(y) for _, y in series]
+    t_scale, y_scale = _scale(np.concatenate(dts)), _scale(np.concatenate(dys))
+    sxx = math.fsum(float(np.sum((dt / t_scale) ** 2)) for dt in dts)
+    sxy = math.fsum(float(np.sum((dt / t_scale) * (dy / y_scale))) for dt, dy in zip(dts, dys))
+    slope = y_scale / t_scale * (sxy / sxx)
+    intercepts = tuple(float(_mean(y) - slope * _mean(t)) for t, y in series)
     dof = sum(t.size for t, _ in series) - len(series) - 1
-    s = math.sqrt(residual / dof)
-    u_slope = s / math.sqrt(sxx)
+    if t_scale == 1.0 and y_scale == 1.0:
+        residual = math.fsum(float(np.sum((y - a - slope * t) ** 2))
+                             for (t, y), a in zip(series, intercepts))
+        s = math.sqrt(residual / dof)
+    else:
+        residual = math.fsum(float(np.sum((dy / y_scale - slope * t_scale / y_scale
+                                           * (dt / t_scale)) ** 2))
+                             for dt, dy in zip(dts, dys))
+        s = y_scale * math.sqrt(residual / dof)
+    u_slope = s / (t_scale * math.sqrt(sxx))
     from ._certification import zero_residual
 
     flat = zero_residual(s, np.concatenate([y for _, y in series]))

@@ -152,6 +152,8 @@ def _from_u(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Stateme
     estimate = table.number("value")
     u = table.number("u", positive=True)
     _no_keys(table, ("k", "level", "lower", "upper"), "to a stated standard uncertainty 'u'")
+    if shape in ("normal", "student_t"):  # widths of bounded shapes only: never ignored
+        _no_keys(table, ("beta", "inexactness"), f"to a {shape} distribution")
     if shape == "normal":  # finite ν: a scaled and shifted t (JCGM 101 6.4.9)
         made: Any = dist.Normal(estimate, u) if math.isinf(dof) else \
             dist.StudentT(estimate, u, dof)
@@ -173,6 +175,8 @@ def _from_expanded(table: _Table, shape: str, dof: float, unit: Any, _: str) -> 
     if shape not in ("normal", "student_t"):
         raise InputError(f"expected distribution 'normal' with 'expanded', found '{shape}'",
                          table.where("distribution"))
+    _no_keys(table, ("beta", "inexactness", "lower", "upper"),
+             "to an expanded uncertainty 'expanded'")
     if table.has("k") == table.has("level"):
         raise InputError("expected exactly one of 'k' or 'level' with 'expanded', found "
                          + ("both" if table.has("k") else "neither"), table.where("expanded"))
@@ -209,14 +213,16 @@ def _from_limits(table: _Table, shape: str, dof: float, unit: Any, _: str) -> St
     if not upper > lower:
         raise InputError(f"expected 'upper' > 'lower', found lower = {lower:g}, upper = "
                          f"{upper:g}", table.where("upper"))
-    middle = (lower + upper) / 2.0
+    middle = (lower + upper) / 2.0 if math.isfinite(lower + upper) else lower / 2 + upper / 2
     if table.has("value"):
         value = table.number("value")
         if not math.isclose(value, middle, rel_tol=1e-12, abs_tol=1e-300):
             raise InputError(f"expected 'value' at the midpoint {middle:g} of [lower, upper] "
                              f"(asymmetric limits are not supported), found {value:g}",
                              table.where("value"))
-    made = _bounded(table, shape, middle, half_width=(upper - lower) / 2.0, u=None)
+    width = upper - lower  # beyond the largest double for limits near ±1.8e308
+    made = _bounded(table, shape, middle, u=None,
+                    half_width=width / 2.0 if math.isfinite(width) else upper / 2 - lower / 2)
     return Statement(distribution=made, dof=dof, type="B", unit=unit,
                      basis=f"limits [{lower:g}, {upper:g}], {shape}")
 
@@ -238,11 +244,13 @@ def _bounded(table: _Table, shape: str, estimate: float, *, half_width: float | 
                "arcsine": math.sqrt(2.0)}
     if shape in divisor:
         half = cast(float, half_width) if u is None else u * divisor[shape]
+        _check_span(table, estimate, half)
         return {"rectangular": dist.Rectangular, "triangular": dist.Triangular,
                 "arcsine": dist.Arcsine}[shape](estimate, half)
     if shape == "trapezoidal":
         beta = table.fraction("beta", 0.0, 1.0, closed=True)
         half = cast(float, half_width) if u is None else u / math.sqrt((1.0 + beta ** 2) / 6.0)
+        _check_span(table, estimate, half)
         return dist.Trapezoidal(estimate, half, beta)
     d = table.number("inexactness", positive=True)
     if u is not None:
@@ -252,10 +260,21 @@ def _bounded(table: _Table, shape: str, estimate: float, *, half_width: float | 
                              table.where("inexactness"))
         half_width = math.sqrt(square)
     half_width = cast(float, half_width)
+    _check_span(table, estimate, half_width)
     if d > half_width:
         raise InputError(f"expected 'inexactness' ≤ the half-width {half_width:g}, found "
                          f"{d:g}", table.where("inexactness"))
     return dist.CurvilinearTrapezoid(estimate, half_width, d)
+
+
+def _check_span(table: _Table, estimate: float, half: float) -> None:
+    """Refuse a bounded shape whose limits x ± a or width 2a pass the largest double:
+    its draws would overflow to ±inf (limits: docs/limits.md)."""
+    if all(math.isfinite(v) for v in (2.0 * half, estimate - half, estimate + half)):
+        return
+    key = next(k for k in ("half_width", "upper", "u") if table.has(k))
+    raise InputError(f"expected limits x ± a and a width 2a within ±1.8e308 (limits: "
+                     f"{LIMITS_PAGE}), found x = {estimate:g}, a = {half:g}", table.where(key))
 
 
 def _from_observations(table: _Table, shape: str, dof: float, unit: Any, _: str) -> Statement:

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 import datetime as dt
+import re
 from datetime import datetime
 from pathlib import Path
 from typing import Any
@@ -104,8 +105,11 @@ def read_runs(path: Path, fmt: FileFormat, model: Any, shown: str) -> Runs:
 
 def read_homogeneity(path: Path, fmt: FileFormat, unit: str, value_unit: str | None,
                      shown: str) -> tuple[tuple[tuple[str, np.ndarray], ...],
-                                          tuple[Exclusion, ...]]:
-    """Values per unit (in the certified value's unit); rows with a missing value left out."""
+                                          tuple[Exclusion, ...], list[str]]:
+    """Values per unit (in the certified value's unit); rows with a missing value left out;
+    plausibility warnings for single values far from the others (a slip in one cell)."""
+    from ._plausibility import study_value_warnings
+
     table = read_table(path, fmt, shown=shown)
     labels = table.column("unit").cells
     values = column_in(table, "value", unit, declared=value_unit, allow_missing=True)
@@ -119,7 +123,10 @@ def read_homogeneity(path: Path, fmt: FileFormat, unit: str, value_unit: str | N
             excluded.append(_missing(table, index, "value", "homogeneity replicate"))
             continue
         groups.setdefault(label.strip(), []).append(float(value))
-    return tuple((k, np.array(v)) for k, v in groups.items()), tuple(excluded)
+    kept = ~np.isnan(values)
+    slips = study_value_warnings(values[kept], np.asarray(table.rows)[kept].tolist(),
+                                 table.source, unit, "homogeneity study")
+    return tuple((k, np.array(v)) for k, v in groups.items()), tuple(excluded), slips
 
 
 def _missing(table: Table, index: int, column: str, what: str) -> Exclusion:
@@ -136,6 +143,7 @@ class StabilityData:
     time_unit: str
     excluded: tuple[Exclusion, ...]
     dates: bool
+    slips: tuple[str, ...] = ()  # plausibility: single values far from the others
 
 
 def read_stability(path: Path, fmt: FileFormat, unit: str, value_unit: str | None,
@@ -157,13 +165,19 @@ def read_stability(path: Path, fmt: FileFormat, unit: str, value_unit: str | Non
             if np.isnan(array[index]) and keep[index]:
                 keep[index] = False
                 excluded.append(_missing(table, index, column, "stability point"))
+    from ._plausibility import study_value_warnings
+
+    slips = study_value_warnings(values[keep], np.asarray(table.rows)[keep].tolist(),
+                                 table.source, unit, "stability study")
     return StabilityData(times=times[keep], values=values[keep], time_unit=used_unit,
-                         excluded=tuple(excluded), dates=dated)
+                         excluded=tuple(excluded), dates=dated, slips=tuple(slips))
 
 
 def _times(table: Table, name: str, time_unit: str | None, origin: datetime | None,
            date_unit: str | None) -> tuple[np.ndarray, str, bool]:
     column = table.column(name)
+    if column.unit is None and not table.looks_like_dates(name):
+        _not_a_date(table, name)  # a 'date' column, or a column of dates but one
     if column.unit is None and table.looks_like_dates(name):
         from ._datadates import elapsed
 
@@ -181,6 +195,27 @@ def _times(table: Table, name: str, time_unit: str | None, origin: datetime | No
         _time_unit(wanted, table, name)
         return column_in(table, name, wanted, allow_missing=True), wanted, False
     return table.numbers(name, allow_missing=True), "", False
+
+
+def _not_a_date(table: Table, name: str) -> None:
+    """Refuse a cell that is no date in a column that must hold dates: the ``date`` column,
+    or a column whose other cells are dates. Read as a number instead, a spreadsheet's day
+    number (45662 for 2025-01-05) would be an elapsed time in months, silently."""
+    from ._datafiles import _is_date_text
+
+    cells = table.column(name).cells
+    present = [(i, c.strip()) for i, c in enumerate(cells) if not table.is_missing(c)]
+    if name != "date" and not any(_is_date_text(c) for _, c in present):
+        return
+    index, cell = next(((i, c) for i, c in present if not _is_date_text(c)), (-1, ""))
+    if index < 0:
+        return
+    hint = ""
+    if name == "date" and re.fullmatch(r"[0-9]+(\.[0-9]*)?", cell):
+        hint = (" (a spreadsheet's day number? format the cells as dates; elapsed times go "
+                "in a column 'time')")
+    raise DataFileError(f"column '{name}': expected a date (ISO 8601 such as 2025-06-30, or "
+                        f"31.12.2025), found '{cell}'{hint}", table.where(index))
 
 
 def _time_unit(text: str, table: Table, name: str) -> UnitInfo:

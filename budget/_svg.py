@@ -39,6 +39,17 @@ def _text(x: float, y: float, text: str, anchor: str = "start", extra: str = "")
             f"{escape(text)}</text>")
 
 
+def _label(x: float, y: float, name: str, room: float, anchor: str, size: float = _FONT,
+           extra: str = "") -> str:
+    """A name in at most ``room`` pixels: cut with "…" when longer (an average glyph is
+    taken as 0.62 em), the whole name kept as the label's tooltip."""
+    fits = max(4, int(room / (0.62 * size)))
+    if len(name) <= fits:
+        return _text(x, y, name, anchor, extra)
+    return (f'<text x="{x:.1f}" y="{y:.1f}" text-anchor="{anchor}" {extra}>'
+            f"<title>{escape(name)}</title>{escape(name[:fits - 1])}…</text>")
+
+
 def bar_chart(rows: Sequence[tuple[str, float]], unit: str = "%",
               label: str = "contributions") -> Markup:
     """Horizontal bars, one per (name, value); negative values drawn leftwards."""
@@ -56,7 +67,7 @@ def bar_chart(rows: Sequence[tuple[str, float]], unit: str = "%",
     for i, (name, value) in enumerate(rows):
         y = 10 + 22 * i
         x = zero if value >= 0 else zero + value * scale
-        body.append(_text(left - 8, y + 13, name, "end"))
+        body.append(_label(left - 8, y + 13, name, left - 12, "end"))
         body.append(f'<rect x="{x:.1f}" y="{y + 3:.1f}" width="{abs(value) * scale:.1f}" '
                     f'height="14" fill="{_BAR if value >= 0 else _NEG}"/>')
         tx = zero + value * scale + (6 if value >= 0 else -6)
@@ -173,7 +184,7 @@ def points_with_bars(rows: Sequence[tuple[str, float, float]], *, centre: float 
         body.append(f'<line x1="{x:.1f}" y1="{sy(value - half):.1f}" x2="{x:.1f}" '
                     f'y2="{sy(value + half):.1f}" stroke="{_AXIS}" stroke-width="1.3"/>')
         body.append(f'<circle cx="{x:.1f}" cy="{sy(value):.1f}" r="3.5" fill="{_BAR}"/>')
-        body.append(_text(x, bottom + 14, name, "middle", 'font-size="9"'))
+        body.append(_label(x, bottom + 14, name, step - 4, "middle", 9, 'font-size="9"'))
     body += _y_axis(low, high, left, top, bottom, sy, unit)
     return _svg(_W, bottom + 24, body, label)
 

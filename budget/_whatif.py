@@ -52,12 +52,15 @@ def _where(item: Any, key: str) -> Location:
 
 
 def _number(item: Any, key: str, value: Any, *, width: bool) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) \
-            or not math.isfinite(value):
+    """A finite real number (numpy scalars, Fraction and Decimal too) as a float."""
+    from ._arguments import real
+
+    number = real(value)
+    if number is None or not math.isfinite(number):
         raise InputError(f"expected a finite number, found {value!r}", _where(item, key))
-    if width and value < 0:
-        raise InputError(f"expected a number ≥ 0, found {value:g}", _where(item, key))
-    return float(value)
+    if width and number < 0:
+        raise InputError(f"expected a number ≥ 0, found {number:g}", _where(item, key))
+    return number
 
 
 def input_with_uncertainty(item: Any, *, u: float | None = None,
@@ -75,7 +78,16 @@ def input_with_uncertainty(item: Any, *, u: float | None = None,
                              "exact one (give it a distribution with with_distribution)",
                              _where(item, "u"))
         factor = u / item.standard_uncertainty
-    return scaled_input(item, _number(item, "factor", factor, width=True))
+        if not math.isfinite(factor):  # the widths would pass the largest float
+            raise InputError(f"expected a standard uncertainty whose widths are finite "
+                             f"numbers, found {u:g} ({factor:g} times the present "
+                             f"{item.standard_uncertainty:g})", _where(item, "u"))
+    factor = _number(item, "factor", factor, width=True)
+    if item.standard_uncertainty == 0.0 and factor != 1.0:  # × F of nothing: still exact
+        raise InputError(f"expected an input with an uncertainty to scale, found an exact "
+                         f"one (× {factor:g} would change nothing; give it a distribution "
+                         f"with with_distribution)", _where(item, "factor"))
+    return scaled_input(item, factor)
 
 
 def input_with_value(item: Any, value: float) -> Any:

@@ -66,14 +66,35 @@ def read_sheet(path: Path, sheet: str | None, shown: str
                                 f"the sheets {', '.join(names)}", Location(file=shown))
         grid: list[list[str]] = []
         rows: list[int] = []
+        blank = False  # an empty cell: perhaps a formula without a computed value
         for number, values in enumerate(book[name].iter_rows(values_only=True), start=1):
             cells = [_text(v) for v in values]
             if any(c.strip() for c in cells):
                 grid.append(cells)
                 rows.append(number)
+                blank = blank or not all(c.strip() for c in cells)
     finally:
         book.close()
+    if blank:
+        _uncomputed_formulas(openpyxl.load_workbook(path, read_only=True), name, grid, rows)
     return f"{shown}[{name}]", grid, rows
+
+
+def _uncomputed_formulas(book: Any, name: str, grid: list[list[str]], rows: list[int]) -> None:
+    """Show a formula whose value the workbook does not hold (a file written by a program
+    that does not compute formulas) as its text, '=B2/0', never as an empty cell: it is
+    not a missing value, and a table that allows those would leave the row out silently."""
+    try:
+        where = dict(zip(rows, grid))
+        for number, values in enumerate(book[name].iter_rows(values_only=True), start=1):
+            cells = where.get(number)
+            if cells is None:
+                continue
+            for k, value in enumerate(values[:len(cells)]):
+                if not cells[k].strip() and isinstance(value, str) and value.startswith("="):
+                    cells[k] = value
+    finally:
+        book.close()
 
 
 def write_workbook(path: str, sheets: Sequence[tuple[str, Sequence[str],

@@ -19,11 +19,12 @@ import os
 import statistics
 import tomllib
 from concurrent.futures import ProcessPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Iterable
 
 from ._errors import BudgetError, InputError, Location
+from ._arguments import keywords_checked
 
 __all__ = ["BatchEntry", "Batch", "find_campaigns", "certify_folder", "batch_document",
            "batch_rows", "BATCH_COLUMNS"]
@@ -45,6 +46,9 @@ class BatchEntry:
     unit: str = ""
     warnings: tuple[str, ...] = ()
     error: str | None = None
+    # (role, path) of every file the campaign read (or, when it failed, names): never
+    # overwritten by the summary's --csv or --html
+    files: tuple[tuple[str, str], ...] = ()
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -62,6 +66,10 @@ class Batch:
 def find_campaigns(folder: str | Path) -> list[Path]:
     """Campaign files under ``folder``: TOML files with a [characterization] table, and
     TOML files that cannot be read (their error goes into the summary)."""
+    if not isinstance(folder, (str, os.PathLike)):
+        raise InputError(f"expected the path of a folder of campaign files, found "
+                         f"{type(folder).__name__} {folder!r:.80}",
+                         Location(file="<argument>", key="folder"))
     root = Path(folder)
     if not root.is_dir():
         raise InputError(f"expected a folder of campaign files, found "
@@ -88,12 +96,15 @@ def certify_one(path: str, trials: int | None, seed: int | None) -> BatchEntry:
     from ._campaign import load_campaign
     from ._certification import certify
 
+    from ._output import files_of_campaign
+
     try:
         cert = certify(load_campaign(path), trials=trials, seed=seed)
     except BudgetError as error:
-        return BatchEntry(path=path, error=str(error))
+        return BatchEntry(path=path, error=str(error), files=_named_files(path))
     dates = sorted(cert.run_dates)
     return BatchEntry(path=path, title=cert.campaign.title,
+                      files=tuple(files_of_campaign(cert.campaign)) + _named_files(path),
                       date=dates[-1].isoformat() if dates else None,
                       certified_value=cert.certified_value,
                       standard_uncertainty=cert.standard_uncertainty,
@@ -102,14 +113,46 @@ def certify_one(path: str, trials: int | None, seed: int | None) -> BatchEntry:
                       unit=cert.campaign.unit, warnings=tuple(cert.warnings))
 
 
+def _named_files(path: str) -> tuple[tuple[str, str], ...]:
+    """The campaign file and every existing file a text of it names beside it (its data,
+    even when the campaign failed before reading them)."""
+    found = [("campaign", path)]
+    try:
+        document = tomllib.loads(Path(path).read_text(encoding="utf-8-sig"))
+    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+        return tuple(found)
+    stack: list[Any] = [document]
+    while stack:
+        item = stack.pop()
+        if isinstance(item, dict):
+            stack.extend(item.values())
+        elif isinstance(item, list):
+            stack.extend(item)
+        elif isinstance(item, str) and 0 < len(item) < 1000 and "\n" not in item:
+            try:
+                if (Path(path).parent / item).is_file():
+                    found.append(("data", str(Path(path).parent / item)))
+            except (OSError, ValueError):
+                continue
+    return tuple(found)
+
+
 def _certify_many(paths: list[str], trials: int | None, seed: int | None
                   ) -> list[BatchEntry]:
     return [certify_one(path, trials, seed) for path in paths]
 
 
+@keywords_checked
 def certify_folder(folder: str | Path, *, trials: int | None = 0, seed: int | None = None,
                    workers: int | None = None) -> Batch:
     """Certify every campaign under ``folder`` on ``workers`` processes (default: cores)."""
+    from ._arguments import check_seed_argument, check_trials_argument, check_workers
+
+    where = Location(file="certify_folder()")
+    trials = None if trials is None else check_trials_argument(trials, replace(where,
+                                                                              key="trials"))
+    seed = None if seed is None else check_seed_argument(seed, replace(where, key="seed"))
+    workers = check_workers(workers, replace(where, key="workers"))
     paths = [str(p) for p in find_campaigns(folder)]
     if not paths:
         raise InputError("expected at least one campaign file (a TOML file with a "
@@ -144,6 +187,9 @@ BATCH_COLUMNS = ("date", "campaign", "title", "certified_value", "expanded_uncer
 
 def batch_rows(batch: Batch) -> list[dict[str, Any]]:
     """One flat row per campaign (the CSV export and the JSON ``campaigns``)."""
+    from ._arguments import check_instance
+
+    check_instance(batch, Batch, "batch_rows", "batch")
     return [{"date": e.date, "campaign": e.path, "title": e.title,
              "certified_value": e.certified_value,
              "expanded_uncertainty": e.expanded_uncertainty,
@@ -154,6 +200,9 @@ def batch_rows(batch: Batch) -> list[dict[str, Any]]:
 
 def batch_document(batch: Batch) -> dict[str, Any]:
     """The JSON document of ``budget certify-all``."""
+    from ._arguments import check_instance
+
+    check_instance(batch, Batch, "batch_document", "batch")
     from ._document import CAUTION
     from ._provenance import versions
 

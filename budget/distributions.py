@@ -62,18 +62,42 @@ def _valid(owner: Any, *, widths: tuple[str, ...] = (), fraction: str | None = N
     from ._errors import InputError
 
     kind = type(owner).__name__
-    estimate = owner.estimate
-    if not math.isfinite(estimate):
-        raise InputError(f"{kind}: expected a finite estimate, found {estimate!r}")
+    shown = _plain(owner, kind, ("estimate", *widths, *(n for n in (fraction, dof) if n)))
+    if not math.isfinite(owner.estimate):
+        raise InputError(f"{kind}: expected a finite estimate, found {shown['estimate']}")
     for name in widths:
         value = getattr(owner, name)
         if not (math.isfinite(value) and value >= 0):
-            raise InputError(f"{kind}: expected {name} ≥ 0 and finite, found {value!r}")
+            raise InputError(f"{kind}: expected {name} ≥ 0 and finite, found {shown[name]}")
     if fraction is not None and not 0.0 <= getattr(owner, fraction) <= 1.0:
-        raise InputError(f"{kind}: expected {fraction} in [0, 1], found "
-                         f"{getattr(owner, fraction)!r}")
+        raise InputError(f"{kind}: expected {fraction} in [0, 1], found {shown[fraction]}")
     if dof is not None and not getattr(owner, dof) > 0:
-        raise InputError(f"{kind}: expected {dof} > 0, found {getattr(owner, dof)!r}")
+        raise InputError(f"{kind}: expected {dof} > 0, found {shown[dof]}")
+    if dof is not None and math.isinf(getattr(owner, dof)):  # numpy draws NaN for ν = ∞
+        raise InputError(f"{kind}: expected a finite {dof} (a t distribution with ν = ∞ is "
+                         f"Normal(estimate, sd)), found {shown[dof]}")
+
+
+def _plain(owner: Any, kind: str, names: tuple[str, ...]) -> dict[str, str]:
+    """Store each parameter as a plain float (no Decimal, string or array inside a
+    distribution); refuse one that is not a real number. The parameters as given, for
+    messages."""
+    from ._arguments import real
+    from ._errors import InputError
+    from ._limits import shorten
+
+    shown = {}
+    for name in names:
+        value = getattr(owner, name)
+        if value is None and name == "repeatability":
+            continue
+        number = real(value)
+        if number is None:
+            raise InputError(f"{kind}: expected {name} as a number, found "
+                             f"{type(value).__name__} {shorten(repr(value))}")
+        object.__setattr__(owner, name, number)
+        shown[name] = shorten(repr(value))
+    return shown
 
 
 @dataclass(frozen=True, slots=True)
@@ -342,6 +366,11 @@ class AtomicWeightSum:
             raise InputError(f"AtomicWeightSum: expected as many counts, centres and "
                              f"half-widths, found {len(self.counts)}, {len(self.centres)} "
                              f"and {len(self.half_widths)}")
+        from ._arguments import real
+
+        given = (*self.counts, *self.centres, *self.half_widths, self.scale)
+        if any(real(x) is None for x in given):
+            raise InputError(f"AtomicWeightSum: expected numbers, found {given!r:.200}")
         numbers = (*self.counts, *self.centres, self.scale)
         if not all(math.isfinite(x) for x in numbers) or min(self.counts, default=0) < 0:
             raise InputError(f"AtomicWeightSum: expected finite counts ≥ 0, centres and "

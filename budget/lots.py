@@ -20,13 +20,15 @@ lets a laboratory re-evaluate thousands of lots in the time a spreadsheet takes 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
-from typing import Mapping, Sequence
+from dataclasses import dataclass, replace
+from typing import Any, Mapping, Sequence
 
 import numpy as np
 
-from ._errors import InputError, Location
+from ._errors import InputError, Location, did_you_mean
+from ._limits import as_float, check_probability, shorten
 from ._model import Model
+from ._arguments import keywords_checked
 
 __all__ = ["LotBudgets", "propagate_lots"]
 
@@ -45,24 +47,33 @@ class LotBudgets:
     sensitivity: np.ndarray  # (L, measurands, inputs), signed
 
 
+@keywords_checked
 def propagate_lots(model: Model, estimates: Mapping[str, Sequence[float]],
                    uncertainties: Mapping[str, Sequence[float]] | None = None,
                    coverage: float | None = None) -> LotBudgets:
     """The GUM budget of every lot: ``estimates`` (and ``uncertainties``) map input names
     to one value per lot, in the input's own unit; inputs not named keep the model's."""
+    from ._arguments import check_model
+
+    check_model(model, "propagate_lots")
     where = Location(file=model.source)
     if model.estimated_together:
         raise InputError("expected a model without [[estimated_together]] sets for many "
                          "lots at once (their joint degrees of freedom are computed lot by "
                          "lot by propagate), found "
                          f"{len(model.estimated_together)}", where)
-    lots = _count(model, estimates, uncertainties or {}, where)
-    x = _columns(model, estimates, lots, lambda i: i.estimate)
-    u = np.array(_columns(model, uncertainties or {}, lots,
+    coverage = model.settings.coverage_probability if coverage is None else \
+        check_probability(coverage, replace(where, key="coverage"))
+    given = _table(model, estimates, "estimates", where)
+    spreads = _table(model, uncertainties or {}, "uncertainties", where)
+    lots = _count(given, spreads, where)
+    x = _columns(model, given, lots, lambda i: i.estimate)
+    u = np.array(_columns(model, spreads, lots,
                           lambda i: i.standard_uncertainty))  # (inputs, L)
     from ._evaluation import compile_model
 
     values, jacobian = compile_model(model).gradient_many(x)  # (k, L), (k, n, L)
+    _check_finite(model, values, jacobian, estimates)
     parts = jacobian * u[None, :, :]  # c_i u_i, (k, n, L)
     variance = np.einsum("knl,knl->kl", parts, parts)
     index = {item.name: j for j, item in enumerate(model.inputs)}
@@ -70,7 +81,6 @@ def propagate_lots(model: Model, estimates: Mapping[str, Sequence[float]],
         variance += 2.0 * r * parts[:, index[a], :] * parts[:, index[b], :]
     combined = np.sqrt(np.clip(variance, 0.0, None))
     nu = _welch_satterthwaite(combined, parts, np.array([i.dof for i in model.inputs]))
-    coverage = model.settings.coverage_probability if coverage is None else coverage
     k = _coverage_factors(coverage, nu)
     return LotBudgets(measurands=tuple(m.name for m in model.measurands),
                       inputs=tuple(index), estimate=values.T, combined_uncertainty=combined.T,
@@ -78,33 +88,102 @@ def propagate_lots(model: Model, estimates: Mapping[str, Sequence[float]],
                       sensitivity=np.transpose(jacobian, (2, 0, 1)))
 
 
-def _count(model: Model, estimates: Mapping[str, Sequence[float]],
-           uncertainties: Mapping[str, Sequence[float]], where: Location) -> int:
-    names = {i.name for i in model.inputs}
-    lengths = set()
-    for table in (estimates, uncertainties):
-        for name, column in table.items():
-            if name not in names:
-                from ._errors import did_you_mean
+def _table(model: Model, table: Any, what: str, where: Location) -> dict[str, np.ndarray]:
+    """The columns of ``estimates`` or ``uncertainties`` (a dict or a DataFrame) as finite
+    float arrays, each named by an input of the model."""
+    if not hasattr(table, "items"):
+        raise InputError(f"expected {what} as a mapping of input names to columns (a dict "
+                         f"or a pandas DataFrame), found {type(table).__name__} "
+                         f"{shorten(repr(table))}", replace(where, key=what))
+    names = [i.name for i in model.inputs]
+    made = {}
+    for name, column in table.items():
+        if name not in names:
+            raise InputError(f"expected an input of the model, found {shorten(repr(name))}"
+                             f"{did_you_mean(str(name), names)}", replace(where, key=what))
+        made[name] = _column(column, replace(where, key=f"{what}[{name!r}]"),
+                             what == "uncertainties")
+    return made
 
-                raise InputError(f"expected an input of the model, found '{name}'"
-                                 f"{did_you_mean(name, sorted(names))}", where)
-            lengths.add(len(column))
+
+def _column(column: Any, where: Location, spread: bool) -> np.ndarray:
+    """One column: a sequence of finite numbers (≥ 0 for standard uncertainties)."""
+    try:
+        values = np.asarray(column)
+    except ValueError:  # ragged: [[1.0], [1.0, 2.0]]
+        values = np.empty((0, 0))
+    expected = "a finite standard uncertainty ≥ 0" if spread else "a finite number"
+    if values.ndim != 1 or isinstance(column, (str, bytes)):
+        raise InputError(f"expected a column of numbers, one per lot, found "
+                         f"{type(column).__name__} {shorten(repr(column))}", where)
+    if values.dtype.kind not in "iuf" or not hasattr(column, "dtype"):  # a list: True → 1.0
+        items = column.tolist() if hasattr(column, "tolist") else list(column)
+        bad = [k for k, item in enumerate(items) if as_float(item) is None]
+        if bad:
+            raise InputError(f"expected {expected} for every lot, found "
+                             f"{shorten(repr(items[bad[0]]))} at {_lot(column, bad[0])}",
+                             where)
+    numbers = values.astype(float)
+    wrong = ~np.isfinite(numbers) | ((numbers < 0) if spread else False)
+    if wrong.any():
+        k = int(np.argmax(wrong))
+        raise InputError(f"expected {expected} for every lot, found {float(numbers[k])!r} at "
+                         f"{_lot(column, k)}", where)
+    return numbers
+
+
+def _lot(column: Any, position: int) -> str:
+    """Where a lot is: its position, and its row label when the column or table is a
+    pandas Series or DataFrame."""
+    index = column.index if hasattr(column, "iloc") else None
+    label = "" if index is None or len(index) <= position else \
+        f", row {shorten(repr(index[position]))}"
+    return f"lot {position + 1} (position {position}{label})"
+
+
+def _count(estimates: dict[str, np.ndarray], uncertainties: dict[str, np.ndarray],
+           where: Location) -> int:
+    lengths = {len(column) for table in (estimates, uncertainties) for column in table.values()}
     if len(lengths) > 1:
         raise InputError(f"expected one value per lot in every column, found columns of "
                          f"{', '.join(str(n) for n in sorted(lengths))} values", where)
     return lengths.pop() if lengths else 1
 
 
-def _columns(model: Model, table: Mapping[str, Sequence[float]], lots: int,
+def _columns(model: Model, table: Mapping[str, np.ndarray], lots: int,
              default: object) -> list[np.ndarray]:
     made = []
     for item in model.inputs:
         if item.name in table:
-            made.append(np.asarray(table[item.name], dtype=float))
+            made.append(table[item.name])
         else:
             made.append(np.full(lots, default(item)))  # type: ignore[operator]
     return made
+
+
+def _check_finite(model: Model, values: np.ndarray, jacobian: np.ndarray,
+                  table: Any) -> None:
+    """Refuse a lot whose measurand value or sensitivity coefficients are not finite, as
+    ``propagate`` refuses such estimates: never a NaN or ∞ in a lot's budget."""
+    for k, measurand in enumerate(model.measurands):
+        where = Location(file=model.source, table=f"measurands.{measurand.name}",
+                         key="equation", line=measurand.line)
+        column = table if hasattr(table, "iloc") else next(iter(table.values()), None)
+        wrong = ~np.isfinite(values[k])
+        if wrong.any():
+            lot = int(np.argmax(wrong))
+            raise InputError(f"expected a finite value at the estimates of every lot, found "
+                             f"{float(values[k, lot])} at {_lot(column, lot)} (a division by "
+                             f"zero or a function outside its domain in "
+                             f"'{measurand.equation}')", where)
+        wrong_c = ~np.isfinite(jacobian[k])  # (n, L)
+        if wrong_c.any():
+            lot = int(np.argmax(wrong_c.any(axis=0)))
+            bad = [i.name for j, i in enumerate(model.inputs) if wrong_c[j, lot]]
+            raise InputError(f"expected finite sensitivity coefficients at the estimates of "
+                             f"every lot, found none for {', '.join(bad)} at "
+                             f"{_lot(column, lot)} (the equation is not differentiable "
+                             f"there)", where)
 
 
 def _welch_satterthwaite(combined: np.ndarray, parts: np.ndarray,
