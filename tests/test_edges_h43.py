@@ -716,3 +716,12 @@ def test_a_progress_function_of_one_argument_is_refused_before_the_run(
     seen: list[tuple[int, int]] = []
     budget.evaluate(naoh, trials=1000, seed=1, progress=lambda d, t: seen.append((d, t)))
     assert seen and seen[-1] == (1000, 1000)
+
+
+def test_load_campaign_checks_allow_outside() -> None:
+    # allow_outside="no" is truthy: it allowed files outside the folder tree
+    with pytest.raises(BudgetError, match=re.escape(
+            "load_campaign(): allow_outside: expected True or False, found str 'no'")):
+        budget.load_campaign("models/vics-as-25a/campaign.toml", allow_outside="no")
+    with pytest.raises(BudgetError, match="did you mean 'allow_outside'"):
+        budget.load_campaign("models/vics-as-25a/campaign.toml", allow_outsid=True)
