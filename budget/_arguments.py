@@ -172,9 +172,18 @@ def check_workers(value: Any, where: Location) -> int | None:
 
 
 def check_progress(value: Any, where: Location) -> None:
+    """None or a function called with (done, total) as the run advances."""
     if value is not None and not callable(value):
         raise InputError(f"expected None or a function f(done, total), found "
                          f"{_found(value)}", where)
+    try:
+        if value is not None:
+            inspect.signature(value).bind(0, 1)
+    except TypeError as exc:  # it would fail in a worker, halfway through the run
+        raise InputError(f"expected a function f(done, total) of two arguments, found one "
+                         f"that cannot take them ({exc})", where) from exc
+    except ValueError:  # a builtin without a signature: trusted
+        pass
 
 
 def check_flag(value: Any, where: Location, none: bool = False) -> None:

@@ -705,3 +705,14 @@ def test_what_if_keywords_are_checked(naoh: budget.Model) -> None:
             "with_uncertainty(): expected at most 1 positional argument (give the others by "
             "name: u=…, factor=…), found 2")):
         naoh.with_uncertainty("V_T", 0.1)  # type: ignore[misc]
+
+
+def test_a_progress_function_of_one_argument_is_refused_before_the_run(
+        naoh: budget.Model) -> None:
+    # it failed inside the Monte Carlo workers with Python's TypeError
+    with pytest.raises(BudgetError, match="progress: expected a function f\\(done, total\\) "
+                                          "of two arguments"):
+        budget.evaluate(naoh, trials=1000, seed=1, progress=lambda done: None)
+    seen: list[tuple[int, int]] = []
+    budget.evaluate(naoh, trials=1000, seed=1, progress=lambda d, t: seen.append((d, t)))
+    assert seen and seen[-1] == (1000, 1000)
