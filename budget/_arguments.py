@@ -227,5 +227,5 @@ def check_budget_of(budget: Any, model: Any, coverage: float, where: Location) -
 
 def _fingerprint(model: Any) -> tuple[Any, ...]:
     return (tuple((m.name, m.equation) for m in model.measurands),
-            tuple((i.name, i.estimate, i.standard_uncertainty) for i in model.inputs),
+            tuple((i.name, i.estimate, i.standard_uncertainty, i.dof) for i in model.inputs),
             tuple(model.correlations))

@@ -725,3 +725,11 @@ def test_load_campaign_checks_allow_outside() -> None:
         budget.load_campaign("models/vics-as-25a/campaign.toml", allow_outside="no")
     with pytest.raises(BudgetError, match="did you mean 'allow_outside'"):
         budget.load_campaign("models/vics-as-25a/campaign.toml", allow_outsid=True)
+
+
+def test_simulate_refuses_the_budget_before_a_change_of_dof(naoh: budget.Model) -> None:
+    # same estimate and u, but ν = 3: the original budget's k = 1.96 is not this model's
+    before = budget.propagate(naoh)
+    t3 = naoh.with_distribution("V_T", D.StudentT(18.64, 0.013, 3))
+    with pytest.raises(BudgetError, match="budget: expected the budget of this model"):
+        budget.simulate(t3, before, trials=1000, seed=1)
