@@ -733,3 +733,9 @@ def test_simulate_refuses_the_budget_before_a_change_of_dof(naoh: budget.Model) 
     t3 = naoh.with_distribution("V_T", D.StudentT(18.64, 0.013, 3))
     with pytest.raises(BudgetError, match="budget: expected the budget of this model"):
         budget.simulate(t3, before, trials=1000, seed=1)
+
+
+def test_a_budget_at_the_float32_of_the_coverage_is_the_same(naoh: budget.Model) -> None:
+    gum = budget.propagate(naoh, coverage=np.float32(0.95))
+    run = budget.simulate(naoh, gum, trials=1000, seed=1, coverage=0.95)
+    assert run.measurands[0].validation is not None
