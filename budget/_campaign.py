@@ -22,6 +22,7 @@ from ._limits import (LIMITS_PAGE, MAX_DATA_BYTES, MAX_FILE_BYTES, as_float,
                      check_probability, check_strings, shorten)
 from ._model import LineIndex, Model, decode, load_model, read_toml
 from ._studydata import Exclusion, Runs
+from ._arguments import keywords_checked
 
 __all__ = ["Campaign", "Comparison", "load_campaign", "read_runs_file"]
 
@@ -176,11 +177,14 @@ class _Reader:
         return path
 
 
+@keywords_checked
 def load_campaign(path: str | Path, *, allow_outside: bool = False) -> Campaign:
     """Read and check a campaign file and everything it refers to; the files it names
     must lie in its folder tree unless ``allow_outside``."""
+    from ._arguments import check_flag
     from ._files import read_input
 
+    check_flag(allow_outside, Location(file="load_campaign()", key="allow_outside"))
     raw = read_input(path, limit=MAX_FILE_BYTES, what="campaign file", error=CampaignError)
     path = Path(path)
     text = decode(raw, str(path), "campaign")

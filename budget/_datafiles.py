@@ -225,6 +225,7 @@ def _table(source: str, grid: list[list[str]], rows: list[int], decimal: str,
     if not grid:
         raise DataFileError("expected a header row and data rows, found an empty table",
                             Location(file=source))
+    _check_characters(source, grid, rows)
     header, body, numbers = grid[0], grid[1:], rows[1:]
     columns = []
     seen: set[str] = set()
@@ -241,6 +242,25 @@ def _table(source: str, grid: list[list[str]], rows: list[int], decimal: str,
         columns.append(Column(name=name, header=title.strip(), unit=unit, cells=cells))
     return Table(source=source, columns=tuple(columns), rows=tuple(numbers), decimal=decimal,
                  missing=tuple(m.strip() for m in fmt.missing), dates=fmt.dates)
+
+
+def _check_characters(source: str, grid: list[list[str]], rows: list[int]) -> None:
+    """No control characters or bidirectional overrides in any cell (a label 'U-0‮09'
+    shows as another unit in a report); tabs and line breaks inside quoted cells pass."""
+    from ._limits import character_name, control_character, terminal_text
+
+    for number, row in zip(rows, grid):
+        if control_character("".join(row), "\t\n\r") is None:
+            continue
+        for position, cell in enumerate(row):
+            at = control_character(cell, "\t\n\r")
+            if at is not None:
+                column = grid[0][position].strip() if position < len(grid[0]) else ""
+                name = f"column '{terminal_text(column)}'" if column and number != rows[0] \
+                    else f"column {position + 1}"
+                raise DataFileError(f"{name}: expected text without control characters, "
+                                    f"found {character_name(cell[at])} at position {at + 1}",
+                                    Location(file=source, line=number))
 
 
 def _decode(raw: bytes, declared: str | None, shown: str) -> str:

@@ -135,6 +135,16 @@ CASES: dict[str, tuple[Edit, str]] = {
         _edit("campaign.toml", 'unit = "%"', 'unit = "kg"'),
         "campaign.toml:7: unit: expected a unit of the measurand's dimension ('%'), found "
         "'kg'"),
+    # a right-to-left override in a unit label: 'U-0\u202e09' was a unit of its own that
+    # a report shows as another label; an escape sequence in a runs label went through
+    "bidirectional_override_in_a_label": (
+        _edit("homogeneity.csv", "U-009,1", "U-0\u202e09,1"),
+        "homogeneity.csv:2: column 'unit': expected text without control characters, found "
+        "U+202E RIGHT-TO-LEFT OVERRIDE at position 4"),
+    "escape_in_a_runs_label": (
+        _edit("determinations.csv", "D2,", "D\x1b[31m2,"),
+        "determinations.csv:3: column 'id': expected text without control characters, found "
+        "U+001B ESCAPE at position 2"),
     "characterization_with_one_run": (
         _keep_lines("determinations.csv", 2),
         "campaign.toml:13: [characterization] runs: expected at least 2 runs in "

@@ -716,3 +716,26 @@ def test_a_progress_function_of_one_argument_is_refused_before_the_run(
     seen: list[tuple[int, int]] = []
     budget.evaluate(naoh, trials=1000, seed=1, progress=lambda d, t: seen.append((d, t)))
     assert seen and seen[-1] == (1000, 1000)
+
+
+def test_load_campaign_checks_allow_outside() -> None:
+    # allow_outside="no" is truthy: it allowed files outside the folder tree
+    with pytest.raises(BudgetError, match=re.escape(
+            "load_campaign(): allow_outside: expected True or False, found str 'no'")):
+        budget.load_campaign("models/vics-as-25a/campaign.toml", allow_outside="no")
+    with pytest.raises(BudgetError, match="did you mean 'allow_outside'"):
+        budget.load_campaign("models/vics-as-25a/campaign.toml", allow_outsid=True)
+
+
+def test_simulate_refuses_the_budget_before_a_change_of_dof(naoh: budget.Model) -> None:
+    # same estimate and u, but ν = 3: the original budget's k = 1.96 is not this model's
+    before = budget.propagate(naoh)
+    t3 = naoh.with_distribution("V_T", D.StudentT(18.64, 0.013, 3))
+    with pytest.raises(BudgetError, match="budget: expected the budget of this model"):
+        budget.simulate(t3, before, trials=1000, seed=1)
+
+
+def test_a_budget_at_the_float32_of_the_coverage_is_the_same(naoh: budget.Model) -> None:
+    gum = budget.propagate(naoh, coverage=np.float32(0.95))
+    run = budget.simulate(naoh, gum, trials=1000, seed=1, coverage=0.95)
+    assert run.measurands[0].validation is not None
