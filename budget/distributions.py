@@ -89,6 +89,9 @@ def _plain(owner: Any, kind: str, names: tuple[str, ...]) -> dict[str, str]:
     shown = {}
     for name in names:
         value = getattr(owner, name)
+        if type(value) is float:  # as a file gives it: nothing to convert (a fast path)
+            shown[name] = repr(value)
+            continue
         if value is None and name == "repeatability":
             continue
         number = real(value)
