@@ -262,6 +262,12 @@ def test_a_gap_in_a_current_record_is_a_warning(cli, tmp_path: Path, times: str,
      "estimate 0.524652 g")])
 def test_a_run_value_of_the_wrong_sign_is_named_so(cli, tmp_path: Path, edit: Edit,
                                                    warning: str) -> None:
+    _warns(cli, tmp_path, edit, warning)
+
+
+def _warns(cli, tmp_path: Path, edit: Edit, warning: str) -> None:
+    """The demo campaign, edited, is certified with ``warning`` among the plausibility
+    warnings."""
     folder = tmp_path / "batch"
     shutil.copytree(DEMO, folder)
     edit(folder)
@@ -316,12 +322,7 @@ def test_stability_trend_agrees_with_scipy_for_scaled_times() -> None:
      "stability study by more than a factor 3 (a factor 10^1: a unit slip?)")])
 def test_a_slipped_study_value_is_named_with_its_row(cli, tmp_path: Path, edit: Edit,
                                                      warning: str) -> None:
-    folder = tmp_path / "batch"
-    shutil.copytree(DEMO, folder)
-    edit(folder)
-    code, stdout, stderr = cli("certify", "--trials", "0", str(folder / "campaign.toml"))
-    assert code == 0
-    assert f"warning: plausibility: {folder}/{warning}\n" in stderr
+    _warns(cli, tmp_path, edit, warning)
 
 
 def test_the_demo_studies_raise_no_slip_warning(cli) -> None:
