@@ -83,6 +83,9 @@ KEEP_LIMIT = 10_000_000
 # a run that keeps every value (keep_samples, or p ≤ ½) stops at ADAPTIVE_KEEP_LIMIT.
 ADAPTIVE_LIMIT = MAX_TRIALS
 ADAPTIVE_KEEP_LIMIT = 20_000_000
+# ... and at this many random numbers (trials × inputs drawn; about two minutes here), so
+# that a model of 10⁴ inputs stops after 2.5·10⁶ trials, not hours later
+ADAPTIVE_NUMBERS = 25_000_000_000
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -189,9 +192,14 @@ class Simulation:
                 "warnings": list(self.warnings)}
 
 
+def drawn_inputs(model: Model) -> int:
+    """The inputs drawn in every trial (those with an uncertainty), at least 1."""
+    return max(1, sum(1 for i in model.inputs if i.standard_uncertainty > 0))
+
+
 def block_size(model: Model) -> int:
     """Trials per block: ``BLOCK``, halved until the draws of one block fit in 32 MB."""
-    drawn = max(1, sum(1 for i in model.inputs if i.standard_uncertainty > 0))
+    drawn = drawn_inputs(model)
     size = BLOCK
     while size > 1024 and drawn * size * 8 > _BLOCK_BYTES:
         size //= 2
@@ -760,6 +768,11 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
     outputs = len(sampler.model.measurands)
     keep_all = bool(keep_samples) or coverage <= 0.5
     limit = ADAPTIVE_KEEP_LIMIT if keep_all else ADAPTIVE_LIMIT
+    drawn = drawn_inputs(sampler.model)
+    why = ""
+    if ADAPTIVE_NUMBERS // drawn < limit:
+        limit = ADAPTIVE_NUMBERS // drawn
+        why = f": {ADAPTIVE_NUMBERS:.2g} random numbers for {drawn:,} inputs drawn"
     most = max(1, limit // size)  # batches: the last one keeps (h + 2)·M ≤ cap
     # batches whose values are kept: all of them, or while the run holds ≤ KEEP_LIMIT
     room = most if keep_all else (0 if keep_samples is False
@@ -829,7 +842,8 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
                 break
         else:
             warnings.append(f"adaptive Monte Carlo stopped at {most * size} trials before "
-                            f"its numerical tolerance was reached (limit {limit:,})")
+                            f"its numerical tolerance was reached (limit {limit:,} "
+                            f"trials{why})")
     finally:
         blocks.close()
     assert moments is not None

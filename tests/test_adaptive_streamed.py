@@ -143,3 +143,17 @@ def test_a_pile_holds_its_pieces_in_order_across_chunks(monkeypatch):
     assert [c.size for c in chunks] == [7, 7, 7, 7]
     assert np.array_equal(np.concatenate(chunks), np.concatenate(pieces))
     assert pile.size == 0 and [c.size for c in pile.take()] == [0]
+
+
+def test_adaptive_run_of_a_wide_model_stops_at_its_random_numbers(monkeypatch):
+    """The cap counts the numbers drawn (trials × inputs drawn) as well as the trials, so
+    that a model of many inputs stops in minutes, not hours; the warning says why."""
+    inputs = "\n".join(f"[inputs.x{i}]\nvalue = 1\nu = 0.1" for i in range(40))
+    m = model('title = "forty inputs"\n[measurands.Y]\nequation = "'
+              + " + ".join(f"x{i}" for i in range(40)) + '"\n' + inputs)
+    _capped(monkeypatch, 1, 50, 1)
+    monkeypatch.setattr(montecarlo, "ADAPTIVE_NUMBERS", 40 * 3 * BATCH)
+    run = simulate(m, adaptive=True, digits=6, seed=2)
+    assert run.trials == 3 * BATCH
+    assert any(f"(limit {3 * BATCH:,} trials: {40 * 3 * BATCH:.2g} random numbers for 40 "
+               "inputs drawn)" in w for w in run.warnings)
