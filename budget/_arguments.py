@@ -214,7 +214,7 @@ def check_budget_of(budget: Any, model: Any, coverage: float, where: Location) -
     if not isinstance(budget, Budget):
         raise InputError(f"expected None or the budget.Budget of this model "
                          f"(budget.propagate(model)), found {_found(budget)}", where)
-    if _fingerprint(budget.model) != _fingerprint(model):
+    if budget.model is not model and _fingerprint(budget.model) != _fingerprint(model):
         raise InputError("expected the budget of this model (budget.propagate(model)), "
                          f"found the budget of another model or of the model before a "
                          f"what-if ('{budget.model.title}')", where)
