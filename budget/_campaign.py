@@ -146,6 +146,19 @@ class _Reader:
             raise self.fail(f"expected a '{key}' string, found {found}", table, key, nth)
         return value.strip()
 
+    def names(self, given: Any, allowed: list[str], table: str, key: str,
+              kind: tuple[str, str]) -> list[str]:
+        """A list of names each of which is one of ``allowed``; ``kind``: what a name is
+        and what the list holds, e.g. ("input", "input names")."""
+        one, many = kind
+        if not isinstance(given, list) or not all(isinstance(c, str) for c in given):
+            raise self.fail(f"expected a list of {many}, found {given!r}", table, key)
+        for name in given:
+            if name not in allowed:
+                raise self.fail(f"unknown {one} '{name}'{did_you_mean(name, allowed)}",
+                                table, key)
+        return given
+
     def number(self, data: dict[str, Any], key: str, table: str, *, positive: bool = False,
                nth: int = 0, default: float | None = None) -> float:
         value = data.get(key, default)
@@ -403,16 +416,8 @@ def _estimate_factors(r: _Reader, char: dict[str, Any], names: tuple[str, ...], 
 
 
 def _covers(r: _Reader, char: dict[str, Any], model: Model) -> tuple[str, ...]:
-    covers = char.get("scatter_covers", [])
-    names = [i.name for i in model.inputs]
-    if not isinstance(covers, list) or not all(isinstance(c, str) for c in covers):
-        raise r.fail(f"expected a list of input names, found {covers!r}", "characterization",
-                     "scatter_covers")
-    for name in covers:
-        if name not in names:
-            raise r.fail(f"unknown input '{name}'{did_you_mean(name, names)}",
-                         "characterization", "scatter_covers")
-    return tuple(covers)
+    return tuple(r.names(char.get("scatter_covers", []), [i.name for i in model.inputs],
+                         "characterization", "scatter_covers", ("input", "input names")))
 
 
 def _optional_unit(r: _Reader, data: dict[str, Any], key: str, table: str) -> str | None:

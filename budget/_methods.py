@@ -265,14 +265,8 @@ def _combination(r: _Reader, labels: list[str]) -> tuple[str | None, tuple[str, 
     if rule not in RULES:
         raise r.fail(f"expected one of {', '.join(RULES)}, found '{rule}'"
                      f"{did_you_mean(rule, RULES)}", "combination", "rule")
-    chosen = data.get("methods", labels)
-    if not isinstance(chosen, list) or not all(isinstance(c, str) for c in chosen):
-        raise r.fail(f"expected a list of method labels, found {chosen!r}", "combination",
-                     "methods")
-    for label in chosen:
-        if label not in labels:
-            raise r.fail(f"unknown method '{label}'{did_you_mean(label, labels)}",
-                         "combination", "methods")
+    chosen = r.names(data.get("methods", labels), labels, "combination", "methods",
+                     ("method", "method labels"))
     if len(set(chosen)) < 2:
         raise r.fail(f"expected at least 2 distinct methods to combine, found "
                      f"{len(set(chosen))}", "combination", "methods")
