@@ -248,23 +248,36 @@ def _pick(low: np.ndarray, high: np.ndarray, m: int,
 
 def _from_tails(tails: list[Any], m: int, p: float) -> tuple[Any, ...] | None:
     """Both intervals from the values kept below and above the cuts, when enough were."""
-    q = _q(m, p)
-    tail = m - q
     low = np.concatenate([block[0] for block in tails])
     high = np.concatenate([block[1] for block in tails])
+    return tail_intervals(low, high, m, p)
+
+
+def tail_intervals(low: np.ndarray, high: np.ndarray, m: int, p: float
+                   ) -> tuple[tuple[float, float], tuple[float, float]] | None:
+    """Both intervals of m values from the values at or below the low cut and at or above
+    the high cut (each reordered in place), or None when a side holds fewer than the
+    m − q extreme ones."""
+    tail = m - _q(m, p)
     if low.size < tail or high.size < tail:
         return None
     with ThreadPoolExecutor(max_workers=2) as pool:  # np.sort lets the other thread run
-        low_sorted, high_sorted = pool.map(_sorted_end, (low, -high), (tail, tail))
-    return _pick(low_sorted, -high_sorted[::-1], m, p)
+        lowest = pool.submit(_extreme, low, tail, False)
+        highest = pool.submit(_extreme, high, tail, True)
+        found: tuple[tuple[float, float], tuple[float, float]] = _pick(
+            lowest.result(), highest.result(), m, p)
+    return found
 
 
-def _sorted_end(values: np.ndarray, count: int) -> np.ndarray:
-    """The ``count`` smallest of ``values`` in ascending order: a selection first, so
-    that only they are sorted (the kept tails hold about a quarter more)."""
+def _extreme(values: np.ndarray, count: int, high: bool) -> np.ndarray:
+    """The ``count`` lowest (or highest) of ``values`` in ascending order, selected and
+    sorted in place: only they are sorted, and a long run's large tails are not copied."""
+    cut = values.size - count if high else count - 1
     if count < values.size:
-        values = np.partition(values, count - 1)[:count]
-    return np.sort(values)
+        values.partition(cut)
+    end = values[values.size - count:] if high else values[:count]
+    end.sort()
+    return end
 
 
 def _intervals(values: np.ndarray, p: float) -> tuple[tuple[float, float],
@@ -758,7 +771,7 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
     long fixed run), so a run of ``ADAPTIVE_LIMIT`` trials stays in bounded memory. A run
     that must keep every value (``keep_samples``, or p ≤ ½) stops at
     ``ADAPTIVE_KEEP_LIMIT``."""
-    from ._streaming import Pile, Streaming
+    from ._streaming import Pile, Streaming, pile_up
 
     j = math.ceil(100.0 / (1.0 - coverage))
     # at least two blocks per batch, so that both workers draw (the same on any number
@@ -833,9 +846,7 @@ def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,
                          for view, f in zip(views, found)]
                 pieces = [(np.concatenate([p[k][0] for p in parts]),
                            np.concatenate([p[k][1] for p in parts])) for k in range(outputs)]
-                for (low, high), (lows, highs) in zip(pieces, piles):
-                    lows.add(low)
-                    highs.add(high)
+                pile_up(piles, pieces)
             moments = done if moments is None else _combine([moments, done])
             stats[h] = _batch_stats(chunk, coverage, done, pieces)
             if h >= 1 and _converged(moments, stats[:h + 1], digits):

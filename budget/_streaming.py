@@ -33,7 +33,8 @@ import numpy as np
 if TYPE_CHECKING:
     from ._montecarlo import _Sampler
 
-__all__ = ["HISTOGRAM_BINS", "Binned", "Pile", "Streamed", "Streaming", "stream", "cut_level"]
+__all__ = ["HISTOGRAM_BINS", "Binned", "Pile", "Streamed", "Streaming", "stream", "cut_level",
+           "pile_up"]
 
 HISTOGRAM_BINS = 2000
 
@@ -113,6 +114,14 @@ class Pile:
         return found
 
 
+def pile_up(piles: list[tuple[Pile, Pile]], pieces: list[tuple[np.ndarray, np.ndarray]]
+            ) -> None:
+    """Each measurand's tail values of one block (low, high) onto its two piles."""
+    for (low, high), (lows, highs) in zip(pieces, piles):
+        lows.add(low)
+        highs.add(high)
+
+
 def stream(sampler: "_Sampler", trials: int, coverage: float,
            progress: Callable[[int], None] | None, workers: int) -> Streamed:
     """Run ``trials`` trials (coverage above ½) keeping no array of all the values."""
@@ -138,9 +147,7 @@ def stream(sampler: "_Sampler", trials: int, coverage: float,
         for k, c in enumerate(found.counts):  # summed as they come: one histogram kept
             counts[k] += c
         outside += np.array(found.outside, dtype=np.int64)
-        for (low, high), (lows, highs) in zip(found.kept, piles):
-            lows.add(low)
-            highs.add(high)
+        pile_up(piles, found.kept)
         blocks.append(replace(found, counts=[], outside=[], kept=[]))
     moments, comoment = _moments(blocks)
     histograms = tuple(Binned(edges=e, counts=c, below=int(o[0]), above=int(o[1]))
@@ -169,9 +176,7 @@ def _again(sampler: "_Sampler", size: int, trials: int, workers: int,
     piles = [(Pile(), Pile()) for _ in wide]
     for found in itertools.chain([first_tails], _blocks(
             sampler, trials, workers, None, lambda view: _tails(view, wide))):
-        for (low, high), (lows, highs) in zip(found, piles):
-            lows.add(low)
-            highs.add(high)
+        pile_up(piles, found)
     for k in missing:
         intervals[k] = _exact(*piles[k], m, coverage)
 
@@ -192,21 +197,9 @@ class Streaming:
         self.blocks: list[_Block] = []
 
     def summary(self, view: np.ndarray) -> _Block:
-        """One block's histogram counts and, for several measurands, its co-moments."""
-        from ._montecarlo import _block_moments
-
-        data = _finite(view)
-        moments, comoment = np.zeros((0, 3)), None
-        if self.several:
-            moments = _block_moments(data)
-            centred = data - moments[:, 1][:, None]
-            comoment = centred @ centred.T
-        counts, outside = [], []
-        for y, e in zip(data, self.edges):
-            counts.append(np.histogram(y, bins=e)[0])
-            outside.append((int(np.count_nonzero(y < e[0])), int(np.count_nonzero(y > e[-1]))))
-        return _Block(moments=moments, comoment=comoment, counts=counts, outside=outside,
-                      kept=[])
+        """One block's histogram counts and, for several measurands, its co-moments (its
+        moments come from the adaptive run, its tails from ``_Tails``)."""
+        return _summary(view, self.edges, None, self.several)
 
     def absorb(self, kept: np.ndarray, step: int) -> None:
         for start in range(0, kept.shape[1], step):
@@ -276,12 +269,15 @@ def _edges(y: np.ndarray) -> np.ndarray:
     return np.linspace(low - 0.5 * span, high + 0.5 * span, HISTOGRAM_BINS + 1)
 
 
-def _summary(view: np.ndarray, edges: list[np.ndarray], cuts: list[tuple[float, float]],
-             several: bool) -> _Block:
+def _summary(view: np.ndarray, edges: list[np.ndarray],
+             cuts: list[tuple[float, float]] | None, several: bool) -> _Block:
+    """A block's moments, co-moments (several measurands), histogram counts and tail
+    values beyond ``cuts``; without ``cuts`` (an adaptive run's block) neither tails nor,
+    for one measurand, moments."""
     from ._montecarlo import _block_moments
 
     data = _finite(view)
-    moments = _block_moments(data)
+    moments = _block_moments(data) if cuts is not None or several else np.zeros((0, 3))
     comoment = None
     if several:
         centred = data - moments[:, 1][:, None]
@@ -291,7 +287,7 @@ def _summary(view: np.ndarray, edges: list[np.ndarray], cuts: list[tuple[float, 
         counts.append(np.histogram(y, bins=e)[0])
         outside.append((int(np.count_nonzero(y < e[0])), int(np.count_nonzero(y > e[-1]))))
     return _Block(moments=moments, comoment=comoment, counts=counts, outside=outside,
-                  kept=_tails(data, cuts, finite=True))
+                  kept=[] if cuts is None else _tails(data, cuts, finite=True))
 
 
 def _tails(view: np.ndarray, cuts: list[tuple[float, float]], finite: bool = False
@@ -342,19 +338,9 @@ def _correlation(moments: np.ndarray, comoment: np.ndarray | None) -> np.ndarray
 def _exact(lows: Pile, highs: Pile, m: int, p: float
            ) -> tuple[tuple[float, float], tuple[float, float]] | None:
     """Both intervals from the kept values when each side holds the m − q extreme ones."""
-    from ._montecarlo import _pick, _q
+    from ._montecarlo import tail_intervals
 
-    tail = m - _q(m, p)
-    low = _joined(lows.take())
-    high = _joined(highs.take())
-    if low.size < tail or high.size < tail:
-        return None
-    with ThreadPoolExecutor(max_workers=2) as pool:  # np.sort lets the other thread run
-        lowest = pool.submit(_extreme, low, tail, False)
-        highest = pool.submit(_extreme, high, tail, True)
-        found: tuple[tuple[float, float], tuple[float, float]] = _pick(
-            lowest.result(), highest.result(), m, p)
-    return found
+    return tail_intervals(_joined(lows.take()), _joined(highs.take()), m, p)
 
 
 def _joined(pieces: list[np.ndarray]) -> np.ndarray:
@@ -370,16 +356,6 @@ def _joined(pieces: list[np.ndarray]) -> np.ndarray:
         del piece
     return out
 
-
-def _extreme(values: np.ndarray, count: int, high: bool) -> np.ndarray:
-    """The ``count`` lowest (or highest) of ``values`` in ascending order, selected and
-    sorted in place: the tails of a long run are large, so no copy is made."""
-    cut = values.size - count if high else count - 1
-    if count < values.size:
-        values.partition(cut)
-    end = values[values.size - count:] if high else values[:count]
-    end.sort()
-    return end
 
 
 def _histogram_cuts(binned: Binned, m: int, p: float) -> tuple[float, float]:
