@@ -484,38 +484,55 @@ def _stability(r: _Reader, section: dict[str, Any] | None, unit: str, warnings: 
     return (data.times, data.values), data.time_unit, shelf, data.excluded
 
 
+SHELF_LIFE = ("shelf life", "36 month")
+
+
 def _shelf_unit(r: _Reader, text: str) -> str:
+    return span_unit(r, text, "stability", "shelf_life", SHELF_LIFE)
+
+
+def _shelf_life(r: _Reader, section: dict[str, Any], time_unit: str) -> float:
+    return time_span(r, section, "stability", "shelf_life", time_unit, SHELF_LIFE)
+
+
+def span_unit(r: _Reader, text: str, table: str, key: str, words: tuple[str, str]) -> str:
+    """The unit written after the number of a period such as ``"36 month"``; ``words``:
+    what the period is and an example."""
     import re
 
     found = re.match(r"^\s*[-+0-9.eE]+\s*(\S.*)$", text)
     if not found:
-        raise r.fail(f"expected a shelf life as a number or as \"36 month\", found {text!r}",
-                     "stability", "shelf_life")
+        raise r.fail(f"expected a {words[0]} as a number or as \"{words[1]}\", found {text!r}",
+                     table, key)
     return found.group(1).strip()
 
 
-def _shelf_life(r: _Reader, section: dict[str, Any], time_unit: str) -> float:
-    value = section.get("shelf_life")
+def time_span(r: _Reader, data: dict[str, Any], table: str, key: str, time_unit: str,
+              words: tuple[str, str]) -> float:
+    """A period (shelf life, transport time): a number in ``time_unit``, or a text with its
+    own unit of time, converted to ``time_unit`` (taken as that unit when empty)."""
+    value = data.get(key)
     if not isinstance(value, str):
-        return r.number(section, "shelf_life", "stability", positive=True)
+        return r.number(data, key, table, positive=True)
     from ._datafiles import convert
     from ._units import parse_unit
 
-    unit_text = _shelf_unit(r, value)
+    what = words[0]
+    unit_text = span_unit(r, value, table, key, words)
     try:
         number = float(value.strip()[: len(value.strip()) - len(unit_text)])
     except ValueError:
-        raise r.fail(f"expected a shelf life as a number or as \"36 month\", found {value!r}",
-                     "stability", "shelf_life") from None
-    where = r.where("stability", "shelf_life")
+        raise r.fail(f"expected a {what} as a number or as \"{words[1]}\", found {value!r}",
+                     table, key) from None
+    where = r.where(table, key)
     if not math.isfinite(number) or number <= 0:
-        raise r.fail(f"expected a shelf life > 0, found {number:g}", "stability", "shelf_life")
+        raise r.fail(f"expected a {what} > 0, found {number:g}", table, key)
     given = parse_unit(unit_text, where)
     if given.offset or given.unit.dims != parse_unit("s", where).unit.dims:
-        raise r.fail(f"expected a shelf life in a unit of time (such as month, d, year), "
-                     f"found '{unit_text}' ({given.describe()})", "stability", "shelf_life")
+        raise r.fail(f"expected a {what} in a unit of time (such as month, d, year), "
+                     f"found '{unit_text}' ({given.describe()})", table, key)
     return float(convert(np.array([number]), given, parse_unit(time_unit or unit_text, where),
-                         source=r.name, column="shelf_life")[0])
+                         source=r.name, column=key)[0])
 
 
 def _origin(r: _Reader, section: dict[str, Any]) -> Any:

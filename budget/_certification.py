@@ -320,9 +320,7 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
 
         check_reported(reported_interval, Location(file="certify()", key="reported_interval"))
     warnings: list[str] = []
-    days = _run_dates(campaign)
-    warnings.extend(date_warnings(campaign.model.certificates, days,
-                                  " (a date of the runs)"))
+    days = _run_dates(campaign)  # the certificates are checked on them (_on_run_dates)
     char = _characterize(campaign, trials, seed, progress, warnings)
     methods, value_from = None, char
     if campaign.methods is not None:
@@ -559,7 +557,22 @@ def _model_at_mean(campaign: Campaign, repeatability: float | None = None) -> Mo
                            distribution=CoveredByScatter(item.estimate, repeatability),
                            basis=_covered_basis(repeatability, campaign.unit, item.basis))
         inputs.append(item)
-    return replace(campaign.model, inputs=tuple(inputs))
+    return replace(_on_run_dates(campaign), inputs=tuple(inputs))
+
+
+def _on_run_dates(campaign: Campaign) -> Model:
+    """The campaign's model with its certificates checked on the dates of the runs instead
+    of its own ``measured`` dates, so that a certificate not valid then is warned of once.
+
+    A certificate that comes through a chained earlier model keeps that stage's dates.
+    """
+    model = campaign.model
+    days = _run_dates(campaign)
+    own = tuple(use for use in model.certificates if use.dates is None)
+    superseded = set(date_warnings(own, model.measured))
+    what = " (dates of the runs)" if campaign.runs.dates is not None else ""
+    return replace(model, measured=days, warnings=date_warnings(own, days, what) + tuple(
+        w for w in model.warnings if w not in superseded))
 
 
 def _covered_basis(repeatability: float | None, unit: str, basis: str) -> str:

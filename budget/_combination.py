@@ -99,7 +99,9 @@ def _numbers(given: Any, what: str) -> Array:
     except ValueError:  # ragged rows
         array = None
     if array is not None and array.dtype.kind in "iuf":
-        return np.asarray(array, dtype=float)
+        if isinstance(given, np.ndarray):
+            return np.asarray(array, dtype=float)
+        array = np.asarray(given, dtype=object)  # a list: [True, 2] is no list of numbers
     found = given
     if array is not None and array.dtype == object:
         items = [real(item) for item in array.ravel()]

@@ -39,21 +39,62 @@ def estimates(model: Model) -> np.ndarray:
 
 def jacobian_at_estimates(model: Model) -> tuple[np.ndarray, np.ndarray]:
     """Measurand values and ∂y_k/∂x_i at the estimates, refusing non-finite numbers."""
-    program = compile_model(model)
-    values, jac = program.gradient(estimates(model))
-    for k, measurand in enumerate(model.measurands):
-        where = Location(file=model.source, table=f"measurands.{measurand.name}",
-                         key="equation", line=measurand.line)
-        if not math.isfinite(values[k]):
-            raise PropagationError(
-                f"expected a finite value at the estimates, found {values[k]} (a division by "
-                f"zero or a function outside its domain in '{measurand.equation}')", where)
-        bad = [i.name for j, i in enumerate(model.inputs) if not math.isfinite(jac[k, j])]
-        if bad:
-            raise PropagationError(
-                f"expected finite sensitivity coefficients at the estimates, found none for "
-                f"{', '.join(bad)} (the equation is not differentiable there)", where)
+    values, jac, _ = evaluated_at_estimates(model)
     return values, jac
+
+
+def evaluated_at_estimates(model: Model) -> tuple[np.ndarray, np.ndarray, frozenset[str]]:
+    """As :func:`jacobian_at_estimates`, with the names of the measurands whose value or
+    derivatives underflowed on the way (a result below the smallest normal double,
+    2.2e-308, lost its digits or became 0)."""
+    program = compile_model(model)
+    events: set[str] = set()
+    values, jac = program.gradient(estimates(model), events)
+    for k in range(len(model.measurands)):
+        if not (math.isfinite(values[k]) and np.all(np.isfinite(jac[k]))):
+            _refuse(model, k, values, jac, _events_of(model, k, events))
+    if "underflow" not in events:
+        return values, jac, frozenset()
+    return values, jac, frozenset(m.name for k, m in enumerate(model.measurands)
+                                  if "underflow" in _events_of(model, k, events))
+
+
+def _events_of(model: Model, k: int, events: set[str]) -> set[str]:
+    """The floating-point events of measurand ``k`` alone (one more evaluation, made only
+    when something went wrong in a model of several measurands)."""
+    if len(model.measurands) == 1:
+        return events
+    own: set[str] = set()
+    Program([model.measurands[k].graph], [i.name for i in model.inputs]).gradient(
+        estimates(model), own)
+    return own
+
+
+def _refuse(model: Model, k: int, values: np.ndarray, jac: np.ndarray,
+            events: set[str]) -> None:
+    """The error for a value or sensitivity coefficient that is not finite: an overflow
+    (a result beyond ±1.8e308 from finite numbers) is told apart from a division by zero
+    or a function outside its domain."""
+    from ._limits import excerpt
+
+    measurand = model.measurands[k]
+    where = Location(file=model.source, table=f"measurands.{measurand.name}",
+                     key="equation", line=measurand.line)
+    equation = excerpt(measurand.equation)
+    overflow = "divide by zero" not in events and (
+        "overflow" in events or math.isinf(values[k]) or np.any(np.isinf(jac[k])))
+    rescale = ("overflows: a result beyond ±1.8e308 from finite numbers; rescale the units "
+               "so that the numbers stay within about 1e±300")
+    if not math.isfinite(values[k]):
+        cause = (f"'{equation}' {rescale}" if overflow else
+                 f"a division by zero or a function outside its domain in '{equation}'")
+        raise PropagationError(f"expected a finite value at the estimates, found {values[k]} "
+                               f"({cause})", where)
+    bad = [i.name for j, i in enumerate(model.inputs) if not math.isfinite(jac[k, j])]
+    cause = (f"the derivative of '{equation}' {rescale}" if overflow else
+             "the equation is not differentiable there")
+    raise PropagationError(f"expected finite sensitivity coefficients at the estimates, found "
+                           f"none for {', '.join(bad)} ({cause})", where)
 
 
 def symbolic_sensitivities(model: Model, name: str) -> dict[str, Any]:

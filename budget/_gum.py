@@ -247,7 +247,7 @@ def propagate(model: Model, coverage: float | None = None, *,
 
 
 def _propagate(model: Model, coverage: float | None, second_order: bool) -> Budget:
-    from ._evaluation import jacobian_at_estimates
+    from ._evaluation import evaluated_at_estimates
 
     from ._arguments import check_flag, check_model
     from ._limits import check_probability
@@ -258,7 +258,7 @@ def _propagate(model: Model, coverage: float | None, second_order: bool) -> Budg
     coverage = model.settings.coverage_probability if coverage is None else \
         check_probability(coverage, where)
     check_flag(second_order, Location(file=model.source, key="second_order"))
-    values, jac = jacobian_at_estimates(model)
+    values, jac, underflowed = evaluated_at_estimates(model)
     u = np.array([i.standard_uncertainty for i in model.inputs])
     pairs = _Pairs(model)
     groups = grouping(model, (pairs.first, pairs.second, pairs.r))
@@ -266,7 +266,8 @@ def _propagate(model: Model, coverage: float | None, second_order: bool) -> Budg
     extra = _second_order(model, second_order, warnings)
     budgets = tuple(
         _one(model, k, float(values[k]), jac[k], u, groups, pairs, coverage,
-             None if extra is None else float(extra[k]), warnings)
+             None if extra is None else float(extra[k]),
+             model.measurands[k].name in underflowed, warnings)
         for k in range(len(model.measurands)))
     core, scale = _scaled_covariance(jac, u, pairs, extra)
     with np.errstate(over="ignore"):
@@ -279,7 +280,7 @@ def _propagate(model: Model, coverage: float | None, second_order: bool) -> Budg
 
 def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
          groups: Grouping, pairs: "_Pairs", coverage: float, extra: float | None,
-         warnings: list[str]) -> MeasurandBudget:
+         underflowed: bool, warnings: list[str]) -> MeasurandBudget:
     measurand = model.measurands[k]
     parts = _parts(measurand.name, model, c, u)
     # sums of squares in units of the largest contribution, so that contributions of
@@ -307,8 +308,14 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
     warnings.extend(notes)
     if extra:
         rule += "; the second-order terms are taken with infinite degrees of freedom"
-    _warn(measurand.name, combined, nu, warnings)
+    _warn(measurand.name, combined, nu, warnings,
+          underflowed or _lost(c, u, parts))
     k_p = coverage_factor(coverage, nu)
+    if not math.isfinite(k_p * combined):
+        raise PropagationError(f"the expanded uncertainty U = k·u_c of '{measurand.name}' "
+                               f"overflows: beyond the floating-point range (±1.8e308) with k "
+                               f"= {k_p:.3g} and u_c = {combined:.3g}; rescale the units",
+                               _equation(model, measurand))
     contributions = tuple(
         Contribution(input=i.name, estimate=i.estimate, unit=i.unit,
                      standard_uncertainty=i.standard_uncertainty,
@@ -359,8 +366,28 @@ def _parts(name: str, model: Model, c: np.ndarray, u: np.ndarray) -> np.ndarray:
     return parts
 
 
-def _warn(name: str, combined: float, nu: float, warnings: list[str]) -> None:
-    if combined == 0.0:
+def _lost(c: np.ndarray, u: np.ndarray, parts: np.ndarray) -> bool:
+    """Whether a contribution c·u(x) that matters underflowed: below the smallest normal
+    double (2.2e-308) although c and u are not 0, and within 2⁻⁵³ of the largest."""
+    lost = (c != 0.0) & (u != 0.0) & (np.abs(parts) < np.finfo(float).tiny)
+    if not lost.any():
+        return False
+    largest = float(np.max(np.abs(parts)))
+    size = np.log2(np.abs(c[lost])) + np.log2(u[lost])  # log₂ of the exact |c·u|
+    return largest == 0.0 or float(np.max(size)) > math.log2(largest) - 53.0
+
+
+def _warn(name: str, combined: float, nu: float, warnings: list[str],
+          underflowed: bool = False) -> None:
+    if underflowed:
+        zero = " (u_c = 0 here is not a stationary point)" if combined == 0.0 else ""
+        warnings.append(f"'{name}': floating-point underflow at the estimates: a value, "
+                        "sensitivity coefficient or contribution c·u(x) fell below the "
+                        "smallest normal double (2.2e-308) and lost its digits, so the "
+                        "budget's zeros and smallest numbers are not to be trusted"
+                        f"{zero}; rescale the units so that the numbers stay within about "
+                        "1e±300")
+    if combined == 0.0 and not underflowed:
         warnings.append(f"'{name}': the combined standard uncertainty is zero to first "
                         "order (try the second-order terms or Monte Carlo)")
     elif nu < 3.0:

@@ -639,9 +639,13 @@ def _block_moments(view: np.ndarray) -> np.ndarray:
     finite = np.isfinite(view).all(axis=0)
     data = view if finite.all() else view[:, finite]
     n = data.shape[1]
-    mean = data.mean(axis=1) if n else np.zeros(view.shape[0])
-    centred = data - mean[:, None]
-    m2 = np.einsum("ij,ij->i", centred, centred)
+    with np.errstate(over="ignore"):  # a sum beyond ±1.8e308 (values of 1e304 and more)
+        mean = data.mean(axis=1) if n else np.zeros(view.shape[0])
+        if not np.isfinite(mean).all():  # then in units of the largest value
+            scale = np.max(np.abs(data), axis=1)
+            mean = scale * (data / scale[:, None]).mean(axis=1)
+        centred = data - mean[:, None]
+        m2 = np.einsum("ij,ij->i", centred, centred)
     return np.column_stack([np.full(view.shape[0], float(n)), mean, m2])
 
 
@@ -651,7 +655,7 @@ def _combine(moments: list[np.ndarray]) -> np.ndarray:
     for part in moments[1:]:
         n_a, n_b = total[:, 0], part[:, 0]
         n = n_a + n_b
-        with np.errstate(invalid="ignore", divide="ignore"):
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
             delta = part[:, 1] - total[:, 1]
             share = np.where(n > 0, n_b / np.where(n > 0, n, 1), 0.0)
             total[:, 1] = total[:, 1] + delta * share
@@ -1101,6 +1105,14 @@ def _one(model: Model, budget: Budget | None, k: int, y: np.ndarray | None, cove
                                        key="equation", line=measurand.line))
     mean = float(moments[1])
     sd = _spread(y, mean, float(moments[2]) / (moments[0] - 1))
+    if not (math.isfinite(mean) and math.isfinite(sd)):  # running sums beyond ±1.8e308
+        raise SimulationError(
+            f"expected a Monte Carlo mean and standard deviation within ±1.8e308, found "
+            f"{mean:.3g} and {sd:.3g}: the running sums of a run that does not keep its "
+            "values (adaptive, or above 10⁷ values) overflow for u of about 1e150 and more; "
+            "rescale the units, or give at most 10⁷ trials",
+            Location(file=model.source, table=f"measurands.{measurand.name}",
+                     key="equation", line=measurand.line))
     if streamed is not None:
         interval, shortest = streamed.intervals[k]
     else:

@@ -207,19 +207,26 @@ class Program:
                     slots[slot] = None
         return [slots[i] for i in self.outputs]
 
-    def _forward(self, values: Sequence[Any]) -> list[Any]:
+    def _forward(self, values: Sequence[Any], state: dict[str, Any] | None = None
+                 ) -> list[Any]:
         slots: list[Any] = list(values)
-        with np.errstate(all="ignore"):
+        with np.errstate(**(state or {"all": "ignore"})):
             for kind, args, payload in self.ops:
                 slots.append(_apply(kind, [slots[a] for a in args], payload))
         return slots
 
-    def gradient(self, values: Sequence[float] | np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Outputs and the Jacobian ∂y_k/∂x_i at scalar input values (reverse sweeps)."""
-        slots = self._forward([np.float64(v) for v in values])
+    def gradient(self, values: Sequence[float] | np.ndarray, events: set[str] | None = None
+                 ) -> tuple[np.ndarray, np.ndarray]:
+        """Outputs and the Jacobian ∂y_k/∂x_i at scalar input values (reverse sweeps);
+        ``events``, when given, collects numpy's floating-point events met on the way
+        (``underflow``, ``overflow``, ``divide by zero``, ``invalid value``)."""
+        state: dict[str, Any] = {"all": "ignore"}
+        if events is not None:
+            state = {"all": "call", "call": lambda kind, _flag: events.add(kind)}
+        slots = self._forward([np.float64(v) for v in values], state)
         n_in = len(self.symbols)
         jacobian = np.zeros((len(self.outputs), n_in))
-        with np.errstate(all="ignore"):
+        with np.errstate(**state):
             for row, out in enumerate(self.outputs):
                 adjoint = np.zeros(len(slots))
                 adjoint[out] = 1.0

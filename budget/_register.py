@@ -40,7 +40,7 @@ from ._errors import InputError, Location, did_you_mean
 from ._tomlkeys import check_keys
 
 __all__ = ["StatedValue", "Certificate", "Register", "CertificateUse", "load_register",
-           "read_date", "validity", "date_warnings", "traceability_statement",
+           "read_date", "validity", "date_problems", "date_warnings", "traceability_statement",
            "REGISTER_KEYS"]
 
 REGISTER_KEYS = ("title", "certificates")
@@ -239,18 +239,36 @@ def validity(certificate: Certificate, day: dt.date) -> str | None:
     return None
 
 
+def date_problems(certificate: Certificate, days: tuple[dt.date, ...]) -> tuple[str, ...]:
+    """Why ``certificate`` was not valid on some of ``days``: one phrase for the days before
+    it was issued and one for the days after it expired, each naming its dates once."""
+    early = sorted({day for day in days if day < certificate.calibrated})
+    late = sorted({day for day in days if day > certificate.valid_until})
+    found = []
+    if early:
+        found.append(f"not yet issued on {_listed(early)} (calibrated {certificate.calibrated})")
+    if late:
+        found.append(f"expired on {_listed(late)} (valid until {certificate.valid_until})")
+    return tuple(found)
+
+
+def _listed(days: list[dt.date]) -> str:
+    """'2025-05-06', '2025-05-06 and 2025-05-07', … and N more dates beyond three."""
+    shown = [day.isoformat() for day in days[:3]]
+    if len(days) > 3:
+        return f"{', '.join(shown)} and {len(days) - 3} more dates"
+    return " and ".join([", ".join(shown[:-1]), shown[-1]]) if len(shown) > 1 else shown[0]
+
+
 def date_warnings(uses: tuple[CertificateUse, ...], days: tuple[dt.date, ...],
                   what: str = "") -> tuple[str, ...]:
-    """One warning per certificate not valid on one of the measurement ``days``."""
+    """One warning per input whose certificate was not valid on some of ``days``."""
     found = []
     for use in uses:
-        bad = [(day, validity(use.certificate, day)) for day in sorted(set(days))]
-        bad = [(day, reason) for day, reason in bad if reason]
-        if bad:
-            reasons = "; ".join(reason for _, reason in bad[:3] if reason)
-            more = f" and {len(bad) - 3} more dates" if len(bad) > 3 else ""
+        problems = date_problems(use.certificate, days)
+        if problems:
             found.append(f"input '{use.input}': certificate '{use.certificate.identifier}' "
-                         f"({use.certificate.number}) {reasons}{more}{what}")
+                         f"({use.certificate.number}) {'; '.join(problems)}{what}")
     return tuple(found)
 
 

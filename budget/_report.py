@@ -112,14 +112,19 @@ def _records_view(model: Any) -> list[dict[str, Any]]:
 
 def _certificates_view(model: Any, days: Any) -> list[dict[str, str]]:
     """One row per calibration certificate used, with its validity on the dates."""
-    from ._register import certificates_document
+    import datetime as dt
+
+    from ._register import certificates_document, date_problems
 
     rows = []
+    certificates = {u.certificate.identifier: u.certificate for u in model.certificates}
     for entry in certificates_document(model, tuple(days)):
         dates = entry["measurement_dates"]
         when = f"each of the {len(dates)} measurement dates" if len(dates) > 1 else \
             (dates[0] if dates else "")
-        status = "; ".join(entry["problems"]) if entry["problems"] else (
+        problems = date_problems(certificates[entry["certificate"]],
+                                 tuple(dt.date.fromisoformat(d) for d in dates))
+        status = "; ".join(problems) if problems else (
             f"valid on {when}" if dates else "no measurement date given")
         rows.append({"number": entry["number"], "instrument": entry["instrument"],
                      "issuer": entry["issuer"],

@@ -95,6 +95,7 @@ class StabilityStudies:
 
 _SERIES_KEYS = ("label", "data")
 _SHORT_KEYS = ("data", "temperature", "transport_time", "label", "time_unit")
+TRANSPORT_TIME = ("transport time", "2 week")  # what the key is, an example
 
 
 def read_stability_plan(r: "_Reader", section: dict[str, Any] | None) -> StabilityPlan | None:
@@ -117,8 +118,8 @@ def read_stability_plan(r: "_Reader", section: dict[str, Any] | None) -> Stabili
             raise r.fail(f"expected a table, found {entry!r}", "stability.series", None, nth)
         r.known(entry, "stability.series", _SERIES_KEYS, nth)
         label = r.text(entry, "label", "stability.series", nth)
-        times, values = _series(r, entry, "stability.series", nth,
-                                section.get("time_unit"))
+        times, values, _ = _series(r, entry, "stability.series", nth,
+                                   section.get("time_unit"))
         series.append(SeriesPlan(label=label, times=times, values=values))
     short, temperature, transport = _short_term(r, section)
     label = str(section.get("label", "data"))
@@ -143,9 +144,15 @@ def _short_term(r: "_Reader", section: dict[str, Any]
         raise r.fail("expected either 'u_short_term' or a [stability.short_term] study, "
                      "found both", "stability", "u_short_term")
     r.known(data, "stability.short_term", _SHORT_KEYS)
-    times, values = _series(r, data, "stability.short_term", 0, data.get("time_unit"))
-    unit = data.get("time_unit") if isinstance(data.get("time_unit"), str) else ""
-    transport = r.number(data, "transport_time", "stability.short_term", positive=True)
+    from ._campaign import _optional_unit, span_unit, time_span
+
+    table = "stability.short_term"
+    declared = _optional_unit(r, data, "time_unit", table)
+    given = data.get("transport_time")
+    own = span_unit(r, given, table, "transport_time", TRANSPORT_TIME) \
+        if isinstance(given, str) else None
+    times, values, unit = _series(r, data, table, 0, declared, date_unit=declared or own)
+    transport = time_span(r, data, table, "transport_time", unit, TRANSPORT_TIME)
     temperature = None
     if "temperature" in data:
         value = data["temperature"]
@@ -154,13 +161,14 @@ def _short_term(r: "_Reader", section: dict[str, Any]
                          "stability.short_term", "temperature")
         temperature = float(value)
     label = str(data.get("label", "short term"))
-    return (SeriesPlan(label=label, times=times, values=values, time_unit=unit or ""),
+    return (SeriesPlan(label=label, times=times, values=values, time_unit=unit),
             temperature, transport)
 
 
 def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int,
-            time_unit: Any = None) -> tuple[Array, Array]:
-    """A study's times and values; ``time_unit`` as declared (else the header's)."""
+            time_unit: Any = None, date_unit: str | None = None) -> tuple[Array, Array, str]:
+    """A study's times, values and time unit: ``time_unit`` as declared (else the
+    header's); dates count in ``date_unit`` from the earliest."""
     relative = r.text(entry, "data", table, nth)
     path = r.confined(relative, table, "data", nth)
     if not path.is_file():
@@ -173,7 +181,8 @@ def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int,
     from ._studydata import read_stability
 
     data = read_stability(path, FileFormat(), str(r.doc.get("unit", "")), None,
-                          time_unit if isinstance(time_unit, str) else None, None, str(path))
+                          time_unit if isinstance(time_unit, str) else None, None, str(path),
+                          date_unit=date_unit)
     if data.excluded:  # the outputs list exclusions of the main stability table only
         raise CampaignError(f"expected a value in every row, found {data.excluded[0].reason}",
                             Location(file=str(path), line=data.excluded[0].row))
@@ -182,7 +191,7 @@ def _series(r: "_Reader", entry: dict[str, Any], table: str, nth: int,
         raise CampaignError(f"expected at least 3 points at 2 or more different times, found "
                             f"{times.size} at {np.unique(times).size}",
                             Location(file=str(path)))
-    return times, data.values
+    return times, data.values, data.time_unit
 
 
 def pooled_trend(series: list[tuple[Array, Array]], period: float) -> PooledTrend:

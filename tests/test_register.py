@@ -261,9 +261,8 @@ def test_campaign_run_dates_are_checked_and_traceability_is_generated(tmp_path):
         (DEMO / "calibrations.toml").read_text().replace("valid_until = 2026-01-19",
                                                          "valid_until = 2025-05-06"))
     cert = certify(load_campaign(tmp_path / "campaign.toml"), trials=0)
-    assert ("input 'R_s': certificate 'R10' (CVCS-R-2025-0113) expired on 2025-05-07 (valid "
-            "until 2025-05-06); expired on 2025-05-08 (valid until 2025-05-06) (a date of "
-            "the runs)") in cert.warnings
+    assert ("input 'R_s': certificate 'R10' (CVCS-R-2025-0113) expired on 2025-05-07 and "
+            "2025-05-08 (valid until 2025-05-06) (dates of the runs)") in cert.warnings
     from budget._document import certification_document
 
     document = certification_document(cert)
