@@ -311,6 +311,11 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
     _warn(measurand.name, combined, nu, warnings,
           underflowed or _lost(c, u, parts))
     k_p = coverage_factor(coverage, nu)
+    if not math.isfinite(k_p * combined):
+        raise PropagationError(f"the expanded uncertainty U = k·u_c of '{measurand.name}' "
+                               f"overflows: beyond the floating-point range (±1.8e308) with k "
+                               f"= {k_p:.3g} and u_c = {combined:.3g}; rescale the units",
+                               _equation(model, measurand))
     contributions = tuple(
         Contribution(input=i.name, estimate=i.estimate, unit=i.unit,
                      standard_uncertainty=i.standard_uncertainty,

@@ -145,3 +145,43 @@ def test_combine_still_takes_mixed_numbers() -> None:
     combined = budget.combine([1, np.float64(2.0)], [np.array([1, 0]), [0, 1]])
     assert combined.estimate == 1.5
     assert combined.standard_uncertainty == pytest.approx(math.sqrt(0.5))
+
+
+def test_expanded_uncertainty_beyond_the_range_is_an_error(cli, tmp_path) -> None:
+    # u_c = 1e308 is a double, U = 1.96e308 is not: the line read "y = (0 ± 0)", JSON null
+    path = tmp_path / "huge.toml"
+    path.write_text(_model("a", a=(0.0, 1e308)))
+    code, stdout, stderr = cli("run", str(path), "--trials", "0")
+    assert code == 1 and stdout == ""
+    assert stderr == (f"error: {path}:3: [measurands.y] equation: the expanded uncertainty "
+                      "U = k·u_c of 'y' overflows: beyond the floating-point range (±1.8e308) "
+                      "with k = 1.96 and u_c = 1e+308; rescale the units\n")
+
+
+# 3. Monte Carlo moments of values near the top of double precision
+
+@pytest.mark.filterwarnings("error")  # nor does numpy's overflow warning escape
+def test_monte_carlo_mean_of_values_near_the_top_of_the_range() -> None:
+    # a block of 65,536 values of 1.6e308 sums to ∞: the mean was ∞ and u was 0; for a
+    # normal input the mean and standard deviation of the draws estimate x and u
+    model = parse_model(_model("a", a=(1.6e308, 1e306)))
+    found = budget.simulate(model, trials=100_000, seed=1).measurands[0]
+    assert found.mean == pytest.approx(1.6e308, rel=1e-4)
+    assert found.standard_uncertainty == pytest.approx(1e306, rel=0.02)
+    assert found.interval[0] == pytest.approx(1.6e308 - 1.96e306, rel=1e-4)
+
+
+@pytest.mark.filterwarnings("error")
+@pytest.mark.parametrize("value, u", [(0.0, 1e200), (1e304, 1e302)])
+def test_unrepresentable_running_moments_are_refused(value: float, u: float) -> None:
+    # a run that keeps no values has only its running sums: n·u² beyond ±1.8e308 gave
+    # u = ∞ (printed 0) and a "validated" GUM result
+    model = parse_model(_model("a", a=(value, u)), "wide.toml")
+    with pytest.raises(BudgetError, match=re.escape(
+            "wide.toml:3: [measurands.y] equation: expected a Monte Carlo mean and standard "
+            "deviation within ±1.8e308, found ")) as caught:
+        budget.simulate(model, trials=100_000, seed=1, keep_samples=False)
+    assert "rescale the units, or give at most 10⁷ trials" in str(caught.value)
+    # kept, the same run is recomputed in scaled units: u is right
+    kept = budget.simulate(model, trials=100_000, seed=1).measurands[0]
+    assert kept.standard_uncertainty == pytest.approx(u, rel=0.02)
