@@ -3,8 +3,10 @@ proportional to inputs x trials, in bounded memory), each a whole `budget run --
 --trials 100000` command in a fresh process, beside the generator's own limit here.
 
 The limit is the bare cost of the same number of standard normal draws (inputs with an
-uncertainty x trials) with numpy's SFC64 generator (the one the engine uses) on two
-threads, each filling a reused buffer: no model, no evaluation, no statistics. Prints
+uncertainty x trials) over numpy's SFC64 generator (the one the engine uses) on two
+threads, each filling a reused buffer: no model, no evaluation, no statistics; both with
+numpy's own normals and with the vectorised ziggurat the engine uses
+(budget/_ziggurat.py). Prints
 wall and CPU (min and median), peak resident memory of the whole command, the load
 average. Run:
 
@@ -29,6 +31,8 @@ sys.path.insert(0, os.path.dirname(__file__))
 from generate import defined_mean, mean_of_determinations, product_model, sum_model  # noqa: E402
 from measure import command, load  # noqa: E402
 
+from budget._ziggurat import standard_normal  # noqa: E402
+
 SHAPES = {
     "sum of 10^4 inputs": sum_model(10_000),
     "product of 10^4 inputs": product_model(10_000),
@@ -37,7 +41,8 @@ SHAPES = {
 }
 
 
-def bare_draws(numbers: int, threads: int = 2) -> tuple[float, float]:
+def bare_draws(numbers: int, threads: int = 2, vectorised: bool = False
+               ) -> tuple[float, float]:
     """Wall and CPU seconds for ``numbers`` SFC64 standard normals on ``threads``."""
     chunk = 1 << 20
 
@@ -45,7 +50,10 @@ def bare_draws(numbers: int, threads: int = 2) -> tuple[float, float]:
         rng = np.random.Generator(np.random.SFC64(seed))
         buffer = np.empty(chunk)
         for _ in range(numbers // threads // chunk):
-            rng.standard_normal(out=buffer)
+            if vectorised:
+                standard_normal(rng, buffer)
+            else:
+                rng.standard_normal(out=buffer)
 
     start, cpu = time.perf_counter(), time.process_time()
     with ThreadPoolExecutor(threads) as pool:
@@ -64,13 +72,14 @@ def main() -> None:
         path.write_text(text)
         drawn = text.count("\nu = ") + text.count("half_width")
         runs = command(["run", str(path), "--json", "--trials", str(trials)], repeats)
-        bare = [bare_draws(drawn * trials) for _ in range(repeats)]
-        walls, cpus = [b[0] for b in bare], [b[1] for b in bare]
         print(f"  {name} ({drawn:,} inputs drawn, {drawn * trials:.2e} numbers)")
         print(f"    whole command:        {runs.text()}")
-        print(f"    bare SFC64 draws (2 threads, the generator's limit): wall min "
-              f"{min(walls):.2f} s, median {statistics.median(walls):.2f} s; CPU min "
-              f"{min(cpus):.2f} s, median {statistics.median(cpus):.2f} s")
+        for way, vectorised in (("numpy's normals", False), ("vectorised ziggurat", True)):
+            bare = [bare_draws(drawn * trials, vectorised=vectorised) for _ in range(repeats)]
+            walls, cpus = [b[0] for b in bare], [b[1] for b in bare]
+            print(f"    bare SFC64 draws, {way} (2 threads): wall min {min(walls):.2f} s, "
+                  f"median {statistics.median(walls):.2f} s; CPU min {min(cpus):.2f} s, "
+                  f"median {statistics.median(cpus):.2f} s")
     print(f"load average after: {load()}")
 
 

@@ -366,16 +366,20 @@ def certify(campaign: Campaign, *, trials: int | None = None, seed: int | None =
                    stability_studies=studies)
     if methods is not None:  # several methods: the combined value's own draws, if any
         cert = replace(cert, characterization=char, methods=methods)
+    stated = Location(file=campaign.source, key="reported_interval",  # an argument, or
+                      table=None if reported_interval else "certificate")  # the file's key
     cert = _with_monte_carlo(cert, char if methods is None or methods.combined is None
                              else None, reported_interval or campaign.reported_interval,
-                             math.inf if stability_used is None else float(stability_used.dof))
+                             math.inf if stability_used is None else float(stability_used.dof),
+                             stated)
     return cert
 
 
 def _with_monte_carlo(cert: Certification, char: Characterization | None,
-                      method: str, stability_dof: float) -> Certification:
+                      method: str, stability_dof: float, stated: Location) -> Certification:
     """Add the Monte Carlo of the certified value (``certified_mc.py``) and the result
-    that the certificate reports (GUM, or a Monte Carlo interval, JCGM 101 8.2)."""
+    that the certificate reports (GUM, or a Monte Carlo interval, JCGM 101 8.2); ``stated``:
+    where the reported interval was asked for."""
     campaign = cert.campaign
     simulation = _simulate_certified(cert, char, stability_dof)
     if method == "gum":
@@ -392,8 +396,7 @@ def _with_monte_carlo(cert: Certification, char: Characterization | None,
     elif simulation is None:
         raise SimulationError(
             f"expected a Monte Carlo run of the characterization for \"{method}\" (trials > 0, "
-            "one method), found none",
-            Location(file=campaign.source, table="certificate", key="reported_interval"))
+            "one method), found none", stated)
     else:
         interval = simulation.interval if method == "monte_carlo" else \
             simulation.shortest_interval

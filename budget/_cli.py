@@ -15,6 +15,7 @@ import math
 import os
 import sys
 import time
+from dataclasses import replace
 from pathlib import Path
 from typing import Any, Callable
 
@@ -58,6 +59,23 @@ def _fail(error: Exception) -> None:
         text = text.replace(phrase, f"{phrase}: {flag}")
     _err(f"error: {_safe(text)}")
     sys.exit(1)
+
+
+# The engine names a value it was given as an argument by its key alone, without a table
+# or a line ("model.toml: trials:", "certify_folder(): trials:"); given on the command
+# line, the value is the option's, and the message names the option.
+_OPTIONS = {"trials": "--trials", "coverage": "--coverage", "seed": "--seed",
+            "digits": "--digits", "reported_interval": "--reported-interval"}
+
+
+def _option_error(error: Any, given: dict[str, Any]) -> None:
+    """Raise a bad value of an option (status 2) when ``error`` is about a value that
+    was ``given`` on the command line; otherwise do nothing."""
+    where = error.location
+    if where is None or where.table is not None or where.line is not None:
+        return
+    if where.key in _OPTIONS and given.get(where.key) is not None:
+        raise click.BadParameter(error.message, param_hint=f"'{_OPTIONS[where.key]}'")
 
 
 def _err(text: str) -> None:
@@ -347,6 +365,8 @@ def run(model_file: str, trials: int | None, adaptive: bool, seed: int | None,
             write_tables(budget_tables(result_document(result)), csv_file, xlsx_file)
     except BudgetError as error:
         progress.close()
+        _option_error(error, {"trials": trials, "coverage": coverage, "seed": seed,
+                              "digits": digits, "reported_interval": reported_interval})
         _fail(error)
     _print_result(result, as_json)
 
@@ -405,6 +425,8 @@ def explain(model_file: str, trials: int | None, adaptive: bool, seed: int | Non
         explanations = run_explain(result, target=target)
     except BudgetError as error:
         progress.close()
+        _option_error(error, {"trials": trials, "coverage": coverage, "seed": seed,
+                              "digits": digits})
         _fail(error)
     if as_json:
         from ._document import SCHEMA_VERSION
@@ -496,6 +518,8 @@ def certify(campaign_file: str, as_json: bool, html_file: str | None, trials: in
                          xlsx_file)
     except BudgetError as error:
         progress.close()
+        _option_error(error, {"trials": trials, "seed": seed,
+                              "reported_interval": reported_interval})
         _fail(error)
     if as_json:
         from ._document import certification_document
@@ -593,6 +617,7 @@ def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str
         _check_suffixes(html_file, csv_file)
         _check_outputs(csv_file, html_file)
         batch = certify_folder(folder, trials=trials, seed=seed, workers=workers)
+        batch = replace(batch, entries=tuple(_option_named(e) for e in batch.entries))
         _check_outputs(csv_file, html_file,
                        protect=[("campaign", os.path.join(folder, e.path))
                                 for e in batch.entries]
@@ -620,6 +645,16 @@ def certify_all(folder: str, as_json: bool, csv_file: str | None, html_file: str
     _warn(f"{e.path}: not certified: {e.error}" for e in failed)
     if failed:  # the summary is complete; the status tells a script that some failed
         sys.exit(1)
+
+
+def _option_named(entry: Any) -> Any:
+    """A campaign's error about the value of --trials or --seed (which ``certify_folder``
+    names as its argument) with the option named."""
+    for key in ("trials", "seed"):
+        head = f"certify_folder(): {key}: "
+        if entry.error and entry.error.startswith(head):
+            return replace(entry, error=f"{_OPTIONS[key]}: {entry.error[len(head):]}")
+    return entry
 
 
 if __name__ == "__main__":  # pragma: no cover

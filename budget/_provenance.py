@@ -44,10 +44,10 @@ def _generator(simulation: Any) -> str | None:
     """How the Monte Carlo numbers were drawn (None without Monte Carlo)."""
     if not simulation or not simulation.trials:
         return None
-    from ._montecarlo import BLOCK, GENERATOR
+    from ._montecarlo import BLOCK, GENERATOR, NORMALS
 
     return (f"numpy {GENERATOR}, one stream per block of at most {BLOCK} trials seeded "
-            f"by SeedSequence(seed, spawn_key=(block,))")
+            f"by SeedSequence(seed, spawn_key=(block,)); standard normals by a {NORMALS}")
 
 
 def describe(model: Any, simulation: Any = None) -> dict[str, Any]:

@@ -113,7 +113,8 @@ def certify_one(path: str, trials: int | None, seed: int | None) -> BatchEntry:
     try:
         cert = certify(load_campaign(path), trials=trials, seed=seed)
     except BudgetError as error:
-        return BatchEntry(path=path, error=str(error), files=_named_files(path))
+        return BatchEntry(path=path, error=_error_text(error, {"trials": trials, "seed": seed}),
+                          files=_named_files(path))
     dates = sorted(cert.run_dates)
     return BatchEntry(path=path, title=cert.campaign.title,
                       files=tuple(files_of_campaign(cert.campaign)) + _named_files(path),
@@ -123,6 +124,17 @@ def certify_one(path: str, trials: int | None, seed: int | None) -> BatchEntry:
                       coverage_factor=cert.coverage_factor,
                       expanded_uncertainty=cert.expanded_uncertainty,
                       unit=cert.campaign.unit, warnings=tuple(cert.warnings))
+
+
+def _error_text(error: BudgetError, given: dict[str, Any]) -> str:
+    """The message; one about a value of ``certify_folder``'s own arguments (named by its
+    key alone, without a table or a line) names that argument, not the model file."""
+    where = error.location
+    if where is not None and where.table is None and where.line is None \
+            and given.get(where.key or "") is not None:
+        return str(InputError(error.message, Location(file="certify_folder()",
+                                                      key=where.key)))
+    return str(error)
 
 
 def _named_files(path: str) -> tuple[tuple[str, str], ...]:

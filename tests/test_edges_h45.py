@@ -182,3 +182,90 @@ def test_a_short_term_time_unit_is_checked_at_its_key(demo, cli, declared, found
     code, stdout, stderr = cli("certify", str(campaign), "--trials", "0")
     assert (code, stdout) == (1, "")
     assert stderr == f"error: {campaign}:74: [stability.short_term] time_unit: {found}\n"
+
+
+# --- values given on the command line are named as options ------------------------------
+
+def _bad_option(cli, *args: str) -> str:
+    """The one 'Error:' line of a bad option value (status 2, nothing on standard output)."""
+    code, stdout, stderr = cli(*args)
+    assert (code, stdout) == (2, ""), stderr
+    return stderr.strip().splitlines()[-1]
+
+
+_TOO_FEW = "expected at least 20 trials for a 95 % interval, found 5"
+_KEPT = ("expected at most 100,000,000 Monte Carlo values for a run that keeps every one of "
+         "them (8 bytes each: a coverage probability of ½ or less, or a certification, which "
+         "combines the values; limits: docs/limits.md), found 200,000,000 trials × 1 measurand")
+
+
+@pytest.mark.parametrize("args, option, message", [
+    # Found: each of these named the value as a key of the model or campaign file
+    # ("coulometric-purity.toml: trials: …", "campaign.toml: [certificate]
+    # reported_interval: …", a table the campaign does not even have)
+    (("run", "coulometric-purity.toml", "--trials", "5"), "--trials", _TOO_FEW),
+    (("explain", "coulometric-purity.toml", "--trials", "5"), "--trials", _TOO_FEW),
+    (("certify", "campaign.toml", "--trials", "5"), "--trials", _TOO_FEW),
+    (("certify", "campaign-methods.toml", "--trials", "5"), "--trials", _TOO_FEW),
+    (("run", "coulometric-purity.toml", "--trials", "200000000", "--coverage", "0.3"),
+     "--trials", _KEPT),
+    (("certify", "campaign.toml", "--trials", "200000000"), "--trials", _KEPT),
+    (("run", "coulometric-purity.toml", "--adaptive", "--coverage", "0.99999"), "--coverage",
+     "expected a coverage probability whose adaptive batches fit the limit of 20,000,000 "
+     "trials (p below 0.99999; JCGM 101 7.9 asks for batches of 100/(1 - p) = 10,000,001 "
+     "trials here), found 0.99999; give a fixed number of trials instead"),
+    (("run", "coulometric-purity.toml", "--trials", "0", "--reported-interval",
+      "monte_carlo"), "--reported-interval",
+     'expected Monte Carlo trials for "monte_carlo", found trials = 0'),
+    (("certify", "campaign.toml", "--trials", "0", "--reported-interval", "monte_carlo"),
+     "--reported-interval", 'expected a Monte Carlo run of the characterization for '
+     '"monte_carlo" (trials > 0, one method), found none'),
+])
+def test_a_command_line_value_is_named_as_its_option(cli, args, option, message):
+    command, name, *rest = args
+    line = _bad_option(cli, command, str(DEMO / name), *rest)
+    assert line == f"Error: Invalid value for '{option}': {message}"
+
+
+def test_the_same_limits_from_the_files_still_name_their_keys(demo, cli):
+    model = demo / "coulometric-purity.toml"
+    _replace(model, "coverage = 0.95", "coverage = 0.95\ntrials = 5")
+    code, stdout, stderr = cli("run", str(model))
+    assert (code, stdout) == (1, "")
+    assert stderr == f"error: {model}: [settings] trials: {_TOO_FEW}\n"
+    campaign = demo / "campaign.toml"
+    _replace(campaign, "[certificate]\n", '[certificate]\nreported_interval = "monte_carlo"\n')
+    code, stdout, stderr = cli("certify", str(campaign), "--trials", "0")
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {campaign}: [certificate] reported_interval: expected a Monte "
+                      "Carlo run of the characterization for \"monte_carlo\" (trials > 0, one "
+                      "method), found none\n")
+
+
+def test_certify_all_names_the_option_for_every_campaign_it_stops(demo, cli, tmp_path):
+    (demo / "campaign-methods.toml").unlink()
+    summary = tmp_path / "summary.csv"
+    code, stdout, stderr = cli("certify-all", str(demo), "--trials", "5", "--json",
+                               "--csv", str(summary))
+    assert code == 1
+    assert json.loads(stdout)["campaigns"][0]["error"] == f"--trials: {_TOO_FEW}"
+    assert f'"--trials: {_TOO_FEW}"' in summary.read_text(encoding="utf-8")
+    assert stderr == f"warning: campaign.toml: not certified: --trials: {_TOO_FEW}\n"
+
+
+def test_certify_folder_names_its_own_argument(demo):
+    from budget.batch import certify_folder
+
+    (demo / "campaign-methods.toml").unlink()
+    batch = certify_folder(demo, trials=5, workers=1)
+    assert batch.entries[0].error == f"certify_folder(): trials: {_TOO_FEW}"
+
+
+def test_certify_names_its_reported_interval_argument(demo):
+    from budget import certify, load_campaign
+    from budget._errors import BudgetError
+
+    campaign = load_campaign(demo / "campaign.toml")
+    with pytest.raises(BudgetError) as caught:
+        certify(campaign, trials=0, reported_interval="monte_carlo")
+    assert str(caught.value).startswith(f"{demo / 'campaign.toml'}: reported_interval: ")

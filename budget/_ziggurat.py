@@ -1,0 +1,214 @@
+"""Standard normal numbers by the ziggurat method, vectorised in numpy.
+
+Marsaglia and Tsang, "The ziggurat method for generating random variables", Journal of
+Statistical Software 5(8), 2000: the area under f(x) = exp(−x²/2), x ≥ 0, is covered by
+256 layers of equal area v, a base strip (the rectangle [0, r] × [0, f(r)] and the tail
+beyond r) and 255 rectangles [0, x_i] × [f(x_i), f(x_{i−1})] with x_255 = r, x_0 = 0.
+One 64-bit word gives a layer (8 bits), a sign (1 bit) and a point of the layer's
+rectangle (the top 52 bits). The point lies inside the next layer's width in about 99 %
+of draws, and is then a normal number as it stands; those are computed for a whole array
+at once. The rest take the exact slow paths of the method, on the few positions concerned:
+
+* base strip: a point beyond r is replaced by a draw from the tail (Marsaglia's tail
+  method: x = −ln(U₁)/r, y = −ln(U₂), accept when 2y > x², return r + x);
+* other layers: the point is kept when it lies under the curve within the wedge
+  (f(x_i) + (f(x_{i−1}) − f(x_i))·U < f(x)); otherwise the method starts again, and a
+  fresh start yields a standard normal number whatever happened before, so the position
+  takes one of numpy's own standard normal numbers from the same stream.
+
+The numbers therefore follow the standard normal distribution exactly (to the 52-bit
+resolution of each layer, like numpy's scalar ziggurat); only their order in the stream
+differs from numpy's, which draws one number at a time. About 40 % less time per number
+than ``Generator.standard_normal`` on this project's machine (benchmarks/generators.py),
+because the table look-ups and tests run as array operations instead of a call per number.
+
+r is solved for (bisection) so that the 255 rectangles and the base strip close exactly at
+the top, f(x_1) + v/x_1 = 1; it agrees with the published r = 3.6541528853610088 to about
+10⁻¹⁵ (tests/test_ziggurat.py).
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+from functools import cache
+
+import numpy as np
+
+__all__ = ["LAYERS", "layers", "standard_normal"]
+
+LAYERS = 256
+_BITS = 52
+_SCALE = float(1 << _BITS)
+_MASK = 2 * LAYERS - 1  # the layer (low 8 bits) and the sign (bit 8)
+_PIECE = 1 << 14
+
+
+def _f(x: float) -> float:
+    return math.exp(-0.5 * x * x)
+
+
+def _strip(r: float) -> float:
+    """Area v of the base strip: the rectangle [0, r] × [0, f(r)] and the tail beyond r."""
+    return r * _f(r) + math.sqrt(math.pi / 2.0) * math.erfc(r / math.sqrt(2.0))
+
+
+def _edges(r: float) -> list[float] | None:
+    """x_1 … x_255 = r, each rectangle of area v; None when a layer overshoots the top."""
+    v = _strip(r)
+    xs = [r]
+    for _ in range(LAYERS - 2):
+        top = _f(xs[-1]) + v / xs[-1]
+        if top >= 1.0:
+            return None
+        xs.append(math.sqrt(-2.0 * math.log(top)))
+    return xs[::-1]
+
+
+def _closing(r: float) -> float:
+    """f(x_1) + v/x_1 − 1: zero when the top rectangle ends exactly at f = 1."""
+    xs = _edges(r)
+    if xs is None:
+        return 1.0
+    return _f(xs[0]) + _strip(r) / xs[0] - 1.0
+
+
+def solve_r() -> float:
+    """The base strip's r for 256 layers, by bisection on [3, 4]."""
+    low, high = 3.0, 4.0  # too small an r overshoots (closing > 0); too large falls short
+    for _ in range(200):
+        middle = 0.5 * (low + high)
+        if middle in (low, high):
+            break
+        if _closing(middle) > 0.0:
+            low = middle
+        else:
+            high = middle
+    return 0.5 * (low + high)
+
+
+@cache
+def layers() -> tuple[float, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """r; per 9-bit code (layer + 256·sign): signed width per unit and the accept bound;
+    per layer: f at its outer edge with f(x_0) = 1 prepended (the wedge's top and bottom).
+
+    Layer 0 is the base strip, of width q = v/f(r) per unit (its points beyond r go to the
+    tail); layer i ≥ 1 is the rectangle of width x_i, accepted outright below x_{i−1}."""
+    r = solve_r()
+    xs = _edges(r)
+    assert xs is not None
+    v = _strip(r)
+    q = v / _f(r)
+    widths = np.array([q] + xs) / _SCALE
+    inner = np.array([r / q] + [0.0] + [a / b for a, b in zip(xs, xs[1:])])
+    bounds = np.floor(inner * _SCALE).astype(np.int64)
+    heights = np.array([1.0] + [_f(x) for x in xs])  # f(x_0) = 1, f(x_1) … f(x_255)
+    signed = np.concatenate([widths, -widths])
+    return r, signed, np.concatenate([bounds, bounds]), heights, widths
+
+
+_local = threading.local()  # each thread's scratch arrays, reused call after call
+
+
+def _scratch(n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """This thread's scratch arrays of ``n`` elements (temporaries of this size would be
+    fresh pages at every call)."""
+    found = getattr(_local, "arrays", None)
+    if found is None or found[0].size < n:
+        found = _local.arrays = (np.empty(n, np.uint64), np.empty(n), np.empty(n, np.int64),
+                                 np.empty(n, bool))
+    return found[0][:n], found[1][:n], found[2][:n], found[3][:n]
+
+
+def standard_normal(generator: np.random.Generator, out: np.ndarray,
+                    scale: np.ndarray | None = None,
+                    shift: np.ndarray | None = None) -> np.ndarray:
+    """Fill the C-contiguous float64 array ``out`` (rows × columns, or one row) with
+    standard normal numbers drawn from ``generator``, each row then times its ``scale``
+    plus its ``shift`` (arrays of rows × 1) when given.
+
+    The fast path runs on pieces of about ``_PIECE`` numbers, scaled while they are in the
+    cache; the slow paths run once for the whole array, whose few positions would
+    otherwise cost a dozen small numpy calls per piece."""
+    if out.dtype != np.float64 or not out.flags.c_contiguous or out.ndim > 2:
+        raise ValueError("standard_normal fills a C-contiguous float64 array of 1 or 2 "
+                         "dimensions")
+    table = out.reshape(1, -1) if out.ndim == 1 else out
+    rows, columns = table.shape
+    if table.size == 0:
+        return out
+    r, signed, bounds, heights, _ = layers()
+    rows_each = max(1, _PIECE // columns)
+    width = min(columns, _PIECE)
+    positions: list[np.ndarray] = []  # flat positions, first values and codes of the
+    firsts: list[np.ndarray] = []  # numbers left to the slow paths
+    codes: list[np.ndarray] = []
+    for first in range(0, rows, rows_each):
+        last = min(rows, first + rows_each)
+        for start in range(0, columns, width):
+            piece = table[first:last, start:start + width]  # contiguous in ``out``
+            flat = piece.reshape(-1)
+            code, beyond = _fast(generator, flat, signed, bounds)
+            positions.append(beyond + (first * columns + start))
+            firsts.append(flat[beyond])
+            codes.append(code[beyond])
+            if scale is not None and shift is not None:
+                piece *= scale[first:last]
+                piece += shift[first:last]
+    where = np.concatenate(positions)
+    if where.size:
+        value = _slow_paths(generator, np.concatenate(firsts), np.concatenate(codes), r,
+                            heights)
+        if scale is not None and shift is not None:
+            row = where // columns
+            value = value * scale[row, 0] + shift[row, 0]
+        table.reshape(-1)[where] = value
+    return out
+
+
+def _fast(generator: np.random.Generator, flat: np.ndarray, signed: np.ndarray,
+          bounds: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The fast path on one piece: every number as its point times its layer's width;
+    the codes, and the flat positions of those left to the slow paths."""
+    n = flat.size
+    code_of, widths, limits, beyond = _scratch(n)
+    words = generator.bit_generator.random_raw(n)
+    code = np.bitwise_and(words, np.uint64(_MASK), out=code_of).view(np.int64)
+    point = np.right_shift(words, np.uint64(64 - _BITS), out=words).view(np.int64)
+    np.multiply(point, np.take(signed, code, out=widths), out=flat)
+    np.greater_equal(point, np.take(bounds, code, out=limits), out=beyond)
+    return code, np.flatnonzero(beyond)
+
+
+def _slow_paths(generator: np.random.Generator, x: np.ndarray, code: np.ndarray, r: float,
+                heights: np.ndarray) -> np.ndarray:
+    """The numbers of the positions whose point fell outside the next layer's width,
+    from their first values ``x`` and codes."""
+    layer = code & (LAYERS - 1)
+    value = x  # the caller's own array
+    base = layer == 0
+    if base.any():
+        sign = np.where(code[base] >= LAYERS, -1.0, 1.0)
+        value[base] = sign * _tail(generator, int(base.sum()), r)
+    wedge = np.flatnonzero(~base)
+    layer = layer[wedge]
+    height = heights[layer] + (heights[layer - 1] - heights[layer]) * generator.random(
+        wedge.size)
+    again = wedge[height >= np.exp(-0.5 * np.square(x[wedge]))]
+    if again.size:
+        value[again] = generator.standard_normal(again.size)
+    return value
+
+
+def _tail(generator: np.random.Generator, count: int, r: float) -> np.ndarray:
+    """``count`` numbers from the normal tail beyond r (Marsaglia 1964), each drawn until
+    accepted."""
+    found = np.empty(count)
+    missing = np.arange(count)
+    while missing.size:
+        x = -np.log1p(-generator.random(missing.size)) / r
+        y = -np.log1p(-generator.random(missing.size))
+        accepted = y + y > x * x
+        found[missing[accepted]] = r + x[accepted]
+        missing = missing[~accepted]
+    return found
