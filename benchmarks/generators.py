@@ -9,6 +9,8 @@ against SFC64's own double-precision normals (numpy's one-at-a-time ziggurat), i
 the ziggurat vectorised in numpy (budget/_ziggurat.py, the engine's way since it was
 measured here), and two set aside (README, Performance): SFC64's single-precision
 normals (numpy's float32 ziggurat) and the polar method (Marsaglia) vectorised in numpy.
+Last, the vectorised ziggurat's piece size (budget._ziggurat._PIECE) on one and two
+threads: small pieces stay in the cache but take the interpreter lock more often.
 
 Run: python benchmarks/generators.py [numbers] [rounds]
 """
@@ -27,6 +29,7 @@ sys.path.insert(0, os.path.dirname(__file__))
 
 from measure import load  # noqa: E402
 
+import budget._ziggurat as ziggurat  # noqa: E402
 from budget._ziggurat import standard_normal  # noqa: E402
 
 GENERATORS = ("PCG64", "PCG64DXSM", "SFC64", "Philox", "MT19937")
@@ -104,6 +107,36 @@ def main() -> None:
     for kind, found in ways.items():
         print(f"  {kind:10s} {min(found):8.3f} {statistics.median(found):9.3f}"
               f" {min(found) / min(ways['double']):12.2f}")
+    pieces(numbers, rounds)
+
+
+def pieces(numbers: int, rounds: int) -> None:
+    """Wall time of ``numbers`` vectorised-ziggurat normals per thread, blocks of 10 rows
+    × 65,536 as the engine fills them, by piece size, on one and two threads."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    def work(seed: int) -> None:
+        rng = np.random.Generator(np.random.SFC64(seed))
+        block = np.empty((10, BLOCK))
+        for _ in range(max(1, numbers // block.size)):
+            standard_normal(rng, block)
+
+    chosen = ziggurat._PIECE
+    print("\nvectorised ziggurat by piece size (numbers per thread; min s of the rounds):"
+          "\n  piece     1 thread   2 threads   speed-up")
+    for piece in (1 << 14, 1 << 15, 1 << 16, 1 << 17, 1 << 18):
+        ziggurat._PIECE = piece
+        found: dict[int, list[float]] = {1: [], 2: []}
+        for _ in range(rounds):
+            for threads in (1, 2):
+                start = time.perf_counter()
+                with ThreadPoolExecutor(threads) as pool:
+                    list(pool.map(work, range(threads)))
+                found[threads].append(time.perf_counter() - start)
+        one, two = min(found[1]), min(found[2])
+        mark = "  (chosen)" if piece == chosen else ""
+        print(f"  {piece:7d} {one:10.3f} {two:11.3f} {2 * one / two:10.2f}{mark}")
+    ziggurat._PIECE = chosen
 
 
 if __name__ == "__main__":

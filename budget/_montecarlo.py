@@ -75,7 +75,11 @@ BLOCK = 1 << 16
 GENERATOR = "SFC64"
 NORMALS = "vectorised ziggurat (Marsaglia and Tsang 2000), 256 layers"
 _BLOCK_BYTES = 1 << 25
-_SLICE = 1 << 13  # evaluation works on slices that stay in the processor's cache
+# Evaluation works on slices of at most this many trials: a narrow model's block in one
+# go (fewer numpy calls, so fewer turns of the interpreter lock between the two workers;
+# measured here against 2^13-2^15 on the ratio benchmark, the demo and EURACHEM A2), a
+# wide model's in narrower slices (_width) that stay in the processor's cache.
+_SLICE = 1 << 16
 _GROUP_BYTES = 1 << 21  # a grouped operation's arrays in a slice (_batched.Schedule)
 _GROUPING_GAIN = 256  # numpy calls per slice that grouping must save to be used
 _CHUNK = 1 << 15  # normal draws are scaled in chunks of rows of about 256 kB
@@ -606,23 +610,49 @@ class _Tails:
         return [(y[y <= lo], y[y >= hi]) for y, lo, hi in zip(view, self.low, self.high)]
 
 
-def _run_blocks(sampler: _Sampler, first: int, count: int, trials: int, out: np.ndarray,
+class _Cuts:
+    """The cut points of a kept run, set by its first block on whichever worker draws it
+    (None for no tails: a first block with non-finite values); the other blocks start at
+    once, and a block evaluated before they are set has its tails collected afterwards
+    from the kept values."""
+
+    def __init__(self, coverage: float) -> None:
+        self.coverage = coverage
+        self.tails: _Tails | None = None
+        self.known = False
+
+    def settle(self, head: np.ndarray) -> None:
+        self.tails = _Tails(head, self.coverage) if np.isfinite(head).all() else None
+        self.known = True
+
+    def collect(self, view: np.ndarray) -> list[tuple[np.ndarray, np.ndarray]] | None:
+        if not self.known:
+            return None
+        return self.tails.collect(view) if self.tails else []
+
+
+def _run_blocks(sampler: _Sampler, trials: int, out: np.ndarray,
                 progress: Callable[[int], None] | None, workers: int,
-                tails: _Tails | None = None) -> tuple[np.ndarray, list[Any]]:
-    """Fill ``out[:, :]`` with blocks first … first+count-1 of a run of ``trials``;
-    the moments of all of them and, with ``tails``, each block's tail values."""
+                cuts: _Cuts | None = None) -> tuple[np.ndarray, list[Any]]:
+    """Fill ``out`` with the blocks of a run of ``trials``; the moments of all of them
+    and, with ``cuts``, each block's tail values (none when the first block has
+    non-finite values)."""
     block = sampler.size
     moments: list[np.ndarray] = []
-    kept: list[list[tuple[np.ndarray, np.ndarray]]] = []
+    kept: list[list[tuple[np.ndarray, np.ndarray]] | None] = []
 
-    def work(b: int) -> tuple[int, np.ndarray, list[Any]]:
+    def work(b: int) -> tuple[int, np.ndarray, list[Any] | None]:
         start = b * block
         size = min(block, trials - start)
-        view = out[:, start - first * block:start - first * block + size]
+        view = out[:, start:start + size]
         sampler.block(b, size, view)
-        return size, _block_moments(view), tails.collect(view) if tails else []
+        if cuts is None:
+            return size, _block_moments(view), []
+        if b == 0:
+            cuts.settle(view)
+        return size, _block_moments(view), cuts.collect(view)
 
-    blocks = range(first, first + count)
+    blocks = range(-(-trials // block))
     results = map(work, blocks) if workers <= 1 else \
         ThreadPoolExecutor(max_workers=workers).map(work, blocks)
     for done, block_moments, block_tails in results:  # in block order
@@ -630,7 +660,17 @@ def _run_blocks(sampler: _Sampler, first: int, count: int, trials: int, out: np.
         kept.append(block_tails)
         if progress:
             progress(done)
-    return _combine(moments), (kept if tails else [])
+    if cuts is None:
+        return _combine(moments), []
+    # the first block, then the others combined: the order of a streamed run, whose
+    # first block runs alone (the same mean and variance to the last bit)
+    total = _combine([moments[0], _combine(moments[1:])])
+    tails = cuts.tails
+    if tails is None:
+        return total, []
+    return total, [found if found is not None else
+                               tails.collect(out[:, b * block:(b + 1) * block])
+                               for b, found in enumerate(kept)]
 
 
 def _block_moments(view: np.ndarray) -> np.ndarray:
@@ -754,19 +794,8 @@ def _fixed_run(sampler: _Sampler, samples: np.ndarray, coverage: float,
                ticker: Callable[[int], None] | None, workers: int) -> tuple[np.ndarray, list[Any]]:
     trials = samples.shape[1]
     blocks = -(-trials // sampler.size)
-    if blocks < 4 or coverage <= 0.5:
-        return _run_blocks(sampler, 0, blocks, trials, samples, ticker, workers)
-    first, _ = _run_blocks(sampler, 0, 1, trials, samples, ticker, 1)
-    sampler.release()
-    head = samples[:, :sampler.size]
-    if not np.isfinite(head).all():
-        rest, _ = _run_blocks(sampler, 1, blocks - 1, trials, samples[:, sampler.size:],
-                              ticker, workers)
-        return _combine([first, rest]), []
-    tails = _Tails(head, coverage)
-    rest, kept = _run_blocks(sampler, 1, blocks - 1, trials, samples[:, sampler.size:],
-                             ticker, workers, tails)
-    return _combine([first, rest]), [tails.collect(head), *kept]
+    cuts = None if blocks < 4 or coverage <= 0.5 else _Cuts(coverage)
+    return _run_blocks(sampler, trials, samples, ticker, workers, cuts)
 
 
 def _adaptive(sampler: _Sampler, coverage: float, digits: int, workers: int,

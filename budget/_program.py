@@ -74,6 +74,9 @@ class Program:
                        for i, ((kind, args, payload), done) in enumerate(zip(self.ops,
                                                                              self.release))
                        if kind != "const"]
+        # per step, an operand whose array may take the result (see ``_reusable``)
+        self._reuse = {at: found for at, kind, args, payload, done in self._steps
+                       if (found := self._reusable(kind, args, payload, done)) is not None}
         # sums and products that begin (after a number) with a run of consecutive inputs
         self._ranges: dict[int, tuple[float | None, int, int, tuple[int, ...]]] = {}
         for at, kind, args, _, _ in self._steps:
@@ -81,6 +84,24 @@ class Program:
                 found = _input_run(args, self._filled, len(self.symbols))
                 if found is not None:
                     self._ranges[at] = found
+
+    def _reusable(self, kind: str, args: tuple[int, ...], payload: Any,
+                  done: tuple[int, ...]) -> int | None:
+        """The position among ``args`` of an intermediate result that dies at this step
+        and is used once in it, whose array the step may overwrite with its own result
+        (the same numbers: a ufunc with ``out=`` one of its operands computes as
+        without): the first or second operand of a sum or product (its first step), the
+        base of a power, the argument of a function. Never an input's array."""
+        inputs = len(self.symbols)
+        positions = {"add": (0, 1), "mul": (0, 1), "pow": (0,), "call": (0,)}.get(kind, ())
+        for position in positions:
+            slot = args[position] if position < len(args) else -1
+            if slot >= inputs and slot in done and slot not in self.constants \
+                    and args.count(slot) == 1:
+                if kind == "call" and not isinstance(_FORWARD[payload], np.ufunc):
+                    return None
+                return position
+        return None
 
     def _last_uses(self) -> list[tuple[int, ...]]:
         """For each operation, the slots no longer needed once it has run."""
@@ -201,8 +222,14 @@ class Program:
             for at, kind, args, payload, done in self._steps:
                 found = rows is not None and at in self._ranges and _reduced(
                     kind, self._ranges[at], rows, slots)
-                slots[at] = found if found is not False else _apply(
-                    kind, [slots[a] for a in args], payload)
+                if found is False:
+                    operands = [slots[a] for a in args]
+                    reuse = self._reuse.get(at)
+                    found = _apply_into(kind, operands, payload, reuse) \
+                        if reuse is not None else None
+                    if found is None:
+                        found = _apply(kind, operands, payload)
+                slots[at] = found
                 for slot in done:
                     slots[slot] = None
         return [slots[i] for i in self.outputs]
@@ -336,6 +363,35 @@ def _apply(kind: str, operands: list[Any], payload: Any) -> Any:
     if kind == "call":
         return _FORWARD[payload](operands[0])
     return payload  # const
+
+
+def _apply_into(kind: str, operands: list[Any], payload: Any, position: int) -> Any:
+    """``_apply`` writing its result into ``operands[position]``, a dying intermediate
+    array, when that array has the result's shape; None otherwise (then ``_apply``)."""
+    target = operands[position]
+    if type(target) is not np.ndarray or target.dtype != np.float64 or target.ndim != 1:
+        return None
+    others = operands[:position] + operands[position + 1:]
+    if not all(isinstance(o, float) or (type(o) is np.ndarray and o.shape == target.shape)
+               for o in others):
+        return None
+    if kind in ("add", "mul"):
+        ufunc = np.add if kind == "add" else np.multiply
+        total = ufunc(operands[0], operands[1], out=target)
+        for term in operands[2:]:
+            ufunc(total, term, out=total)
+        return total
+    if kind == "pow":
+        if payload == -1.0:
+            return np.divide(1.0, target, out=target)
+        if payload == 2.0:
+            return np.multiply(target, target, out=target)
+        if payload == 0.5:
+            return np.sqrt(target, out=target)
+        return np.power(target, operands[1], out=target)
+    ufunc = _FORWARD[payload]
+    assert isinstance(ufunc, np.ufunc)
+    return ufunc(target, out=target)
 
 
 def _input_run(args: tuple[int, ...], filled: list[Any], inputs: int

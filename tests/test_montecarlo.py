@@ -207,8 +207,8 @@ def test_blocks_do_not_depend_on_the_run_length():
     sampler = _Sampler(m, 3)
     short = np.empty((1, 2 * BLOCK))
     long = np.empty((1, 5 * BLOCK))
-    _run_blocks(sampler, 0, 2, 2 * BLOCK, short, None, 2)
-    _run_blocks(sampler, 0, 5, 5 * BLOCK, long, None, 1)
+    _run_blocks(sampler, 2 * BLOCK, short, None, 2)
+    _run_blocks(sampler, 5 * BLOCK, long, None, 1)
     assert np.array_equal(short[0], long[0, :2 * BLOCK])
     assert np.array_equal(sampler.block(1, BLOCK), long[:, BLOCK:2 * BLOCK])
 

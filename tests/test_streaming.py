@@ -258,3 +258,53 @@ def test_sums_of_consecutive_inputs_reduced_over_rows_give_the_same_numbers(oper
         fast = sampler.block(2, size)
         slow = program.evaluate(sampler.draw(2, size))[0]
         assert np.array_equal(fast[0], slow)
+
+
+def test_blocks_drawn_before_the_cut_points_are_known_keep_their_tails(monkeypatch):
+    """A kept run starts every block at once; the first block sets the cut points on its
+    worker. Blocks finished before that (here all of them: the first block is held back)
+    have their tails collected afterwards from the kept values: the intervals are still
+    those of a full sort (JCGM 101 7.7.2, 7.7.3), and mean and u equal a one-worker run's."""
+    import threading
+
+    m = model("""
+        title = "finite"
+        [measurands.Y]
+        equation = "a * b"
+        [measurands.Z]
+        equation = "a / b"
+        [inputs.a]
+        value = 2
+        u = 0.1
+        [inputs.b]
+        value = 3
+        distribution = "rectangular"
+        half_width = 0.5
+    """)
+    one = simulate(m, trials=6 * montecarlo.BLOCK, seed=4, workers=1)
+    others_done = threading.Event()
+    count = [0]
+    block = montecarlo._Sampler.block
+
+    def held(self, index, size, out=None):
+        found = block(self, index, size, out)
+        if index == 0:
+            others_done.wait(timeout=30)  # the other blocks finish first
+        else:
+            count[0] += 1
+            if count[0] == 5:
+                others_done.set()
+        return found
+
+    monkeypatch.setattr(montecarlo._Sampler, "block", held)
+    calls = []
+    collect = montecarlo._Tails.collect
+    monkeypatch.setattr(montecarlo._Tails, "collect",
+                        lambda self, view: calls.append(threading.current_thread().name)
+                        or collect(self, view))
+    two = simulate(m, trials=6 * montecarlo.BLOCK, seed=4, workers=2)
+    assert calls.count(threading.main_thread().name) == 5  # collected afterwards
+    for a, b in zip(one.measurands, two.measurands):
+        assert (b.interval, b.shortest_interval) == _full_sort(b.samples, 0.95)
+        assert (a.mean, a.standard_uncertainty) == (b.mean, b.standard_uncertainty)
+        assert np.array_equal(a.samples, b.samples)
