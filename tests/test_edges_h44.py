@@ -267,3 +267,23 @@ def test_a_batch_shows_itself(tmp_path) -> None:
     assert checker.tags.count("tr") == 3 and "svg" in checker.tags
     assert "good/campaign.toml" in text and "failed: " in text
     assert "2 campaign(s): 1 certified, 1 failed." in text
+
+
+# 7. the line of an input named by an error found after reading
+
+def test_an_overflowing_contribution_names_the_line_of_its_input(cli, tmp_path) -> None:
+    # c = a = 1e200 and u(b) = 1e200: c·u(b) = 1e400; "[inputs.b]" came without its line
+    path = tmp_path / "huge.toml"
+    path.write_text(_model("a * b", a=(1e200, 1.0), b=(1.0, 1e200)))
+    code, _, stderr = cli("run", str(path), "--trials", "0")
+    assert code == 1
+    assert stderr == (f"error: {path}:7: [inputs.b] the contribution c·u(x) of 'b' to 'y' "
+                      "overflows: beyond the floating-point range (±1.8e308); rescale the "
+                      "units\n")
+
+
+def test_inputs_keep_the_line_of_their_table() -> None:
+    model = parse_model(_model("a * b", a=(1.0, 0.1), b=(2.0, 0.1)), "m.toml")
+    assert [i.line for i in model.inputs] == [4, 7]
+    # a what-if keeps it: the input is still the one written there
+    assert model.with_uncertainty("b", factor=2.0).input("b").line == 7
