@@ -287,3 +287,20 @@ def test_inputs_keep_the_line_of_their_table() -> None:
     assert [i.line for i in model.inputs] == [4, 7]
     # a what-if keeps it: the input is still the one written there
     assert model.with_uncertainty("b", factor=2.0).input("b").line == 7
+
+
+@pytest.mark.parametrize("equation, columns, cause", [
+    ("a * b", {"a": [1.0, 1e200], "b": [1.0, 1e200]},
+     "found inf at lot 2 (position 1) ('a * b' overflows: a result beyond ±1.8e308"),
+    ("a / b", {"b": [1.0, 0.0]},
+     "found inf at lot 2 (position 1) (a division by zero or a function outside its domain "
+     "in 'a / b')"),
+    ("a / b", {"b": [1.0, 1e-160]},
+     "found none for b at lot 2 (position 1) (the derivative of 'a / b' overflows")])
+def test_many_lots_tell_an_overflow_from_a_division_by_zero(equation: str, columns: Any,
+                                                           cause: str) -> None:
+    from budget.lots import propagate_lots
+
+    model = parse_model(_model(equation, a=(1.0, 0.1), b=(1.0, 0.1)), "m.toml")
+    with pytest.raises(BudgetError, match=re.escape(cause)):
+        propagate_lots(model, columns)
