@@ -11,6 +11,9 @@ Every result type (``MeasurandBudget``, ``Budget``, ``MeasurandSimulation``,
   (``value``, ``u``, ``dof``, ``k``, ``U`` …) in ``frame.attrs``;
 * ``to_dict()``: the JSON document (or its part for that object).
 
+``LotBudgets`` and ``Batch`` have the ``repr`` and the ``_repr_html_`` (``lots_html``,
+``batch_html``).
+
 The methods live on the classes and call the functions here on first use, so that the
 engine imports neither pandas nor jinja2 until a notebook asks for them.
 """
@@ -23,11 +26,14 @@ from typing import TYPE_CHECKING, Any, Protocol, TypeVar
 
 from ._cells import validation_lines
 from ._errors import NotFoundError, did_you_mean
-from ._formatting import format_number, format_pair, format_percent, shown_share
+from ._formatting import (format_dof, format_number, format_pair, format_percent,
+                          shown_share)
 from ._limits import shorten
 from ._unit_display import display_unit, spaced_unit
 
 if TYPE_CHECKING:
+    from .batch import Batch
+    from .lots import LotBudgets
     from ._analysis import Result
     from ._certification import Certification
     from ._explanation import Explanation
@@ -209,3 +215,38 @@ def certification_html(cert: Certification, digits: int = 2) -> str:
                       f"k = {cert.coverage_factor:.3g}",
                       ["component", f"u / {unit}", "share of u_CRM² / %"], rows, chart=chart,
                       notes=list(cert.warnings))
+
+
+LOT_ROWS = 100  # the lots a notebook table shows; every lot stays in the arrays
+
+
+def lots_html(lots: LotBudgets, digits: int = 2) -> str:
+    """The lots' totals, a row per lot and measurand (the first ``LOT_ROWS`` lots)."""
+    count = lots.estimate.shape[0]
+    rows = []
+    for lot in range(min(count, LOT_ROWS)):
+        for k, name in enumerate(lots.measurands):
+            y, u = float(lots.estimate[lot, k]), float(lots.combined_uncertainty[lot, k])
+            value, combined = short(y, u, digits)
+            rows.append([f"{lot + 1}", name, value, combined,
+                         format_dof(float(lots.dof[lot, k])),
+                         f"{lots.coverage_factor[lot, k]:.3g}",
+                         short(y, float(lots.expanded_uncertainty[lot, k]), digits)[1]])
+    notes = [] if count <= LOT_ROWS else [
+        f"the first {LOT_ROWS} of {count:,} lots are shown; every lot is in the arrays "
+        "(estimate, combined_uncertainty, dof, coverage_factor, expanded_uncertainty)"]
+    return table_html(f"Linear (GUM) budgets of {count:,} lot{'s' if count != 1 else ''}, "
+                      f"{len(lots.inputs)} inputs",
+                      ["lot", "measurand", "y", "u_c", "ν_eff", "k", "U"], rows, notes=notes)
+
+
+def batch_html(batch: Batch, digits: int = 2) -> str:
+    """The certify-all summary: a row per campaign and the chart of certified values."""
+    from ._batch_view import batch_view
+
+    view = batch_view(batch, digits)
+    keys = ["date", "campaign", "value", "U", "k", "unit", "status"]
+    return table_html(view["title"],
+                      ["date", "campaign", "certified value", "U", "k", "unit", "status"],
+                      [[row[key] for key in keys] for row in view["rows"]],
+                      chart=view["chart"], notes=[view["summary"]])

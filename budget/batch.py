@@ -25,6 +25,7 @@ from typing import Any, Iterable
 
 from ._errors import BudgetError, InputError, Location
 from ._arguments import keywords_checked
+from ._limits import shorten
 
 __all__ = ["BatchEntry", "Batch", "find_campaigns", "certify_folder", "batch_document",
            "batch_rows", "BATCH_COLUMNS"]
@@ -61,6 +62,17 @@ class Batch:
     @property
     def certified(self) -> tuple[BatchEntry, ...]:
         return tuple(e for e in self.entries if e.error is None)
+
+    def __repr__(self) -> str:
+        failed = len(self.entries) - len(self.certified)
+        return (f"<Batch of {len(self.entries)} campaign(s) under {shorten(self.folder)}: "
+                f"{len(self.certified)} certified, {failed} failed>")
+
+    def _repr_html_(self) -> str:
+        """The summary table and the chart of certified values of ``budget certify-all``."""
+        from ._notebook import batch_html
+
+        return batch_html(self)
 
 
 def find_campaigns(folder: str | Path) -> list[Path]:

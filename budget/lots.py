@@ -46,6 +46,17 @@ class LotBudgets:
     expanded_uncertainty: np.ndarray  # (L, measurands)
     sensitivity: np.ndarray  # (L, measurands, inputs), signed
 
+    def __repr__(self) -> str:
+        count = self.estimate.shape[0]
+        return (f"<LotBudgets of {', '.join(self.measurands)}: {count:,} "
+                f"lot{'s' if count != 1 else ''}, {len(self.inputs)} inputs>")
+
+    def _repr_html_(self) -> str:
+        """A table of each lot's y, u_c, ν_eff, k and U (the first 100 lots)."""
+        from ._notebook import lots_html
+
+        return lots_html(self)
+
 
 @keywords_checked
 def propagate_lots(model: Model, estimates: Mapping[str, Sequence[float]],
@@ -147,6 +158,10 @@ def _count(estimates: dict[str, np.ndarray], uncertainties: dict[str, np.ndarray
     if len(lengths) > 1:
         raise InputError(f"expected one value per lot in every column, found columns of "
                          f"{', '.join(str(n) for n in sorted(lengths))} values", where)
+    if lengths == {0}:  # a table filtered to nothing: no budget to give, say so
+        raise InputError("expected at least one lot (one value per lot in each column), "
+                         "found columns of 0 values",
+                         replace(where, key="estimates" if estimates else "uncertainties"))
     return lengths.pop() if lengths else 1
 
 

@@ -14,7 +14,9 @@ import pytest
 import budget
 from budget import BudgetError, parse_model, propagate
 
-_TINY = 2.2250738585072014e-308  # the smallest normal double (IEEE 754 binary64)
+from conftest import MODELS
+
+_A2 = MODELS / "reference" / "eurachem-a2-naoh.toml"
 
 
 def _model(equation: str, **inputs: tuple[float, float]) -> str:
@@ -185,3 +187,103 @@ def test_unrepresentable_running_moments_are_refused(value: float, u: float) -> 
     # kept, the same run is recomputed in scaled units: u is right
     kept = budget.simulate(model, trials=100_000, seed=1).measurands[0]
     assert kept.standard_uncertainty == pytest.approx(u, rel=0.02)
+
+
+# 5. an empty lots table
+
+@pytest.mark.parametrize("estimates, uncertainties, key", [
+    ({"V_T": []}, None, "estimates"),
+    ({"V_T": np.array([]), "m_KHP": []}, None, "estimates"),
+    ({}, {"V_T": []}, "uncertainties")])
+def test_a_table_of_no_lots_is_refused(estimates: Any, uncertainties: Any, key: str) -> None:
+    from budget.lots import propagate_lots
+
+    # it gave arrays of 0 rows without a word: a filter that kept nothing went unnoticed
+    with pytest.raises(BudgetError, match=re.escape(
+            f"eurachem-a2-naoh.toml: {key}: expected at least one lot (one value per lot in "
+            "each column), found columns of 0 values")):
+        propagate_lots(budget.load_model(_A2), estimates, uncertainties)
+
+
+def test_a_data_frame_of_no_rows_is_refused() -> None:
+    pd = pytest.importorskip("pandas")
+    from budget.lots import propagate_lots
+
+    table = pd.DataFrame({"V_T": [18.64, 19.2]})
+    with pytest.raises(BudgetError, match="estimates: expected at least one lot"):
+        propagate_lots(budget.load_model(_A2), table[table["V_T"] > 100])
+
+
+# 6. LotBudgets and Batch in a notebook
+
+def test_lot_budgets_show_themselves() -> None:
+    from budget.lots import propagate_lots
+    from test_notebook import _check_html
+
+    model = budget.load_model(_A2)
+    lots = propagate_lots(model, {"V_T": [18.64, 19.21, 18.20]})
+    assert repr(lots) == "<LotBudgets of c_NaOH: 3 lots, 5 inputs>"
+    text = lots._repr_html_()
+    assert text.lstrip().startswith('<div class="budget-nb">')
+    _check_html(text)
+    # each lot's row holds the numbers propagate gives for that lot
+    one = propagate(model.with_value("V_T", 19.21)).measurands[0]
+    from budget._notebook import short
+
+    value, u = short(one.estimate, one.combined_uncertainty)
+    expanded = short(one.estimate, one.expanded_uncertainty)[1]
+    assert (f"<td>2</td><td>c_NaOH</td><td>{value}</td><td>{u}</td><td>∞</td>"
+            f"<td>{one.coverage_factor:.3g}</td><td>{expanded}</td>") in text
+    assert "Linear (GUM) budgets of 3 lots, 5 inputs" in text
+
+
+def test_many_lots_show_the_first_hundred() -> None:
+    from budget.lots import propagate_lots
+
+    lots = propagate_lots(budget.load_model(_A2), {"V_T": np.linspace(18.0, 19.0, 250)})
+    assert repr(lots) == "<LotBudgets of c_NaOH: 250 lots, 5 inputs>"
+    text = lots._repr_html_()
+    assert text.count("<tr>") == 1 + 100  # the header and the first 100 lots
+    assert "the first 100 of 250 lots are shown" in text
+
+
+def test_a_batch_shows_itself(tmp_path) -> None:
+    import shutil
+
+    from budget.batch import certify_folder
+    from test_notebook import _check_html
+
+    demo = _A2.parent.parent / "vics-as-25a"
+    for name in ("good", "broken"):
+        shutil.copytree(demo, tmp_path / name,
+                        ignore=shutil.ignore_patterns("campaign-methods.toml"))
+    (tmp_path / "broken" / "determinations.csv").write_text("nonsense\n")
+    batch = certify_folder(tmp_path, trials=0, workers=1)
+    assert repr(batch) == (f"<Batch of 2 campaign(s) under {batch.folder}: 1 certified, "
+                           "1 failed>")
+    text = batch._repr_html_()
+    assert text.lstrip().startswith('<div class="budget-nb">')
+    checker = _check_html(text)
+    assert checker.tags.count("tr") == 3 and "svg" in checker.tags
+    assert "good/campaign.toml" in text and "failed: " in text
+    assert "2 campaign(s): 1 certified, 1 failed." in text
+
+
+# 7. the line of an input named by an error found after reading
+
+def test_an_overflowing_contribution_names_the_line_of_its_input(cli, tmp_path) -> None:
+    # c = a = 1e200 and u(b) = 1e200: c·u(b) = 1e400; "[inputs.b]" came without its line
+    path = tmp_path / "huge.toml"
+    path.write_text(_model("a * b", a=(1e200, 1.0), b=(1.0, 1e200)))
+    code, _, stderr = cli("run", str(path), "--trials", "0")
+    assert code == 1
+    assert stderr == (f"error: {path}:7: [inputs.b] the contribution c·u(x) of 'b' to 'y' "
+                      "overflows: beyond the floating-point range (±1.8e308); rescale the "
+                      "units\n")
+
+
+def test_inputs_keep_the_line_of_their_table() -> None:
+    model = parse_model(_model("a * b", a=(1.0, 0.1), b=(2.0, 0.1)), "m.toml")
+    assert [i.line for i in model.inputs] == [4, 7]
+    # a what-if keeps it: the input is still the one written there
+    assert model.with_uncertainty("b", factor=2.0).input("b").line == 7
