@@ -136,6 +136,7 @@ def test_overflow_of_one_measurand_beside_a_division_by_zero_of_another() -> Non
     ([True, 2], [[1, 0], [0, 1]], "expected values as numbers, found bool True"),
     ([1, np.bool_(False)], [[1, 0], [0, 1]], "expected values as numbers, found bool np.False_"),
     ([1, 2], [[1, False], [0, 1]], "expected covariance as numbers, found bool False"),
+    ([1.0], [[True]], "expected covariance as numbers, found bool True"),
     (np.array([True, False]), [[1, 0], [0, 1]], "expected values as numbers, found ndarray")])
 def test_combine_refuses_bools(values: Any, covariance: Any, message: str) -> None:
     with pytest.raises(BudgetError, match=re.escape(message)):
