@@ -305,3 +305,15 @@ def test_many_lots_tell_an_overflow_from_a_division_by_zero(equation: str, colum
     model = parse_model(_model(equation, a=(1.0, 0.1), b=(1.0, 0.1)), "m.toml")
     with pytest.raises(BudgetError, match=re.escape(cause)):
         propagate_lots(model, columns)
+
+
+def test_a_coverage_from_the_file_is_named_as_the_file_s_setting(cli, tmp_path) -> None:
+    # the file's coverage reached simulate as an argument: "m.toml: coverage: …" without
+    # the table that holds it
+    path = tmp_path / "m.toml"
+    path.write_text(_model("a", a=(1.0, 1.0)) + '[settings]\ntrials = "adaptive"\n'
+                    "coverage = 0.9999999\n")
+    code, _, stderr = cli("run", str(path))
+    assert code == 1
+    assert stderr.startswith(f"error: {path}: [settings] coverage: expected a coverage "
+                             "probability whose adaptive batches fit the limit")
