@@ -89,6 +89,7 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
     ``reported_interval`` (default: the model's setting) picks the reported result;
     ``keep_samples`` as for ``simulate``."""
     check_model(model, "evaluate")
+    given = coverage  # None: the file's [settings] coverage, and errors say so
     coverage = model.settings.coverage_probability if coverage is None else coverage
     digits = model.settings.digits if digits is None else digits
     where = Location(file=model.source)
@@ -100,11 +101,11 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
     if trials is None and not adaptive and model.settings.trials == 0:
         trials = 0
     try:
-        budget = propagate(model, coverage, second_order=second_order)
+        budget = propagate(model, given, second_order=second_order)
         simulation = None
         if adaptive or trials != 0:
             simulation = simulate(model, budget, trials=None if adaptive else trials,
-                                  adaptive=adaptive, seed=seed, coverage=coverage,
+                                  adaptive=adaptive, seed=seed, coverage=given,
                                   digits=digits, workers=workers, progress=progress,
                                   keep_samples=keep_samples)
     except RecursionError as exc:  # a safety net: the engine walks without recursion

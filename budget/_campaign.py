@@ -261,6 +261,8 @@ def _campaign(r: _Reader, sha256: str) -> Campaign:
     if stability_section is not None:
         u_sts = r.number(stability_section, "u_short_term", "stability", default=0.0)
     k, coverage, fields = _certificate(r)
+    if stability is not None:
+        warnings += _validity(r, runs.dates or model.measured, shelf, time_unit)
     return Campaign(
         title=title, material=str(r.doc.get("material", "")), unit=unit, source=r.name,
         sha256=sha256, model=model, measurand=measurand, runs=runs, run_inputs=run_inputs,
@@ -617,6 +619,40 @@ def _certificate(r: _Reader) -> tuple[float | None, float | None, tuple[Any, ...
     fields = tuple((key, str(value)) for key, value in data.items()
                    if key not in ("k", "coverage", "reported_interval"))
     return k, coverage, fields
+
+
+def _validity(r: _Reader, days: tuple[Any, ...] | None, shelf_life: float,
+              time_unit: str) -> list[str]:
+    """``[certificate] valid_until`` against the shelf life from the last run, when both
+    are dates (free text such as "36 months from dispatch" is shown as written)."""
+    from ._plausibility import validity_warning
+
+    valid_until = _valid_until(r)
+    if valid_until is None or not days:
+        return []
+    found = validity_warning(valid_until, str(r.where("certificate", "valid_until")),
+                             max(days), shelf_life, time_unit)
+    return [found] if found else []
+
+
+def _valid_until(r: _Reader) -> Any:
+    """``[certificate] valid_until`` as a date: a TOML date or the text YYYY-MM-DD (a day
+    that does not exist is refused); None when absent or other text."""
+    from datetime import date, datetime
+    import re
+
+    value = r.doc.get("certificate", {}).get("valid_until")
+    if isinstance(value, datetime):
+        return value.date()
+    if isinstance(value, date):
+        return value
+    if not isinstance(value, str) or not re.fullmatch(r"\s*\d{4}-\d{2}-\d{2}\s*", value):
+        return None
+    try:
+        return date.fromisoformat(value.strip())
+    except ValueError:
+        raise r.fail(f"expected a date that exists, found {value!r}", "certificate",
+                     "valid_until") from None
 
 
 def _reported_interval(r: _Reader) -> str:

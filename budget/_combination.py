@@ -98,9 +98,9 @@ def _numbers(given: Any, what: str) -> Array:
         array: Array | None = np.asarray(given)
     except ValueError:  # ragged rows
         array = None
-    if array is not None and array.dtype.kind in "iuf":
-        if isinstance(given, np.ndarray):
-            return np.asarray(array, dtype=float)
+    if array is not None and array.dtype.kind in "iuf" and isinstance(given, np.ndarray):
+        return np.asarray(array, dtype=float)
+    if array is not None and array.dtype.kind in "iufb" and not isinstance(given, np.ndarray):
         array = np.asarray(given, dtype=object)  # a list: [True, 2] is no list of numbers
     found = given
     if array is not None and array.dtype == object:

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 from functools import lru_cache
-from typing import Any
+from typing import Any, Sequence
 
 import numpy as np
 
@@ -70,6 +70,25 @@ def _events_of(model: Model, k: int, events: set[str]) -> set[str]:
     return own
 
 
+OVERFLOWS = ("overflows: a result beyond ±1.8e308 from finite numbers; rescale the units "
+             "so that the numbers stay within about 1e±300")
+
+
+def _overflowed(events: set[str], value: float, row: np.ndarray) -> bool:
+    """Whether a value or derivative that is not finite came from an overflow rather than
+    from a division by zero or a function outside its domain."""
+    return "divide by zero" not in events and (
+        "overflow" in events or math.isinf(value) or bool(np.any(np.isinf(row))))
+
+
+def overflows_at(model: Model, k: int, point: Sequence[float]) -> bool:
+    """:func:`_overflowed` for measurand ``k`` at input values ``point`` (a lot)."""
+    events: set[str] = set()
+    values, jac = Program([model.measurands[k].graph], [i.name for i in model.inputs]
+                          ).gradient(point, events)
+    return _overflowed(events, float(values[0]), jac[0])
+
+
 def _refuse(model: Model, k: int, values: np.ndarray, jac: np.ndarray,
             events: set[str]) -> None:
     """The error for a value or sensitivity coefficient that is not finite: an overflow
@@ -81,10 +100,8 @@ def _refuse(model: Model, k: int, values: np.ndarray, jac: np.ndarray,
     where = Location(file=model.source, table=f"measurands.{measurand.name}",
                      key="equation", line=measurand.line)
     equation = excerpt(measurand.equation)
-    overflow = "divide by zero" not in events and (
-        "overflow" in events or math.isinf(values[k]) or np.any(np.isinf(jac[k])))
-    rescale = ("overflows: a result beyond ±1.8e308 from finite numbers; rescale the units "
-               "so that the numbers stay within about 1e±300")
+    overflow = _overflowed(events, values[k], jac[k])
+    rescale = OVERFLOWS
     if not math.isfinite(values[k]):
         cause = (f"'{equation}' {rescale}" if overflow else
                  f"a division by zero or a function outside its domain in '{equation}'")

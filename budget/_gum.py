@@ -359,10 +359,12 @@ def _parts(name: str, model: Model, c: np.ndarray, u: np.ndarray) -> np.ndarray:
         parts: np.ndarray = np.asarray(c * u, dtype=float)
     bad = np.flatnonzero(~np.isfinite(parts))
     if bad.size:
-        culprit = model.inputs[int(bad[0])].name
-        raise PropagationError(f"the contribution c·u(x) of '{culprit}' to '{name}' is beyond "
-                               "the floating-point range (±1.8e308)",
-                               Location(file=model.source, table=f"inputs.{culprit}"))
+        culprit = model.inputs[int(bad[0])]
+        raise PropagationError(f"the contribution c·u(x) of '{culprit.name}' to '{name}' "
+                               "overflows: beyond the floating-point range (±1.8e308); "
+                               "rescale the units",
+                               Location(file=model.source, table=f"inputs.{culprit.name}",
+                                        line=culprit.line))
     return parts
 
 

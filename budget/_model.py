@@ -67,6 +67,7 @@ class Input:
     description: str = ""
     source: str = ""
     molar_mass: Any = None
+    line: int | None = None  # of its [inputs.NAME] header, for messages about it
 
     def __post_init__(self) -> None:
         """A distribution object (it validated its own parameters) and ν > 0."""
@@ -512,7 +513,7 @@ class _Reader:
                      dof=statement.dof, type=statement.type, basis=statement.basis,
                      description=_text(data, "description", self.where, "inputs." + name),
                      source=_text(data, "source", self.where, "inputs." + name),
-                     molar_mass=statement.molar_mass)
+                     molar_mass=statement.molar_mass, line=where.line)
         if use is not None:
             stated = use.certificate.value(use.stated, where)
             self.checks.extend(agreement_warnings(

@@ -987,7 +987,8 @@ def _check_finite_variance(model: Model, budget: Budget | None) -> None:
                 f"= {dof:g}: a t distribution with ν ≤ 2 has none, so the Monte Carlo standard "
                 f"deviation of '{model.measurands[k].name}' never settles (JCGM 101 6.4.9, "
                 "7.9); give a fixed number of trials instead",
-                Location(file=model.source, table=f"inputs.{name}"))
+                Location(file=model.source, table=f"inputs.{name}",
+                         line=model.input(name).line))
 
 
 def _heavy_warnings(model: Model, budget: Budget | None) -> list[str]:

@@ -16,6 +16,8 @@ The guards:
   more than ``CONSISTENCY`` combined standard uncertainties (data in another unit, or
   of another material);
 * a shelf life longer than the span of the stability study (extrapolation);
+* a certificate's ``valid_until`` later than the shelf life allows, counted from the last
+  characterization run (u_lts covers the shelf life and no more), or before that run;
 * a unit symbol that pint reads as a unit of the same kind but a very different size
   than a laboratory means by it: ``gr`` is the grain (64.8 mg), not the gram; ``Mg``,
   ``ML``, ``Mmol``, ``MM`` and ``Ms`` are mega-, not milli-units; ``ppt`` is a picopint.
@@ -23,6 +25,7 @@ The guards:
 
 from __future__ import annotations
 
+import datetime as dt
 import math
 import re
 from typing import Any, Mapping, Sequence
@@ -32,7 +35,7 @@ import numpy as np
 __all__ = ["AIR_DENSITY_VALIDITY", "DEFAULT_ESTIMATE_FACTOR", "CONSISTENCY",
            "model_warnings", "air_density_warnings", "mass_fraction_warning",
            "estimate_warnings", "consistency_warning", "shelf_life_warning",
-           "campaign_unit_warning"]
+           "campaign_unit_warning", "validity_warning"]
 
 # (argument, low, high, unit of the value as the engine holds it, range as written)
 AIR_DENSITY_VALIDITY = (
@@ -239,3 +242,49 @@ def shelf_life_warning(times: np.ndarray, shelf_life: float, unit: str,
     return (f"plausibility: {source}: the shelf life {shelf_life:g}{words} is longer than "
             f"the span of the stability study, {span:.4g}{words}: u_lts extrapolates the "
             "trend beyond the data")
+
+
+def validity_warning(valid_until: dt.date, where: str, last_run: dt.date,
+                     shelf_life: float, time_unit: str) -> str | None:
+    """A period of validity that ends after the shelf life, counted from the last
+    characterization run (the day the certified value was measured), or before that run.
+
+    The shelf life in whole months or years is counted in calendar months (36 months
+    after 2025-05-08 is 2028-05-08); in other units in days, rounded up."""
+    if valid_until < last_run:
+        return (f"plausibility: {where} {valid_until} is before the last characterization "
+                f"run ({last_run}): the certified value would be valid for no time; a slip "
+                "in the year?")
+    end = _shelf_end(last_run, shelf_life, time_unit)
+    if end is None or valid_until <= end:
+        return None
+    from ._studydata import time_words
+
+    late = (valid_until - end).days
+    return (f"plausibility: {where} {valid_until} is {late} day{'s' * (late > 1)} after "
+            f"the end of the shelf life: u_lts covers {time_words(time_unit, shelf_life)} "
+            f"from the last characterization run ({last_run}), up to {end}; end the period "
+            "of validity by then, or support a longer shelf_life with stability data")
+
+
+_MONTH_DAYS = 365.25 / 12  # a twelfth of the Julian year, as pint's month
+_ROUNDING = 1e-9  # a shelf life converted between units is whole within this (relative)
+
+
+def _shelf_end(start: dt.date, shelf_life: float, time_unit: str) -> dt.date | None:
+    """The last day of a shelf life from ``start``; None beyond the calendar or without a
+    unit of time (the study's times then have no calendar meaning)."""
+    from ._errors import Location
+    from ._units import parse_unit
+
+    if not time_unit:
+        return None
+    days = shelf_life * float(parse_unit(time_unit, Location()).factor) / 86400.0
+    if not days < (dt.date.max - start).days - 31:  # months of up to 31 days
+        return None
+    months = days / _MONTH_DAYS
+    if abs(months - round(months)) <= _ROUNDING * months:
+        from ._register import _add_months
+
+        return _add_months(start, round(months))
+    return start + dt.timedelta(days=math.ceil(days * (1.0 - _ROUNDING)))

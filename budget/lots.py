@@ -84,7 +84,7 @@ def propagate_lots(model: Model, estimates: Mapping[str, Sequence[float]],
     from ._evaluation import compile_model
 
     values, jacobian = compile_model(model).gradient_many(x)  # (k, L), (k, n, L)
-    _check_finite(model, values, jacobian, estimates)
+    _check_finite(model, values, jacobian, estimates, x)
     parts = jacobian * u[None, :, :]  # c_i u_i, (k, n, L)
     variance = np.einsum("knl,knl->kl", parts, parts)
     index = {item.name: j for j, item in enumerate(model.inputs)}
@@ -177,9 +177,15 @@ def _columns(model: Model, table: Mapping[str, np.ndarray], lots: int,
 
 
 def _check_finite(model: Model, values: np.ndarray, jacobian: np.ndarray,
-                  table: Any) -> None:
+                  table: Any, x: Sequence[np.ndarray]) -> None:
     """Refuse a lot whose measurand value or sensitivity coefficients are not finite, as
     ``propagate`` refuses such estimates: never a NaN or ∞ in a lot's budget."""
+    from ._evaluation import OVERFLOWS, overflows_at
+    from ._limits import excerpt
+
+    def overflow(k: int, lot: int) -> bool:
+        return overflows_at(model, k, [float(column[lot]) for column in x])
+
     for k, measurand in enumerate(model.measurands):
         where = Location(file=model.source, table=f"measurands.{measurand.name}",
                          key="equation", line=measurand.line)
@@ -187,18 +193,21 @@ def _check_finite(model: Model, values: np.ndarray, jacobian: np.ndarray,
         wrong = ~np.isfinite(values[k])
         if wrong.any():
             lot = int(np.argmax(wrong))
+            equation = excerpt(measurand.equation)
+            cause = f"'{equation}' {OVERFLOWS}" if overflow(k, lot) else \
+                f"a division by zero or a function outside its domain in '{equation}'"
             raise InputError(f"expected a finite value at the estimates of every lot, found "
-                             f"{float(values[k, lot])} at {_lot(column, lot)} (a division by "
-                             f"zero or a function outside its domain in "
-                             f"'{measurand.equation}')", where)
+                             f"{float(values[k, lot])} at {_lot(column, lot)} ({cause})",
+                             where)
         wrong_c = ~np.isfinite(jacobian[k])  # (n, L)
         if wrong_c.any():
             lot = int(np.argmax(wrong_c.any(axis=0)))
             bad = [i.name for j, i in enumerate(model.inputs) if wrong_c[j, lot]]
+            cause = (f"the derivative of '{excerpt(measurand.equation)}' {OVERFLOWS}"
+                     if overflow(k, lot) else "the equation is not differentiable there")
             raise InputError(f"expected finite sensitivity coefficients at the estimates of "
                              f"every lot, found none for {', '.join(bad)} at "
-                             f"{_lot(column, lot)} (the equation is not differentiable "
-                             f"there)", where)
+                             f"{_lot(column, lot)} ({cause})", where)
 
 
 def _welch_satterthwaite(combined: np.ndarray, parts: np.ndarray,

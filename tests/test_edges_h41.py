@@ -123,7 +123,7 @@ def test_adaptive_procedure_refuses_an_output_without_variance(cli, tmp_path):
     code, stdout, stderr = cli("run", str(path), "--adaptive")
     assert code == 1 and stdout == ""
     assert stderr == (
-        f"error: {path}: [inputs.b] expected inputs with a finite variance for the adaptive "
+        f"error: {path}:7: [inputs.b] expected inputs with a finite variance for the adaptive "
         "procedure, found ν = 1: a t distribution with ν ≤ 2 has none, so the Monte Carlo "
         "standard deviation of 'y' never settles (JCGM 101 6.4.9, 7.9); give a fixed number "
         "of trials instead\n")

@@ -136,6 +136,7 @@ def test_overflow_of_one_measurand_beside_a_division_by_zero_of_another() -> Non
     ([True, 2], [[1, 0], [0, 1]], "expected values as numbers, found bool True"),
     ([1, np.bool_(False)], [[1, 0], [0, 1]], "expected values as numbers, found bool np.False_"),
     ([1, 2], [[1, False], [0, 1]], "expected covariance as numbers, found bool False"),
+    ([1.0], [[True]], "expected covariance as numbers, found bool True"),
     (np.array([True, False]), [[1, 0], [0, 1]], "expected values as numbers, found ndarray")])
 def test_combine_refuses_bools(values: Any, covariance: Any, message: str) -> None:
     with pytest.raises(BudgetError, match=re.escape(message)):
@@ -267,3 +268,52 @@ def test_a_batch_shows_itself(tmp_path) -> None:
     assert checker.tags.count("tr") == 3 and "svg" in checker.tags
     assert "good/campaign.toml" in text and "failed: " in text
     assert "2 campaign(s): 1 certified, 1 failed." in text
+
+
+# 7. the line of an input named by an error found after reading
+
+def test_an_overflowing_contribution_names_the_line_of_its_input(cli, tmp_path) -> None:
+    # c = a = 1e200 and u(b) = 1e200: c·u(b) = 1e400; "[inputs.b]" came without its line
+    path = tmp_path / "huge.toml"
+    path.write_text(_model("a * b", a=(1e200, 1.0), b=(1.0, 1e200)))
+    code, _, stderr = cli("run", str(path), "--trials", "0")
+    assert code == 1
+    assert stderr == (f"error: {path}:7: [inputs.b] the contribution c·u(x) of 'b' to 'y' "
+                      "overflows: beyond the floating-point range (±1.8e308); rescale the "
+                      "units\n")
+
+
+def test_inputs_keep_the_line_of_their_table() -> None:
+    model = parse_model(_model("a * b", a=(1.0, 0.1), b=(2.0, 0.1)), "m.toml")
+    assert [i.line for i in model.inputs] == [4, 7]
+    # a what-if keeps it: the input is still the one written there
+    assert model.with_uncertainty("b", factor=2.0).input("b").line == 7
+
+
+@pytest.mark.parametrize("equation, columns, cause", [
+    ("a * b", {"a": [1.0, 1e200], "b": [1.0, 1e200]},
+     "found inf at lot 2 (position 1) ('a * b' overflows: a result beyond ±1.8e308"),
+    ("a / b", {"b": [1.0, 0.0]},
+     "found inf at lot 2 (position 1) (a division by zero or a function outside its domain "
+     "in 'a / b')"),
+    ("a / b", {"b": [1.0, 1e-160]},
+     "found none for b at lot 2 (position 1) (the derivative of 'a / b' overflows")])
+def test_many_lots_tell_an_overflow_from_a_division_by_zero(equation: str, columns: Any,
+                                                           cause: str) -> None:
+    from budget.lots import propagate_lots
+
+    model = parse_model(_model(equation, a=(1.0, 0.1), b=(1.0, 0.1)), "m.toml")
+    with pytest.raises(BudgetError, match=re.escape(cause)):
+        propagate_lots(model, columns)
+
+
+def test_a_coverage_from_the_file_is_named_as_the_file_s_setting(cli, tmp_path) -> None:
+    # the file's coverage reached simulate as an argument: "m.toml: coverage: …" without
+    # the table that holds it
+    path = tmp_path / "m.toml"
+    path.write_text(_model("a", a=(1.0, 1.0)) + '[settings]\ntrials = "adaptive"\n'
+                    "coverage = 0.9999999\n")
+    code, _, stderr = cli("run", str(path))
+    assert code == 1
+    assert stderr.startswith(f"error: {path}: [settings] coverage: expected a coverage "
+                             "probability whose adaptive batches fit the limit")

@@ -269,3 +269,91 @@ def test_certify_names_its_reported_interval_argument(demo):
     with pytest.raises(BudgetError) as caught:
         certify(campaign, trials=0, reported_interval="monte_carlo")
     assert str(caught.value).startswith(f"{demo / 'campaign.toml'}: reported_interval: ")
+
+
+# --- valid_until against the shelf life -------------------------------------------------
+
+def _valid_until(folder: Path, text: str) -> Path:
+    campaign = folder / "campaign.toml"
+    _replace(campaign, 'valid_until = "2028-04-30"', f"valid_until = {text}")
+    return campaign
+
+
+def _validity_lines(cli, campaign: Path, *more: str) -> list[str]:
+    code, _, stderr = cli("certify", str(campaign), "--trials", "0", *more)
+    assert code == 0, stderr
+    return [line for line in stderr.splitlines() if "[certificate] valid_until" in line]
+
+
+def test_the_demo_certificate_ends_within_its_shelf_life(cli):
+    # the demo's copy states 2028-04-30, within 36 months of its last determination
+    for name in ("vics-as-25a/campaign.toml", "vics-as-25a/campaign-methods.toml",
+                 "vics-as-25a-lab-files/campaign.toml"):
+        assert _validity_lines(cli, MODELS / name) == []
+
+
+def test_a_valid_until_beyond_the_shelf_life_from_the_last_run_warns(demo, cli):
+    # Found: the demo's original "2028-06-30" is 36 months after the planned release,
+    # but the value was measured on 2025-05-08 (the last of the runs' dates) and u_lts
+    # covers 36 months, so nothing covered the last 53 days (2028-05-08 to 2028-06-30:
+    # 23 + 30 days, counted by hand)
+    campaign = _valid_until(demo, '"2028-06-30"')
+    assert _validity_lines(cli, campaign) == [
+        f"warning: plausibility: {campaign}:36: [certificate] valid_until: 2028-06-30 is 53 "
+        "days after the end of the shelf life: u_lts covers 36 months from the last "
+        "characterization run (2025-05-08), up to 2028-05-08; end the period of validity "
+        "by then, or support a longer shelf_life with stability data"]
+    code, stdout, _ = cli("certify", str(campaign), "--trials", "0", "--strict")
+    assert (code, stdout) == (3, "")
+
+
+@pytest.mark.parametrize("text, late", [
+    ("2028-05-08", None),  # the last day of 36 calendar months: still covered
+    ('"2028-05-09"', 1),
+    ("2028-05-09T12:00:00", 1),  # a TOML date-time counts by its day
+])
+def test_the_last_covered_day_is_the_same_day_36_calendar_months_later(demo, cli, text,
+                                                                       late):
+    lines = _validity_lines(cli, _valid_until(demo, text))
+    if late is None:
+        assert lines == []
+    else:
+        assert len(lines) == 1 and "2028-05-09 is 1 day after the end" in lines[0]
+
+
+def test_a_shelf_life_in_days_counts_days_and_without_dated_runs_the_models_date(demo,
+                                                                                 cli):
+    campaign = _valid_until(demo, '"2028-02-02"')
+    _replace(campaign, "shelf_life = 36 ", 'shelf_life = "1000 d" ')
+    # 2025-05-08 + 1000 d = 2028-02-02 (Python's datetime): covered
+    assert _validity_lines(cli, campaign) == []
+    # without the runs' date column the model's `measured` day, 2025-05-06, counts
+    runs = demo / "determinations.csv"
+    rows = [line.split(",") for line in runs.read_text(encoding="utf-8").splitlines()]
+    runs.write_text("".join(",".join(r[:2] + r[3:]) + "\n" for r in rows), encoding="utf-8")
+    assert dt.date(2025, 5, 6) + dt.timedelta(days=1000) == dt.date(2028, 1, 31)
+    lines = _validity_lines(cli, campaign)
+    assert len(lines) == 1
+    assert ("2028-02-02 is 2 days after the end of the shelf life: u_lts covers 32.8542 months "
+            "from the last characterization run (2025-05-06), up to 2028-01-31") in lines[0]
+
+
+def test_a_valid_until_before_the_characterization_warns(demo, cli):
+    campaign = _valid_until(demo, "2024-04-30")
+    assert _validity_lines(cli, campaign) == [
+        f"warning: plausibility: {campaign}:36: [certificate] valid_until: 2024-04-30 is "
+        "before the last characterization run (2025-05-08): the certified value would be "
+        "valid for no time; a slip in the year?"]
+
+
+def test_a_valid_until_that_is_no_date_is_shown_as_written(demo, cli):
+    campaign = _valid_until(demo, '"36 months from dispatch"')
+    assert _validity_lines(cli, campaign) == []
+
+
+def test_a_valid_until_day_that_does_not_exist_is_refused(demo, cli):
+    campaign = _valid_until(demo, '"2028-02-30"')
+    code, stdout, stderr = cli("certify", str(campaign), "--trials", "0")
+    assert (code, stdout) == (1, "")
+    assert stderr == (f"error: {campaign}:36: [certificate] valid_until: expected a date "
+                      "that exists, found '2028-02-30'\n")
