@@ -75,8 +75,8 @@ class Program:
                                                                              self.release))
                        if kind != "const"]
         # per step, an operand whose array may take the result (see ``_reusable``)
-        self._reuse = {at: found for at, kind, args, payload, done in self._steps
-                       if (found := self._reusable(kind, args, payload, done)) is not None}
+        self._reuse = {at: position for at, kind, args, payload, done in self._steps
+                       if (position := self._reusable(kind, args, payload, done)) is not None}
         # sums and products that begin (after a number) with a run of consecutive inputs
         self._ranges: dict[int, tuple[float | None, int, int, tuple[int, ...]]] = {}
         for at, kind, args, _, _ in self._steps:
@@ -389,9 +389,9 @@ def _apply_into(kind: str, operands: list[Any], payload: Any, position: int) -> 
         if payload == 0.5:
             return np.sqrt(target, out=target)
         return np.power(target, operands[1], out=target)
-    ufunc = _FORWARD[payload]
-    assert isinstance(ufunc, np.ufunc)
-    return ufunc(target, out=target)
+    function = _FORWARD[payload]
+    assert isinstance(function, np.ufunc)
+    return function(target, out=target)
 
 
 def _input_run(args: tuple[int, ...], filled: list[Any], inputs: int
