@@ -43,9 +43,12 @@ _SCALE = float(1 << _BITS)
 _MASK = 2 * LAYERS - 1  # the layer (low 8 bits) and the sign (bit 8)
 # Numbers per piece of the fast path: large enough that the dozen numpy calls per piece
 # (each taking the interpreter lock) leave two threads free to run side by side, small
-# enough that a piece's arrays (about 33 bytes a number) stay in the processor's caches
-# (measured in benchmarks/generators.py: 2^14 scaled 0.9x on two threads, 2^17 1.8x).
-_PIECE = 1 << 18
+# enough that a piece's arrays (about 33 bytes a number) stay in the processor's caches.
+# Measured here (benchmarks/generators.py, two threads against one): 2^14 0.84x, 2^15
+# 1.08x, 2^16 1.51x, 2^17 1.65x, 2^18 1.79x, but 2^18 fills alone at half the speed of
+# 2^17 in some runs (its arrays no longer fit the cache); the Monte Carlo ratio benchmark
+# gave the same times for 2^16-2^18.
+_PIECE = 1 << 17
 
 
 def _f(x: float) -> float:
