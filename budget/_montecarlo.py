@@ -668,9 +668,9 @@ def _run_blocks(sampler: _Sampler, trials: int, out: np.ndarray,
     tails = cuts.tails
     if tails is None:
         return total, []
-    return total, [found if found is not None else
-                               tails.collect(out[:, b * block:(b + 1) * block])
-                               for b, found in enumerate(kept)]
+    return total, [found if found is not None
+                   else tails.collect(out[:, b * block:(b + 1) * block])
+                   for b, found in enumerate(kept)]
 
 
 def _block_moments(view: np.ndarray) -> np.ndarray:
