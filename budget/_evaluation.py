@@ -65,9 +65,16 @@ def _events_of(model: Model, k: int, events: set[str]) -> set[str]:
     if len(model.measurands) == 1:
         return events
     own: set[str] = set()
-    Program([model.measurands[k].graph], [i.name for i in model.inputs]).gradient(
-        estimates(model), own)
+    _measurand_gradient(model, k, estimates(model), own)
     return own
+
+
+def _measurand_gradient(model: Model, k: int, point: Sequence[float], events: set[str]
+                        ) -> tuple[np.ndarray, np.ndarray]:
+    """Value and gradient of measurand ``k`` alone at ``point``, its floating-point
+    events collected in ``events``."""
+    return Program([model.measurands[k].graph], [i.name for i in model.inputs]
+                   ).gradient(point, events)
 
 
 OVERFLOWS = ("overflows: a result beyond ±1.8e308 from finite numbers; rescale the units "
@@ -84,8 +91,7 @@ def _overflowed(events: set[str], value: float, row: np.ndarray) -> bool:
 def overflows_at(model: Model, k: int, point: Sequence[float]) -> bool:
     """:func:`_overflowed` for measurand ``k`` at input values ``point`` (a lot)."""
     events: set[str] = set()
-    values, jac = Program([model.measurands[k].graph], [i.name for i in model.inputs]
-                          ).gradient(point, events)
+    values, jac = _measurand_gradient(model, k, point, events)
     return _overflowed(events, float(values[0]), jac[0])
 
 
@@ -101,14 +107,13 @@ def _refuse(model: Model, k: int, values: np.ndarray, jac: np.ndarray,
                      key="equation", line=measurand.line)
     equation = excerpt(measurand.equation)
     overflow = _overflowed(events, values[k], jac[k])
-    rescale = OVERFLOWS
     if not math.isfinite(values[k]):
-        cause = (f"'{equation}' {rescale}" if overflow else
+        cause = (f"'{equation}' {OVERFLOWS}" if overflow else
                  f"a division by zero or a function outside its domain in '{equation}'")
         raise PropagationError(f"expected a finite value at the estimates, found {values[k]} "
                                f"({cause})", where)
     bad = [i.name for j, i in enumerate(model.inputs) if not math.isfinite(jac[k, j])]
-    cause = (f"the derivative of '{equation}' {rescale}" if overflow else
+    cause = (f"the derivative of '{equation}' {OVERFLOWS}" if overflow else
              "the equation is not differentiable there")
     raise PropagationError(f"expected finite sensitivity coefficients at the estimates, found "
                            f"none for {', '.join(bad)} ({cause})", where)
