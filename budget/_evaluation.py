@@ -69,7 +69,8 @@ def _events_of(model: Model, k: int, events: set[str]) -> set[str]:
     return own
 
 
-def _measurand_gradient(model: Model, k: int, point: Sequence[float], events: set[str]
+def _measurand_gradient(model: Model, k: int, point: Sequence[float] | np.ndarray,
+                        events: set[str]
                         ) -> tuple[np.ndarray, np.ndarray]:
     """Value and gradient of measurand ``k`` alone at ``point``, its floating-point
     events collected in ``events``."""
