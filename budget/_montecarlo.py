@@ -67,7 +67,7 @@ __all__ = ["BLOCK", "block_size", "NONFINITE_LIMIT", "KEEP_LIMIT", "Validation",
            "MeasurandSimulation", "Simulation",
            "simulate", "tolerance", "coverage_interval", "shortest_interval"]
 
-BLOCK = 1 << 16
+BLOCK = 1 << 17
 # numpy's SFC64 bit generator: measured here (benchmarks/generators.py) to draw normal
 # numbers about 10-25 % faster than the default PCG64, with the same SeedSequence seeding.
 # The standard normals of Gaussian inputs come from its 64-bit words through a ziggurat
@@ -346,7 +346,7 @@ class _Sampler:
             else:
                 part = values if stop - start == size else [
                     v[start:stop] if isinstance(v, np.ndarray) else v for v in values]
-                found = self.program.evaluate(part, rows)
+                found = self.program.evaluate(part, rows, divide=True)
             for k, y in enumerate(found):
                 out[k, start:stop] = y
         return out
@@ -692,11 +692,17 @@ def _run_blocks(sampler: _Sampler, trials: int, out: np.ndarray,
 def _block_moments(view: np.ndarray) -> np.ndarray:
     """Per measurand: count, mean and sum of squared deviations of the jointly finite
     values of one block (computed while the block is in the cache)."""
-    finite = np.isfinite(view).all(axis=0)
-    data = view if finite.all() else view[:, finite]
+    with np.errstate(over="ignore", invalid="ignore"):
+        mean = view.mean(axis=1)  # finite only when every value is (or a sum overflowed)
+    if np.isfinite(mean).all():
+        data = view
+    else:
+        finite = np.isfinite(view).all(axis=0)
+        data = view if finite.all() else view[:, finite]
     n = data.shape[1]
     with np.errstate(over="ignore"):  # a sum beyond ±1.8e308 (values of 1e304 and more)
-        mean = data.mean(axis=1) if n else np.zeros(view.shape[0])
+        if data is not view:
+            mean = data.mean(axis=1) if n else np.zeros(view.shape[0])
         if not np.isfinite(mean).all():  # then in units of the largest value
             scale = np.max(np.abs(data), axis=1)
             mean = scale * (data / scale[:, None]).mean(axis=1)

@@ -74,9 +74,6 @@ class Program:
                        for i, ((kind, args, payload), done) in enumerate(zip(self.ops,
                                                                              self.release))
                        if kind != "const"]
-        # per step, an operand whose array may take the result (see ``_reusable``)
-        self._reuse = {at: position for at, kind, args, payload, done in self._steps
-                       if (position := self._reusable(kind, args, payload, done)) is not None}
         # sums and products that begin (after a number) with a run of consecutive inputs
         self._ranges: dict[int, tuple[float | None, int, int, tuple[int, ...]]] = {}
         for at, kind, args, _, _ in self._steps:
@@ -84,6 +81,15 @@ class Program:
                 found = _input_run(args, self._filled, len(self.symbols))
                 if found is not None:
                     self._ranges[at] = found
+        # what ``evaluate(..., divide=True)`` runs: a product with a reciprocal used
+        # nowhere else becomes one division (see ``_divided``)
+        self._divided_steps = _divided(self._steps, self._ranges, self.outputs)
+        # per step, an operand whose array may take the result (see ``_reusable``)
+        self._reuse = {at: position for at, kind, args, payload, done in self._steps
+                       if (position := self._reusable(kind, args, payload, done)) is not None}
+        self._divided_reuse = {
+            at: position for at, kind, args, payload, done in self._divided_steps
+            if (position := self._reusable(kind, args, payload, done)) is not None}
 
     def _reusable(self, kind: str, args: tuple[int, ...], payload: Any,
                   done: tuple[int, ...]) -> int | None:
@@ -93,7 +99,8 @@ class Program:
         without): the first or second operand of a sum or product (its first step), the
         base of a power, the argument of a function. Never an input's array."""
         inputs = len(self.symbols)
-        positions = {"add": (0, 1), "mul": (0, 1), "pow": (0,), "call": (0,)}.get(kind, ())
+        positions = {"add": (0, 1), "mul": (0, 1), "div": (0, 1), "pow": (0,),
+                     "call": (0,)}.get(kind, ())
         for position in positions:
             slot = args[position] if position < len(args) else -1
             if slot >= inputs and slot in done and slot not in self.constants \
@@ -209,22 +216,27 @@ class Program:
         return self._emit(kind, tuple(args), None)
 
     def evaluate(self, values: Sequence[Any],
-                 rows: tuple[dict[int, int], np.ndarray] | None = None) -> list[Any]:
+                 rows: tuple[dict[int, int], np.ndarray] | None = None,
+                 divide: bool = False) -> list[Any]:
         """The outputs for input values (scalars, or equal-length float64 arrays).
 
         Intermediate arrays are dropped as soon as no later operation needs them, so a
         large model evaluated on a block of trials holds only its live values. ``rows``
         (input slot → row of a 2-D array holding those inputs' values) lets a sum or
         product of consecutive inputs run as one reduction over the rows: the same
-        additions in the same order (numpy reduces a non-contiguous axis in order)."""
+        additions in the same order (numpy reduces a non-contiguous axis in order).
+        ``divide``: a product with a reciprocal, a·b·c⁻¹, is computed as (a·b)/c, one
+        pass over the arrays fewer and one rounding fewer (the Monte Carlo method)."""
         slots: list[Any] = list(values) + self._filled[len(values):]
+        steps, reuses = ((self._divided_steps, self._divided_reuse) if divide
+                         else (self._steps, self._reuse))
         with np.errstate(all="ignore"):
-            for at, kind, args, payload, done in self._steps:
+            for at, kind, args, payload, done in steps:
                 found = rows is not None and at in self._ranges and _reduced(
                     kind, self._ranges[at], rows, slots)
                 if found is False:
                     operands = [slots[a] for a in args]
-                    reuse = self._reuse.get(at)
+                    reuse = reuses.get(at)
                     found = _apply_into(kind, operands, payload, reuse) \
                         if reuse is not None else None
                     if found is None:
@@ -346,11 +358,45 @@ def _use_counts(outputs: Sequence[Node]) -> dict[int, int]:
     return uses
 
 
+_Step = tuple[int, str, tuple[int, ...], Any, tuple[int, ...]]
+
+
+def _divided(steps: list[_Step], ranges: dict[int, Any], outputs: tuple[int, ...]
+             ) -> list[_Step]:
+    """``steps`` with each product that holds the reciprocal c⁻¹ of a ``pow`` step used
+    nowhere else turned into a ``div`` step, (product of the other factors) / c, and that
+    ``pow`` step dropped; products that begin with a run of inputs (``ranges``) stay."""
+    uses: dict[int, int] = {}
+    for _, _, args, _, _ in steps:
+        for a in args:
+            uses[a] = uses.get(a, 0) + 1
+    reciprocals = {at: (args[0], done) for at, kind, args, payload, done in steps
+                   if kind == "pow" and payload == -1.0 and uses.get(at) == 1
+                   and at not in outputs}
+    dropped: set[int] = set()
+    rewritten: dict[int, _Step] = {}
+    for at, kind, args, _, done in steps:
+        if kind != "mul" or at in ranges:
+            continue
+        found = next((a for a in args if a in reciprocals and a not in dropped), None)
+        if found is None:
+            continue
+        base, released = reciprocals[found]  # the base dies here now, not at the pow
+        dropped.add(found)
+        rewritten[at] = (at, "div", tuple(a for a in args if a != found) + (base,), None,
+                         tuple(d for d in done if d != found) + released)
+    return [rewritten.get(step[0], step) for step in steps if step[0] not in dropped]
+
+
 def _apply(kind: str, operands: list[Any], payload: Any) -> Any:
     if kind == "add":
         return _fold(operator.add, np.add, operands)
     if kind == "mul":
         return _fold(operator.mul, np.multiply, operands)
+    if kind == "div":
+        top = operands[0] if len(operands) == 2 else _fold(operator.mul, np.multiply,
+                                                             operands[:-1])
+        return np.divide(top, operands[-1])
     if kind == "pow":
         base = operands[0]
         if payload == -1.0:
@@ -381,6 +427,13 @@ def _apply_into(kind: str, operands: list[Any], payload: Any, position: int) -> 
         for term in operands[2:]:
             ufunc(total, term, out=total)
         return total
+    if kind == "div":  # the target is a factor of the numerator, or a lone one's divisor
+        if len(operands) == 2:
+            return np.divide(operands[0], operands[1], out=target)
+        total = np.multiply(operands[0], operands[1], out=target)
+        for term in operands[2:-1]:
+            np.multiply(total, term, out=total)
+        return np.divide(total, operands[-1], out=total)
     if kind == "pow":
         if payload == -1.0:
             return np.divide(1.0, target, out=target)

@@ -183,8 +183,8 @@ def _fast(generator: np.random.Generator, flat: np.ndarray, signed: np.ndarray,
     words = generator.bit_generator.random_raw(n)
     code = np.bitwise_and(words, np.uint64(_MASK), out=code_of).view(np.int64)
     point = np.right_shift(words, np.uint64(64 - _BITS), out=words).view(np.int64)
-    np.multiply(point, np.take(signed, code, out=widths), out=flat)
-    np.greater_equal(point, np.take(bounds, code, out=limits), out=beyond)
+    np.multiply(point, np.take(signed, code, out=widths, mode="clip"), out=flat)
+    np.greater_equal(point, np.take(bounds, code, out=limits, mode="clip"), out=beyond)
     return code, np.flatnonzero(beyond)
 
 
