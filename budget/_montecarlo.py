@@ -75,6 +75,11 @@ BLOCK = 1 << 17
 GENERATOR = "SFC64"
 NORMALS = "vectorised ziggurat (Marsaglia and Tsang 2000), 256 layers"
 _BLOCK_BYTES = 1 << 25
+# the draws of one part of a block (part_size): a model of 10^4 inputs draws 1024-trial
+# blocks in parts of 128 trials (10 MB); measured here against 2^20-2^25 and no parts
+# (benchmarks/montecarlo_inputs.py shapes): the mean through definitions about 10 % less
+# CPU, the sum about the same
+_PART_BYTES = 1 << 24
 # Evaluation works on slices of at most this many trials: a narrow model's block in one
 # go (fewer numpy calls, so fewer turns of the interpreter lock between the two workers;
 # measured here against 2^13-2^15 on the ratio benchmark, the demo and EURACHEM A2), a
@@ -215,6 +220,27 @@ def block_size(model: Model) -> int:
     return size
 
 
+def part_size(model: Model) -> int:
+    """Trials drawn and evaluated at a time within a block: ``BLOCK``, halved until the
+    draws of one part fit in ``_PART_BYTES`` (at least 64 trials). A model of 10⁴ inputs
+    draws a block of 1024 trials in parts of 128, whose 10 MB of draws the evaluation reads
+    while they are still in the processor's cache. It depends on the model only."""
+    drawn = drawn_inputs(model)
+    size = BLOCK
+    while size > 64 and drawn * size * 8 > _PART_BYTES:
+        size //= 2
+    return size
+
+
+def _parts(size: int, part: int) -> Generator[tuple[int, int], None, None]:
+    """The parts of a block of ``size`` trials; a last part of one trial joins the one
+    before it (as in ``_slices``)."""
+    starts = list(range(0, size, part))
+    if len(starts) > 1 and size - starts[-1] == 1:
+        starts.pop()
+    yield from zip(starts, starts[1:] + [size])
+
+
 def tolerance(u: float, digits: int) -> float:
     """δ = ½·10^ℓ where u = c·10^ℓ and c has ``digits`` digits (JCGM 101 7.9.2)."""
     if not math.isfinite(u) or u <= 0.0:
@@ -329,15 +355,23 @@ class _Sampler:
         saved = len(self.program._steps) - len(self.schedule.items)
         self.grouped = saved >= _GROUPING_GAIN
         self.width = _width(self.schedule.widest) if self.grouped else _SLICE
+        self.part = part_size(model)
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
-        """Draw block ``index`` and evaluate it into ``out`` (measurands × size)."""
-        values = self.draw(index, size)
+        """Draw block ``index`` and evaluate it into ``out`` (measurands × size), part by
+        part (``_parts``): a wide model's draws are evaluated while they are in the cache."""
         out = np.empty((len(self.model.measurands), size)) if out is None else out
+        rng = self._generator(index)
+        for low, high in _parts(size, self.part):
+            values = self._draw(rng, high - low)
+            self._evaluate(values, high - low, out[:, low:high])
+        return out
+
+    def _evaluate(self, values: list[Any], size: int, out: np.ndarray) -> None:
         normals = self.plan[-1] if self.plan and self.plan[-1][0] == "normal" else None
         matrix = self.local.buffers[len(self.plan) - 1] if normals else None
         buffers = getattr(self.local, "buffers", {})
-        for start, stop in _slices(size, self.width):  # cache-sized slices of the block
+        for start, stop in _slices(size, self.width):  # cache-sized slices of the part
             rows = (self.rows, matrix[:, start:stop]) if matrix is not None else None
             if self.grouped:
                 sources = {n: buffers[n][:, start:stop] for n in self.runs}
@@ -349,18 +383,34 @@ class _Sampler:
                 found = self.program.evaluate(part, rows, divide=True)
             for k, y in enumerate(found):
                 out[k, start:stop] = y
-        return out
+
+    def _generator(self, index: int) -> np.random.Generator:
+        """Block ``index``'s own stream: the same on any number of workers."""
+        return np.random.Generator(np.random.SFC64(
+            np.random.SeedSequence(self.seed, spawn_key=(index,))))
 
     def draw(self, index: int, size: int) -> list[Any]:
-        """The inputs of block ``index``: arrays, or numbers for exact inputs.
+        """The inputs of block ``index`` as ``block`` draws them: arrays of ``size``
+        values (copies, when the block is drawn in several parts), or numbers for exact
+        inputs."""
+        rng = self._generator(index)
+        cuts = list(_parts(size, self.part))
+        if len(cuts) == 1:
+            return self._draw(rng, size)
+        parts = [[v.copy() if isinstance(v, np.ndarray) else v
+                  for v in self._draw(rng, high - low)] for low, high in cuts]
+        return [np.concatenate([p[slot] for p in parts])
+                if isinstance(parts[0][slot], np.ndarray) else parts[0][slot]
+                for slot in range(len(parts[0]))]
+
+    def _draw(self, rng: np.random.Generator, size: int) -> list[Any]:
+        """The inputs of one part of a block, drawn from the block's stream ``rng``.
 
         A run of k consecutive independent rectangular inputs is drawn by rows into one
         reused k × size buffer (the same stream as k calls of ``size`` each), each chunk
         of rows scaled and shifted while it is in the cache; the run of independent
         normal inputs is one fill of its buffer by the vectorised ziggurat
         (``_ziggurat``), scaled piece by piece while in the cache."""
-        rng = np.random.Generator(np.random.SFC64(
-            np.random.SeedSequence(self.seed, spawn_key=(index,))))
         values = self._values(size)
         for number, (kind, item) in enumerate(self.plan):
             if kind == "fixed":
@@ -399,33 +449,45 @@ class _Sampler:
         """Drop this thread's buffers (the first block runs alone, before the workers)."""
         self.local.buffers = {}
         self.local.scratch = {}
-        self.local.values = None
+        self.local.values = {}
+        self.local.views = {}
+        self.local.stores = {}
 
     def _values(self, size: int) -> list[Any]:
-        """A fresh list of the block's input values with the rows of this thread's run
-        buffers already in place (made once per buffer: a model of 10⁴ inputs would
-        otherwise make 10⁴ row views per block, holding the interpreter lock)."""
+        """A fresh list of a part's input values with the rows of this thread's run
+        buffers already in place (made once per buffer and size: a model of 10⁴ inputs
+        would otherwise make 10⁴ row views per part, holding the interpreter lock)."""
         runs = [(number, self._buffer(number, len(item[0]), size))
                 for number, (kind, item) in enumerate(self.plan)
                 if kind in ("normal", "uniform")]
-        made = getattr(self.local, "values", None)
+        made_by_size: dict[int, Any] = getattr(self.local, "values", None) or {}
+        self.local.values = made_by_size
+        made = made_by_size.get(size)
         if made is None or len(made[0]) != len(runs) or any(
                 a is not b for a, (_, b) in zip(made[0], runs)):
             template: list[Any] = [None] * len(self.model.inputs)
             for number, z in runs:
                 for slot, row in zip(self.plan[number][1][0], z):
                     template[slot] = row
-            made = self.local.values = ([z for _, z in runs], template)
+            made = made_by_size[size] = ([z for _, z in runs], template)
         return list(made[1])
 
     def _buffer(self, number: int, rows: int, size: int) -> np.ndarray:
-        """This thread's buffer for the run ``number`` of the plan (reused block after
-        block: the values of a block are dead once it is evaluated)."""
-        buffers: dict[int, np.ndarray] = getattr(self.local, "buffers", None) or {}
-        self.local.buffers = buffers
-        found = buffers.get(number)
-        if found is None or found.shape[1] != size:
-            found = buffers[number] = np.empty((rows, size))
+        """This thread's rows × size buffer for the run ``number`` of the plan: a
+        C-contiguous view of one reused store (the values of a part are dead once it is
+        evaluated), the same view object for the same size."""
+        local = self.local
+        if not getattr(local, "views", None):
+            local.buffers, local.views, local.stores = {}, {}, {}
+        found: np.ndarray | None = local.views.get((number, size))
+        if found is None:
+            store = local.stores.get(number)
+            if store is None or store.size < rows * size:
+                store = local.stores[number] = np.empty(rows * size)
+                local.views = {key: view for key, view in local.views.items()
+                               if key[0] != number}
+            found = local.views[(number, size)] = store[:rows * size].reshape(rows, size)
+        local.buffers[number] = found
         return found
 
 

@@ -40,9 +40,9 @@ SHAPES = {"mean in one equation": mean_of_determinations(200),
 def _one_by_one(sampler: montecarlo._Sampler, index: int, size: int) -> np.ndarray:
     """A block as it was evaluated before grouping: ``Program.evaluate`` on slices of
     ``_SLICE`` trials, sums of consecutive normal inputs reduced over the buffer's rows."""
-    values = sampler.draw(index, size)
+    values = sampler.draw(index, size)  # the block's draws, every part of it
     plan = sampler.plan
-    matrix = (sampler.local.buffers[len(plan) - 1]
+    matrix = (np.array([values[slot] for slot in plan[-1][1][0]])
               if plan and plan[-1][0] == "normal" else None)
     out = np.empty((len(sampler.model.measurands), size))
     for start in range(0, size, montecarlo._SLICE):
@@ -100,3 +100,22 @@ def test_intervals_from_the_tails_select_before_sorting_with_the_same_result():
         expected = (None if low.size < tail or high.size < tail else
                     montecarlo._pick(low[:tail], high[high.size - tail:], m, p))
         assert montecarlo._from_tails(pieces, m, p) == expected
+
+
+def test_a_wide_block_is_drawn_and_evaluated_in_parts_that_depend_on_the_model_only():
+    """A block of a wide model is drawn and evaluated part by part from its one stream
+    (``part_size``, ``_parts``): the parts follow from the model, a last part of one trial
+    joins the one before, and the block equals its concatenated draws evaluated at once."""
+    model = parse_model(mean_of_determinations(400))  # about 1200 inputs drawn
+    sampler = montecarlo._Sampler(model, 3)
+    assert sampler.part < sampler.size
+    assert sampler.part == montecarlo.part_size(model)
+    assert list(montecarlo._parts(2 * 8 + 1, 8)) == [(0, 8), (8, 17)]
+    assert list(montecarlo._parts(5, 8)) == [(0, 5)]
+    size = 2 * sampler.part + 1
+    values = sampler.draw(4, size)
+    assert all(v.shape == (size,) for v in values if isinstance(v, np.ndarray))
+    whole = sampler.program.evaluate(values, divide=True)[0]
+    assert np.allclose(sampler.block(4, size)[0], whole, rtol=1e-14, atol=0.0)
+    other = montecarlo._Sampler(model, 3)  # a fresh sampler: the same numbers
+    assert np.array_equal(other.block(4, size), sampler.block(4, size))
