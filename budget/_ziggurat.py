@@ -151,41 +151,52 @@ def standard_normal(generator: np.random.Generator, out: np.ndarray,
     positions: list[np.ndarray] = []  # flat positions, first values and codes of the
     firsts: list[np.ndarray] = []  # numbers left to the slow paths
     codes: list[np.ndarray] = []
+    pair = (scale, shift) if scale is not None and shift is not None else None
     for first in range(0, rows, rows_each):
         last = min(rows, first + rows_each)
+        # a piece within one row takes its row's scale in the widths (one pass fewer)
+        factor = float(pair[0][first, 0]) if pair is not None and last - first == 1 else None
+        widths = signed if factor is None else signed * factor
         for start in range(0, columns, width):
             piece = table[first:last, start:start + width]  # contiguous in ``out``
             flat = piece.reshape(-1)
-            code, beyond = _fast(generator, flat, signed, bounds)
+            code, beyond, x = _fast(generator, flat, widths, bounds, signed)
             positions.append(beyond + (first * columns + start))
-            firsts.append(flat[beyond])
-            codes.append(code[beyond])
-            if scale is not None and shift is not None:
-                piece *= scale[first:last]
-                piece += shift[first:last]
+            firsts.append(x)
+            codes.append(code)
+            if pair is not None and factor is not None:
+                flat += pair[1][first, 0]
+            elif pair is not None:
+                piece *= pair[0][first:last]
+                piece += pair[1][first:last]
     where = np.concatenate(positions)
     if where.size:
         value = _slow_paths(generator, np.concatenate(firsts), np.concatenate(codes), r,
                             heights)
-        if scale is not None and shift is not None:
+        if pair is not None:
             row = where // columns
-            value = value * scale[row, 0] + shift[row, 0]
+            value = value * pair[0][row, 0] + pair[1][row, 0]
         table.reshape(-1)[where] = value
     return out
 
 
-def _fast(generator: np.random.Generator, flat: np.ndarray, signed: np.ndarray,
-          bounds: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The fast path on one piece: every number as its point times its layer's width;
-    the codes, and the flat positions of those left to the slow paths."""
+def _fast(generator: np.random.Generator, flat: np.ndarray, widths: np.ndarray,
+          bounds: np.ndarray, signed: np.ndarray
+          ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The fast path on one piece: every number as its point times its layer's width
+    (``widths``: the signed widths, or those times a row's scale); for the numbers left
+    to the slow paths, their codes, flat positions and unscaled first values."""
     n = flat.size
-    code_of, widths, limits, beyond = _scratch(n)
+    code_of, found, limits, beyond = _scratch(n)
     words = generator.bit_generator.random_raw(n)
     code = np.bitwise_and(words, np.uint64(_MASK), out=code_of).view(np.int64)
     point = np.right_shift(words, np.uint64(64 - _BITS), out=words).view(np.int64)
-    np.multiply(point, np.take(signed, code, out=widths, mode="clip"), out=flat)
+    # mode="clip": the codes are in range, and numpy buffers take(out=) in "raise" mode
+    np.multiply(point, np.take(widths, code, out=found, mode="clip"), out=flat)
     np.greater_equal(point, np.take(bounds, code, out=limits, mode="clip"), out=beyond)
-    return code, np.flatnonzero(beyond)
+    where = np.flatnonzero(beyond)
+    left = code[where]
+    return left, where, point[where] * signed[left]
 
 
 def _slow_paths(generator: np.random.Generator, x: np.ndarray, code: np.ndarray, r: float,

@@ -192,7 +192,8 @@ def test_runs_of_inputs_draw_the_same_numbers_as_one_call_per_input(monkeypatch,
     """Independent rectangular (and other) inputs drawn by rows into one buffer are the
     numbers of ``Distribution.sample`` called input by input on the same stream; the
     independent normal inputs, drawn last, are one vectorised ziggurat fill of their
-    rows × trials buffer, scaled row by row, whatever the piece size it works in."""
+    rows × trials buffer, scaled row by row, whatever the piece size it works in (to the
+    rounding of the scaled layer widths where a piece lies within one row)."""
     from budget import _ziggurat
     from budget.distributions import Normal, Rectangular
 
@@ -235,7 +236,10 @@ def test_runs_of_inputs_draw_the_same_numbers_as_one_call_per_input(monkeypatch,
         item = m.inputs[names.index(name)]
         assert isinstance(item.distribution, Normal)
         expected = normals[row] * item.distribution.sd + item.estimate
-        assert np.array_equal(values[names.index(name)], expected)
+        if piece >= 2 * 1000:  # a piece spans both rows: scaled after, to the last bit
+            assert np.array_equal(values[names.index(name)], expected)
+        else:  # pieces within one row take its scale into the layer widths
+            np.testing.assert_allclose(values[names.index(name)], expected, rtol=1e-15)
 
 
 @pytest.mark.parametrize("operator", [" + ", " * "])

@@ -89,14 +89,24 @@ def test_the_tail_beyond_r():
 def test_scaling_rows_and_the_layout_do_not_change_the_numbers(monkeypatch):
     """The same seed gives the same numbers whatever the shape and piece size; each row
     scaled and shifted is that row of the unscaled numbers times its scale plus its
-    shift."""
+    shift: to the last bit where a piece spans several rows, and to the rounding of the
+    scaled layer widths where a piece lies within one row (its row's scale is taken into
+    the widths, one pass fewer)."""
     plain = _normals(0, seed=5, shape=(3, 50_001))
+    scale, shift = np.array([[2.0], [0.5], [3.0]]), np.array([[10.0], [-1.0], [0.0]])
+    expected = plain.reshape(3, -1) * scale + shift
+    several = zig.standard_normal(np.random.Generator(np.random.SFC64(5)),
+                                  np.empty((3, 50_001)), scale, shift)
+    # pieces of 2^17 numbers: rows 0-1 together (to the last bit), then row 2 alone
+    assert np.array_equal(several[:2], expected[:2])
+    assert not np.array_equal(several[2], expected[2])
+    np.testing.assert_allclose(several[2], expected[2], rtol=1e-15, atol=1e-14)
     monkeypatch.setattr(zig, "_PIECE", 4096)
     assert np.array_equal(_normals(150_003, seed=5), plain)
-    scale, shift = np.array([[2.0], [0.5], [3.0]]), np.array([[10.0], [-1.0], [0.0]])
-    scaled = zig.standard_normal(np.random.Generator(np.random.SFC64(5)),
+    within = zig.standard_normal(np.random.Generator(np.random.SFC64(5)),
                                  np.empty((3, 50_001)), scale, shift)
-    assert np.array_equal(scaled, plain.reshape(3, -1) * scale + shift)
+    assert not np.array_equal(within, expected)  # the folded path was taken
+    np.testing.assert_allclose(within, expected, rtol=1e-15, atol=1e-14)
 
 
 def test_refuses_arrays_it_cannot_fill_in_place():
