@@ -145,7 +145,7 @@ def standard_normal(generator: np.random.Generator, out: np.ndarray,
     rows, columns = table.shape
     if table.size == 0:
         return out
-    r, signed, bounds, heights, _ = layers()
+    r, signed, bounds, _, _ = layers()
     rows_each = max(1, _PIECE // columns)
     width = min(columns, _PIECE)
     positions: list[np.ndarray] = []  # flat positions, first values and codes of the
@@ -171,8 +171,7 @@ def standard_normal(generator: np.random.Generator, out: np.ndarray,
                 piece += pair[1][first:last]
     where = np.concatenate(positions)
     if where.size:
-        value = _slow_paths(generator, np.concatenate(firsts), np.concatenate(codes), r,
-                            heights)
+        value = _slow_paths(generator, np.concatenate(firsts), np.concatenate(codes), r)
         if pair is not None:
             row = where // columns
             value = value * pair[0][row, 0] + pair[1][row, 0]
@@ -199,21 +198,33 @@ def _fast(generator: np.random.Generator, flat: np.ndarray, widths: np.ndarray,
     return left, where, point[where] * signed[left]
 
 
-def _slow_paths(generator: np.random.Generator, x: np.ndarray, code: np.ndarray, r: float,
-                heights: np.ndarray) -> np.ndarray:
+@cache
+def _wedges() -> tuple[np.ndarray, np.ndarray]:
+    """Per layer: the wedge's bottom f(x_i) and height f(x_{i−1}) − f(x_i); layer 0 (the
+    base strip) gets a bottom of 2, above f everywhere, so that it always leaves the
+    wedge test for the tail."""
+    heights = layers()[3]
+    return (np.concatenate([[2.0], heights[1:]]),
+            np.concatenate([[0.0], heights[:-1] - heights[1:]]))
+
+
+def _slow_paths(generator: np.random.Generator, x: np.ndarray, code: np.ndarray, r: float
+                ) -> np.ndarray:
     """The numbers of the positions whose point fell outside the next layer's width,
-    from their first values ``x`` and codes."""
+    from their first values ``x`` and codes: the wedge test on all of them at once (a
+    point under the curve is kept), then the base strip's to the tail and the others
+    rejected to a fresh start."""
     layer = code & (LAYERS - 1)
     value = x  # the caller's own array
-    base = layer == 0
+    bottom, gap = _wedges()
+    height = np.take(bottom, layer) + np.take(gap, layer) * generator.random(layer.size)
+    again = np.flatnonzero(height >= np.exp(-0.5 * np.square(x)))
+    base = layer[again] == 0
     if base.any():
-        sign = np.where(code[base] >= LAYERS, -1.0, 1.0)
-        value[base] = sign * _tail(generator, int(base.sum()), r)
-    wedge = np.flatnonzero(~base)
-    layer = layer[wedge]
-    height = heights[layer] + (heights[layer - 1] - heights[layer]) * generator.random(
-        wedge.size)
-    again = wedge[height >= np.exp(-0.5 * np.square(x[wedge]))]
+        strip = again[base]
+        sign = np.where(code[strip] >= LAYERS, -1.0, 1.0)
+        value[strip] = sign * _tail(generator, strip.size, r)
+        again = again[~base]
     if again.size:
         value[again] = generator.standard_normal(again.size)
     return value
