@@ -22,6 +22,10 @@ differs from numpy's, which draws one number at a time. About 30 % less time per
 than ``Generator.standard_normal`` on this project's machine (benchmarks/generators.py),
 because the table look-ups and tests run as array operations instead of a call per number.
 
+When the caller asks for scaled numbers (σ·z + μ per row), a piece that lies within one
+row takes σ into the layer widths, (σ·w)·p instead of σ·(w·p): the same number to a unit
+in the last place, one pass over the piece fewer.
+
 r is solved for (bisection) so that the 255 rectangles and the base strip close exactly at
 the top, f(x_1) + v/x_1 = 1; it agrees with the published r = 3.6541528853610088 to about
 10⁻¹⁵ (tests/test_ziggurat.py).
