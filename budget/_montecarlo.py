@@ -76,11 +76,12 @@ BLOCK = 1 << 17
 GENERATOR = "SFC64"
 NORMALS = "vectorised ziggurat (Marsaglia and Tsang 2000), 256 layers"
 _BLOCK_BYTES = 1 << 25
-# the draws of one part of a block (part_size): a model of 10^4 inputs draws 1024-trial
-# blocks in parts of 128 trials (10 MB); measured here against 2^20-2^25 and no parts
-# (benchmarks/montecarlo_inputs.py shapes): the mean through definitions about 10 % less
-# CPU, the sum about the same
-_PART_BYTES = 1 << 24
+# the draws of one part of a block (part_size): the block's own bound, which a model of more
+# than 4096 inputs would pass at the 1024 trials a block holds at least (10^4 inputs: 82 MB
+# per worker in one go, 20 MB in parts of 256 trials). Measured here (10^4 inputs, four
+# shapes, parts of 128 and 256 trials against none): the same speed within the host's
+# noise, less peak memory
+_PART_BYTES = _BLOCK_BYTES
 # Evaluation works on slices of at most this many trials: a narrow model's block in one
 # go (fewer numpy calls, so fewer turns of the interpreter lock between the two workers;
 # measured here against 2^13-2^15 on the ratio benchmark, the demo and EURACHEM A2), a
@@ -224,8 +225,8 @@ def block_size(model: Model) -> int:
 def part_size(model: Model) -> int:
     """Trials drawn and evaluated at a time within a block: ``BLOCK``, halved until the
     draws of one part fit in ``_PART_BYTES`` (at least 64 trials). A model of 10⁴ inputs
-    draws a block of 1024 trials in parts of 128, whose 10 MB of draws the evaluation reads
-    while they are still in the processor's cache. It depends on the model only."""
+    draws a block of 1024 trials in parts of 256 (20 MB of draws at a time, not 82 MB).
+    It depends on the model only."""
     drawn = drawn_inputs(model)
     size = BLOCK
     while size > 64 and drawn * size * 8 > _PART_BYTES:

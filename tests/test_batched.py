@@ -106,9 +106,9 @@ def test_a_wide_block_is_drawn_and_evaluated_in_parts_that_depend_on_the_model_o
     """A block of a wide model is drawn and evaluated part by part from its one stream
     (``part_size``, ``_parts``): the parts follow from the model, a last part of one trial
     joins the one before, and the block equals its concatenated draws evaluated at once."""
-    model = parse_model(mean_of_determinations(400))  # about 1200 inputs drawn
+    model = parse_model(mean_of_determinations(1400))  # about 4200 inputs drawn
     sampler = montecarlo._Sampler(model, 3)
-    assert sampler.part < sampler.size
+    assert sampler.size == 1024 and sampler.part == 512  # 8 bytes x 4200 x 512 < 32 MB
     assert sampler.part == montecarlo.part_size(model)
     assert list(montecarlo._parts(2 * 8 + 1, 8)) == [(0, 8), (8, 17)]
     assert list(montecarlo._parts(5, 8)) == [(0, 5)]
