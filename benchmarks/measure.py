@@ -9,11 +9,19 @@ time varies with the load; the CPU time varies much less, so both are printed.
 
 from __future__ import annotations
 
+import os
 import statistics
 import subprocess
 import sys
 import time
 from dataclasses import dataclass
+
+# Whole commands are timed as a user runs them: with the compiled bytecode of budget and its
+# libraries in place (written by the first run, or by pip at install). An environment that
+# forbids writing it (PYTHONDONTWRITEBYTECODE, as some sandboxes set) makes every process
+# compile budget's sources again, 0.1-0.2 s here; the benchmarks' child processes run
+# without it.
+os.environ.pop("PYTHONDONTWRITEBYTECODE", None)
 
 _CHILD = """
 import os, resource, sys

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import os
 import re
 import subprocess
 import sys
@@ -33,6 +34,7 @@ from typing import Any
 import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
+os.environ.pop("PYTHONDONTWRITEBYTECODE", None)  # as a user runs it: bytecode in place (measure.py)
 MODEL = ROOT / "models" / "velmora" / "controlled-potential-dichromate-record.toml"
 
 
