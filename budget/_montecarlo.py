@@ -72,7 +72,7 @@ BLOCK = 1 << 17
 # numpy's SFC64 bit generator: measured here (benchmarks/generators.py) to draw normal
 # numbers about 10-25 % faster than the default PCG64, with the same SeedSequence seeding.
 # The standard normals of Gaussian inputs come from its 64-bit words through a ziggurat
-# vectorised in numpy (_ziggurat.py), measured here about 30 % faster than numpy's own.
+# vectorised in numpy (_ziggurat.py), measured 20-30 % faster than numpy's own.
 GENERATOR = "SFC64"
 NORMALS = "vectorised ziggurat (Marsaglia and Tsang 2000), 256 layers"
 _BLOCK_BYTES = 1 << 25

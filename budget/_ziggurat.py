@@ -18,7 +18,7 @@ at once. The rest take the exact slow paths of the method, on the few positions 
 
 The numbers therefore follow the standard normal distribution exactly (to the 52-bit
 resolution of each layer, like numpy's scalar ziggurat); only their order in the stream
-differs from numpy's, which draws one number at a time. About 30 % less time per number
+differs from numpy's, which draws one number at a time. About 20-30 % less time per number
 than ``Generator.standard_normal`` on this project's machine (benchmarks/generators.py),
 because the table look-ups and tests run as array operations instead of a call per number.
 
