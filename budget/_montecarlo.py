@@ -756,17 +756,16 @@ def _run_blocks(sampler: _Sampler, trials: int, out: np.ndarray,
 def _block_moments(view: np.ndarray) -> np.ndarray:
     """Per measurand: count, mean and sum of squared deviations of the jointly finite
     values of one block (computed while the block is in the cache)."""
-    with np.errstate(over="ignore", invalid="ignore"):
+    data = view
+    with np.errstate(over="ignore", invalid="ignore"):  # a sum beyond ±1.8e308 included
         mean = view.mean(axis=1)  # finite only when every value is (or a sum overflowed)
-    if np.isfinite(mean).all():
-        data = view
-    else:
-        finite = np.isfinite(view).all(axis=0)
-        data = view if finite.all() else view[:, finite]
+        if not np.isfinite(mean).all():
+            finite = np.isfinite(view).all(axis=0)
+            if not finite.all():
+                data = view[:, finite]
+                mean = data.mean(axis=1) if data.shape[1] else np.zeros(view.shape[0])
     n = data.shape[1]
-    with np.errstate(over="ignore"):  # a sum beyond ±1.8e308 (values of 1e304 and more)
-        if data is not view:
-            mean = data.mean(axis=1) if n else np.zeros(view.shape[0])
+    with np.errstate(over="ignore"):
         if not np.isfinite(mean).all():  # then in units of the largest value
             scale = np.max(np.abs(data), axis=1)
             mean = scale * (data / scale[:, None]).mean(axis=1)
