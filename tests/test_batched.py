@@ -116,6 +116,7 @@ def test_a_wide_block_is_drawn_and_evaluated_in_parts_that_depend_on_the_model_o
     values = sampler.draw(4, size)
     assert all(v.shape == (size,) for v in values if isinstance(v, np.ndarray))
     whole = sampler.program.evaluate(values, divide=True)[0]
+    # grouped steps against division steps: roundings apart (unit roundoff 2⁻⁵³, IEEE 754)
     assert np.allclose(sampler.block(4, size)[0], whole, rtol=1e-14, atol=0.0)
     other = montecarlo._Sampler(model, 3)  # a fresh sampler: the same numbers
     assert np.array_equal(other.block(4, size), sampler.block(4, size))

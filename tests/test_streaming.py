@@ -239,6 +239,7 @@ def test_runs_of_inputs_draw_the_same_numbers_as_one_call_per_input(monkeypatch,
         if piece >= 2 * 1000:  # a piece spans both rows: scaled after, to the last bit
             assert np.array_equal(values[names.index(name)], expected)
         else:  # pieces within one row take its scale into the layer widths
+            # a unit in the last place apart (binary64 unit roundoff 2⁻⁵³, IEEE 754)
             np.testing.assert_allclose(values[names.index(name)], expected, rtol=1e-15)
 
 

@@ -100,13 +100,14 @@ def test_scaling_rows_and_the_layout_do_not_change_the_numbers(monkeypatch):
     # pieces of 2^17 numbers: rows 0-1 together (to the last bit), then row 2 alone
     assert np.array_equal(several[:2], expected[:2])
     assert not np.array_equal(several[2], expected[2])
+    # a unit in the last place apart (binary64 unit roundoff 2⁻⁵³, IEEE 754), shift 10
     np.testing.assert_allclose(several[2], expected[2], rtol=1e-15, atol=1e-14)
     monkeypatch.setattr(zig, "_PIECE", 4096)
     assert np.array_equal(_normals(150_003, seed=5), plain)
     within = zig.standard_normal(np.random.Generator(np.random.SFC64(5)),
                                  np.empty((3, 50_001)), scale, shift)
     assert not np.array_equal(within, expected)  # the folded path was taken
-    np.testing.assert_allclose(within, expected, rtol=1e-15, atol=1e-14)
+    np.testing.assert_allclose(within, expected, rtol=1e-15, atol=1e-14)  # the same bound
 
 
 def test_refuses_arrays_it_cannot_fill_in_place():
