@@ -60,7 +60,7 @@ from ._formatting import decimal_exponent
 from ._gum import Budget
 from ._model import Model
 from ._streaming import Binned, Streamed, cut_level
-from ._ziggurat import standard_normal
+from ._ziggurat import expect, standard_normal, uniform_rows
 from ._arguments import keywords_checked
 from ._unit_display import display_unit, spaced_unit
 
@@ -358,6 +358,11 @@ class _Sampler:
         self.grouped = saved >= _GROUPING_GAIN
         self.width = _width(self.schedule.widest) if self.grouped else _SLICE
         self.part = part_size(model)
+        # numbers per trial that can be drawn compiled (_ziggurat.expect): the runs of
+        # independent normal and rectangular inputs, the groups' standard normals
+        self.numbers = sum(len(item[0]) if kind in ("normal", "uniform") else len(item)
+                           for kind, item in self.plan if kind != "fixed"
+                           and kind != "single")
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size), part by
@@ -423,7 +428,7 @@ class _Sampler:
                 z = self._buffer(number, len(slots), size)
                 if kind == "normal":  # scaled piece by piece inside
                     standard_normal(rng, z, scale, shift)
-                else:
+                elif not uniform_rows(rng, z, scale, shift):  # else compiled: the same
                     rows = max(1, _CHUNK // size)
                     for first in range(0, len(slots), rows):
                         chunk = z[first:first + rows]
@@ -842,10 +847,12 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
             if not _keeps(keep_samples, trials, len(model.measurands), coverage):
                 from ._streaming import stream
 
+                expect(trials * sampler.numbers)
                 found = stream(sampler, trials, coverage, ticker, workers)
                 return _summarise(model, budget, None, seed, coverage, digits, False,
                                   sampler.warnings, found.moments, streamed=found)
             check_kept(trials, len(model.measurands), trials_at)
+            expect(trials * sampler.numbers)
             samples = np.empty((len(model.measurands), trials))
             moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
             warnings = []

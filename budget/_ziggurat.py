@@ -33,13 +33,16 @@ the top, f(x_1) + v/x_1 = 1; it agrees with the published r = 3.6541528853610088
 
 from __future__ import annotations
 
+import importlib
 import math
 import threading
 from functools import cache
+from typing import Any
 
 import numpy as np
 
-__all__ = ["LAYERS", "layers", "standard_normal"]
+__all__ = ["LAYERS", "compiled", "expect", "layers", "standard_normal", "uniform_rows",
+           "use_compiled"]
 
 LAYERS = 256
 _BITS = 52
@@ -53,6 +56,18 @@ _MASK = 2 * LAYERS - 1  # the layer (low 8 bits) and the sign (bit 8)
 # 2^17 in some runs (its arrays no longer fit the cache); the Monte Carlo ratio benchmark
 # gave the same times for 2^16-2^18.
 _PIECE = 1 << 17
+# The compiled fast path (``_compiled_draws``, numba) gives the same numbers about three
+# times as fast, but loading it (numba's import, then its cached machine code at the first
+# call) costs 0.4-0.6 s here. So a process loads it once it has drawn, or a run announces
+# (``expect``), COMPILED_FROM normal numbers: about where the time it saves on two workers
+# pays for the loading (benchmarks/generators.py). Loaded, it serves every fill of at
+# least COMPILED_SIZE numbers; the smaller ones take the numpy path (the same numbers).
+COMPILED_FROM = 100_000_000
+COMPILED_SIZE = 1 << 12
+_compiled: Any = None  # the module _compiled_draws, once loaded
+_loading = threading.Lock()
+_drawn = 0  # normal numbers drawn by this process, towards COMPILED_FROM
+_held = False  # numba failed to load here, or the caller said no: the numpy path
 
 
 def _f(x: float) -> float:
@@ -118,6 +133,65 @@ def layers() -> tuple[float, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     return r, signed, np.concatenate([bounds, bounds]), heights, widths
 
 
+
+def use_compiled(on: bool = True) -> bool:
+    """Load the compiled fast path (numba) for the fills to come, or stop using it and
+    never load it on its own again (``on=False``); True when it is in use. Without a
+    working numba (not installed, or its cache nowhere to write), False and the numpy
+    path from then on, which gives the same numbers."""
+    global _compiled, _held
+    _held = not on
+    if not on:
+        _compiled = None
+        return False
+    with _loading:
+        if _compiled is None:
+            try:
+                module = importlib.import_module("budget._compiled_draws")
+                agrees = _agrees(module)
+            except Exception:  # noqa: BLE001 - any failure to load: the numpy path
+                agrees = False
+            if not agrees:
+                _held = True
+                return False
+            _compiled = module
+    return True
+
+
+def _agrees(module: Any) -> bool:
+    """Whether the compiled draws give the numpy path's numbers here (a few thousand of
+    each kind, scaled and not; this also compiles or loads their machine code now)."""
+    scale, shift = np.array([[0.5], [3.0]]), np.array([[1.0], [-2.0]])
+    for pair in ((None, None), (scale, shift)):
+        mine, theirs = np.empty((2, COMPILED_SIZE)), np.empty((2, COMPILED_SIZE))
+        first, second = (np.random.Generator(np.random.SFC64(1)) for _ in range(2))
+        left = module.fast_path(first, mine.reshape(-1), COMPILED_SIZE, 1,
+                                *layers()[1:3], *pair)[0]
+        positions = _pieces(second, theirs, 1, None if pair[0] is None else (scale, shift))[0]
+        if not np.array_equal(mine, theirs) or not np.array_equal(
+                left, np.concatenate(positions)) or not np.array_equal(
+                first.bit_generator.random_raw(2), second.bit_generator.random_raw(2)):
+            return False
+    uniform, reference = np.empty((2, COMPILED_SIZE)), np.empty((2, COMPILED_SIZE))
+    first, second = (np.random.Generator(np.random.SFC64(2)) for _ in range(2))
+    module.uniform_rows(first, uniform, scale, shift)
+    second.random(out=reference)
+    reference *= scale
+    reference += shift
+    return bool(np.array_equal(uniform, reference))
+
+
+def expect(numbers: int) -> None:
+    """A run about to draw ``numbers`` standard normal numbers: the compiled fast path
+    is loaded when they, with those this process drew before, reach COMPILED_FROM."""
+    if _compiled is None and not _held and _drawn + numbers >= COMPILED_FROM:
+        use_compiled()
+
+
+def compiled() -> bool:
+    """Whether the compiled fast path is in use."""
+    return _compiled is not None
+
 _local = threading.local()  # each thread's scratch arrays, reused call after call
 
 
@@ -151,11 +225,56 @@ def standard_normal(generator: np.random.Generator, out: np.ndarray,
         return out
     r, signed, bounds, _, _ = layers()
     rows_each = max(1, _PIECE // columns)
-    width = min(columns, _PIECE)
-    positions: list[np.ndarray] = []  # flat positions, first values and codes of the
-    firsts: list[np.ndarray] = []  # numbers left to the slow paths
-    codes: list[np.ndarray] = []
     pair = (scale, shift) if scale is not None and shift is not None else None
+    global _drawn
+    _drawn += table.size  # (two workers may add at once: a count, not a total, is needed)
+    expect(0)
+    compiled = _compiled
+    if compiled is not None and table.size >= COMPILED_SIZE and isinstance(
+            generator.bit_generator, np.random.SFC64):  # the same numbers, compiled
+        found = compiled.fast_path(generator, table.reshape(-1), columns, rows_each, signed,
+                                   bounds, scale, shift)
+        positions, firsts, codes = [found[0]], [found[1]], [found[2]]
+    else:
+        positions, firsts, codes = _pieces(generator, table, rows_each, pair)
+    where = np.concatenate(positions)
+    if where.size:
+        value = _slow_paths(generator, np.concatenate(firsts), np.concatenate(codes), r)
+        if pair is not None:
+            row = where // columns
+            value = value * pair[0][row, 0] + pair[1][row, 0]
+        table.reshape(-1)[where] = value
+    return out
+
+
+def uniform_rows(generator: np.random.Generator, table: np.ndarray, scale: np.ndarray,
+                 shift: np.ndarray) -> bool:
+    """Fill the C-contiguous rows × columns ``table`` with ``generator.random``, each row
+    times its ``scale`` plus its ``shift`` (rows × 1), in one compiled loop when it is
+    loaded (True); False, and nothing drawn, when the caller should do it in numpy. The
+    numbers count towards COMPILED_FROM like the normal ones."""
+    global _drawn
+    _drawn += table.size
+    expect(0)
+    compiled = _compiled
+    if compiled is None or table.size < COMPILED_SIZE or not isinstance(
+            generator.bit_generator, np.random.SFC64):
+        return False
+    compiled.uniform_rows(generator, table, scale, shift)
+    return True
+
+
+def _pieces(generator: np.random.Generator, table: np.ndarray, rows_each: int,
+            pair: tuple[np.ndarray, np.ndarray] | None
+            ) -> tuple[list[np.ndarray], list[np.ndarray], list[np.ndarray]]:
+    """The fast path in numpy, piece by piece (scaled while in the cache): the flat
+    positions, first values and codes of the numbers left to the slow paths."""
+    _, signed, bounds, _, _ = layers()
+    rows, columns = table.shape
+    width = min(columns, _PIECE)
+    positions: list[np.ndarray] = []
+    firsts: list[np.ndarray] = []
+    codes: list[np.ndarray] = []
     for first in range(0, rows, rows_each):
         last = min(rows, first + rows_each)
         # a piece within one row takes its row's scale in the widths (one pass fewer)
@@ -173,14 +292,7 @@ def standard_normal(generator: np.random.Generator, out: np.ndarray,
             elif pair is not None:
                 piece *= pair[0][first:last]
                 piece += pair[1][first:last]
-    where = np.concatenate(positions)
-    if where.size:
-        value = _slow_paths(generator, np.concatenate(firsts), np.concatenate(codes), r)
-        if pair is not None:
-            row = where // columns
-            value = value * pair[0][row, 0] + pair[1][row, 0]
-        table.reshape(-1)[where] = value
-    return out
+    return positions, firsts, codes
 
 
 def _fast(generator: np.random.Generator, flat: np.ndarray, widths: np.ndarray,
