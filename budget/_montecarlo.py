@@ -60,7 +60,7 @@ from ._formatting import decimal_exponent
 from ._gum import Budget
 from ._model import Model
 from ._streaming import Binned, Streamed, cut_level
-from ._ziggurat import expect, standard_normal, uniform_rows
+from ._ziggurat import loading_alongside, standard_normal, uniform_rows
 from ._arguments import keywords_checked
 from ._unit_display import display_unit, spaced_unit
 
@@ -827,37 +827,39 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     if adaptive:
         check_adaptive(coverage, coverage_at)
         _check_finite_variance(model, budget)
-    sampler = _Sampler(model, seed)
-    with _blas_on_one_thread(workers):  # the workers are the parallelism
-        if adaptive:
-            adaptive_samples, warnings, moments, kept, streamed = _adaptive(
-                sampler, coverage, digits, workers, progress, keep_samples)
-            if streamed is not None:
-                return _summarise(model, budget, None, seed, coverage, digits, True,
-                                  sampler.warnings + warnings, moments, streamed=streamed)
-            assert adaptive_samples is not None
-            samples = adaptive_samples
-        else:
-            if trials < 2 or trials < 1.0 / (1.0 - coverage):
-                least = max(2, math.ceil(1 / (1 - coverage)))
-                raise SimulationError(f"expected at least {least} trials for a "
-                                      f"{100 * coverage:.10g} % interval, found {trials}",
-                                      trials_at)
-            ticker = (lambda n, total=trials: progress(n, total)) if progress else None
-            if not _keeps(keep_samples, trials, len(model.measurands), coverage):
-                from ._streaming import stream
+    # a long run loads the compiled draws (_ziggurat) while it starts in numpy
+    drawn = 0 if adaptive else trials * sum(1 for i in model.inputs
+                                            if i.standard_uncertainty > 0)
+    with loading_alongside(drawn):
+        sampler = _Sampler(model, seed)
+        with _blas_on_one_thread(workers):  # the workers are the parallelism
+            if adaptive:
+                adaptive_samples, warnings, moments, kept, streamed = _adaptive(
+                    sampler, coverage, digits, workers, progress, keep_samples)
+                if streamed is not None:
+                    return _summarise(model, budget, None, seed, coverage, digits, True,
+                                      sampler.warnings + warnings, moments, streamed=streamed)
+                assert adaptive_samples is not None
+                samples = adaptive_samples
+            else:
+                if trials < 2 or trials < 1.0 / (1.0 - coverage):
+                    least = max(2, math.ceil(1 / (1 - coverage)))
+                    raise SimulationError(f"expected at least {least} trials for a "
+                                          f"{100 * coverage:.10g} % interval, found {trials}",
+                                          trials_at)
+                ticker = (lambda n, total=trials: progress(n, total)) if progress else None
+                if not _keeps(keep_samples, trials, len(model.measurands), coverage):
+                    from ._streaming import stream
 
-                expect(trials * sampler.numbers)
-                found = stream(sampler, trials, coverage, ticker, workers)
-                return _summarise(model, budget, None, seed, coverage, digits, False,
-                                  sampler.warnings, found.moments, streamed=found)
-            check_kept(trials, len(model.measurands), trials_at)
-            expect(trials * sampler.numbers)
-            samples = np.empty((len(model.measurands), trials))
-            moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
-            warnings = []
-        return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
-                          sampler.warnings + warnings, moments, kept)
+                    found = stream(sampler, trials, coverage, ticker, workers)
+                    return _summarise(model, budget, None, seed, coverage, digits, False,
+                                      sampler.warnings, found.moments, streamed=found)
+                check_kept(trials, len(model.measurands), trials_at)
+                samples = np.empty((len(model.measurands), trials))
+                moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
+                warnings = []
+            return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
+                              sampler.warnings + warnings, moments, kept)
 
 
 @contextmanager

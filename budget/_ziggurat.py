@@ -36,6 +36,8 @@ from __future__ import annotations
 import importlib
 import math
 import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
 from functools import cache
 from typing import Any
 
@@ -68,6 +70,7 @@ _compiled: Any = None  # the module _compiled_draws, once loaded
 _loading = threading.Lock()
 _drawn = 0  # normal numbers drawn by this process, towards COMPILED_FROM
 _held = False  # numba failed to load here, or the caller said no: the numpy path
+_pending = False  # a thread is loading them (loading_alongside)
 
 
 def _f(x: float) -> float:
@@ -182,10 +185,33 @@ def _agrees(module: Any) -> bool:
 
 
 def expect(numbers: int) -> None:
-    """A run about to draw ``numbers`` standard normal numbers: the compiled fast path
-    is loaded when they, with those this process drew before, reach COMPILED_FROM."""
-    if _compiled is None and not _held and _drawn + numbers >= COMPILED_FROM:
+    """``numbers`` more to draw: the compiled draws are loaded (here and now) when they,
+    with those this process drew before, reach COMPILED_FROM; not while another thread
+    loads them (a worker goes on in numpy meanwhile)."""
+    if _compiled is None and not _held and not _pending \
+            and _drawn + numbers >= COMPILED_FROM:
         use_compiled()
+
+
+@contextmanager
+def loading_alongside(numbers: int) -> Iterator[None]:
+    """A run of ``numbers`` numbers: when they reach COMPILED_FROM, the compiled draws are
+    loaded by a thread of their own while the run starts in numpy (its fills take the
+    compiled loop once it is there: the same numbers either way); the thread is joined
+    when the run ends, so none is left behind."""
+    global _pending
+    thread = None
+    if _compiled is None and not _held and not _pending \
+            and _drawn + numbers >= COMPILED_FROM:
+        _pending = True
+        thread = threading.Thread(target=use_compiled, name="budget-load-compiled")
+        thread.start()
+    try:
+        yield
+    finally:
+        if thread is not None:
+            thread.join()
+            _pending = False
 
 
 def compiled() -> bool:

@@ -211,3 +211,21 @@ def test_a_compiled_loop_that_disagrees_is_not_used(restore, monkeypatch):
     monkeypatch.setattr(compiled, "_uniform", compiled._uniform.py_func)
     assert zig.use_compiled() is False
     assert not zig.compiled()
+
+
+def test_a_long_run_loads_them_alongside_and_leaves_no_thread(restore, monkeypatch):
+    """A fixed run that will draw COMPILED_FROM numbers loads the compiled draws on a
+    thread of their own while it starts in numpy; the thread has ended when the run
+    returns, and the run's numbers are those of a run on the numpy path alone."""
+    import threading
+
+    model = parse_model(MODEL)
+    zig.use_compiled(False)
+    expected = simulate(model, trials=200_000, seed=3, keep_samples=True).measurands[0]
+    monkeypatch.setattr(zig, "_compiled", None)
+    monkeypatch.setattr(zig, "_held", False)
+    monkeypatch.setattr(zig, "COMPILED_FROM", 1_000_000)  # 200,000 trials × 7 inputs
+    found = simulate(model, trials=200_000, seed=3, keep_samples=True).measurands[0]
+    assert zig.compiled()
+    assert not any(t.name == "budget-load-compiled" for t in threading.enumerate())
+    assert np.array_equal(found.samples, expected.samples)
