@@ -7,10 +7,12 @@ doubles behind them. Prints min and median over the rounds and the ratio to PCG6
 default of ``numpy.random.default_rng``. Then other ways to normal numbers over SFC64,
 against SFC64's own double-precision normals (numpy's one-at-a-time ziggurat), in turns:
 the ziggurat vectorised in numpy (budget/_ziggurat.py, the engine's way since it was
-measured here), and two set aside (README, Performance): SFC64's single-precision
-normals (numpy's float32 ziggurat) and the polar method (Marsaglia) vectorised in numpy.
-Last, the vectorised ziggurat's piece size (budget._ziggurat._PIECE) on one and two
-threads: small pieces stay in the cache but take the interpreter lock more often.
+measured here), the same numbers by the compiled loop (budget/_compiled_draws.py, numba,
+which runs of 10^8 numbers load), and two set aside (README, Performance): SFC64's
+single-precision normals (numpy's float32 ziggurat) and the polar method (Marsaglia)
+vectorised in numpy. Last, the vectorised ziggurat's piece size (budget._ziggurat._PIECE)
+on one and two threads (small pieces stay in the cache but take the interpreter lock more
+often), and the compiled loop on one and two threads.
 
 Run: python benchmarks/generators.py [numbers] [rounds]
 """
@@ -73,7 +75,8 @@ def other_way(kind: str, numbers: int) -> float:
     for _ in range(numbers // BLOCK):
         if kind == "polar":
             polar(rng, out)
-        elif kind == "vectorised":
+        elif kind in ("vectorised", "compiled"):
+            ziggurat.use_compiled(kind == "compiled")
             standard_normal(rng, out)
         else:
             rng.standard_normal(out=out, dtype=out.dtype)
@@ -98,8 +101,8 @@ def main() -> None:
             ratios = [t / p for t, p in zip(times[name], times["PCG64"])]
             print(f"  {name:10s} {min(times[name]):8.3f} {statistics.median(times[name]):9.3f}"
                   f" {min(times[name]) / base:12.2f} {statistics.median(ratios):18.2f}")
-    ways: dict[str, list[float]] = {"double": [], "vectorised": [], "single": [],
-                                    "polar": []}
+    ways: dict[str, list[float]] = {"double": [], "vectorised": [], "compiled": [],
+                                    "single": [], "polar": []}
     for _ in range(rounds):
         for kind, found in ways.items():
             found.append(other_way(kind, numbers))
@@ -122,6 +125,7 @@ def pieces(numbers: int, rounds: int) -> None:
             standard_normal(rng, block)
 
     chosen = ziggurat._PIECE
+    ziggurat.use_compiled(False)
     print("\nvectorised ziggurat by piece size (numbers per thread; min s of the rounds):"
           "\n  piece     1 thread   2 threads   speed-up")
     for piece in (1 << 14, 1 << 15, 1 << 16, 1 << 17, 1 << 18):
@@ -137,6 +141,16 @@ def pieces(numbers: int, rounds: int) -> None:
         mark = "  (chosen)" if piece == chosen else ""
         print(f"  {piece:7d} {one:10.3f} {two:11.3f} {2 * one / two:10.2f}{mark}")
     ziggurat._PIECE = chosen
+    ziggurat.use_compiled(True)
+    found = {1: [], 2: []}
+    for _ in range(rounds):
+        for threads in (1, 2):
+            start = time.perf_counter()
+            with ThreadPoolExecutor(threads) as pool:
+                list(pool.map(work, range(threads)))
+            found[threads].append(time.perf_counter() - start)
+    one, two = min(found[1]), min(found[2])
+    print(f"  compiled {one:10.3f} {two:11.3f} {2 * one / two:10.2f}")
 
 
 if __name__ == "__main__":

@@ -4,9 +4,10 @@ proportional to inputs x trials, in bounded memory), each a whole `budget run --
 
 The limit is the bare cost of the same number of standard normal draws (inputs with an
 uncertainty x trials) over numpy's SFC64 generator (the one the engine uses) on two
-threads, each filling a reused buffer: no model, no evaluation, no statistics; both with
-numpy's own normals and with the vectorised ziggurat the engine uses
-(budget/_ziggurat.py). Prints
+threads, each filling a reused buffer: no model, no evaluation, no statistics; with
+numpy's own normals, and with the engine's ziggurat (budget/_ziggurat.py) on its numpy
+path and compiled (budget/_compiled_draws.py, which a run of this size uses; the same
+numbers). Prints
 wall and CPU (min and median), peak resident memory of the whole command, the load
 average. Run:
 
@@ -31,6 +32,7 @@ sys.path.insert(0, os.path.dirname(__file__))
 from generate import defined_mean, mean_of_determinations, product_model, sum_model  # noqa: E402
 from measure import command, load  # noqa: E402
 
+import budget._ziggurat as ziggurat  # noqa: E402
 from budget._ziggurat import standard_normal  # noqa: E402
 
 SHAPES = {
@@ -41,10 +43,14 @@ SHAPES = {
 }
 
 
-def bare_draws(numbers: int, threads: int = 2, vectorised: bool = False
+def bare_draws(numbers: int, threads: int = 2, way: str = "numpy"
                ) -> tuple[float, float]:
-    """Wall and CPU seconds for ``numbers`` SFC64 standard normals on ``threads``."""
+    """Wall and CPU seconds for ``numbers`` SFC64 standard normals on ``threads``:
+    numpy's own (``way`` "numpy"), the engine's ziggurat in numpy ("vectorised") or
+    compiled ("compiled")."""
     chunk = 1 << 20
+    vectorised = way != "numpy"
+    ziggurat.use_compiled(way == "compiled")
 
     def work(seed: int) -> None:
         rng = np.random.Generator(np.random.SFC64(seed))
@@ -74,10 +80,11 @@ def main() -> None:
         runs = command(["run", str(path), "--json", "--trials", str(trials)], repeats)
         print(f"  {name} ({drawn:,} inputs drawn, {drawn * trials:.2e} numbers)")
         print(f"    whole command:        {runs.text()}")
-        for way, vectorised in (("numpy's normals", False), ("vectorised ziggurat", True)):
-            bare = [bare_draws(drawn * trials, vectorised=vectorised) for _ in range(repeats)]
+        for way, label in (("numpy", "numpy's normals"), ("vectorised", "ziggurat in numpy"),
+                           ("compiled", "ziggurat compiled")):
+            bare = [bare_draws(drawn * trials, way=way) for _ in range(repeats)]
             walls, cpus = [b[0] for b in bare], [b[1] for b in bare]
-            print(f"    bare SFC64 draws, {way} (2 threads): wall min {min(walls):.2f} s, "
+            print(f"    bare SFC64 draws, {label} (2 threads): wall min {min(walls):.2f} s, "
                   f"median {statistics.median(walls):.2f} s; CPU min {min(cpus):.2f} s, "
                   f"median {statistics.median(cpus):.2f} s")
     print(f"load average after: {load()}")

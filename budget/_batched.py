@@ -14,6 +14,7 @@ a single column falls back to the operation by operation fold).
 
 from __future__ import annotations
 
+import functools
 from typing import Any, Sequence
 
 import numpy as np
@@ -70,7 +71,11 @@ class Schedule:
         if all(s == slots[0] for s in slots):
             return ("one", slots[0])
         if all(s in self.program.constants for s in slots):
-            return ("const", np.array([self.program.constants[s] for s in slots])[:, None])
+            numbers = np.array([self.program.constants[s] for s in slots])[:, None]
+            bits = numbers.view(np.int64)  # bit for bit: 0 and −0 are not the same here
+            if np.all(bits == bits[0]):
+                numbers = numbers[:1]  # one number for every row: broadcast as 1 × 1
+            return ("const", numbers)
         source = self.where[slots[0]][0]
         rows = np.array([self.where[s][1] for s in slots])
         return ("rows", source, _index(rows))
@@ -189,10 +194,24 @@ def _grouped(kind: str, payload: Any, operands: list[Any], out: np.ndarray) -> n
             np.sqrt(base, out=out)
         return out
     ufunc = np.add if kind == "add" else np.multiply
-    ufunc(operands[0], operands[1], out=out)
-    for term in operands[2:]:
+    # leading operands the same on every row (numbers, one value per trial) are combined
+    # first, on a row's width: per element the same operations in the same order, and
+    # passes over all rows saved (a unit factor × R × F, then × each row of m)
+    lead = 1
+    while lead < len(operands) - 1 and _across(operands[lead]) and _across(operands[0]):
+        lead += 1
+    first = operands[0] if lead == 1 else functools.reduce(ufunc, operands[1:lead],
+                                                          operands[0])
+    ufunc(first, operands[lead], out=out)
+    for term in operands[lead + 1:]:
         ufunc(out, term, out=out)
     return out
+
+
+def _across(term: Any) -> bool:
+    """Whether an operand is the same on every row: a number, one value per trial (1-D),
+    or a constant of one value for all rows (1 × 1)."""
+    return np.ndim(term) < 2 or np.shape(term)[0] == 1
 
 
 def _levels(program: Program) -> list[list[tuple[Any, ...]]]:

@@ -358,11 +358,12 @@ class _Sampler:
         self.grouped = saved >= _GROUPING_GAIN
         self.width = _width(self.schedule.widest) if self.grouped else _SLICE
         self.part = part_size(model)
-        # numbers per trial that can be drawn compiled (_ziggurat.expect): the runs of
-        # independent normal and rectangular inputs, the groups' standard normals
-        self.numbers = sum(len(item[0]) if kind in ("normal", "uniform") else len(item)
-                           for kind, item in self.plan if kind != "fixed"
-                           and kind != "single")
+        # what a trial's draws would save compiled (_ziggurat.expect), in normal numbers:
+        # the independent normal inputs and the groups' standard normals, and a rectangular
+        # input for a third of one (its numpy path costs less to begin with)
+        self.numbers = sum(len(item[0]) if kind == "normal" else len(item)
+                           for kind, item in self.plan if kind in ("normal", "group")) \
+            + sum(len(item[0]) for kind, item in self.plan if kind == "uniform") / 3
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size), part by
@@ -827,11 +828,9 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     if adaptive:
         check_adaptive(coverage, coverage_at)
         _check_finite_variance(model, budget)
+    sampler = _Sampler(model, seed)
     # a long run loads the compiled draws (_ziggurat) while it starts in numpy
-    drawn = 0 if adaptive else trials * sum(1 for i in model.inputs
-                                            if i.standard_uncertainty > 0)
-    with loading_alongside(drawn):
-        sampler = _Sampler(model, seed)
+    with loading_alongside(0 if adaptive else trials * sampler.numbers):
         with _blas_on_one_thread(workers):  # the workers are the parallelism
             if adaptive:
                 adaptive_samples, warnings, moments, kept, streamed = _adaptive(

@@ -58,17 +58,20 @@ _MASK = 2 * LAYERS - 1  # the layer (low 8 bits) and the sign (bit 8)
 # 2^17 in some runs (its arrays no longer fit the cache); the Monte Carlo ratio benchmark
 # gave the same times for 2^16-2^18.
 _PIECE = 1 << 17
-# The compiled fast path (``_compiled_draws``, numba) gives the same numbers about three
-# times as fast, but loading it (numba's import, then its cached machine code at the first
-# call) costs 0.4-0.6 s here. So a process loads it once it has drawn, or a run announces
-# (``expect``), COMPILED_FROM normal numbers: about where the time it saves on two workers
-# pays for the loading (benchmarks/generators.py). Loaded, it serves every fill of at
-# least COMPILED_SIZE numbers; the smaller ones take the numpy path (the same numbers).
-COMPILED_FROM = 100_000_000
+# The compiled draws (``_compiled_draws``, numba) give the same numbers about three times
+# as fast (8 ns less CPU per normal number here, 2.5 ns per rectangular one), but loading
+# them (numba's import, then their cached machine code) costs 0.5-0.9 s of wall time and
+# about 120 MB. So a process loads them once it has drawn, or a run announces (``expect``,
+# ``loading_alongside``), COMPILED_FROM normal numbers, a rectangular one counting for a
+# third: where the CPU time saved, shared by two workers, pays for the loading's wall time
+# (measured with benchmarks/montecarlo_memory.py: the demo's 10^7 trials, 6.7·10^7 such
+# numbers, ran 0.6 s slower with them). Loaded, they serve every fill of at least
+# COMPILED_SIZE numbers; smaller fills take the numpy path (the same numbers).
+COMPILED_FROM = 200_000_000
 COMPILED_SIZE = 1 << 12
 _compiled: Any = None  # the module _compiled_draws, once loaded
 _loading = threading.Lock()
-_drawn = 0  # normal numbers drawn by this process, towards COMPILED_FROM
+_drawn = 0  # normal numbers drawn by this process (a rectangular one: a third)
 _held = False  # numba failed to load here, or the caller said no: the numpy path
 _pending = False  # a thread is loading them (loading_alongside)
 
@@ -184,7 +187,7 @@ def _agrees(module: Any) -> bool:
     return bool(np.array_equal(uniform, reference))
 
 
-def expect(numbers: int) -> None:
+def expect(numbers: float) -> None:
     """``numbers`` more to draw: the compiled draws are loaded (here and now) when they,
     with those this process drew before, reach COMPILED_FROM; not while another thread
     loads them (a worker goes on in numpy meanwhile)."""
@@ -194,7 +197,7 @@ def expect(numbers: int) -> None:
 
 
 @contextmanager
-def loading_alongside(numbers: int) -> Iterator[None]:
+def loading_alongside(numbers: float) -> Iterator[None]:
     """A run of ``numbers`` numbers: when they reach COMPILED_FROM, the compiled draws are
     loaded by a thread of their own while the run starts in numpy (its fills take the
     compiled loop once it is there: the same numbers either way); the thread is joined
@@ -278,9 +281,9 @@ def uniform_rows(generator: np.random.Generator, table: np.ndarray, scale: np.nd
     """Fill the C-contiguous rows × columns ``table`` with ``generator.random``, each row
     times its ``scale`` plus its ``shift`` (rows × 1), in one compiled loop when it is
     loaded (True); False, and nothing drawn, when the caller should do it in numpy. The
-    numbers count towards COMPILED_FROM like the normal ones."""
+    numbers count towards COMPILED_FROM, a third of a normal number each."""
     global _drawn
-    _drawn += table.size
+    _drawn += table.size // 3
     expect(0)
     compiled = _compiled
     if compiled is None or table.size < COMPILED_SIZE or not isinstance(
