@@ -124,12 +124,8 @@ def pieces(numbers: int, rounds: int) -> None:
         for _ in range(max(1, numbers // block.size)):
             standard_normal(rng, block)
 
-    chosen = ziggurat._PIECE
-    ziggurat.use_compiled(False)
-    print("\nvectorised ziggurat by piece size (numbers per thread; min s of the rounds):"
-          "\n  piece     1 thread   2 threads   speed-up")
-    for piece in (1 << 14, 1 << 15, 1 << 16, 1 << 17, 1 << 18):
-        ziggurat._PIECE = piece
+    def one_and_two() -> tuple[float, float]:
+        """Min seconds over the rounds on one thread and on two, in turns."""
         found: dict[int, list[float]] = {1: [], 2: []}
         for _ in range(rounds):
             for threads in (1, 2):
@@ -137,21 +133,21 @@ def pieces(numbers: int, rounds: int) -> None:
                 with ThreadPoolExecutor(threads) as pool:
                     list(pool.map(work, range(threads)))
                 found[threads].append(time.perf_counter() - start)
-        one, two = min(found[1]), min(found[2])
+        return min(found[1]), min(found[2])
+
+    chosen = ziggurat._PIECE
+    ziggurat.use_compiled(False)
+    print("\nvectorised ziggurat by piece size (numbers per thread; min s of the rounds):"
+          "\n  piece     1 thread   2 threads   speed-up")
+    for piece in (1 << 14, 1 << 15, 1 << 16, 1 << 17, 1 << 18):
+        ziggurat._PIECE = piece
+        one, two = one_and_two()
         mark = "  (chosen)" if piece == chosen else ""
         print(f"  {piece:7d} {one:10.3f} {two:11.3f} {2 * one / two:10.2f}{mark}")
     ziggurat._PIECE = chosen
     ziggurat.use_compiled(True)
-    found = {1: [], 2: []}
-    for _ in range(rounds):
-        for threads in (1, 2):
-            start = time.perf_counter()
-            with ThreadPoolExecutor(threads) as pool:
-                list(pool.map(work, range(threads)))
-            found[threads].append(time.perf_counter() - start)
-    one, two = min(found[1]), min(found[2])
+    one, two = one_and_two()
     print(f"  compiled {one:10.3f} {two:11.3f} {2 * one / two:10.2f}")
-
 
 if __name__ == "__main__":
     main()

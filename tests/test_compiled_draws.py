@@ -68,7 +68,7 @@ def test_the_sfc64_step_is_numpys(restore):
 
 
 SHAPES = [(10, 1 << 17), (1, 300_001), (10_000, 256), (3, 70_000), (513, 256), (7, 5_000),
-          (2, 1 << 18)]
+          (2, 1 << 18), (100_000, 3)]  # the last: a correlated group's trials × members
 
 
 @pytest.mark.parametrize(("shape", "scaled"), [(s, k) for s in SHAPES for k in (False, True)]
@@ -76,7 +76,8 @@ SHAPES = [(10, 1 << 17), (1, 300_001), (10_000, 256), (3, 70_000), (513, 256), (
 def test_normal_fills_are_the_numpy_paths_bit_for_bit(restore, shape, scaled):
     """Every shape the Monte Carlo draws (narrow models' long rows, wide models' parts of
     256 trials, pieces of several rows, a last piece of one row, rows longer than a
-    piece), scaled or not: the same numbers and the same stream afterwards."""
+    piece, a correlated group's many short rows), scaled or not: the same numbers and the
+    same stream afterwards."""
     numpy_path = _fill(False, shape, 31, scaled)
     compiled_path = _fill(True, shape, 31, scaled)
     assert np.array_equal(compiled_path[0], numpy_path[0])
