@@ -35,6 +35,7 @@ from __future__ import annotations
 
 import importlib
 import math
+import os
 import threading
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -141,13 +142,14 @@ def layers() -> tuple[float, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
 
 
 def use_compiled(on: bool = True) -> bool:
-    """Load the compiled fast path (numba) for the fills to come, or stop using it and
-    never load it on its own again (``on=False``); True when it is in use. Without a
-    working numba (not installed, or its cache nowhere to write), False and the numpy
-    path from then on, which gives the same numbers."""
+    """Load the compiled draws (numba) for the fills to come, or stop using them and
+    never load them on their own again (``on=False``); True when they are in use.
+    Without a working numba (not installed, its cache nowhere to write, numbers that
+    disagree), or with ``BUDGET_COMPILED=0`` in the environment, False and the numpy path
+    from then on, which gives the same numbers."""
     global _compiled, _held
-    _held = not on
-    if not on:
+    _held = not on or os.environ.get("BUDGET_COMPILED", "").strip() == "0"
+    if _held:  # asked not to, or BUDGET_COMPILED=0 in the environment
         _compiled = None
         return False
     with _loading:

@@ -230,3 +230,14 @@ def test_a_long_run_loads_them_alongside_and_leaves_no_thread(restore, monkeypat
     assert zig.compiled()
     assert not any(t.name == "budget-load-compiled" for t in threading.enumerate())
     assert np.array_equal(found.samples, expected.samples)
+
+
+def test_the_environment_can_keep_numba_out(restore, monkeypatch):
+    """BUDGET_COMPILED=0: the numpy path, whatever the run's length (docs/cli.md)."""
+    monkeypatch.setenv("BUDGET_COMPILED", "0")
+    monkeypatch.setattr(zig, "_compiled", None)
+    assert zig.use_compiled() is False
+    zig.expect(10**12)
+    assert not zig.compiled()
+    monkeypatch.setenv("BUDGET_COMPILED", "1")
+    assert zig.use_compiled() is True
