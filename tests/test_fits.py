@@ -173,8 +173,10 @@ def test_york_fit_minimises_the_orthogonal_objective(seed):
     x, y, u_x, u_y = _invented_york(seed)
     fit = york(x, y, u_x, u_y)
     estimates, covariance, minimum = _orthogonal(x, y, u_x, u_y)
-    np.testing.assert_allclose(fit.estimates, estimates,
-                               rtol=0, atol=1e-6 * fit.standard_uncertainties.min())
+    # each estimate within 10⁻⁶ of its own standard uncertainty: the reference stops
+    # where its steps no longer change S (seen 1.7·10⁻⁷ u(a) from York's a with scipy
+    # 1.15's MINPACK on an AVX-512 machine, 2·10⁻⁶ of the smaller u(b))
+    assert np.all(np.abs(fit.estimates - estimates) <= 1e-6 * fit.standard_uncertainties)
     np.testing.assert_allclose(fit.covariance, covariance, rtol=1e-6)
     assert fit.chi2 == pytest.approx(minimum, rel=1e-9)  # York's S at the minimum
 
