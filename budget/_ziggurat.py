@@ -18,9 +18,15 @@ at once. The rest take the exact slow paths of the method, on the few positions 
 
 The numbers therefore follow the standard normal distribution exactly (to the 52-bit
 resolution of each layer, like numpy's scalar ziggurat); only their order in the stream
-differs from numpy's, which draws one number at a time. About 20-30 % less time per number
-than ``Generator.standard_normal`` on this project's machine (benchmarks/generators.py),
+differs from numpy's, which draws one number at a time. About 15-30 % less time per number
+than ``Generator.standard_normal`` on this project's machines (benchmarks/generators.py),
 because the table look-ups and tests run as array operations instead of a call per number.
+
+Long runs take the same numbers from a compiled loop (``_compiled_draws``, numba), which
+computes the SFC64 words and the fast path in the registers with the arithmetic of the
+array operations here, operation for operation, so that which path drew a number never
+shows in it; ``use_compiled`` loads it (checking its numbers against this path first),
+``expect`` and ``loading_alongside`` decide when (``COMPILED_FROM``).
 
 When the caller asks for scaled numbers (σ·z + μ per row), a piece that lies within one
 row takes σ into the layer widths, (σ·w)·p instead of σ·(w·p): the same number to a unit
@@ -140,7 +146,6 @@ def layers() -> tuple[float, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     return r, signed, np.concatenate([bounds, bounds]), heights, widths
 
 
-
 def use_compiled(on: bool = True) -> bool:
     """Load the compiled draws (numba) for the fills to come, or stop using them and
     never load them on their own again (``on=False``); True when they are in use.
@@ -223,6 +228,7 @@ def compiled() -> bool:
     """Whether the compiled fast path is in use."""
     return _compiled is not None
 
+
 _local = threading.local()  # each thread's scratch arrays, reused call after call
 
 
@@ -254,10 +260,10 @@ def standard_normal(generator: np.random.Generator, out: np.ndarray,
     rows, columns = table.shape
     if table.size == 0:
         return out
+    global _drawn
     r, signed, bounds, _, _ = layers()
     rows_each = max(1, _PIECE // columns)
     pair = (scale, shift) if scale is not None and shift is not None else None
-    global _drawn
     _drawn += table.size  # (two workers may add at once: a count, not a total, is needed)
     expect(0)
     compiled = _compiled
