@@ -43,6 +43,7 @@ import importlib
 import math
 import os
 import threading
+import warnings
 from collections.abc import Iterator
 from contextlib import contextmanager
 from functools import cache
@@ -159,9 +160,11 @@ def use_compiled(on: bool = True) -> bool:
         return False
     with _loading:
         if _compiled is None:
-            try:
-                module = importlib.import_module("budget._compiled_draws")
-                agrees = _agrees(module)
+            try:  # numba's own warnings (a cache it cannot write, say) are not the user's
+                with warnings.catch_warnings():
+                    warnings.simplefilter("ignore")
+                    module = importlib.import_module("budget._compiled_draws")
+                    agrees = _agrees(module)
             except Exception:  # noqa: BLE001 - any failure to load: the numpy path
                 agrees = False
             if not agrees:
