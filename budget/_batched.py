@@ -198,10 +198,10 @@ def _grouped(kind: str, payload: Any, operands: list[Any], out: np.ndarray) -> n
     # first, on a row's width: per element the same operations in the same order, and
     # passes over all rows saved (a unit factor × R × F, then × each row of m)
     lead = 1
-    while lead < len(operands) - 1 and _across(operands[lead]) and _across(operands[0]):
-        lead += 1
-    first = operands[0] if lead == 1 else functools.reduce(ufunc, operands[1:lead],
-                                                          operands[0])
+    if _across(operands[0]):
+        while lead < len(operands) - 1 and _across(operands[lead]):
+            lead += 1
+    first = functools.reduce(ufunc, operands[1:lead], operands[0])
     ufunc(first, operands[lead], out=out)
     for term in operands[lead + 1:]:
         ufunc(out, term, out=out)

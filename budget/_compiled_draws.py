@@ -11,7 +11,7 @@ stream goes on exactly where numpy would take it up), its code and point, the pr
 with the layer's width (and the row's σ and μ), and the test against the next layer. The
 arithmetic is the vectorised path's, operation for operation and in the same order (no
 fused multiply-add: numba does not contract without ``fastmath``), so every number is
-bit for bit the one the numpy path gives (tests/test_ziggurat_compiled.py); the slow
+bit for bit the one the numpy path gives (tests/test_compiled_draws.py); the slow
 paths stay in ``_ziggurat`` and run after it on the same stream, as there.
 
 The loop releases the interpreter lock (``nogil``), so the Monte Carlo workers draw side
@@ -25,6 +25,8 @@ row's 2a and plus its x − a, each product and sum rounded as numpy rounds them
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from contextlib import contextmanager
 from typing import Any
 
 import numpy as np
@@ -118,28 +120,23 @@ def fast_path(generator: np.random.Generator, flat: np.ndarray, columns: int,
     ``rows_each`` rows as the vectorised path cuts them), drawing from ``generator``
     (an SFC64 one): the numbers left to the slow paths as their flat positions, unscaled
     first values and codes, in stream order."""
-    bit_generator = generator.bit_generator
-    found = bit_generator.state
-    words = np.array(found["state"]["state"], dtype=np.uint64)
-    scaled = scale is not None and shift is not None
-    sigma = scale.reshape(-1) if scale is not None and scaled else np.empty(0)
-    mu = shift.reshape(-1) if shift is not None and scaled else np.empty(0)
+    if scale is not None and shift is not None:
+        scaled, sigma, mu = True, scale.reshape(-1), shift.reshape(-1)
+    else:
+        scaled, sigma, mu = False, np.empty(0), np.empty(0)
     # about 0.7 % of the numbers are left to the slow paths: room for 3 %, and more
     # rounds (from where the loop stopped, the stream unbroken) should that ever be short
     capacity = _CAPACITY + flat.size // _ROOM
     parts: list[tuple[np.ndarray, np.ndarray, np.ndarray]] = []
     reached = 0
-    while True:
-        where = np.empty(capacity, np.int64)
-        firsts = np.empty(capacity)
-        codes = np.empty(capacity, np.int64)
-        reached, left = _fill(words, flat, reached, columns, rows_each, signed, bounds,
-                              sigma, mu, scaled, where, firsts, codes)
-        parts.append((where[:left], firsts[:left], codes[:left]))
-        if reached >= flat.size:
-            break
-    found["state"]["state"] = words
-    bit_generator.state = found
+    with _state(generator) as words:
+        while reached < flat.size or not parts:
+            where = np.empty(capacity, np.int64)
+            firsts = np.empty(capacity)
+            codes = np.empty(capacity, np.int64)
+            reached, left = _fill(words, flat, reached, columns, rows_each, signed, bounds,
+                                  sigma, mu, scaled, where, firsts, codes)
+            parts.append((where[:left], firsts[:left], codes[:left]))
     if len(parts) == 1:
         return parts[0]
     return (np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts]),
@@ -165,9 +162,17 @@ def uniform_rows(generator: np.random.Generator, table: np.ndarray, scale: np.nd
     """Fill the C-contiguous rows × columns ``table`` as ``generator.random(out=table)``
     then ``table *= scale; table += shift`` (arrays of rows × 1) would, from an SFC64
     ``generator``."""
+    with _state(generator) as words:
+        _uniform(words, table, scale.reshape(-1), shift.reshape(-1))
+
+
+@contextmanager
+def _state(generator: np.random.Generator) -> Iterator[np.ndarray]:
+    """The SFC64 generator's four state words, to be advanced in place by a compiled
+    loop and written back afterwards (numpy's stream goes on from there)."""
     bit_generator = generator.bit_generator
     found = bit_generator.state
     words = np.array(found["state"]["state"], dtype=np.uint64)
-    _uniform(words, table, scale.reshape(-1), shift.reshape(-1))
+    yield words
     found["state"]["state"] = words
     bit_generator.state = found

@@ -830,36 +830,35 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
         check_adaptive(coverage, coverage_at)
         _check_finite_variance(model, budget)
     sampler = _Sampler(model, seed)
+    if not adaptive and (trials < 2 or trials < 1.0 / (1.0 - coverage)):
+        least = max(2, math.ceil(1 / (1 - coverage)))
+        raise SimulationError(f"expected at least {least} trials for a "
+                              f"{100 * coverage:.10g} % interval, found {trials}", trials_at)
     # a long run loads the compiled draws (_ziggurat) while it starts in numpy
-    with loading_alongside(0 if adaptive else trials * sampler.numbers):
-        with _blas_on_one_thread(workers):  # the workers are the parallelism
-            if adaptive:
-                adaptive_samples, warnings, moments, kept, streamed = _adaptive(
-                    sampler, coverage, digits, workers, progress, keep_samples)
-                if streamed is not None:
-                    return _summarise(model, budget, None, seed, coverage, digits, True,
-                                      sampler.warnings + warnings, moments, streamed=streamed)
-                assert adaptive_samples is not None
-                samples = adaptive_samples
-            else:
-                if trials < 2 or trials < 1.0 / (1.0 - coverage):
-                    least = max(2, math.ceil(1 / (1 - coverage)))
-                    raise SimulationError(f"expected at least {least} trials for a "
-                                          f"{100 * coverage:.10g} % interval, found {trials}",
-                                          trials_at)
-                ticker = (lambda n, total=trials: progress(n, total)) if progress else None
-                if not _keeps(keep_samples, trials, len(model.measurands), coverage):
-                    from ._streaming import stream
+    with loading_alongside(0 if adaptive else trials * sampler.numbers), \
+            _blas_on_one_thread(workers):  # the workers are the parallelism
+        if adaptive:
+            adaptive_samples, warnings, moments, kept, streamed = _adaptive(
+                sampler, coverage, digits, workers, progress, keep_samples)
+            if streamed is not None:
+                return _summarise(model, budget, None, seed, coverage, digits, True,
+                                  sampler.warnings + warnings, moments, streamed=streamed)
+            assert adaptive_samples is not None
+            samples = adaptive_samples
+        else:
+            ticker = (lambda n, total=trials: progress(n, total)) if progress else None
+            if not _keeps(keep_samples, trials, len(model.measurands), coverage):
+                from ._streaming import stream
 
-                    found = stream(sampler, trials, coverage, ticker, workers)
-                    return _summarise(model, budget, None, seed, coverage, digits, False,
-                                      sampler.warnings, found.moments, streamed=found)
-                check_kept(trials, len(model.measurands), trials_at)
-                samples = np.empty((len(model.measurands), trials))
-                moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
-                warnings = []
-            return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
-                              sampler.warnings + warnings, moments, kept)
+                found = stream(sampler, trials, coverage, ticker, workers)
+                return _summarise(model, budget, None, seed, coverage, digits, False,
+                                  sampler.warnings, found.moments, streamed=found)
+            check_kept(trials, len(model.measurands), trials_at)
+            samples = np.empty((len(model.measurands), trials))
+            moments, kept = _fixed_run(sampler, samples, coverage, ticker, workers)
+            warnings = []
+        return _summarise(model, budget, samples, seed, coverage, digits, adaptive,
+                          sampler.warnings + warnings, moments, kept)
 
 
 @contextmanager

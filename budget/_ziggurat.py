@@ -197,12 +197,18 @@ def _agrees(module: Any) -> bool:
     return bool(np.array_equal(uniform, reference))
 
 
+def _due(numbers: float) -> bool:
+    """Whether ``numbers`` more, with those this process drew before, reach COMPILED_FROM
+    while the compiled draws are neither loaded, refused nor being loaded."""
+    return _compiled is None and not _held and not _pending \
+        and _drawn + numbers >= COMPILED_FROM
+
+
 def expect(numbers: float) -> None:
-    """``numbers`` more to draw: the compiled draws are loaded (here and now) when they,
-    with those this process drew before, reach COMPILED_FROM; not while another thread
-    loads them (a worker goes on in numpy meanwhile)."""
-    if _compiled is None and not _held and not _pending \
-            and _drawn + numbers >= COMPILED_FROM:
+    """``numbers`` more to draw: the compiled draws are loaded (here and now) when they
+    are due (``_due``); not while another thread loads them (a worker goes on in numpy
+    meanwhile)."""
+    if _due(numbers):
         use_compiled()
 
 
@@ -214,8 +220,7 @@ def loading_alongside(numbers: float) -> Iterator[None]:
     when the run ends, so none is left behind."""
     global _pending
     thread = None
-    if _compiled is None and not _held and not _pending \
-            and _drawn + numbers >= COMPILED_FROM:
+    if _due(numbers):
         _pending = True
         thread = threading.Thread(target=use_compiled, name="budget-load-compiled")
         thread.start()
@@ -228,7 +233,7 @@ def loading_alongside(numbers: float) -> Iterator[None]:
 
 
 def compiled() -> bool:
-    """Whether the compiled fast path is in use."""
+    """Whether the compiled draws are in use."""
     return _compiled is not None
 
 
@@ -263,15 +268,11 @@ def standard_normal(generator: np.random.Generator, out: np.ndarray,
     rows, columns = table.shape
     if table.size == 0:
         return out
-    global _drawn
     r, signed, bounds, _, _ = layers()
     rows_each = max(1, _PIECE // columns)
     pair = (scale, shift) if scale is not None and shift is not None else None
-    _drawn += table.size  # (two workers may add at once: a count, not a total, is needed)
-    expect(0)
-    compiled = _compiled
-    if compiled is not None and table.size >= COMPILED_SIZE and isinstance(
-            generator.bit_generator, np.random.SFC64):  # the same numbers, compiled
+    compiled = _compiled_for(generator, table.size, table.size)
+    if compiled is not None:  # the same numbers, compiled
         found = compiled.fast_path(generator, table.reshape(-1), columns, rows_each, signed,
                                    bounds, scale, shift)
         positions, firsts, codes = [found[0]], [found[1]], [found[2]]
@@ -293,15 +294,25 @@ def uniform_rows(generator: np.random.Generator, table: np.ndarray, scale: np.nd
     times its ``scale`` plus its ``shift`` (rows × 1), in one compiled loop when it is
     loaded (True); False, and nothing drawn, when the caller should do it in numpy. The
     numbers count towards COMPILED_FROM, a third of a normal number each."""
-    global _drawn
-    _drawn += table.size // 3
-    expect(0)
-    compiled = _compiled
-    if compiled is None or table.size < COMPILED_SIZE or not isinstance(
-            generator.bit_generator, np.random.SFC64):
+    compiled = _compiled_for(generator, table.size, table.size // 3)
+    if compiled is None:
         return False
     compiled.uniform_rows(generator, table, scale, shift)
     return True
+
+
+def _compiled_for(generator: np.random.Generator, size: int, weight: int) -> Any:
+    """A fill of ``size`` numbers, counting ``weight`` normal numbers towards
+    COMPILED_FROM: the compiled draws when they are loaded, the fill is large enough and
+    the generator is SFC64; else None (the numpy path)."""
+    global _drawn
+    _drawn += weight  # (two workers may add at once: a count, not a total, is needed)
+    expect(0)
+    compiled = _compiled
+    if compiled is None or size < COMPILED_SIZE or not isinstance(
+            generator.bit_generator, np.random.SFC64):
+        return None
+    return compiled
 
 
 def _pieces(generator: np.random.Generator, table: np.ndarray, rows_each: int,
