@@ -23,7 +23,7 @@ MIXED = "\n".join(
      'equation = "' + " + ".join(f"a_{i} * b_{i}**2 / sqrt(c_{i}) + exp(d_{i} / 10)"
                                  for i in range(12)) + ' + e * f"',
      "[measurands.Z]", 'equation = "' + " * ".join(f"(1 + a_{i} / c_{i})" for i in range(12))
-     + '"']
+     + '"', "[measurands.W]", 'equation = "a_3"']  # an input read as it stands
     + [f"[inputs.a_{i}]\nvalue = {1 + 0.01 * i}\nu = 0.01\n"
        f"[inputs.b_{i}]\nvalue = 2\ndistribution = \"rectangular\"\nhalf_width = 0.1\n"
        f"[inputs.c_{i}]\nvalue = {3 + i}\n{'exact = true' if i % 4 == 0 else 'u = 0.05'}\n"
