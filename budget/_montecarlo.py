@@ -60,7 +60,7 @@ from ._formatting import decimal_exponent
 from ._gum import Budget
 from ._model import Model
 from ._streaming import Binned, Streamed, cut_level
-from ._ziggurat import loading_alongside, standard_normal, uniform_rows
+from ._ziggurat import compiled_rows, loading_alongside, standard_normal, uniform_rows
 from ._arguments import keywords_checked
 from ._unit_display import display_unit, spaced_unit
 
@@ -380,11 +380,14 @@ class _Sampler:
         normals = self.plan[-1] if self.plan and self.plan[-1][0] == "normal" else None
         matrix = self.local.buffers[len(self.plan) - 1] if normals else None
         buffers = getattr(self.local, "buffers", {})
-        for start, stop in _slices(size, self.width):  # cache-sized slices of the part
+        # cache-sized slices of the part; whole ones (each run's rows read from end to end)
+        # when the compiled loop makes every group's rows (_compiled_rows)
+        width = _SLICE if self.schedule.unbounded and compiled_rows() else self.width
+        for start, stop in _slices(size, width):
             rows = (self.rows, matrix[:, start:stop]) if matrix is not None else None
             if self.grouped:
-                sources = {n: buffers[n][:, start:stop] for n in self.runs}
-                found = self.schedule.run(values, slice(start, stop), sources, rows,
+                found = self.schedule.run(values, slice(start, stop),
+                                          {n: buffers[n] for n in self.runs}, rows,
                                           self._scratch())
             else:
                 part = values if stop - start == size else [

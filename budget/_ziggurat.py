@@ -51,8 +51,8 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["LAYERS", "compiled", "expect", "layers", "standard_normal", "uniform_rows",
-           "use_compiled"]
+__all__ = ["LAYERS", "compiled", "compiled_rows", "expect", "layers", "standard_normal",
+           "uniform_rows", "use_compiled"]
 
 LAYERS = 256
 _BITS = 52
@@ -78,6 +78,7 @@ _PIECE = 1 << 17
 COMPILED_FROM = 200_000_000
 COMPILED_SIZE = 1 << 12
 _compiled: Any = None  # the module _compiled_draws, once loaded
+_rows: Any = None  # and _compiled_rows (a wide model's sums over rows), loaded with it
 _loading = threading.Lock()
 _drawn = 0  # normal numbers drawn by this process (a rectangular one: a third)
 _held = False  # numba failed to load here, or the caller said no: the numpy path
@@ -153,10 +154,10 @@ def use_compiled(on: bool = True) -> bool:
     Without a working numba (not installed, its cache nowhere to write, numbers that
     disagree), or with ``BUDGET_COMPILED=0`` in the environment, False and the numpy path
     from then on, which gives the same numbers."""
-    global _compiled, _held
+    global _compiled, _held, _rows
     _held = not on or os.environ.get("BUDGET_COMPILED", "").strip() == "0"
     if _held:  # asked not to, or BUDGET_COMPILED=0 in the environment
-        _compiled = None
+        _compiled = _rows = None
         return False
     with _loading:
         if _compiled is None:
@@ -165,12 +166,13 @@ def use_compiled(on: bool = True) -> bool:
                     warnings.simplefilter("ignore")
                     module = importlib.import_module("budget._compiled_draws")
                     agrees = _agrees(module)
+                    rows = importlib.import_module("budget._compiled_rows")
             except Exception:  # noqa: BLE001 - any failure to load: the numpy path
                 agrees = False
             if not agrees:
                 _held = True
                 return False
-            _compiled = module
+            _compiled, _rows = module, rows
     return True
 
 
@@ -235,6 +237,12 @@ def loading_alongside(numbers: float) -> Iterator[None]:
 def compiled() -> bool:
     """Whether the compiled draws are in use."""
     return _compiled is not None
+
+
+def compiled_rows() -> Any:
+    """The compiled sums over a wide model's rows (``_compiled_rows``) when the compiled
+    draws are in use, else None (the same numbers in numpy)."""
+    return _rows
 
 
 _local = threading.local()  # each thread's scratch arrays, reused call after call

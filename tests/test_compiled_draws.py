@@ -34,6 +34,7 @@ from budget import _compiled_draws as compiled  # noqa: E402
 def restore(monkeypatch):
     """Whatever a test switches, the process's path is put back afterwards."""
     monkeypatch.setattr(zig, "_compiled", zig._compiled)
+    monkeypatch.setattr(zig, "_rows", zig._rows)
     monkeypatch.setattr(zig, "_held", zig._held)
     monkeypatch.setattr(zig, "_drawn", zig._drawn)
 
