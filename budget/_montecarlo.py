@@ -334,16 +334,17 @@ def _intervals(values: np.ndarray, p: float) -> tuple[tuple[float, float],
 class _Sampler:
     """Draws the inputs of one block and evaluates the model on them."""
 
-    def __init__(self, model: Model, seed: int) -> None:
+    def __init__(self, model: Model, seed: int,
+                 drawing: tuple[list[list[int]], list[tuple[str, Any]]] | None = None
+                 ) -> None:
         self.model, self.seed = model, seed
         self.size = block_size(model)
         self.program = compile_model(model)
-        self.groups = _groups(model)
+        self.groups, self.plan = drawing or _drawing(model)  # (made by simulate, or here)
         self.warnings = _copula_warnings(model, self.groups)
         self.factors = {key: _factor(matrix)
                         for key, matrix in _group_matrices(model, self.groups).items()}
         self.sets = _set_slots(model)
-        self.plan = _plan(model, self.groups)
         # input slot → row of the normal inputs' buffer (the last run of the plan)
         self.rows = ({slot: row for row, slot in enumerate(self.plan[-1][1][0])}
                      if self.plan and self.plan[-1][0] == "normal" else {})
@@ -359,12 +360,6 @@ class _Sampler:
         self.grouped = saved >= _GROUPING_GAIN
         self.width = _width(self.schedule.widest) if self.grouped else _SLICE
         self.part = part_size(model)
-        # what a trial's draws would save compiled (_ziggurat.expect), in normal numbers:
-        # the independent normal inputs and the groups' standard normals, and a rectangular
-        # input for a third of one (its numpy path costs less to begin with)
-        self.numbers = sum(len(item[0]) if kind == "normal" else len(item)
-                           for kind, item in self.plan if kind in ("normal", "group")) \
-            + sum(len(item[0]) for kind, item in self.plan if kind == "uniform") / 3
 
     def block(self, index: int, size: int, out: np.ndarray | None = None) -> np.ndarray:
         """Draw block ``index`` and evaluate it into ``out`` (measurands × size), part by
@@ -501,6 +496,22 @@ class _Sampler:
             found = local.views[(number, size)] = store[:rows * size].reshape(rows, size)
         local.buffers[number] = found
         return found
+
+
+def _drawing(model: Model) -> tuple[list[list[int]], list[tuple[str, Any]]]:
+    """The model's inputs joined by correlations (``_groups``), and how a block draws
+    them (``_plan``)."""
+    groups = _groups(model)
+    return groups, _plan(model, groups)
+
+
+def _announced(plan: list[tuple[str, Any]]) -> float:
+    """What a trial's draws would save compiled (``_ziggurat.loading_alongside``), in
+    normal numbers: the independent normal inputs and the groups' standard normals, and a
+    rectangular input for a third of one (its numpy path costs less to begin with)."""
+    return sum(len(item[0]) if kind == "normal" else len(item)
+               for kind, item in plan if kind in ("normal", "group")) \
+        + sum(len(item[0]) for kind, item in plan if kind == "uniform") / 3
 
 
 def _width(widest: int) -> int:
@@ -832,14 +843,17 @@ def simulate(model: Model, budget: Budget | None = None, *, trials: int | None =
     if adaptive:
         check_adaptive(coverage, coverage_at)
         _check_finite_variance(model, budget)
-    sampler = _Sampler(model, seed)
     if not adaptive and (trials < 2 or trials < 1.0 / (1.0 - coverage)):
         least = max(2, math.ceil(1 / (1 - coverage)))
         raise SimulationError(f"expected at least {least} trials for a "
                               f"{100 * coverage:.10g} % interval, found {trials}", trials_at)
-    # a long run loads the compiled draws (_ziggurat) while it starts in numpy
-    with loading_alongside(0 if adaptive else trials * sampler.numbers), \
-            _blas_on_one_thread(workers):  # the workers are the parallelism
+    drawing = _drawing(model)
+    # a long run loads the compiled draws (_ziggurat) while its sampler is made, and
+    # waits for them a while; the workers are the parallelism (BLAS on one thread)
+    with loading_alongside(0 if adaptive else trials * _announced(drawing[1])) as ready, \
+            _blas_on_one_thread(workers):
+        sampler = _Sampler(model, seed, drawing)
+        ready()
         if adaptive:
             adaptive_samples, warnings, moments, kept, streamed = _adaptive(
                 sampler, coverage, digits, workers, progress, keep_samples)

@@ -44,7 +44,7 @@ import math
 import os
 import threading
 import warnings
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from functools import cache
 from typing import Any
@@ -214,20 +214,36 @@ def expect(numbers: float) -> None:
         use_compiled()
 
 
+# How long a run waits for the compiled draws being loaded before it starts in numpy:
+# loading them from numba's cache takes 0.5-0.9 s here, and a run that starts meanwhile
+# goes at a third of the speed while it takes turns at the interpreter lock with the
+# loading (measured with benchmarks/montecarlo_inputs.py: a mean of 3332 determinations
+# with 10^5 trials, 1.0-1.5 s slower than waiting); compiling them afresh (a first run, a
+# cache that cannot be written) takes longer, and the run then goes on alongside.
+LOADING_WAIT = 2.0
+
+
 @contextmanager
-def loading_alongside(numbers: float) -> Iterator[None]:
+def loading_alongside(numbers: float) -> Iterator[Callable[[], None]]:
     """A run of ``numbers`` numbers: when they reach COMPILED_FROM, the compiled draws are
-    loaded by a thread of their own while the run starts in numpy (its fills take the
-    compiled loop once it is there: the same numbers either way); the thread is joined
-    when the run ends, so none is left behind."""
+    loaded by a thread of their own while the caller prepares the run; the caller's
+    ``ready()`` waits for them up to LOADING_WAIT seconds, and the run then starts in
+    numpy if they are not there yet (its fills take the compiled loop once it is: the
+    same numbers either way); the thread is joined when the run ends, so none is left
+    behind."""
     global _pending
     thread = None
     if _due(numbers):
         _pending = True
         thread = threading.Thread(target=use_compiled, name="budget-load-compiled")
         thread.start()
+
+    def ready() -> None:
+        if thread is not None:
+            thread.join(LOADING_WAIT)
+
     try:
-        yield
+        yield ready
     finally:
         if thread is not None:
             thread.join()

@@ -233,6 +233,39 @@ def test_a_long_run_loads_them_alongside_and_leaves_no_thread(restore, monkeypat
     assert np.array_equal(found.samples, expected.samples)
 
 
+@pytest.mark.parametrize("wait", [2.0, 0.0])
+def test_a_long_run_waits_a_while_for_them_then_goes_on_in_numpy(restore, monkeypatch, wait):
+    """A run due to load the compiled draws waits up to LOADING_WAIT seconds for them
+    before its first block; a loading that takes longer leaves the run to start in numpy
+    (the same numbers either way)."""
+    import time
+
+    from budget import _montecarlo as montecarlo
+
+    model = parse_model(MODEL)
+    assert zig.use_compiled(True)  # compiled in this process: loading again takes no time
+    zig.use_compiled(False)
+    expected = simulate(model, trials=200_000, seed=3, keep_samples=True).measurands[0]
+    monkeypatch.setattr(zig, "_compiled", None)
+    monkeypatch.setattr(zig, "_held", False)
+    monkeypatch.setattr(zig, "COMPILED_FROM", 900_000)
+    monkeypatch.setattr(zig, "LOADING_WAIT", wait)
+    load = zig.use_compiled
+    monkeypatch.setattr(zig, "use_compiled", lambda on=True: time.sleep(0.3) or load(on))
+    first_block: list[bool] = []
+    block = montecarlo._Sampler.block
+
+    def recording(self, index, size, out=None):
+        if index == 0:
+            first_block.append(zig.compiled())
+        return block(self, index, size, out)
+
+    monkeypatch.setattr(montecarlo._Sampler, "block", recording)
+    found = simulate(model, trials=200_000, seed=3, keep_samples=True).measurands[0]
+    assert first_block == [wait > 0.3] and zig.compiled()
+    assert np.array_equal(found.samples, expected.samples)
+
+
 def test_the_environment_can_keep_numba_out(restore, monkeypatch):
     """BUDGET_COMPILED=0: the numpy path, whatever the run's length (docs/cli.md)."""
     monkeypatch.setenv("BUDGET_COMPILED", "0")
