@@ -216,10 +216,11 @@ def expect(numbers: float) -> None:
 
 # How long a run waits for the compiled draws being loaded before it starts in numpy:
 # loading them from numba's cache takes 0.5-0.9 s here, and a run that starts meanwhile
-# goes at a third of the speed while it takes turns at the interpreter lock with the
-# loading (measured with benchmarks/montecarlo_inputs.py: a mean of 3332 determinations
-# with 10^5 trials, 1.0-1.5 s slower than waiting); compiling them afresh (a first run, a
-# cache that cannot be written) takes longer, and the run then goes on alongside.
+# draws in numpy, at a third of the speed, and takes turns at the interpreter lock with
+# the loading (measured here, a mean of 3332 determinations with 10^5 trials in one
+# process: its Monte Carlo took 0.6-1.0 s longer than one that waited); compiling them
+# afresh (a first run after an installation: about 6 s) takes longer, and the run then
+# goes on alongside.
 LOADING_WAIT = 2.0
 
 
