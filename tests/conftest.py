@@ -30,3 +30,13 @@ def cli():
         return result.exit_code, result.stdout, result.stderr
 
     return invoke
+
+
+@pytest.fixture
+def restore(monkeypatch):
+    """Whatever a test switches between the compiled loops and the numpy path
+    (budget/_ziggurat.py), the process's state is put back afterwards."""
+    from budget import _ziggurat as zig
+
+    for name in ("_compiled", "_rows", "_held", "_drawn"):
+        monkeypatch.setattr(zig, name, getattr(zig, name))

@@ -30,15 +30,6 @@ pytest.importorskip("numba")
 from budget import _compiled_draws as compiled  # noqa: E402
 
 
-@pytest.fixture
-def restore(monkeypatch):
-    """Whatever a test switches, the process's path is put back afterwards."""
-    monkeypatch.setattr(zig, "_compiled", zig._compiled)
-    monkeypatch.setattr(zig, "_rows", zig._rows)
-    monkeypatch.setattr(zig, "_held", zig._held)
-    monkeypatch.setattr(zig, "_drawn", zig._drawn)
-
-
 def _fill(on: bool, shape: tuple[int, ...], seed: int, scaled: bool
           ) -> tuple[np.ndarray, np.ndarray]:
     """A fill by one path, and the next numbers of the stream after it."""

@@ -84,15 +84,6 @@ SHAPES = {
 }
 
 
-@pytest.fixture
-def restore(monkeypatch):
-    """Whatever a test switches, the process's path is put back afterwards."""
-    monkeypatch.setattr(zig, "_compiled", zig._compiled)
-    monkeypatch.setattr(zig, "_rows", zig._rows)
-    monkeypatch.setattr(zig, "_held", zig._held)
-    monkeypatch.setattr(zig, "_drawn", zig._drawn)
-
-
 @pytest.mark.parametrize("shape", SHAPES)
 def test_compiled_rows_give_the_numbers_of_numpy_and_of_the_program(restore, shape):
     text, expected = SHAPES[shape]
