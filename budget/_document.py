@@ -154,13 +154,13 @@ def _correlation_rows(terms: Any) -> list[dict[str, Any]]:
 
 def _correlation_columns(terms: Any) -> Any:
     """The correlation terms as columns: the same JSON text without an object per pair."""
-    from ._jsontext import Columns
+    from ._jsontext import Columns, Spread
 
     if not isinstance(terms, CorrelationTerms):
         return _correlation_rows(terms)
     names = terms.names
-    pairs = list(zip([names[a] for a in terms.first.tolist()],
-                     [names[b] for b in terms.second.tolist()]))
+    pairs = Spread((list(map(names.__getitem__, terms.first.tolist())),
+                    list(map(names.__getitem__, terms.second.tolist()))))
     return Columns(keys=("inputs", "r", "variance", "share"),
                    columns=(pairs, terms.r.tolist(), terms.variance.tolist(),
                             terms.share.tolist()))

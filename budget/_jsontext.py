@@ -15,11 +15,12 @@ texts on every shipped model and on hostile values.
 from __future__ import annotations
 
 import math
+from itertools import chain
 from dataclasses import dataclass
 from json.encoder import encode_basestring_ascii
 from typing import Any
 
-__all__ = ["json_text", "json_parts", "Columns"]
+__all__ = ["json_text", "json_parts", "Columns", "Spread"]
 
 _INDENT = "  "
 _CHUNK = 65_536  # rows formatted at a time, so that their texts never all exist at once
@@ -31,7 +32,18 @@ class Columns:
     ``keys[k]``): written as the list of objects it stands for, without making them."""
 
     keys: tuple[str, ...]
-    columns: tuple[list[Any], ...]
+    columns: tuple[Any, ...]  # lists, or Spread for a column of lists of one length
+
+
+@dataclass(frozen=True)
+class Spread:
+    """A column of lists of one length given by position (``positions[p][i]`` is item p
+    of row i's list): written as those lists without making them."""
+
+    positions: tuple[list[Any], ...]
+
+    def __len__(self) -> int:
+        return len(self.positions[0]) if self.positions else 0
 
 
 def json_text(document: Any) -> str:
@@ -130,14 +142,20 @@ def _rows(rows: list[Any] | tuple[Any, ...], level: int, out: list[str]) -> bool
     return _write_columns(keys, [[row[key] for row in rows] for key in keys], level, out)
 
 
-def _write_columns(keys: tuple[Any, ...], columns: list[list[Any]], level: int,
+def _write_columns(keys: tuple[Any, ...], columns: list[Any], level: int,
                    out: list[str]) -> bool:
     """Rows of scalars (or lists of them) from their columns, a chunk at a time."""
-    slots, flat = [], []
+    slots: list[str] = []
+    flat: list[Any] = []
     for column in columns:
-        width = _fixed_width(column)
+        if isinstance(column, Spread):
+            width = len(column.positions)
+            flat += column.positions
+        else:
+            width = _fixed_width(column)
+            if width:
+                flat += [[items[i] for items in column] for i in range(width)]
         if width:  # lists of one length (a pair of names): one column per position
-            flat += [[items[i] for items in column] for i in range(width)]
             slots.append("[" + ",".join([_pad(level + 3) + "%s"] * width)
                          + _pad(level + 2) + "]")
         else:
@@ -168,9 +186,9 @@ def _fixed_width(column: list[Any]) -> int:
     if type(column[0]) not in (list, tuple) or not column[0]:
         return 0
     width = len(column[0])
-    if width > 8 or {type(items) for items in column} - {list, tuple} \
+    if width > 8 or set(map(type, column)) - {list, tuple} \
             or set(map(len, column)) != {width} \
-            or {type(item) for items in column for item in items} != {str}:
+            or set(map(type, chain.from_iterable(column))) != {str}:
         return 0
     return width
 
@@ -179,14 +197,10 @@ def _column(values: list[Any], level: int) -> list[str] | None:
     """The texts of one column's values (``level``: that of the values), or None."""
     kinds = set(map(type, values))
     if kinds == {float}:
-        texts = repr(values)[1:-1].split(", ")  # float.__repr__ of each, in one call
-        if not all(map(math.isfinite, values)):
-            texts = [t if math.isfinite(v) else "null" for t, v in zip(texts, values)]
-        return texts
-    if kinds == {str}:
-        known: dict[str, str] = {}
-        return [known.get(v) or known.setdefault(v, encode_basestring_ascii(v))
-                for v in values]
+        return _repeated_floats(values) or _floats(values)
+    if kinds == {str}:  # names: each encoded once
+        known = {v: encode_basestring_ascii(v) for v in set(values)}
+        return list(map(known.__getitem__, values))
     if kinds <= {list, tuple}:
         return _lists(values, level)
     texts = []
@@ -196,6 +210,35 @@ def _column(values: list[Any], level: int) -> list[str] | None:
             return None
         texts.append(text)
     return texts
+
+
+def _floats(values: list[float]) -> list[str]:
+    """``float.__repr__`` of each value (``null`` where not finite), in one call."""
+    texts = repr(values)[1:-1].split(", ")
+    if not all(map(math.isfinite, values)):
+        texts = [t if math.isfinite(v) else "null" for t, v in zip(texts, values)]
+    return texts
+
+
+_SAMPLE = 256  # values looked at to guess whether a column repeats itself
+
+
+def _repeated_floats(values: list[float]) -> list[str] | None:
+    """The texts of a long column of few distinct values (one r for a whole correlated
+    block, the same u·c for every input), each distinct value formatted once; None when
+    the column does not look like one (its first values are mostly distinct).
+
+    Values are told apart by their bits, so that -0.0 and 0.0 keep their own texts."""
+    if len(values) < 4 * _SAMPLE or 4 * len(set(values[:_SAMPLE])) > _SAMPLE:
+        return None
+    import numpy as np
+
+    bits = np.array(values, dtype=np.float64).view(np.int64)
+    distinct, inverse = np.unique(bits, return_inverse=True)
+    if 4 * distinct.size > bits.size:
+        return None
+    texts = _floats(distinct.view(np.float64).tolist())
+    return list(map(texts.__getitem__, inverse.tolist()))
 
 
 def _lists(values: list[Any], level: int) -> list[str] | None:

@@ -54,6 +54,40 @@ def test_a_correlated_block_is_written_as_the_standard_library_writes_it(
     assert json_text(result_document(result, columns=True)) == _reference(document)
 
 
+def test_a_block_of_one_r_is_written_as_the_standard_library_writes_it(
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    """1225 correlation terms whose r, variance and share repeat: each distinct value is
+    formatted once (``_repeated_floats``), and the text is still the standard library's."""
+    n = 50
+    names = ", ".join(f'"x_{i}"' for i in range(n))
+    text = ('title = "block"\n[measurands.y]\nequation = "'
+            + " + ".join(f"x_{i}" for i in range(n)) + '"\n'
+            + "".join(f"[inputs.x_{i}]\nvalue = {i}.5\nu = 0.{1 + i % 3}\n"
+                      for i in range(n))
+            + f"[[correlations]]\nbetween = [{names}]\nr = 0.3\n")
+    result = evaluate(parse_model(text), trials=0)
+    document = result_document(result)
+    terms = document["measurands"][0]["correlation_terms"]
+    assert len(terms) == 1225 and len({t["variance"] for t in terms}) <= 6
+    assert json_text(document) == _reference(document)
+    monkeypatch.setattr(jsontext, "_CHUNK", 1100)  # the second chunk too short to look at
+    assert json_text(result_document(result, columns=True)) == _reference(document)
+
+
+def test_long_columns_of_few_values_keep_every_value_s_text() -> None:
+    """-0.0 beside 0.0, NaN and ±∞ (null), the smallest subnormal, and a column whose first
+    values repeat but whose whole does not (formatted value by value)."""
+    few = [0.0, -0.0, math.nan, math.inf, -math.inf, 5e-324, 0.1, 1e308]
+    rows = [{"v": few[i % len(few)], "w": 0.3} for i in range(3000)]
+    mostly = [{"v": 0.25 if i < 300 else i / 7} for i in range(3000)]
+    for document in (rows, mostly, {"columns": jsontext.Columns(
+            keys=("v", "p"), columns=([few[i % 8] for i in range(2000)],
+                                      jsontext.Spread((["a"] * 2000, ["b"] * 2000))))}):
+        expected = document if not isinstance(document, dict) else {"columns": [
+            {"v": few[i % 8], "p": ["a", "b"]} for i in range(2000)]}
+        assert json_text(document) == _reference(expected)
+
+
 HOSTILE: dict[str, Any] = {
     "floats": [math.nan, math.inf, -math.inf, 0.1, -0.0, 1e308, 5e-324, np.float64(2.5)],
     "rows": [{"a": 1.0, "b": math.nan, "c": "x\x7f\u202e\n\"", "d": [1, "t", None]},
