@@ -92,16 +92,24 @@ def correlated_block(n: int, r: float = 0.3) -> str:
 
 def correlated_block_stated(n: int, r: float = 0.3, form: str = "matrix") -> str:
     """The sum of n inputs in one correlated block stated in one [[correlations]] table:
-    ``form = "matrix"`` writes the full n × n matrix, ``"r"`` one r for every pair."""
+    ``form = "matrix"`` writes the full n × n matrix, ``"r"`` one r for every pair,
+    ``"distinct"`` a full matrix whose r differs from one diagonal to the next, beside
+    inputs whose u all differ (every pair's variance and share its own)."""
     terms = " + ".join(f"x_{i}" for i in range(n))
     lines = [f'title = "{n} inputs in one correlated block (synthetic benchmark)"',
              "[measurands.y]", f'equation = "{terms}"']
     for i in range(n):
-        lines += [f"[inputs.x_{i}]", f"value = {1.0 + 0.001 * i}", "u = 0.001"]
+        u = f"{0.001 * (1 + i / n)!r}" if form == "distinct" else "0.001"
+        lines += [f"[inputs.x_{i}]", f"value = {1.0 + 0.001 * i}", f"u = {u}"]
     names = ", ".join(f'"x_{i}"' for i in range(n))
     lines += ["[[correlations]]", f"between = [{names}]"]
     if form == "r":
         lines.append(f"r = {r}")
+    elif form == "distinct":  # r_ij = r·0.9999^|i-j| (positive definite, as any AR(1))
+        rows = ", ".join("[" + ", ".join(
+            "1.0" if i == j else f"{r * 0.9999 ** abs(i - j):.7g}"
+            for j in range(n)) + "]" for i in range(n))
+        lines.append(f"matrix = [{rows}]")
     else:
         rows = ", ".join("[" + ", ".join("1.0" if i == j else str(r) for j in range(n)) + "]"
                          for i in range(n))

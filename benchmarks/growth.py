@@ -110,7 +110,9 @@ def correlated_blocks(folder: Path, repeats: int) -> None:
     print("\n4. 1000 inputs in one correlated block (499,500 pairs), budget run MODEL "
           "--json --trials 0")
     forms = [("one r for every pair", correlated_block_stated(1000, form="r"), repeats),
-             ("the full matrix", correlated_block_stated(1000, form="matrix"), repeats)]
+             ("the full matrix", correlated_block_stated(1000, form="matrix"), repeats),
+             ("r by distance, u each", correlated_block_stated(1000, form="distinct"),
+              repeats)]
     for name, text, runs_wanted in forms:
         path = folder / f"block-{len(text)}.toml"
         path.write_text(text)

@@ -199,6 +199,7 @@ _MULTILINE = ("description", "note")
 
 
 _TEXTUAL = (str, dict, list)  # what TOML values may hold a string
+_TEXTUAL_SET = frozenset(_TEXTUAL)
 
 
 def check_strings(document: dict[str, Any],
@@ -217,7 +218,8 @@ def check_strings(document: dict[str, Any],
                 _refuse(str(key), "", where, f"{path}.{key}" if path else str(key), str(key))
                 stack.append((f"{path}.{key}" if path else str(key), item))
         elif isinstance(value, list):  # numbers (a matrix of 10⁶) need no look
-            stack.extend([(path, item) for item in value if type(item) in _TEXTUAL])
+            if not _TEXTUAL_SET.isdisjoint(map(type, value)):
+                stack.extend([(path, item) for item in value if type(item) in _TEXTUAL])
         elif isinstance(value, str):
             last = path.rsplit(".", 1)[-1]
             free = last in _MULTILINE or path.startswith("certificate.")
