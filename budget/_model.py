@@ -18,6 +18,7 @@ import tomllib
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from pathlib import Path
+from functools import partial
 from typing import Any, Callable
 
 import numpy as np
@@ -34,7 +35,7 @@ from ._gcpause import paused_collection
 from ._register import (CertificateUse, Register, agreement_warnings, date_warnings,
                        load_register, read_date)
 from ._statements import STATEMENT_WAYS, read_statement
-from ._units import UnitInfo, dimension_text, parse_unit
+from ._units import UnitInfo, dimension_text, known_unit, parse_unit
 from . import _correlations as corr
 from . import _together as together
 from ._together import Together
@@ -372,8 +373,11 @@ class _Reader:
         inputs = self.inputs(settings.atomic_weights, bool(generated.inputs))
         inputs += self.made_inputs(generated, {i.name for i in inputs})
         measured = self.measured()
-        table = {i.name: _input_term(i, self.where(*self.home(generated, i.name)))
-                 for i in inputs}
+
+        def home(name: str) -> Location:
+            return self.where(*self.home(generated, name))
+
+        table = {i.name: _input_term(i, partial(home, i.name)) for i in inputs}
         definitions, terms = self.definitions(table, generated.definitions)
         measurands = self.measurands(terms)
         pairs = corr.read(self.doc.get("correlations", []), [i.name for i in inputs],
@@ -506,8 +510,11 @@ class _Reader:
             data = self.from_certificate(name, data, use)
         statement = read_statement(data, lambda key: self.where("inputs." + name, key),
                                    convention)
-        unit_where = self.where("inputs." + name, "unit")
-        unit = parse_unit(statement.unit if statement.unit is not None else "1", unit_where)
+        def unit_where() -> Location:  # found only when needed: 10⁵ inputs look it up
+            return self.where("inputs." + name, "unit")
+
+        unit_text = statement.unit if statement.unit is not None else "1"
+        unit = known_unit(unit_text) or parse_unit(unit_text, unit_where())
         distribution = _in_unit(statement, unit, unit_where)
         made = Input(name=name, unit=unit.text, distribution=distribution,
                      dof=statement.dof, type=statement.type, basis=statement.basis,
@@ -718,13 +725,15 @@ def _check_name(name: str, where: Location) -> None:
                          f"syntax, found '{name}' (write for example '{name}_')", where)
 
 
-def _in_unit(statement: Any, unit: Any, where: Location) -> Any:
+def _in_unit(statement: Any, unit: Any, found_at: Callable[[], Location]) -> Any:
     """Express a constant's or a molar mass's distribution in the unit the user chose."""
     from .distributions import Exact
 
     if statement.molar_mass is not None:
+        where = found_at()
         wanted = parse_unit("g/mol", where)
     elif statement.si_value is not None:
+        where = found_at()
         wanted = parse_unit(statement.si_unit, where)
     else:
         return statement.distribution
@@ -737,8 +746,8 @@ def _in_unit(statement: Any, unit: Any, where: Location) -> Any:
     return Exact(statement.si_value * scale)
 
 
-def _input_term(item: Input, where: Location) -> Term:
-    unit = parse_unit(item.unit, where)
+def _input_term(item: Input, found_at: Callable[[], Location]) -> Term:
+    unit = known_unit(item.unit) or parse_unit(item.unit, found_at())
     symbol = alg.symbol(item.name)
     factor = Fraction(unit.factor)
     scaled = symbol if factor == 1 else alg.number(factor) * symbol

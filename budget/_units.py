@@ -27,7 +27,8 @@ from typing import Any
 from ._errors import Location, UnitError
 from ._limits import LIMITS_PAGE, MAX_UNIT_CHARS
 
-__all__ = ["Unit", "UnitInfo", "parse_unit", "registry", "dimension_text", "DIMENSIONLESS"]
+__all__ = ["Unit", "UnitInfo", "known_unit", "parse_unit", "registry", "dimension_text",
+           "DIMENSIONLESS"]
 
 _ORDER = ("[mass]", "[length]", "[time]", "[current]", "[substance]", "[temperature]",
           "[luminosity]")
@@ -158,6 +159,13 @@ class UnitInfo:
 
 
 _PARSED: dict[str, UnitInfo] = {}  # successful parses only; errors are raised every time
+_ONE = UnitInfo(text="1", unit=DIMENSIONLESS, factor=Fraction(1))
+
+
+def known_unit(text: str) -> UnitInfo | None:
+    """The unit of ``text`` when it was parsed before as it stands (no location needed),
+    else None: :func:`parse_unit` then reads it and says where it failed."""
+    return _ONE if text in ("", "1") else _PARSED.get(text)
 
 
 def parse_unit(text: Any, where: Location) -> UnitInfo:
@@ -169,7 +177,7 @@ def parse_unit(text: Any, where: Location) -> UnitInfo:
         raise UnitError(f"expected a unit of at most {MAX_UNIT_CHARS} characters (limits: "
                         f"{LIMITS_PAGE}), found one of {len(cleaned):,}", where)
     if cleaned in ("", "1"):
-        return UnitInfo(text="1", unit=DIMENSIONLESS, factor=Fraction(1))
+        return _ONE
     if cleaned not in _PARSED:
         _PARSED[cleaned] = _from_table(cleaned) or _parse(cleaned, where)
     return _PARSED[cleaned]
