@@ -727,6 +727,8 @@ def _check_name(name: str, where: Location) -> None:
 
 def _in_unit(statement: Any, unit: Any, found_at: Callable[[], Location]) -> Any:
     """Express a constant's or a molar mass's distribution in the unit the user chose."""
+    if statement.molar_mass is None and statement.si_value is None:
+        return statement.distribution
     from .distributions import Exact
 
     if statement.molar_mass is not None:
