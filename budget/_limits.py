@@ -211,19 +211,26 @@ def check_strings(document: dict[str, Any],
     may hold tabs and line breaks, nothing else.
     """
     stack: list[tuple[str, Any]] = [("", document)]
+    safe: set[str] = set()  # keys and texts seen clean (every input's 'value', 'V')
     while stack:
         path, value = stack.pop()
         if isinstance(value, dict):
             for key, item in value.items():
-                _refuse(str(key), "", where, f"{path}.{key}" if path else str(key), str(key))
-                stack.append((f"{path}.{key}" if path else str(key), item))
+                if key not in safe:
+                    _refuse(str(key), "", where, f"{path}.{key}" if path else str(key),
+                            str(key))
+                    safe.add(key)
+                if type(item) in _TEXTUAL:  # numbers, dates, booleans hold no text
+                    stack.append((f"{path}.{key}" if path else str(key), item))
         elif isinstance(value, list):  # numbers (a matrix of 10⁶) need no look
             if not _TEXTUAL_SET.isdisjoint(map(type, value)):
                 stack.extend([(path, item) for item in value if type(item) in _TEXTUAL])
-        elif isinstance(value, str):
+        elif isinstance(value, str) and value not in safe:  # a unit written 10⁴ times
             last = path.rsplit(".", 1)[-1]
             free = last in _MULTILINE or path.startswith("certificate.")
             _refuse(value, "\t\n\r" if free else "", where, path, last)
+            if not free:  # clean of every control character: clean wherever it stands
+                safe.add(value)
 
 
 def _refuse(text: str, allowed: str, where: Callable[[str | None, str | None], Location],
