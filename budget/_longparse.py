@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import ast
 import io
+import re
 import tokenize
 from dataclasses import dataclass
 from typing import Iterator
@@ -48,7 +49,51 @@ def parse(text: str) -> ast.Expression:
     return ast.Expression(body=_Splitter(text, tokens).expression(0, len(tokens)))
 
 
+# names, plain decimal numbers and the operators of arithmetic, between spaces: the
+# tokens of nearly every long expression, found by one pattern instead of ``tokenize``
+_SIMPLE = re.compile(r"[ \t]*(?:([A-Za-z_][A-Za-z0-9_]*)|((?:[0-9]+\.?[0-9]*|\.[0-9]+)"
+                     r"(?:[eE][-+]?[0-9]+)?)|(\*\*|//|[-+*/(),]))")
+_GLUED = frozenset("abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789_.")
+
+
 def _tokens(text: str) -> list[_Token] | None:
+    simple = _simple_tokens(text)
+    return simple if simple is not None else _python_tokens(text)
+
+
+def _simple_tokens(text: str) -> list[_Token] | None:
+    """The tokens ``tokenize`` would give for a one-line text of names, decimal numbers,
+    ``+ - * / ** ( ) ,`` and spaces; None for anything else (``tokenize`` reads it)."""
+    if text[:1] in (" ", "\t"):  # an indented first line: Python refuses it
+        return None
+    made: list[_Token] = []
+    append = made.append
+    depth = 0
+    position, end = 0, len(text.rstrip(" \t"))
+    match = _SIMPLE.match
+    while position < end:
+        found = match(text, position)
+        if found is None:
+            return None
+        name, number, operator = found.groups()
+        position = found.end()
+        if name is not None:
+            append(_Token(tokenize.NAME, name, found.start(1), position))
+        elif number is not None:
+            if position < len(text) and text[position] in _GLUED:  # 1_000, 1e, 1.5.2, 2j
+                return None
+            if number[0] == "0" and number[1:2].isdigit():  # 007: Python's own message
+                return None
+            append(_Token(tokenize.NUMBER, number, found.start(2), position))
+        else:
+            depth += (operator == "(") - (operator == ")")
+            if depth < 0:
+                return None
+            append(_Token(tokenize.OP, operator, found.start(3), position))
+    return made if made and depth == 0 else None
+
+
+def _python_tokens(text: str) -> list[_Token] | None:
     starts = [0]
     for line in text.splitlines(keepends=True):
         starts.append(starts[-1] + len(line))
