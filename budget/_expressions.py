@@ -14,8 +14,10 @@ arguments and misused Celsius temperatures are refused before any number is comp
 from __future__ import annotations
 
 import ast
+import keyword
 import math
 import re
+from tokenize import NAME as NAME_TOKEN
 from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Callable, Mapping
@@ -67,6 +69,9 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
     if not text.strip():
         raise ModelSyntaxError("expected an expression, found an empty string", where)
     _check_text(text, where)
+    known = _known_shape(text, where)
+    if known is not None:
+        return known
     try:
         tree = longparse.parse(text.strip())
     except SyntaxError as exc:
@@ -90,8 +95,66 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
     for node in nodes:
         if type(node) not in _PLAIN_NODES:
             _check_node(node, text, where)
-    setattr(tree, _NAMES, _names(nodes))
+    names = _names(nodes)
+    setattr(tree, _NAMES, names)
+    _remember_shape(text, names)
     return tree
+
+
+# Shapes of short expressions already checked: the text with each quantity's name replaced
+# by the order of its first appearance ('M * U_7 * t_7 / m_7' and 'M * U_8 * t_8 / m_8'
+# are one shape), and the order in which ``_names`` lists those names. A text of a known
+# shape is parsed by ``ast.parse`` alone: every check of ``parse_expression`` depends on
+# the shape (the operators, numbers, calls, nesting), never on which names fill it, but
+# for the '__' a name may not start with, which is checked on each.
+_SHAPES: dict[tuple[str, ...], tuple[int, ...]] = {}
+_SHAPE_CHARS = 300  # longer texts are rarely written twice
+_LITERAL = frozenset({"True", "False", "None"} | set(keyword.kwlist))
+
+
+def _shape(text: str) -> tuple[tuple[str, ...], list[str]] | None:
+    """The shape key of a short text and its quantities' names in textual order."""
+    stripped = text.strip()
+    if len(stripped) > _SHAPE_CHARS:
+        return None
+    tokens = longparse.simple_tokens(stripped)
+    if tokens is None:
+        return None
+    order: dict[str, int] = {}
+    key: list[str] = []
+    last = len(tokens) - 1
+    for k, token in enumerate(tokens):
+        if token.kind == NAME_TOKEN and token.text not in _LITERAL and not (
+                k < last and tokens[k + 1].text == "("):
+            key.append("\0" + str(order.setdefault(token.text, len(order))))
+        else:
+            key.append(token.text)
+    return tuple(key), list(order)
+
+
+def _known_shape(text: str, where: Location) -> ast.Expression | None:
+    found = _shape(text) if _SHAPES else None
+    if found is None or found[0] not in _SHAPES:
+        return None
+    names = found[1]
+    for name in names:
+        if name.startswith("__"):
+            raise ModelSyntaxError(f"names starting with '__' are not allowed: '{name}'",
+                                   where)
+    tree = ast.parse(text.strip(), mode="eval")
+    setattr(tree, _NAMES, [names[k] for k in _SHAPES[found[0]]])
+    return tree
+
+
+def _remember_shape(text: str, names: list[str]) -> None:
+    found = _shape(text)
+    if found is None or len(_SHAPES) >= 4096:
+        return
+    key, written = found
+    if sorted(written) != sorted(names):  # a shape the key does not describe: not kept
+        return
+    position = {name: k for k, name in enumerate(written)}
+    _SHAPES[key] = tuple(position[name] for name in names)
 
 
 _NAMES = "_budget_names"  # the names used as quantities, found while checking the tree

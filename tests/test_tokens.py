@@ -1,8 +1,9 @@
-"""The quick tokenizer of long expressions (``_longparse._simple_tokens``) against the
+"""The quick tokenizer of long expressions (``_longparse.simple_tokens``) against the
 standard library's ``tokenize`` (through ``_longparse._python_tokens``): for every text it
 accepts, the very tokens, kinds and character offsets ``tokenize`` gives; every text it
 cannot vouch for (an indented start, unbalanced brackets, 1_000, 007, 2j, '//' …) is left
-to ``tokenize``."""
+to ``tokenize``. And the shapes of expressions already checked (``_expressions._SHAPES``):
+an expression of a known shape reads as it would have read the first time."""
 
 from __future__ import annotations
 
@@ -24,13 +25,55 @@ _PIECES = ["x", "x_1", "M", "e5", "1e5x", "lambda", "if", "sqrt", "2", "2.5", "1
 @example("  x + y")
 @example("00  // 3")
 def test_the_quick_tokens_are_those_of_tokenize(text: str) -> None:
-    quick = longparse._simple_tokens(text)
+    quick = longparse.simple_tokens(text)
     if quick is not None:
         assert quick == longparse._python_tokens(text)
 
 
 def test_a_long_sum_is_read_by_the_quick_tokenizer() -> None:
     text = " + ".join(f"{k}.5 * x_{k}" for k in range(2000))
-    quick = longparse._simple_tokens(text)
+    quick = longparse.simple_tokens(text)
     assert quick is not None and len(quick) == 4 * 2000 - 1
     assert quick == longparse._python_tokens(text)
+
+
+# Expressions of one shape: the second and later are parsed by ast.parse alone
+# (``_expressions._known_shape``); what they give must be what the full checks give.
+
+_OPERANDS = st.sampled_from(["{0}", "{1}", "{2}", "2", "1.5e-3", "sqrt({0})", "({0} - {1})",
+                             "exp(-{2})", "{1} ** 2"])
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from([" + ", " - ", " * ", " / "]), _OPERANDS),
+                min_size=1, max_size=6),
+       st.permutations(["a", "b_1", "c"]), st.permutations(["x_9", "M", "tt"]))
+def test_an_expression_of_a_known_shape_reads_as_a_new_one(
+        parts: list[tuple[str, str]], first: list[str], second: list[str]) -> None:
+    import ast
+
+    from budget import _expressions as expressions
+    from budget._errors import Location
+
+    template = "".join(op + operand for op, operand in parts)[3:]
+    where = Location()
+    expressions._SHAPES.clear()
+    expressions.parse_expression(template.format(*first), where)  # the shape is learnt
+    text = template.format(*second)
+    known = expressions.parse_expression(text, where)
+    assert expressions._known_shape(text, where) is not None
+    expressions._SHAPES.clear()
+    fresh = expressions.parse_expression(text, where)
+    assert expressions.names_in(known) == expressions.names_in(fresh)
+    assert ast.dump(known, include_attributes=True) == ast.dump(fresh, include_attributes=True)
+
+
+def test_a_known_shape_still_refuses_a_name_with_two_underscores() -> None:
+    import pytest
+
+    from budget import _expressions as expressions
+    from budget._errors import Location, ModelSyntaxError
+
+    expressions.parse_expression("M * U_0 / m_0", Location())
+    with pytest.raises(ModelSyntaxError, match="'__class__'"):
+        expressions.parse_expression("M * __class__ / m_1", Location())
