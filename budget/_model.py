@@ -580,9 +580,11 @@ class _Reader:
                                  "record", self.where("definitions", name))
         texts.update(generated)
         trees = {}
+        places = {}
         for name, text in texts.items():
             where = self.where("definitions", name) if name not in generated else \
                 self.where("records." + name)
+            places[name] = where
             _check_name(name, where)
             if name in table:
                 raise InputError(f"expected a new name, found '{name}' which is also an "
@@ -592,9 +594,7 @@ class _Reader:
         terms = dict(table)
         made = []
         for name in order:
-            where = self.where("definitions", name) if name not in generated else \
-                self.where("records." + name)
-            term = build(trees[name], terms, texts[name], where)
+            term = build(trees[name], terms, texts[name], places[name])
             terms[name] = Term(term.expr, alg.symbol(name), term.unit, term.offset,
                                term.opaque)
             made.append(Definition(name=name, text=texts[name].strip(),

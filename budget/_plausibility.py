@@ -91,6 +91,10 @@ def _calls(model: Any) -> list[tuple[Any, ...]]:
     """The argument graphs of every ``air_density`` call (no sympy: the model's graphs)."""
     from . import _algebra as alg
 
+    written = [m.equation for m in model.measurands] + [
+        d.text for d in getattr(model, "definitions", ())]
+    if not any("air_density" in text for text in written):  # no graph of 10⁵ nodes walked
+        return []
     calls: dict[int, tuple[Any, ...]] = {}
     for measurand in model.measurands:
         graph = getattr(measurand, "opaque_graph", None)
