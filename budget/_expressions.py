@@ -17,7 +17,6 @@ import ast
 import keyword
 import math
 import re
-from tokenize import NAME as NAME_TOKEN
 from dataclasses import dataclass
 from fractions import Fraction
 from typing import Any, Callable, Mapping
@@ -107,28 +106,32 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
 # shape is parsed by ``ast.parse`` alone: every check of ``parse_expression`` depends on
 # the shape (the operators, numbers, calls, nesting), never on which names fill it, but
 # for the '__' a name may not start with, which is checked on each.
-_SHAPES: dict[tuple[str, ...], tuple[int, ...]] = {}
+_SHAPES: dict[tuple[str | int, ...], tuple[int, ...]] = {}
 _SHAPE_CHARS = 300  # longer texts are rarely written twice
 _LITERAL = frozenset({"True", "False", "None"} | set(keyword.kwlist))
 
 
-def _shape(text: str) -> tuple[tuple[str, ...], list[str]] | None:
-    """The shape key of a short text and its quantities' names in textual order."""
+# a number-like run (digits, letters, points, a sign after an exponent's e) or a name,
+# with the bracket of a call after it
+_WORD = re.compile(r"[0-9.](?:[0-9A-Za-z_.]|(?<=[eE])[-+])*|([A-Za-z_][A-Za-z0-9_]*)(\s*\()?")
+
+
+def _shape(text: str) -> tuple[tuple[str | int, ...], list[str]] | None:
+    """The shape key of a short text (its characters, each quantity's name replaced by
+    the order of its first appearance) and those names in textual order."""
     stripped = text.strip()
     if len(stripped) > _SHAPE_CHARS:
         return None
-    tokens = longparse.simple_tokens(stripped)
-    if tokens is None:
-        return None
     order: dict[str, int] = {}
-    key: list[str] = []
-    last = len(tokens) - 1
-    for k, token in enumerate(tokens):
-        if token.kind == NAME_TOKEN and token.text not in _LITERAL and not (
-                k < last and tokens[k + 1].text == "("):
-            key.append("\0" + str(order.setdefault(token.text, len(order))))
-        else:
-            key.append(token.text)
+    key: list[str | int] = []
+    last = 0
+    for found in _WORD.finditer(stripped):
+        name = found.group(1)
+        if name is None or name in _LITERAL or found.group(2) is not None:
+            continue  # a number, a reserved word or a function: part of the shape
+        key += (stripped[last:found.start()], order.setdefault(name, len(order)))
+        last = found.end()
+    key.append(stripped[last:])
     return tuple(key), list(order)
 
 

@@ -77,3 +77,37 @@ def test_a_known_shape_still_refuses_a_name_with_two_underscores() -> None:
     expressions.parse_expression("M * U_0 / m_0", Location())
     with pytest.raises(ModelSyntaxError, match="'__class__'"):
         expressions.parse_expression("M * __class__ / m_1", Location())
+
+
+_NEIGHBOURS = ["x + y", "x + __y", "a * b", "a * lambda", "a * if_", "1e5 * x", "1e5 * e5",
+               "2e-3 * k", "sqrt(x)", "sqrts(x)", "sqrt (x)", "exp(x, y)", "x ** 2",
+               "x ** y_2", "x.y + z", "u.v + w", "1_000 * q", "1_001 * r", "(a + b",
+               "(c + d", "a and b", "x_1 / (y_1 * z_1)", "x_2 / (y_2 * x_2)", "t ^ 2",
+               "s ^ 3", "True * x", "None * y", "x if y else z", "'p' + q", "u + 'v'"]
+
+
+def _outcome(text: str) -> object:
+    import ast
+
+    from budget import _expressions as expressions
+    from budget._errors import BudgetError, Location
+
+    try:
+        tree = expressions.parse_expression(text, Location())
+    except BudgetError as exc:
+        return type(exc).__name__, str(exc)
+    return expressions.names_in(tree), ast.dump(tree, include_attributes=True)
+
+
+def test_neighbouring_shapes_read_as_they_would_alone() -> None:
+    """Every text read after all the others (their shapes learnt) reads as it does first."""
+    from budget import _expressions as expressions
+
+    alone = {}
+    for text in _NEIGHBOURS:
+        expressions._SHAPES.clear()
+        alone[text] = _outcome(text)
+    expressions._SHAPES.clear()
+    for _ in range(2):
+        for text in _NEIGHBOURS:
+            assert _outcome(text) == alone[text], text
