@@ -1,5 +1,5 @@
 """``python -m budget``: the same as the ``budget`` command."""
 
-from ._cli import main
+from ._cli import console
 
-main(prog_name="budget")
+console()

@@ -135,6 +135,34 @@ def test_python_module_entry_point():
     assert done.returncode == 0 and done.stdout.startswith("ok: ")
 
 
+def test_the_process_ends_at_once_with_all_its_output_and_status(cli, tmp_path):
+    """``budget`` (``console``) ends a command that kept its model with ``os._exit``: the
+    output is the in-process runner's to the byte, warnings reach standard error, and
+    every status (0, 1 for an error, 3 for --strict with warnings) is Python's own."""
+    import subprocess
+    import sys
+
+    def process(*args):
+        return subprocess.run([sys.executable, "-m", "budget", *args], capture_output=True,
+                              text=True, check=False, cwd=tmp_path)
+
+    for args in (("run", DEMO, "--json", "--trials", "2000", "--seed", "7"),
+                 ("run", H1, "--trials", "0"), ("check", DEMO)):
+        done = process(*args)
+        code, stdout, stderr = cli(*args)
+        assert (done.returncode, done.stdout, done.stderr) == (code, stdout, stderr), args
+        assert code == 0 and stdout
+    warned = tmp_path / "warned.toml"
+    warned.write_text('title = "t"\n[measurands.y]\nequation = "a + b"\n'
+                      '[inputs.a]\nvalue = 1.0\nu = 0.1\n'
+                      '[inputs.b]\nvalue = 2.0\nu = 0.1\n[inputs.c]\nvalue = 3.0\nu = 0.1\n')
+    done = process("run", str(warned), "--trials", "0")
+    assert done.returncode == 0 and "warning: input 'c' appears in no measurand" in done.stderr
+    assert process("run", str(warned), "--trials", "0", "--strict").returncode == 3
+    missing = process("run", str(tmp_path / "missing.toml"))
+    assert missing.returncode == 1 and missing.stderr.startswith("error: ")
+
+
 def test_json_numbers_are_plain(cli):
     code, stdout, _ = cli("run", DEMO, "--json", "--trials", "0")
     assert "NaN" not in stdout and "Infinity" not in stdout

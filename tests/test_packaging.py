@@ -47,7 +47,7 @@ def test_every_imported_package_is_declared() -> None:
 def test_distribution_name_version_and_licence() -> None:
     project = PROJECT["project"]
     assert project["name"] == "budget-gum"  # 'budget' belongs to another project
-    assert PROJECT["project"]["scripts"] == {"budget": "budget._cli:main"}
+    assert PROJECT["project"]["scripts"] == {"budget": "budget._cli:console"}
     assert PROJECT["tool"]["setuptools"]["dynamic"]["version"] == {
         "attr": "budget.__version__"}
     assert re.fullmatch(r"\d+\.\d+\.\d+", budget.__version__)
