@@ -68,7 +68,8 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
     if not text.strip():
         raise ModelSyntaxError("expected an expression, found an empty string", where)
     _check_text(text, where)
-    known = _known_shape(text, where)
+    shape = _shape(text)
+    known = _known_shape(shape, text, where)
     if known is not None:
         return known
     try:
@@ -96,7 +97,7 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
             _check_node(node, text, where)
     names = _names(nodes)
     setattr(tree, _NAMES, names)
-    _remember_shape(text, names)
+    _remember_shape(shape, names)
     return tree
 
 
@@ -107,8 +108,9 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
 # the shape (the operators, numbers, calls, nesting), never on which names fill it, but
 # for the '__' a name may not start with, which is checked on each.
 _SHAPES: dict[tuple[str | int, ...], tuple[int, ...]] = {}
+_Shape = tuple[tuple[str | int, ...], list[str]]  # a key and the names in textual order
 _SHAPE_CHARS = 300  # longer texts are rarely written twice
-_LITERAL = frozenset({"True", "False", "None"} | set(keyword.kwlist))
+_LITERAL = frozenset(keyword.kwlist)  # True, False, None among them
 
 
 # a number-like run (digits, letters, points, a sign after an exponent's e) or a name,
@@ -116,7 +118,7 @@ _LITERAL = frozenset({"True", "False", "None"} | set(keyword.kwlist))
 _WORD = re.compile(r"[0-9.](?:[0-9A-Za-z_.]|(?<=[eE])[-+])*|([A-Za-z_][A-Za-z0-9_]*)(\s*\()?")
 
 
-def _shape(text: str) -> tuple[tuple[str | int, ...], list[str]] | None:
+def _shape(text: str) -> _Shape | None:
     """The shape key of a short text (its characters, each quantity's name replaced by
     the order of its first appearance) and those names in textual order."""
     stripped = text.strip()
@@ -135,8 +137,9 @@ def _shape(text: str) -> tuple[tuple[str | int, ...], list[str]] | None:
     return tuple(key), list(order)
 
 
-def _known_shape(text: str, where: Location) -> ast.Expression | None:
-    found = _shape(text) if _SHAPES else None
+def _known_shape(found: _Shape | None, text: str, where: Location
+                 ) -> ast.Expression | None:
+    """The tree of ``text`` when its shape (``found``) was checked before, else None."""
     if found is None or found[0] not in _SHAPES:
         return None
     names = found[1]
@@ -149,8 +152,7 @@ def _known_shape(text: str, where: Location) -> ast.Expression | None:
     return tree
 
 
-def _remember_shape(text: str, names: list[str]) -> None:
-    found = _shape(text)
+def _remember_shape(found: _Shape | None, names: list[str]) -> None:
     if found is None or len(_SHAPES) >= 4096:
         return
     key, written = found

@@ -15,8 +15,8 @@ texts on every shipped model and on hostile values.
 from __future__ import annotations
 
 import math
-from itertools import chain
 from dataclasses import dataclass
+from itertools import chain
 from json.encoder import encode_basestring_ascii
 from typing import Any
 

@@ -198,8 +198,7 @@ def character_name(char: str) -> str:
 _MULTILINE = ("description", "note")
 
 
-_TEXTUAL = (str, dict, list)  # what TOML values may hold a string
-_TEXTUAL_SET = frozenset(_TEXTUAL)
+_TEXTUAL = frozenset((str, dict, list))  # what TOML values may hold a string
 
 
 def check_strings(document: dict[str, Any],
@@ -223,7 +222,7 @@ def check_strings(document: dict[str, Any],
                 if type(item) in _TEXTUAL:  # numbers, dates, booleans hold no text
                     stack.append((f"{path}.{key}" if path else str(key), item))
         elif isinstance(value, list):  # numbers (a matrix of 10⁶) need no look
-            if not _TEXTUAL_SET.isdisjoint(map(type, value)):
+            if not _TEXTUAL.isdisjoint(map(type, value)):
                 stack.extend([(path, item) for item in value if type(item) in _TEXTUAL])
         elif isinstance(value, str) and value not in safe:  # a unit written 10⁴ times
             last = path.rsplit(".", 1)[-1]

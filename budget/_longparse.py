@@ -19,7 +19,7 @@ import tokenize
 from dataclasses import dataclass
 from typing import Iterator
 
-__all__ = ["parse", "simple_tokens"]
+__all__ = ["parse"]
 
 _SHORT = 400  # texts with fewer operator characters go straight to ast.parse
 _LEAF = 300  # token ranges shorter than this are parsed by ast.parse
@@ -57,11 +57,11 @@ _GLUED = frozenset("abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ01234567
 
 
 def _tokens(text: str) -> list[_Token] | None:
-    simple = simple_tokens(text)
+    simple = _simple_tokens(text)
     return simple if simple is not None else _python_tokens(text)
 
 
-def simple_tokens(text: str) -> list[_Token] | None:
+def _simple_tokens(text: str) -> list[_Token] | None:
     """The tokens ``tokenize`` would give for a one-line text of names, decimal numbers,
     ``+ - * / ** ( ) ,`` and spaces; None for anything else (``tokenize`` reads it)."""
     if text[:1] in (" ", "\t"):  # an indented first line: Python refuses it

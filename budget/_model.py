@@ -17,8 +17,8 @@ import re
 import tomllib
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
-from pathlib import Path
 from functools import partial
+from pathlib import Path
 from typing import Any, Callable
 
 import numpy as np
@@ -731,14 +731,9 @@ def _in_unit(statement: Any, unit: Any, found_at: Callable[[], Location]) -> Any
         return statement.distribution
     from .distributions import Exact
 
-    if statement.molar_mass is not None:
-        where = found_at()
-        wanted = parse_unit("g/mol", where)
-    elif statement.si_value is not None:
-        where = found_at()
-        wanted = parse_unit(statement.si_unit, where)
-    else:
-        return statement.distribution
+    where = found_at()
+    wanted = parse_unit("g/mol" if statement.molar_mass is not None else statement.si_unit,
+                        where)
     if unit.dimensionality != wanted.dimensionality or unit.offset:
         raise UnitError(f"expected a unit of {wanted.describe()}, found '{unit.text}' "
                         f"({unit.describe()})", where)

@@ -68,6 +68,8 @@ def test_a_block_of_one_r_is_written_as_the_standard_library_writes_it(
     result = evaluate(parse_model(text), trials=0)
     document = result_document(result)
     terms = document["measurands"][0]["correlation_terms"]
+    # 50·49/2 pairs; u takes 3 values, so at most 6 distinct products: the repeating case
+    # (the text itself is checked against the standard library's json.dumps below)
     assert len(terms) == 1225 and len({t["variance"] for t in terms}) <= 6
     assert json_text(document) == _reference(document)
     monkeypatch.setattr(jsontext, "_CHUNK", 1100)  # the second chunk too short to look at
