@@ -23,9 +23,9 @@ from typing import Any, Callable, Iterator, TypeVar
 
 T = TypeVar("T")
 
-__all__ = ["Node", "Number", "symbol", "number", "call", "add", "mul", "to_sympy",
-           "symbols_in", "walk", "constant_value", "exact_value", "substitute", "fold",
-           "FUNCTION_NAMES"]
+__all__ = ["Node", "Number", "symbol", "number", "call", "add", "mul", "reciprocal",
+           "to_sympy", "symbols_in", "walk", "constant_value", "exact_value", "substitute",
+           "fold", "FUNCTION_NAMES"]
 
 Number = int | Fraction | str
 
@@ -115,6 +115,11 @@ def add(*terms: Node) -> Node:
 
 def mul(*factors: Node) -> Node:
     return Node("mul", tuple(factors))
+
+
+def reciprocal(node: Node) -> Node:
+    """1/x as the power node x^-1 (``1 / x`` would be 1·x^-1: a product by one more)."""
+    return Node("pow", (node, number(-1)))
 
 
 def call(name: str, *args: Node) -> Node:

@@ -19,7 +19,8 @@ import math
 import re
 from dataclasses import dataclass
 from fractions import Fraction
-from typing import Any, Callable, Mapping
+from operator import attrgetter
+from typing import Any, Callable, Mapping, Sequence
 
 from . import _algebra as alg
 from . import _longparse as longparse
@@ -340,6 +341,29 @@ def _steps(node: ast.AST, ops: dict[type[ast.operator], int]) -> list[ast.BinOp]
     return steps[::-1]
 
 
+_Graph = Callable[[Term], Any]  # one of a term's three graphs
+_EXPR: _Graph = attrgetter("expr")
+_SHOWN: _Graph = attrgetter("shown")
+_OPAQUE: _Graph = attrgetter("opaque")
+
+
+def _graphs(make: Callable[[_Graph], Any], operands: Sequence[Term]) -> tuple[Any, Any, Any]:
+    """An operation's three graphs, ``make(graph)`` over its operands' graphs of that kind:
+    built once where the operands' graphs are the same nodes. An input in coherent units
+    (and a number) is one node in all three, and so is everything built only from such;
+    its shown graph is then its graph, not a copy alike (a sum of 10⁴ inputs is one sum
+    node, not three), which changes no value or formula: nodes never change."""
+    expr = make(_EXPR)
+    shown = expr if all(t.shown is t.expr for t in operands) else make(_SHOWN)
+    if all(t.opaque is t.expr for t in operands):
+        opaque = expr
+    elif all(t.opaque is t.shown for t in operands):
+        opaque = shown
+    else:
+        opaque = make(_OPAQUE)
+    return expr, shown, opaque
+
+
 class _Builder:
     def __init__(self, table: Mapping[str, Term], text: str, where: Location) -> None:
         self.table, self.text, self.where = table, text, where
@@ -374,7 +398,8 @@ class _Builder:
         if isinstance(node.op, ast.UAdd):
             return inner
         self.refuse_offset(inner, node)
-        return Term(-inner.expr, -inner.shown, inner.unit, opaque=-inner.opaque)
+        expr, shown, opaque = _graphs(lambda graph: -graph(inner), (inner,))
+        return Term(expr, shown, inner.unit, opaque=opaque)
 
     def binary(self, node: ast.BinOp) -> Term:
         if isinstance(node.op, (ast.Add, ast.Sub)) and _chain_length(node, _SUMS) > 2:
@@ -387,11 +412,13 @@ class _Builder:
         for side in (left, right):
             self.refuse_offset(side, node)
         if isinstance(node.op, ast.Mult):
-            return Term(left.expr * right.expr, left.shown * right.shown,
-                        left.unit * right.unit, opaque=left.opaque * right.opaque)
+            expr, shown, opaque = _graphs(lambda graph: graph(left) * graph(right),
+                                          (left, right))
+            return Term(expr, shown, left.unit * right.unit, opaque=opaque)
         if isinstance(node.op, ast.Div):
-            return Term(left.expr / right.expr, left.shown / right.shown,
-                        left.unit / right.unit, opaque=left.opaque / right.opaque)
+            expr, shown, opaque = _graphs(lambda graph: graph(left) / graph(right),
+                                          (left, right))
+            return Term(expr, shown, left.unit / right.unit, opaque=opaque)
         return self.power(node, left, right)
 
     def long_sum(self, node: ast.BinOp) -> Term:
@@ -410,11 +437,11 @@ class _Builder:
                     f"expected terms of like dimension in '{self.segment(node)}', found "
                     f"'{self.segment(first_node)}' in {dimension_text(first.unit)} and "
                     f"'{self.segment(operand)}' in {dimension_text(term.unit)}", self.where)
-        def pick(field: str) -> Any:
-            return alg.add(*(getattr(t, field) if sign > 0 else -getattr(t, field)
-                             for sign, _, t in terms))
+        def pick(graph: _Graph) -> Any:
+            return alg.add(*(graph(t) if sign > 0 else -graph(t) for sign, _, t in terms))
 
-        return Term(pick("expr"), pick("shown"), first.unit, opaque=pick("opaque"))
+        expr, shown, opaque = _graphs(pick, [t for _, _, t in terms])
+        return Term(expr, shown, first.unit, opaque=opaque)
 
     def long_product(self, node: ast.BinOp) -> Term:
         """a */ b */ c … built as one product node."""
@@ -424,11 +451,12 @@ class _Builder:
         for sign, _, term in factors:
             self.refuse_offset(term, node)
             unit = unit * term.unit if sign > 0 else unit / term.unit
-        def pick(field: str) -> Any:
-            return alg.mul(*(getattr(t, field) if sign > 0 else 1 / getattr(t, field)
+        def pick(graph: _Graph) -> Any:
+            return alg.mul(*(graph(t) if sign > 0 else alg.reciprocal(graph(t))
                              for sign, _, t in factors))
 
-        return Term(pick("expr"), pick("shown"), unit, opaque=pick("opaque"))
+        expr, shown, opaque = _graphs(pick, [t for _, _, t in factors])
+        return Term(expr, shown, unit, opaque=opaque)
 
     def sum(self, node: ast.BinOp, left: Term, right: Term) -> Term:
         plus = isinstance(node.op, ast.Add)
@@ -446,10 +474,10 @@ class _Builder:
         elif right.offset and not plus:
             raise UnitError(f"a Celsius temperature cannot be subtracted from a temperature "
                             f"difference in '{self.segment(node)}'", self.where)
-        combine: Callable[[Any, Any], Any] = (lambda a, b: a + b) if plus else (
-            lambda a, b: a - b)
-        return Term(combine(left.expr, right.expr), combine(left.shown, right.shown),
-                    left.unit, offset, combine(left.opaque, right.opaque))
+        expr, shown, opaque = _graphs(
+            (lambda graph: graph(left) + graph(right)) if plus else (
+                lambda graph: graph(left) - graph(right)), (left, right))
+        return Term(expr, shown, left.unit, offset, opaque)
 
     def power(self, node: ast.BinOp, base: Term, exponent: Term) -> Term:
         if not exponent.unit.dimensionless:
@@ -464,8 +492,9 @@ class _Builder:
             unit = base.unit ** _rational_exponent(exponent.expr, base.unit,
                                                    self.segment(node.right), self.where)
         _check_power(base.expr, exponent.expr, self.segment(node), self.where)
-        return Term(base.expr ** exponent.expr, base.shown ** exponent.shown, unit,
-                    opaque=base.opaque ** exponent.opaque)
+        expr, shown, opaque = _graphs(lambda graph: graph(base) ** graph(exponent),
+                                      (base, exponent))
+        return Term(expr, shown, unit, opaque=opaque)
 
     def refuse_offset(self, term: Term, node: ast.AST) -> None:
         if term.offset:
@@ -488,8 +517,8 @@ class _Builder:
                             self.where)
         else:
             unit = self.dimensionless
-        return Term(alg.call(name, arg.expr), alg.call(name, arg.shown), unit,
-                    opaque=alg.call(name, arg.opaque))
+        expr, shown, opaque = _graphs(lambda graph: alg.call(name, graph(arg)), (arg,))
+        return Term(expr, shown, unit, opaque=opaque)
 
     def air_density(self, node: ast.Call, args: list[Term]) -> Term:
         from ._chemistry import air_density_expression

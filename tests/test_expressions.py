@@ -140,3 +140,75 @@ def test_grammar_errors(equation, fragment):
         """)
     assert fragment in str(caught.value)
     assert str(caught.value).startswith("test.toml:4: [measurands.y] equation: ")
+
+
+
+_FORMS = """
+title = "three forms"
+[measurands.y]
+equation = "a * b / (c * d) + sqrt(a) - d ** 2 + g"
+[definitions]
+h = "a * b"
+g = "h / (c * m)"
+[inputs.a]
+value = 2.0
+u = 0.1
+[inputs.b]
+value = 3.0
+u = 0.1
+[inputs.c]
+value = 5.0
+u = 0.1
+[inputs.d]
+value = 7.0
+u = 0.1
+[inputs.m]
+value = 50
+unit = "%"
+u = 0.1
+"""
+
+
+def test_a_graph_is_built_once_where_its_three_forms_agree():
+    """Each operation has three forms: in coherent SI, as written, and in SI with the
+    functions kept as calls. Where its operands' forms are the same nodes (inputs in
+    coherent units, numbers, and what is built of them alone) the operation is one node,
+    not three alike; an input in percent (SI form m/100) keeps a written form of its own,
+    and so does everything above it. The sympy forms are those sympy gives for the
+    equation (sympy, a general-purpose reference library)."""
+    y = parse_model(_FORMS).measurands[0]
+    a, b, c, d, g, mass = sympy.symbols("a b c d g m")
+    assert sympy.simplify(y.shown - (a * b / (c * d) + sympy.sqrt(a) - d ** 2 + g)) == 0
+    assert sympy.simplify(y.expression - (a * b / (c * d) + sympy.sqrt(a) - d ** 2
+                                          + a * b / (c * mass / 100))) == 0
+    total, shown, opaque = y.graph.args[0], y.shown_graph, y.opaque_graph.args[0]
+    assert total.kind == shown.kind == "add" and len(total.args) == len(shown.args) == 4
+    for k in range(2):  # a·b/(c·d) and √a: one node in all three forms (−d² is negated
+        assert total.args[k] is shown.args[k] is opaque.args[k]  # by the sum, per form)
+    assert total.args[2].args[1] is shown.args[2].args[1]  # d² below it: one node
+    assert total.args[3] is not shown.args[3]  # g: 1/100 in SI, the symbol as written
+    assert total.args[3] is opaque.args[3]  # no function below: SI and opaque agree
+
+
+def test_air_density_keeps_its_opaque_form_apart():
+    """air_density() is a formula in SI and a call in the opaque form."""
+    text = """
+title = "air"
+[measurands.rho]
+equation = "air_density(T, p, h)"
+unit = "kg/m^3"
+[inputs.T]
+value = 293.15
+unit = "K"
+u = 0.1
+[inputs.p]
+value = 101325
+unit = "Pa"
+u = 10
+[inputs.h]
+value = 0.5
+u = 0.01
+"""
+    rho = parse_model(text).measurands[0]
+    assert rho.opaque_graph.args[0].kind == "call"
+    assert rho.graph.args[0] is not rho.opaque_graph.args[0]
