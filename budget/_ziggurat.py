@@ -42,6 +42,7 @@ from __future__ import annotations
 import importlib
 import math
 import os
+import sys
 import threading
 import warnings
 from collections.abc import Callable, Iterator
@@ -162,7 +163,7 @@ def use_compiled(on: bool = True) -> bool:
     with _loading:
         if _compiled is None:
             try:  # numba's own warnings (a cache it cannot write, say) are not the user's
-                with warnings.catch_warnings():
+                with warnings.catch_warnings(), _without_blas():
                     warnings.simplefilter("ignore")
                     module = importlib.import_module("budget._compiled_draws")
                     agrees = _agrees(module)
@@ -174,6 +175,41 @@ def use_compiled(on: bool = True) -> bool:
                 return False
             _compiled, _rows = module, rows
     return True
+
+
+class _NoBlas:
+    """An import finder (``sys.meta_path``) that refuses ``scipy.linalg`` to one thread
+    and leaves every other import to the finders after it: see ``_without_blas``."""
+
+    def __init__(self) -> None:
+        self.thread = threading.get_ident()
+
+    def find_spec(self, name: str, path: Any = None, target: Any = None) -> None:
+        if name == "scipy.linalg" and threading.get_ident() == self.thread:
+            raise ImportError("scipy.linalg is not loaded with the compiled draws")
+        return None
+
+
+@contextmanager
+def _without_blas() -> Iterator[None]:
+    """numba, when it first loads its array functions, imports ``scipy.linalg`` to find
+    a BLAS for ``np.dot`` and the like in compiled code (numba.np.arraymath, _check_blas):
+    a quarter of a second of imports here, holding the interpreter lock while a run is
+    being prepared. The compiled loops use no linear algebra, so while this thread loads
+    them that import fails at once, in this thread only (other threads, and this one
+    afterwards, import scipy.linalg as usual), and numba goes on without a BLAS for its
+    inner products (``np.correlate`` and ``np.convolve`` in compiled code elsewhere in the
+    process take numba's own loop instead; ``np.dot`` looks for the BLAS again when used).
+    Where scipy.linalg is already loaded, nothing changes."""
+    if "scipy.linalg" in sys.modules:
+        yield
+        return
+    finder = _NoBlas()
+    sys.meta_path.insert(0, finder)
+    try:
+        yield
+    finally:
+        sys.meta_path.remove(finder)
 
 
 def _agrees(module: Any) -> bool:

@@ -266,3 +266,35 @@ def test_the_environment_can_keep_numba_out(restore, monkeypatch):
     assert not zig.compiled()
     monkeypatch.setenv("BUDGET_COMPILED", "1")
     assert zig.use_compiled() is True
+
+
+def test_loading_them_leaves_scipy_linalg_out_and_importable():
+    """numba looks for scipy.linalg's BLAS when it first loads its array functions; the
+    compiled loops need none, so a fresh process loads them without scipy.linalg, still
+    agreeing with the numpy path, and imports scipy.linalg afterwards as usual."""
+    import subprocess
+
+    script = ("import sys\nfrom budget import _ziggurat as zig\n"
+              "assert zig.use_compiled(True)\n"
+              "assert 'scipy.linalg' not in sys.modules, 'loaded'\n"
+              "assert not any(type(f).__name__ == '_NoBlas' for f in sys.meta_path)\n"
+              "import scipy.linalg\nprint(scipy.linalg.cholesky([[4.0]])[0][0])\n")
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
+                          timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip() == "2.0"
+
+
+def test_the_refusal_is_the_loading_threads_alone():
+    """While one thread loads the compiled loops, another imports scipy.linalg."""
+    import threading
+
+    finder = zig._NoBlas()
+    with pytest.raises(ImportError):
+        finder.find_spec("scipy.linalg")
+    assert finder.find_spec("scipy.special") is None
+    seen: list[object] = []
+    other = threading.Thread(target=lambda: seen.append(finder.find_spec("scipy.linalg")))
+    other.start()
+    other.join()
+    assert seen == [None]
