@@ -25,7 +25,8 @@ from typing import Any, Callable, Mapping, Sequence
 from . import _algebra as alg
 from . import _longparse as longparse
 from ._algebra import Node
-from ._errors import Location, ModelSyntaxError, UnitError, UnknownNameError, did_you_mean
+from ._errors import (BudgetError, Location, ModelSyntaxError, UnitError, UnknownNameError,
+                      did_you_mean)
 from ._limits import (LIMITS_PAGE, MAX_EXACT_DIGITS, MAX_EXPONENT, MAX_EXPRESSION_CHARS,
                      MAX_NESTING, MAX_NUMBER_DIGITS, character_name, excerpt, offset_in,
                      shorten)
@@ -98,20 +99,24 @@ def parse_expression(text: Any, where: Location) -> ast.Expression:
             _check_node(node, text, where)
     names = _names(nodes)
     setattr(tree, _NAMES, names)
-    _remember_shape(shape, names)
+    _remember_shape(shape, names, tree)
     return tree
 
 
 # Shapes of short expressions already checked: the text with each quantity's name replaced
 # by the order of its first appearance ('M * U_7 * t_7 / m_7' and 'M * U_8 * t_8 / m_8'
-# are one shape), and the order in which ``_names`` lists those names. A text of a known
-# shape is parsed by ``ast.parse`` alone: every check of ``parse_expression`` depends on
-# the shape (the operators, numbers, calls, nesting), never on which names fill it, but
-# for the '__' a name may not start with, which is checked on each.
-_SHAPES: dict[tuple[str | int, ...], tuple[int, ...]] = {}
+# are one shape) → the order in which ``_names`` lists those names, the checked tree of
+# the first text of that shape and its names in textual order. Every check of
+# ``parse_expression`` depends on the shape (the operators, numbers, calls, nesting),
+# never on which names fill it, but for the '__' a name may not start with, which is
+# checked on each text; and every tree of a shape is the first one with other names. So a
+# text of a known shape is not parsed again: it takes the first text's tree and the
+# renaming of its names (``_RENAME``, which ``build`` follows).
+_SHAPES: dict[tuple[str | int, ...], tuple[tuple[int, ...], ast.Expression, list[str]]] = {}
 _Shape = tuple[tuple[str | int, ...], list[str]]  # a key and the names in textual order
 _SHAPE_CHARS = 300  # longer texts are rarely written twice
 _LITERAL = frozenset(keyword.kwlist)  # True, False, None among them
+_RENAME = "_budget_rename"  # a reused tree's names → this text's names
 
 
 # a number-like run (digits, letters, points, a sign after an exponent's e) or a name,
@@ -140,27 +145,32 @@ def _shape(text: str) -> _Shape | None:
 
 def _known_shape(found: _Shape | None, text: str, where: Location
                  ) -> ast.Expression | None:
-    """The tree of ``text`` when its shape (``found``) was checked before, else None."""
-    if found is None or found[0] not in _SHAPES:
+    """The tree of ``text`` when its shape (``found``) was checked before, else None: the
+    first tree of that shape, with the renaming of its names to this text's."""
+    known = _SHAPES.get(found[0]) if found is not None else None
+    if found is None or known is None:
         return None
     names = found[1]
     for name in names:
         if name.startswith("__"):
             raise ModelSyntaxError(f"names starting with '__' are not allowed: '{name}'",
                                    where)
-    tree = ast.parse(text.strip(), mode="eval")
-    setattr(tree, _NAMES, [names[k] for k in _SHAPES[found[0]]])
+    positions, first, written = known
+    tree = ast.Expression(body=first.body)
+    setattr(tree, _NAMES, [names[k] for k in positions])
+    if names != written:
+        setattr(tree, _RENAME, dict(zip(written, names)))
     return tree
 
 
-def _remember_shape(found: _Shape | None, names: list[str]) -> None:
+def _remember_shape(found: _Shape | None, names: list[str], tree: ast.Expression) -> None:
     if found is None or len(_SHAPES) >= 4096:
         return
     key, written = found
     if sorted(written) != sorted(names):  # a shape the key does not describe: not kept
         return
     position = {name: k for k, name in enumerate(written)}
-    _SHAPES[key] = tuple(position[name] for name in names)
+    _SHAPES[key] = (tuple(position[name] for name in names), tree, written)
 
 
 _NAMES = "_budget_names"  # the names used as quantities, found while checking the tree
@@ -306,7 +316,15 @@ def _names(nodes: list[ast.AST]) -> list[str]:
 
 def build(tree: ast.Expression, table: Mapping[str, Term], text: str,
           where: Location) -> Term:
-    """Rebuild a checked tree as a graph :class:`Term`, checking units on the way."""
+    """Rebuild a checked tree as a graph :class:`Term`, checking units on the way. A tree
+    reused from a text of the same shape is built through its renaming; should that
+    fail, the text is parsed and built again on its own, so that the message quotes it."""
+    rename: dict[str, str] | None = getattr(tree, _RENAME, None)
+    if rename is not None:
+        try:
+            return _Builder(table, text.strip(), where, rename).visit(tree.body)
+        except BudgetError:
+            tree = ast.parse(text.strip(), mode="eval")
     return _Builder(table, text.strip(), where).visit(tree.body)
 
 
@@ -365,8 +383,9 @@ def _graphs(make: Callable[[_Graph], Any], operands: Sequence[Term]) -> tuple[An
 
 
 class _Builder:
-    def __init__(self, table: Mapping[str, Term], text: str, where: Location) -> None:
-        self.table, self.text, self.where = table, text, where
+    def __init__(self, table: Mapping[str, Term], text: str, where: Location,
+                 rename: dict[str, str] | None = None) -> None:
+        self.table, self.text, self.where, self.rename = table, text, where, rename
         self.dimensionless = DIMENSIONLESS
 
     def segment(self, node: ast.AST) -> str:
@@ -387,6 +406,11 @@ class _Builder:
         return self.call(node)
 
     def name(self, node: ast.Name) -> Term:
+        if self.rename is not None:
+            found = self.table.get(self.rename.get(node.id, node.id))
+            if found is None:  # build() parses the text and reports it from there
+                raise UnknownNameError("unknown quantity", self.where)
+            return found
         if node.id not in self.table:
             raise UnknownNameError(f"unknown quantity '{node.id}' in "
                                    f"'{_at_node(self.text, node)}'"
