@@ -108,6 +108,8 @@ def parse_number(text: str) -> float | None:
 def as_float(value: Any) -> float | None:
     """A TOML or CSV number (or, from Python, a numpy scalar or a Fraction) as a finite
     float; None for anything else (bools, strings, Decimal, huge ints)."""
+    if type(value) is float:  # most numbers: no abstract-class check (a tenth of an input)
+        return value if math.isfinite(value) else None
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
         return None
     try:

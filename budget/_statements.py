@@ -27,6 +27,7 @@ SHAPES = ("normal", "rectangular", "triangular", "arcsine", "trapezoidal",
 _WAYS = (("u",), ("expanded",), ("half_width",), ("lower", "upper"), ("observations",),
          ("exact",), ("formula",), ("constant",))
 STATEMENT_WAYS = tuple(key for way in _WAYS for key in way)
+_WAY_OF = {key: way for way in _WAYS for key in way}
 INPUT_KEYS = ("value", "unit", "description", "source", "distribution", "dof",
               "reliability", "u", "expanded", "k", "level", "half_width", "beta",
               "inexactness", "lower", "upper", "observations", "exact", "formula", "constant",
@@ -103,7 +104,8 @@ def read_statement(data: dict[str, Any], where: Callable[[str | None], Location]
     """Read one input table; ``where(key)`` gives the location of a key (None: the table)."""
     check_keys(data, INPUT_KEYS, where)
     table = _Table(data, where)
-    ways = [w for w in _WAYS if not data.keys().isdisjoint(w)]
+    found = {_WAY_OF[key] for key in data if key in _WAY_OF}  # a table's few keys
+    ways = [w for w in _WAYS if w in found] if len(found) > 1 else list(found)
     if not ways:
         raise InputError("expected one way of stating the uncertainty (u, expanded, "
                          "half_width, lower + upper, observations, exact, formula or "
