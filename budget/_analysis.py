@@ -7,16 +7,18 @@ of trials is 0, ``simulate`` (JCGM 101) validating the GUM result (JCGM 101 8.2)
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
-from typing import Any, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
 from ._errors import Location, PropagationError
 from ._arguments import check_model, check_not_both, check_trials_argument
 from ._limits import LIMITS_PAGE, check_digits, check_probability
 from ._gum import Budget, MeasurandBudget, propagate
 from ._model import Model
-from ._montecarlo import Simulation, simulate
 from ._reported import Reported, gum_reported, reported
 from ._arguments import keywords_checked
+
+if TYPE_CHECKING:  # the Monte Carlo module is loaded only for a run with trials
+    from ._montecarlo import Simulation
 
 __all__ = ["Result", "evaluate"]
 
@@ -104,6 +106,8 @@ def evaluate(model: Model, *, coverage: float | None = None, trials: int | None 
         budget = propagate(model, given, second_order=second_order)
         simulation = None
         if adaptive or trials != 0:
+            from ._montecarlo import simulate
+
             simulation = simulate(model, budget, trials=None if adaptive else trials,
                                   adaptive=adaptive, seed=seed, coverage=given,
                                   digits=digits, workers=workers, progress=progress,

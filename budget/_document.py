@@ -8,13 +8,15 @@ Keys of the contract come first and keep their meaning; the extensions (``dof_ru
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from ._analysis import Result
 from ._gum import CorrelationTerms, MeasurandBudget
-from ._montecarlo import MeasurandSimulation
 from ._chained import chain_document
 from ._register import certificates_document, traceability_statement
+
+if TYPE_CHECKING:  # loaded only for a run with trials
+    from ._montecarlo import MeasurandSimulation
 
 __all__ = ["result_document", "certification_document", "CAUTION", "SCHEMA_VERSION",
            "dof_or_null"]

@@ -19,6 +19,7 @@ from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from functools import partial
 from pathlib import Path
+from types import MappingProxyType, SimpleNamespace
 from typing import Any, Callable
 
 import numpy as np
@@ -340,6 +341,12 @@ def _parse_text(text: str, raw: bytes, name: str, register: Path | None,
                                "too deep to evaluate", Location(file=name)) from exc
 
 
+# What a model without [fits] or [records] tables generates: nothing (their reader, with
+# the data-file and fitting modules, is then not loaded at all)
+_NOTHING_GENERATED = SimpleNamespace(inputs=(), correlations=(), together=(),
+                                     definitions=MappingProxyType({}), views=(), warnings=())
+
+
 class _Reader:
     """Walks one parsed TOML document; knows how to point at a key's line."""
 
@@ -367,9 +374,11 @@ class _Reader:
         self.register = self.read_register(settings.atomic_weights)
         self.uses: list[CertificateUse] = []
         self.checks: list[str] = []
-        from ._recordinputs import generate
+        generated: Any = _NOTHING_GENERATED
+        if "fits" in self.doc or "records" in self.doc:
+            from ._recordinputs import generate
 
-        generated = generate(self.doc, _base(self.name), self.where)
+            generated = generate(self.doc, _base(self.name), self.where)
         inputs = self.inputs(settings.atomic_weights, bool(generated.inputs))
         inputs += self.made_inputs(generated, {i.name for i in inputs})
         measured = self.measured()
@@ -456,6 +465,8 @@ class _Reader:
         return "inputs." + name, "unit"
 
     def made_inputs(self, generated: Any, taken: set[str]) -> tuple[Input, ...]:
+        if not generated.inputs:
+            return ()
         from ._recordinputs import made_input
 
         made = []

@@ -46,3 +46,23 @@ def _loaded(*args: str) -> list[str]:
 ])
 def test_the_numeric_path_loads_no_heavy_library(args):
     assert _loaded(*args) == []
+
+
+LAZY = ("budget._montecarlo", "budget._recordinputs", "budget._fits", "budget._datafiles")
+
+
+def _loaded_of(names: tuple[str, ...], *args: str) -> list[str]:
+    probe = PROBE.replace("{heavy!r}", repr(names))
+    done = subprocess.run([sys.executable, "-c", probe, *args], capture_output=True,
+                          text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    found: list[str] = json.loads(done.stderr.strip().splitlines()[-1])
+    return found
+
+
+def test_a_linear_run_of_a_model_without_records_loads_neither_sampler_nor_record_reader():
+    """--trials 0 needs no Monte Carlo module; a model without [fits] or [records] tables
+    needs no reader of data files (a few hundredths of a second of every run)."""
+    assert _loaded_of(LAZY, "run", DEMO, "--trials", "0", "--json") == []
+    assert _loaded_of(LAZY, "run", DEMO, "--trials", "20000", "--json") == [
+        "budget._montecarlo"]
