@@ -19,7 +19,9 @@ from __future__ import annotations
 
 import math
 import operator
+from collections import Counter
 from fractions import Fraction
+from functools import cached_property
 from typing import Any, Callable, Sequence
 
 import numpy as np
@@ -81,15 +83,21 @@ class Program:
                 found = _input_run(args, self._filled, len(self.symbols))
                 if found is not None:
                     self._ranges[at] = found
-        # what ``evaluate(..., divide=True)`` runs: a product with a reciprocal used
-        # nowhere else becomes one division (see ``_divided``)
-        self._divided_steps = _divided(self._steps, self._ranges, self.outputs)
         # per step, an operand whose array may take the result (see ``_reusable``)
         self._reuse = {at: position for at, kind, args, payload, done in self._steps
                        if (position := self._reusable(kind, args, payload, done)) is not None}
-        self._divided_reuse = {
-            at: position for at, kind, args, payload, done in self._divided_steps
-            if (position := self._reusable(kind, args, payload, done)) is not None}
+
+    @cached_property
+    def _divided_steps(self) -> list[_Step]:
+        """What ``evaluate(..., divide=True)`` runs: a product with a reciprocal used
+        nowhere else becomes one division (see ``_divided``); made on first use (a linear
+        budget never asks)."""
+        return _divided(self._steps, self._ranges, self.outputs)
+
+    @cached_property
+    def _divided_reuse(self) -> dict[int, int]:
+        return {at: position for at, kind, args, payload, done in self._divided_steps
+                if (position := self._reusable(kind, args, payload, done)) is not None}
 
     def _reusable(self, kind: str, args: tuple[int, ...], payload: Any,
                   done: tuple[int, ...]) -> int | None:
@@ -342,19 +350,18 @@ class Program:
 
 def _use_counts(outputs: Sequence[Node]) -> dict[int, int]:
     """How many operations (or outputs) use each node, counted without recursion."""
-    uses: dict[int, int] = {}
+    uses: Counter[int] = Counter(map(id, outputs))
     seen: set[int] = set()
     stack = list(outputs)
-    for root in outputs:
-        uses[id(root)] = uses.get(id(root), 0) + 1
     while stack:
         node = stack.pop()
-        if id(node) in seen:
+        key = id(node)
+        if key in seen:
             continue
-        seen.add(id(node))
-        for arg in node.args:
-            uses[id(arg)] = uses.get(id(arg), 0) + 1
-            stack.append(arg)
+        seen.add(key)
+        if node.args:
+            uses.update(map(id, node.args))  # counted in C, not one dict step per use
+            stack.extend(node.args)
     return uses
 
 
