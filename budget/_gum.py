@@ -316,13 +316,15 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
                                f"overflows: beyond the floating-point range (±1.8e308) with k "
                                f"= {k_p:.3g} and u_c = {combined:.3g}; rescale the units",
                                _equation(model, measurand))
-    contributions = tuple(
+    contributions = tuple(  # the columns as Python floats in one call each
         Contribution(input=i.name, estimate=i.estimate, unit=i.unit,
                      standard_uncertainty=i.standard_uncertainty,
                      distribution=i.distribution.name, type=i.type, dof=i.dof,
-                     sensitivity=float(c[j]), contribution=float(abs(parts[j])),
-                     share=float(share[j]))
-        for j, i in enumerate(model.inputs))
+                     sensitivity=sensitivity, contribution=part, share=percent)
+        for i, sensitivity, part, percent in zip(
+            model.inputs, np.asarray(c, dtype=float).tolist(),
+            np.abs(np.asarray(parts, dtype=float)).tolist(),
+            np.asarray(share, dtype=float).tolist()))
     correlation_terms = CorrelationTerms(
         pairs.names, pairs.first, pairs.second, pairs.r, terms,
         100.0 * (terms / combined) / combined if combined > 0 else np.zeros_like(terms))

@@ -308,3 +308,26 @@ def test_a_large_block_that_is_not_positive_semi_definite_is_refused_in_one_shor
     assert "smallest eigenvalue -1.99; the pairs x_0-x_1 (-0.01), x_0-x_2 (-0.01)" in message
     assert message.endswith("and 44,838 more pairs among 300 inputs cannot hold together")
     assert len(message) < 600
+
+
+def test_a_models_program_is_compiled_once_without_hashing_the_model(monkeypatch):
+    """compile_model keeps the last few programs by the model object: a look-up never
+    hashes the model (every input, definition and graph), and an equal model read again
+    is compiled on its own."""
+    from budget._evaluation import compile_model
+    from budget._model import Model
+
+    first, again = parse_model(sum_model(50)), parse_model(sum_model(50))
+
+    def refused(self):
+        raise AssertionError("the model was hashed")
+
+    monkeypatch.setattr(Model, "__hash__", refused)
+    program = compile_model(first)
+    assert compile_model(first) is program
+    assert compile_model(again) is not program
+    # 50 inputs of 1.000 + 0.001·i: y = 50 + 0.001·(0 + … + 49) = 51.225 (arithmetic)
+    assert program.evaluate([1.0 + 0.001 * i for i in range(50)])[0] == pytest.approx(51.225)
+    for _ in range(20):  # older programs make room; the newest is kept
+        compile_model(parse_model(sum_model(3)))
+    assert compile_model(first) is not program
