@@ -173,7 +173,7 @@ def _write_columns(keys: tuple[Any, ...], columns: list[Any], level: int,
             if text is None:
                 return False
             texts.append(text)
-        written.append(("," + inner).join([template % row for row in zip(*texts)]))
+        written.append(("," + inner).join(map(template.__mod__, zip(*texts))))
     out.append("[" + inner)
     for k, part in enumerate(written):
         out.append("," + inner + part if k else part)
