@@ -209,6 +209,7 @@ def _walk(tree: ast.Expression) -> tuple[list[ast.AST], int]:
 _KNOWN = frozenset("abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ0123456789_"
                    " \t\n\r.,()+-*/^%<>=!&|~@[]{}:'\"")
 _DIGITS = re.compile(r"[0-9][0-9_]*")
+_TOO_LONG = re.compile(r"[0-9][0-9_]{%d}" % MAX_NUMBER_DIGITS)  # a run of more digits
 
 
 def _check_text(text: str, where: Location) -> None:
@@ -222,8 +223,8 @@ def _check_text(text: str, where: Location) -> None:
             raise ModelSyntaxError(f"expected only names, numbers, + - * / ** and "
                                    f"parentheses, found {character_name(char)} at column "
                                    f"{column}{hint}", where)
-    longest = max((len(m.group()) for m in _DIGITS.finditer(text)), default=0)
-    if longest > MAX_NUMBER_DIGITS:
+    if _TOO_LONG.search(text) is not None:  # found in one scan; measured only then
+        longest = max(len(m.group()) for m in _DIGITS.finditer(text))
         raise ModelSyntaxError(f"expected numbers of at most {MAX_NUMBER_DIGITS} digits "
                                f"(limits: {LIMITS_PAGE}), found one of {longest} digits",
                                where)

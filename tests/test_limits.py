@@ -60,6 +60,8 @@ CASES = {
                      f"most 1000 digits {LIMITS}, found '(10**100)**100' of about 10000 digits"),
     "long_number": (text("a * " + "9" * 5000), EXPRESSION + "expected numbers of at most 100 "
                     f"digits {LIMITS}, found one of 5000 digits"),
+    "number_of_101_digits": (text("a * 1_" + "0" * 99), EXPRESSION + "expected numbers of "
+                             f"at most 100 digits {LIMITS}, found one of 101 digits"),
     "overflowing_literal": (text("a * 1e400"), EXPRESSION + "expected a finite number, found "
                             "'1e400' (beyond the floating-point range of ±1.8e308)"),
     "irrational_exponent": (text("a ** sqrt(2)", unit="m"), EXPRESSION + "expected a rational "
@@ -340,3 +342,11 @@ def test_compare_with_huge_contributions_is_valid_json(cli, tmp_path) -> None:
     code, _, stderr = cli("compare", "--html", "/dev/null", str(model), str(model))
     assert (code, stderr) == (1, "error: /dev/null: expected a regular file or a new name "
                                  "for the output, found a character device\n")
+
+
+def test_a_number_of_100_digits_is_read() -> None:
+    """The limit's boundary: 100 characters of a number (digits and '_') are allowed."""
+    from budget._model import parse_model
+
+    model = parse_model(text("a * 1" + "0" * 99 + " / 1" + "0" * 99))
+    assert model.measurands[0].equation.startswith("a * 1000")
