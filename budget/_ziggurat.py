@@ -69,7 +69,7 @@ _MASK = 2 * LAYERS - 1  # the layer (low 8 bits) and the sign (bit 8)
 _PIECE = 1 << 17
 # The compiled draws (``_compiled_draws``, numba) give the same numbers about three times
 # as fast (8 ns less CPU per normal number here, 2.5 ns per rectangular one), but loading
-# them (numba's import, then their cached machine code) costs 0.5-0.9 s of wall time and
+# them (numba's import, then their cached machine code) costs about 0.45 s of wall time and
 # about 120 MB. So a process loads them once it has drawn, or a run announces (``expect``,
 # ``loading_alongside``), COMPILED_FROM normal numbers, a rectangular one counting for a
 # third: where the CPU time saved, shared by two workers, pays for the loading's wall time
@@ -251,7 +251,8 @@ def expect(numbers: float) -> None:
 
 
 # How long a run waits for the compiled draws being loaded before it starts in numpy:
-# loading them from numba's cache takes 0.5-0.9 s here, and a run that starts meanwhile
+# loading them from numba's cache took 0.5-0.9 s here (about 0.45 s since numba's search
+# for a BLAS is refused to the loading thread), and a run that starts meanwhile
 # draws in numpy, at a third of the speed, and takes turns at the interpreter lock with
 # the loading (measured here, a mean of 3332 determinations with 10^5 trials in one
 # process: its Monte Carlo took 0.6-1.0 s longer than one that waited); compiling them
