@@ -192,23 +192,11 @@ def test_a_graph_is_built_once_where_its_three_forms_agree():
 
 def test_air_density_keeps_its_opaque_form_apart():
     """air_density() is a formula in SI and a call in the opaque form."""
-    text = """
-title = "air"
-[measurands.rho]
-equation = "air_density(T, p, h)"
-unit = "kg/m^3"
-[inputs.T]
-value = 293.15
-unit = "K"
-u = 0.1
-[inputs.p]
-value = 101325
-unit = "Pa"
-u = 10
-[inputs.h]
-value = 0.5
-u = 0.01
-"""
+    stated = {"T": (293.15, "K", 0.1), "p": (101325, "Pa", 10), "h": (0.5, "1", 0.01)}
+    text = 'title = "air"\n[measurands.rho]\nequation = "air_density(T, p, h)"\n' \
+        'unit = "kg/m^3"\n' + "".join(
+            f'[inputs.{name}]\nvalue = {value}\nunit = "{unit}"\nu = {u}\n'
+            for name, (value, unit, u) in stated.items())
     rho = parse_model(text).measurands[0]
     assert rho.opaque_graph.args[0].kind == "call"
     assert rho.graph.args[0] is not rho.opaque_graph.args[0]
