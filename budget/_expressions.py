@@ -147,8 +147,10 @@ def _known_shape(found: _Shape | None, text: str, where: Location
                  ) -> ast.Expression | None:
     """The tree of ``text`` when its shape (``found``) was checked before, else None: the
     first tree of that shape, with the renaming of its names to this text's."""
-    known = _SHAPES.get(found[0]) if found is not None else None
-    if found is None or known is None:
+    if found is None:
+        return None
+    known = _SHAPES.get(found[0])
+    if known is None:
         return None
     names = found[1]
     for name in names:

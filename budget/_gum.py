@@ -322,9 +322,7 @@ def _one(model: Model, k: int, estimate: float, c: np.ndarray, u: np.ndarray,
                      distribution=i.distribution.name, type=i.type, dof=i.dof,
                      sensitivity=sensitivity, contribution=part, share=percent)
         for i, sensitivity, part, percent in zip(
-            model.inputs, np.asarray(c, dtype=float).tolist(),
-            np.abs(np.asarray(parts, dtype=float)).tolist(),
-            np.asarray(share, dtype=float).tolist()))
+            model.inputs, c.tolist(), np.abs(parts).tolist(), share.tolist()))
     correlation_terms = CorrelationTerms(
         pairs.names, pairs.first, pairs.second, pairs.r, terms,
         100.0 * (terms / combined) / combined if combined > 0 else np.zeros_like(terms))
