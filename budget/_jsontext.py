@@ -6,8 +6,9 @@ finite written as ``null``), but the standard library writes an indented documen
 value at a time in Python, and a budget of 10⁵ inputs, or a correlated block of 1000
 inputs (499,500 correlation terms), has millions of values. Here a list of rows (dicts
 with the same keys whose values are numbers, strings or lists of them) is written as
-columns: the floats of a column formatted by one ``repr`` of the whole list, names
-encoded once, each row filled into one template. Any other value takes the general path,
+columns: the floats of a column formatted in one call (``orjson``, its texts mended to
+``repr``'s, or one ``repr`` of the whole list), names encoded once, each row filled into
+one template. Any other value takes the general path,
 which follows the standard library's rules; ``tests/test_jsontext.py`` compares the two
 texts on every shipped model and on hostile values.
 """
@@ -16,6 +17,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cache
 from itertools import chain
 from json.encoder import encode_basestring_ascii
 from typing import Any
@@ -213,11 +215,69 @@ def _column(values: list[Any], level: int) -> list[str] | None:
 
 
 def _floats(values: list[float]) -> list[str]:
+    """``float.__repr__`` of each value (``null`` where not finite): a long column by
+    ``orjson`` where it writes ``repr``'s texts (``_fast_agrees``), else one ``repr``."""
+    if len(values) >= _FAST_FROM and _fast_agrees():
+        return _fast_floats(values)
+    return _repr_floats(values)
+
+
+def _repr_floats(values: list[float]) -> list[str]:
     """``float.__repr__`` of each value (``null`` where not finite), in one call."""
     texts = repr(values)[1:-1].split(", ")
     if not all(map(math.isfinite, values)):
         texts = [t if math.isfinite(v) else "null" for t, v in zip(texts, values)]
     return texts
+
+
+# Python's ``repr`` of a float (the shortest text that reads back to it, David Gay's
+# algorithm) takes 0.6-1.4 µs here, and a correlated block of 1000 inputs writes 10⁶
+# distinct floats. ``orjson`` finds the same shortest digits (Ryu) about 30 times faster;
+# its texts differ from repr's in two ways only, mended below: one digit of negative
+# exponent (``1.5e-7``, repr ``1.5e-07``), and 10⁻⁵ ≤ |x| < 10⁻⁴ written out
+# (``0.00001``, repr ``1e-05``). Its way of writing has changed between releases (before
+# 3.11.7: ``1e22`` for ``1e+22``), so it is used only where a probe of every decade
+# gives repr's texts exactly.
+_FAST_FROM = 32  # a shorter column: one repr costs less than the mending
+
+
+def _fast_floats(values: list[float]) -> list[str]:
+    """The texts of ``values`` by ``orjson``, mended to repr's (``null`` where not
+    finite, as orjson writes them)."""
+    import orjson
+
+    text = orjson.dumps(values).decode("ascii")
+    texts = text[1:-1].split(",")
+    if "e-" in text:  # one digit of negative exponent (e-5 … e-9): repr writes two
+        texts = [t.replace("e-", "e-0") if t[-2] == "-" else t for t in texts]
+    if "0.0000" in text:  # 10⁻⁵ ≤ |x| < 10⁻⁴, written out: repr's own text
+        for i, t in enumerate(texts):
+            if t.startswith(("0.0000", "-0.0000")):
+                texts[i] = float.__repr__(values[i])
+    return texts
+
+
+@cache
+def _fast_agrees() -> bool:
+    """Whether ``orjson`` is installed and its mended texts are repr's on a probe of
+    every decade of doubles (each as 1, 1.5, the largest 17-digit mantissa and
+    negated), the ends of the range, zeros and the non-finite."""
+    try:
+        import orjson  # noqa: F401
+    except ImportError:
+        return False
+    probe = [0.0, -0.0, 5e-324, -5e-324, 2.2250738585072014e-308, 1.7976931348623157e308,
+             math.nan, math.inf, -math.inf, 0.1, 1 / 3, 2 / 3, 100.0, 123456.789]
+    for p in range(-323, 309):
+        for m in (1.0, 1.5, 9.999999999999998):
+            value = float(f"{m!r}e{p}")
+            probe += [value, -value, math.nextafter(value, 0.0),
+                      math.nextafter(value, math.inf)]
+    probe = [v for v in probe if not math.isinf(v) or v in (math.inf, -math.inf)]
+    try:
+        return _fast_floats(probe) == _repr_floats(probe)
+    except Exception:  # noqa: BLE001 - any failure: repr, which is always right
+        return False
 
 
 _SAMPLE = 256  # values looked at to guess whether a column repeats itself
