@@ -7,8 +7,8 @@ value at a time in Python, and a budget of 10⁵ inputs, or a correlated block o
 inputs (499,500 correlation terms), has millions of values. Here a list of rows (dicts
 with the same keys whose values are numbers, strings or lists of them) is written as
 columns: the floats of a column formatted in one call (``orjson``, its texts mended to
-``repr``'s, or one ``repr`` of the whole list), names encoded once, each row filled into
-one template. Any other value takes the general path,
+``repr``'s, or one ``repr`` of the whole list), names encoded once, and the texts of
+a chunk of rows joined at once. Any other value takes the general path,
 which follows the standard library's rules; ``tests/test_jsontext.py`` compares the two
 texts on every shipped model and on hostile values.
 """
@@ -146,8 +146,10 @@ def _rows(rows: list[Any] | tuple[Any, ...], level: int, out: list[str]) -> bool
 
 def _write_columns(keys: tuple[Any, ...], columns: list[Any], level: int,
                    out: list[str]) -> bool:
-    """Rows of scalars (or lists of them) from their columns, a chunk at a time."""
-    slots: list[str] = []
+    """Rows of scalars (or lists of them) from their columns, a chunk at a time: the
+    values' texts and the texts between them laid side by side in one list (a slice
+    assignment per column) and joined once, not each row formatted on its own."""
+    widths: list[int] = []
     flat: list[Any] = []
     for column in columns:
         if isinstance(column, Spread):
@@ -155,27 +157,43 @@ def _write_columns(keys: tuple[Any, ...], columns: list[Any], level: int,
             flat += column.positions
         else:
             width = _fixed_width(column)
-            if width:
+            if width:  # lists of one length (a pair of names): one column per position
                 flat += [[items[i] for items in column] for i in range(width)]
-        if width:  # lists of one length (a pair of names): one column per position
-            slots.append("[" + ",".join([_pad(level + 3) + "%s"] * width)
-                         + _pad(level + 2) + "]")
-        else:
-            flat.append(column)
-            slots.append("%s")
+            else:
+                flat.append(column)
+        widths.append(width)
     columns = flat
-    template = "{" + ",".join(_pad(level + 2) + _key(key).replace("%", "%%") + ": " + slot
-                              for key, slot in zip(keys, slots)) + _pad(level + 1) + "}"
-    inner = _pad(level + 1)
+    # the text before each value of a row, and after its last
+    literals: list[str] = []
+    text = "{"
+    for k, (key, width) in enumerate(zip(keys, widths)):
+        text += ("," if k else "") + _pad(level + 2) + _key(key) + ": "
+        if width:
+            text += "["
+            for i in range(width):
+                literals.append(text + ("," if i else "") + _pad(level + 3))
+                text = ""
+            text = _pad(level + 2) + "]"
+        else:
+            literals.append(text)
+            text = ""
+    end = text + _pad(level + 1) + "}"
+    between = end + "," + _pad(level + 1) + literals[0]  # one row's end, the next's start
+    stride = 2 * len(columns)
     written: list[str] = []
     for start in range(0, len(columns[0]), _CHUNK):
-        texts = []
-        for column in columns:
-            text = _column(column[start:start + _CHUNK], level + 2)
-            if text is None:
+        rows = min(_CHUNK, len(columns[0]) - start)
+        stop = stride * rows
+        pieces: list[str | None] = [None] * (stop + 1)
+        for j, column in enumerate(columns):
+            texts = _column(column[start:start + _CHUNK], level + 2)
+            if texts is None:
                 return False
-            texts.append(text)
-        written.append(("," + inner).join(map(template.__mod__, zip(*texts))))
+            pieces[2 * j + 1:stop:stride] = texts
+            pieces[2 * j:stop:stride] = [literals[j] if j else between] * rows
+        pieces[0], pieces[-1] = literals[0], end
+        written.append("".join(pieces))  # type: ignore[arg-type]
+    inner = _pad(level + 1)
     out.append("[" + inner)
     for k, part in enumerate(written):
         out.append("," + inner + part if k else part)
