@@ -77,6 +77,11 @@ def test_monte_carlo_of_a_3000_input_sum_matches_the_root_sum_of_squares():
     "(\n" + " + ".join(f"x{i}*y{i}" for i in range(450)) + "\n) * ü",
     "sqrt(" + " + ".join(f"x{i} ** 2" for i in range(450)) + ")",
     "ä1 * é + " + " + ".join(f"x{i} * é" for i in range(450)),  # byte columns ≠ characters
+    # terms of names joined by * and / are built without ast.parse: longer chains, a
+    # term over a line break, and terms that must go to ast.parse (a keyword, //, a number)
+    " + ".join(f"U_{i} * t_{i} / m_{i} / q * r_{i % 7}" for i in range(450)),
+    "(" + " + ".join(f"x{i} *\n  y{i} / z" for i in range(450)) + ")",
+    " + ".join(f"x{i} * {'True' if i % 3 else 'match'} / y // z * 2" for i in range(450)),
 ])
 def test_long_texts_parse_to_the_tree_python_builds(text):
     # Python's own parser still manages 450 terms: the split parse must equal it,
