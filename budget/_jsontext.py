@@ -177,8 +177,9 @@ def _write_columns(keys: tuple[Any, ...], columns: list[Any], level: int,
         else:
             literals.append(text)
             text = ""
-    end = text + _pad(level + 1) + "}"
-    between = end + "," + _pad(level + 1) + literals[0]  # one row's end, the next's start
+    inner = _pad(level + 1)
+    end = text + inner + "}"
+    between = end + "," + inner + literals[0]  # one row's end, the next's start
     stride = 2 * len(columns)
     written: list[str] = []
     for start in range(0, len(columns[0]), _CHUNK):
@@ -193,7 +194,6 @@ def _write_columns(keys: tuple[Any, ...], columns: list[Any], level: int,
             pieces[2 * j:stop:stride] = [literals[j] if j else between] * rows
         pieces[0], pieces[-1] = literals[0], end
         written.append("".join(pieces))  # type: ignore[arg-type]
-    inner = _pad(level + 1)
     out.append("[" + inner)
     for k, part in enumerate(written):
         out.append("," + inner + part if k else part)

@@ -112,8 +112,11 @@ def _doubles(seed: int) -> list[float]:
 @pytest.mark.parametrize("seed", [1, 2])
 def test_long_float_columns_by_orjson_are_repr_s_texts(seed: int) -> None:
     """A long column of floats is formatted by orjson (a dependency, at a version whose
-    texts the probe accepts) and mended to ``float.__repr__``'s texts exactly: compared
-    here with repr itself on about 80,000 doubles of every kind."""
+    texts the probe accepts) and mended to ``float.__repr__``'s texts exactly.
+
+    Source: Python's own ``float.__repr__`` (the shortest round-trip text, the standard
+    library) and ``json.dumps``, the references of this module, on about 80,000
+    doubles of every kind; no number here is typed in."""
     jsontext._fast_agrees.cache_clear()
     assert jsontext._fast_agrees()
     values = _doubles(seed)
@@ -126,8 +129,10 @@ def test_long_float_columns_by_orjson_are_repr_s_texts(seed: int) -> None:
 
 def test_a_formatter_that_writes_otherwise_is_not_used(
         monkeypatch: pytest.MonkeyPatch) -> None:
-    """orjson before 3.11.7 wrote ``1e22`` for repr's ``1e+22``: such a formatter fails
-    the probe, and every column is then written by repr, with the same text."""
+    """orjson before 3.11.7 wrote ``1e22`` for repr's ``1e+22`` (seen here with 3.9.15
+    and 3.11.6 installed; a fact of that library, not a published value): such a
+    formatter fails the probe, and every column is then written by repr, with the same
+    text as ``json.dumps`` (the reference)."""
     import sys
     import types
 

@@ -78,7 +78,8 @@ def test_monte_carlo_of_a_3000_input_sum_matches_the_root_sum_of_squares():
     "sqrt(" + " + ".join(f"x{i} ** 2" for i in range(450)) + ")",
     "ä1 * é + " + " + ".join(f"x{i} * é" for i in range(450)),  # byte columns ≠ characters
     # terms of names joined by * and / are built without ast.parse: longer chains, a
-    # term over a line break, and terms that must go to ast.parse (a keyword, //, a number)
+    # term over a line break, and terms that must go to ast.parse (a keyword, //, a number);
+    # source: Python's own parser (ast.parse, the standard library), as for the texts above
     " + ".join(f"U_{i} * t_{i} / m_{i} / q * r_{i % 7}" for i in range(450)),
     "(" + " + ".join(f"x{i} *\n  y{i} / z" for i in range(450)) + ")",
     " + ".join(f"x{i} * {'True' if i % 3 else 'match'} / y // z * 2" for i in range(450)),
